@@ -1,0 +1,1 @@
+"""HTTP API (FastAPI) under /api/v1."""

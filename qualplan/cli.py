@@ -1,0 +1,177 @@
+"""The qualplan command line (typer). Thin: parse, call planning or store, print.
+
+Every command takes ``--db URL`` (default: ``QUALPLAN_DATABASE_URL`` or the SQLite
+file in the per-user data folder). Known failures print one line on stderr and
+exit non-zero, without a traceback.
+"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+from typing import Annotated
+
+import typer
+from sqlalchemy.engine import make_url
+
+from qualplan import __version__
+from qualplan.config import Settings
+from qualplan.store import migrate
+from qualplan.store.session import DatabaseUrlError, make_engine, masked, normalise_url
+
+app = typer.Typer(
+    name="qualplan",
+    help="Qualification planning for dynamic environments (PSD, sine, SRS, FDS, ERS).",
+    no_args_is_help=True,
+    add_completion=False,
+    pretty_exceptions_enable=False,
+)
+db_app = typer.Typer(help="Schema migrations of the database.", no_args_is_help=True)
+app.add_typer(db_app, name="db")
+
+DbOption = Annotated[
+    str | None,
+    typer.Option(
+        "--db",
+        help="Database URL (sqlite:///file.db or postgresql://user@host/db); "
+        "default QUALPLAN_DATABASE_URL or the per-user SQLite file.",
+        show_default=False,
+    ),
+]
+
+
+class CliError(Exception):
+    """A failure to report in one line (exit code 2)."""
+
+
+def settings_for(db: str | None) -> Settings:
+    settings = Settings()
+    if db:
+        settings = settings.model_copy(update={"database_url": db})
+    return settings
+
+
+def database_url(db: str | None) -> str:
+    url = normalise_url(settings_for(db).database_url)
+    parsed = make_url(url)
+    if parsed.drivername.startswith("sqlite") and parsed.database not in (None, "", ":memory:"):
+        folder = Path(parsed.database).expanduser().parent
+        try:
+            folder.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise CliError(f"cannot create the folder of database {masked(url)}: {exc}") from exc
+    return url
+
+
+def checked_engine(db: str | None):
+    """An engine on a database whose schema matches the code (else a one-line error)."""
+    engine = make_engine(database_url(db))
+    migrate.check_schema(engine)
+    return engine
+
+
+@app.command()
+def version() -> None:
+    """Print the qualplan version."""
+    typer.echo(__version__)
+
+
+@app.command()
+def init(db: DbOption = None) -> None:
+    """Create the database (if needed) and migrate it to the current schema."""
+    url = database_url(db)
+    migrate.upgrade(url)
+    engine = make_engine(url)
+    typer.echo(f"database {masked(url)} is at schema revision {migrate.check_schema(engine)}")
+    engine.dispose()
+
+
+@db_app.command("upgrade")
+def db_upgrade(
+    revision: Annotated[str, typer.Argument(help="Target revision.")] = "head",
+    db: DbOption = None,
+) -> None:
+    """Migrate the schema forward (default: to the newest revision)."""
+    url = database_url(db)
+    migrate.upgrade(url, revision)
+    engine = make_engine(url)
+    typer.echo(f"database {masked(url)} is at schema revision {migrate.current_revision(engine)}")
+
+
+@db_app.command("downgrade")
+def db_downgrade(
+    revision: Annotated[str, typer.Argument(help="Target revision (e.g. 0001, or base).")],
+    db: DbOption = None,
+) -> None:
+    """Migrate the schema back to REVISION (tables added after it are dropped)."""
+    url = database_url(db)
+    migrate.downgrade(url, revision)
+    engine = make_engine(url)
+    current = migrate.current_revision(engine) or "base (empty)"
+    typer.echo(f"database {masked(url)} is at schema revision {current}")
+
+
+@db_app.command("current")
+def db_current(db: DbOption = None) -> None:
+    """Print the schema revision of the database and the code's head revision."""
+    url = database_url(db)
+    engine = make_engine(url)
+    current = migrate.current_revision(engine)
+    head = migrate.head_revision()
+    state = "up to date" if current == head else "needs `qualplan db upgrade`"
+    if current is not None and current not in migrate.known_revisions():
+        state = "newer than this qualplan"
+    typer.echo(f"{current or 'none'} (head {head}: {state})")
+
+
+@app.command()
+def serve(
+    host: Annotated[str, typer.Option(help="Interface to listen on.")] = "127.0.0.1",
+    port: Annotated[int, typer.Option(help="TCP port.")] = 8000,
+    db: DbOption = None,
+) -> None:
+    """Serve the HTTP API (and web pages) with uvicorn."""
+    import os
+
+    import uvicorn
+
+    url = database_url(db)
+    checked_engine(db).dispose()
+    # The app factory reads its Settings from the environment; the CLI and the API stay
+    # independent interfaces (no import between them).
+    os.environ["QUALPLAN_DATABASE_URL"] = url
+    uvicorn.run("qualplan.api.app:create_app", factory=True, host=host, port=port,
+                log_level="info")
+
+
+KNOWN_ERRORS = (
+    CliError,
+    DatabaseUrlError,
+    migrate.DatabaseUnavailable,
+    migrate.SchemaMismatch,
+)
+
+
+def main(argv: list[str] | None = None) -> None:
+    """Console entry point: run the typer app, turn known errors into one line."""
+    try:
+        app(args=argv, standalone_mode=False)
+    except KNOWN_ERRORS as exc:
+        typer.echo(f"error: {exc}", err=True)
+        sys.exit(2)
+    except typer.Exit as exc:
+        sys.exit(exc.exit_code)
+    except typer.Abort:
+        typer.echo("aborted", err=True)
+        sys.exit(1)
+    except Exception as exc:  # click usage errors
+        import click
+
+        if isinstance(exc, click.ClickException):
+            exc.show()
+            sys.exit(exc.exit_code)
+        raise
+
+
+if __name__ == "__main__":
+    main()

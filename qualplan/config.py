@@ -1,0 +1,36 @@
+"""Settings of the service and the CLI (pydantic-settings).
+
+Every setting can be given as an environment variable with the prefix
+``QUALPLAN_`` (``QUALPLAN_DATABASE_URL`` ...). The CLI's ``--db`` option wins over
+the environment.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from platformdirs import user_data_dir
+from pydantic import Field
+from pydantic_settings import BaseSettings, SettingsConfigDict
+
+
+def default_data_dir() -> Path:
+    """Per-user data folder (``~/.local/share/qualplan`` on Linux, see platformdirs)."""
+    return Path(user_data_dir("qualplan", appauthor=False))
+
+
+def default_database_url() -> str:
+    """SQLite file ``qualplan.db`` in the per-user data folder."""
+    return f"sqlite:///{default_data_dir() / 'qualplan.db'}"
+
+
+class Settings(BaseSettings):
+    """Runtime settings. Built once by each interface, passed down as arguments."""
+
+    model_config = SettingsConfigDict(env_prefix="QUALPLAN_", extra="ignore")
+
+    database_url: str = Field(default_factory=default_database_url)
+    #: Largest accepted upload (environment files, test records) [bytes].
+    max_upload_bytes: int = 50 * 1024 * 1024
+    #: Treat the service as served over TLS (sets the Secure flag on cookies).
+    behind_tls: bool = False

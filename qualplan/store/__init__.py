@@ -1,0 +1,1 @@
+"""Persistence: models, sessions, repositories, migrations (the only layer writing SQL)."""

@@ -1,0 +1,108 @@
+"""Schema migrations (alembic) driven from code, and the schema-version check.
+
+Both the service and the CLI call :func:`check_schema` before touching data and
+refuse a database that is behind or ahead of the code.
+"""
+
+from __future__ import annotations
+
+from alembic import command
+from alembic.config import Config
+from alembic.runtime.migration import MigrationContext
+from alembic.script import ScriptDirectory
+from sqlalchemy import Engine
+from sqlalchemy.exc import SQLAlchemyError
+
+from qualplan.resources import data_dir
+from qualplan.store.session import make_engine, masked
+
+
+class SchemaMismatch(RuntimeError):
+    """The database schema is not the one this version of qualplan expects."""
+
+
+class DatabaseUnavailable(RuntimeError):
+    """The database cannot be reached or opened."""
+
+
+def alembic_config(url: str) -> Config:
+    cfg = Config()
+    cfg.set_main_option("script_location", str(data_dir("migrations")))
+    cfg.attributes["database_url"] = url
+    return cfg
+
+
+def head_revision() -> str:
+    script = ScriptDirectory.from_config(alembic_config("sqlite://"))
+    head = script.get_current_head()
+    assert head is not None, "migrations folder holds no revision"
+    return head
+
+
+def known_revisions() -> set[str]:
+    script = ScriptDirectory.from_config(alembic_config("sqlite://"))
+    return {rev.revision for rev in script.walk_revisions()}
+
+
+def current_revision(engine: Engine) -> str | None:
+    try:
+        with engine.connect() as conn:
+            return MigrationContext.configure(conn).get_current_revision()
+    except SQLAlchemyError as exc:
+        raise DatabaseUnavailable(
+            f"cannot open database {masked(str(engine.url.render_as_string(False)))}: "
+            f"{_first_line(exc)}"
+        ) from exc
+
+
+def upgrade(url: str, revision: str = "head") -> None:
+    _run(url, command.upgrade, revision)
+
+
+def downgrade(url: str, revision: str) -> None:
+    _run(url, command.downgrade, revision)
+
+
+def _run(url: str, fn, revision: str) -> None:
+    engine = make_engine(url)
+    try:
+        with engine.begin() as conn:
+            cfg = alembic_config(url)
+            cfg.attributes["connection"] = conn
+            fn(cfg, revision)
+    except SQLAlchemyError as exc:
+        raise DatabaseUnavailable(
+            f"cannot migrate database {masked(url)}: {_first_line(exc)}"
+        ) from exc
+    finally:
+        engine.dispose()
+
+
+def check_schema(engine: Engine) -> str:
+    """Return the current revision if it is the code's head; raise SchemaMismatch otherwise."""
+    current = current_revision(engine)
+    head = head_revision()
+    url = masked(engine.url.render_as_string(hide_password=False))
+    if current == head:
+        return current
+    if current is None:
+        raise SchemaMismatch(
+            f"database {url} has no qualplan schema; run `qualplan init --db URL` "
+            "or `qualplan db upgrade --db URL`"
+        )
+    if current not in known_revisions():
+        raise SchemaMismatch(
+            f"database {url} is at schema revision {current}, newer than this qualplan "
+            f"(head {head}); upgrade qualplan, or run `qualplan db downgrade {head}` with the "
+            "newer version"
+        )
+    raise SchemaMismatch(
+        f"database {url} is at schema revision {current}, behind this qualplan (head {head}); "
+        "run `qualplan db upgrade --db URL`"
+    )
+
+
+def _first_line(exc: Exception) -> str:
+    orig = getattr(exc, "orig", None) or exc
+    text = str(orig).strip().splitlines()
+    return text[0] if text else type(orig).__name__

@@ -1,0 +1,422 @@
+"""SQLAlchemy 2 models for every noun of the design.
+
+Immutable rows (EnvironmentRevision, Level, Evidence, Event) are guarded twice:
+the ORM refuses to flush an update or a delete of them
+(:mod:`qualplan.store.guards`), and the migrations add database triggers that
+refuse the same through raw SQL.
+
+Editable rows carry a ``version`` column used for optimistic concurrency: an
+update whose version no longer matches the row raises ``StaleDataError``.
+"""
+
+from __future__ import annotations
+
+import enum
+from datetime import datetime
+from typing import Any
+
+import numpy as np
+from sqlalchemy import (
+    JSON,
+    CheckConstraint,
+    Enum,
+    Float,
+    ForeignKey,
+    Integer,
+    String,
+    Text,
+    UniqueConstraint,
+)
+from sqlalchemy.orm import Mapped, mapped_column, relationship
+
+from qualplan.store.base import Base
+from qualplan.store.types import ArrayBlob, UtcDateTime, utcnow
+
+
+class Role(enum.StrEnum):
+    viewer = "viewer"
+    engineer = "engineer"
+    approver = "approver"
+    admin = "admin"
+
+
+class EnvironmentKind(enum.StrEnum):
+    random = "random"
+    sine = "sine"
+    shock = "shock"
+    time_history = "time_history"
+
+
+class Axis(enum.StrEnum):
+    X = "X"
+    Y = "Y"
+    Z = "Z"
+    all = "all"
+
+
+class Grade(enum.StrEnum):
+    qualification = "qualification"
+    acceptance = "acceptance"
+    protoflight = "protoflight"
+
+
+class LevelPurpose(enum.StrEnum):
+    test = "test"
+    analysis = "analysis"
+
+
+class VerificationMethod(enum.StrEnum):
+    test = "test"
+    analysis = "analysis"
+    similarity = "similarity"
+    inspection = "inspection"
+
+
+class EvidenceKind(enum.StrEnum):
+    analysis = "analysis"
+    test = "test"
+    similarity = "similarity"
+    inspection = "inspection"
+
+
+class Verdict(enum.StrEnum):
+    passed = "pass"
+    failed = "fail"
+
+
+def _enum(cls: type[enum.Enum], name: str) -> Enum:
+    """A portable enum column: VARCHAR plus a CHECK constraint on every backend."""
+    return Enum(
+        cls,
+        name=name,
+        native_enum=False,
+        create_constraint=True,
+        validate_strings=True,
+        values_callable=lambda e: [m.value for m in e],
+        length=20,
+    )
+
+
+class User(Base):
+    __tablename__ = "users"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    name: Mapped[str] = mapped_column(String(120), unique=True)
+    role: Mapped[Role] = mapped_column(_enum(Role, "role"))
+    active: Mapped[bool] = mapped_column(default=True)
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+    tokens: Mapped[list[ApiToken]] = relationship(back_populates="user")
+
+
+class ApiToken(Base):
+    """A bearer token; only its SHA-256 hash is stored, never the token."""
+
+    __tablename__ = "api_tokens"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    user_id: Mapped[int] = mapped_column(ForeignKey("users.id", ondelete="CASCADE"), index=True)
+    token_hash: Mapped[str] = mapped_column(String(64), unique=True)
+    #: First characters of the token, shown in listings so a user can tell tokens apart.
+    prefix: Mapped[str] = mapped_column(String(12))
+    label: Mapped[str] = mapped_column(String(120), default="")
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    revoked_at: Mapped[datetime | None] = mapped_column(UtcDateTime())
+
+    user: Mapped[User] = relationship(back_populates="tokens")
+
+
+class Program(Base):
+    __tablename__ = "programs"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    name: Mapped[str] = mapped_column(String(200), unique=True)
+    description: Mapped[str] = mapped_column(Text, default="")
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    version: Mapped[int] = mapped_column(Integer, default=1)
+
+    products: Mapped[list[Product]] = relationship(back_populates="program")
+    phases: Mapped[list[Phase]] = relationship(back_populates="program", order_by="Phase.position")
+
+    __mapper_args__ = {"version_id_col": version}
+
+
+class Product(Base):
+    """A system, subsystem or unit; a tree through ``parent_id``."""
+
+    __tablename__ = "products"
+    __table_args__ = (
+        UniqueConstraint("program_id", "name"),
+        CheckConstraint("mass_kg IS NULL OR mass_kg > 0", name="mass_positive"),
+    )
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    program_id: Mapped[int] = mapped_column(ForeignKey("programs.id"), index=True)
+    parent_id: Mapped[int | None] = mapped_column(ForeignKey("products.id"), index=True)
+    name: Mapped[str] = mapped_column(String(200))
+    part_number: Mapped[str] = mapped_column(String(120), default="")
+    mass_kg: Mapped[float | None] = mapped_column(Float)
+    description: Mapped[str] = mapped_column(Text, default="")
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    version: Mapped[int] = mapped_column(Integer, default=1)
+
+    program: Mapped[Program] = relationship(back_populates="products")
+    parent: Mapped[Product | None] = relationship(remote_side=[id], back_populates="children")
+    children: Mapped[list[Product]] = relationship(back_populates="parent")
+
+    __mapper_args__ = {"version_id_col": version}
+
+
+class Phase(Base):
+    """A life-cycle phase: duration of one occurrence and how many occurrences."""
+
+    __tablename__ = "phases"
+    __table_args__ = (
+        UniqueConstraint("program_id", "name"),
+        CheckConstraint("duration_s > 0", name="duration_positive"),
+        CheckConstraint("occurrences >= 1", name="occurrences_positive"),
+    )
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    program_id: Mapped[int] = mapped_column(ForeignKey("programs.id"), index=True)
+    name: Mapped[str] = mapped_column(String(200))
+    duration_s: Mapped[float] = mapped_column(Float)
+    occurrences: Mapped[int] = mapped_column(Integer, default=1)
+    position: Mapped[int] = mapped_column(Integer, default=0)
+    description: Mapped[str] = mapped_column(Text, default="")
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    version: Mapped[int] = mapped_column(Integer, default=1)
+
+    program: Mapped[Program] = relationship(back_populates="phases")
+
+    __mapper_args__ = {"version_id_col": version}
+
+
+class Environment(Base):
+    """One environment of a product: kind, axis, phase, source. Data live in revisions."""
+
+    __tablename__ = "environments"
+    __table_args__ = (UniqueConstraint("product_id", "name"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    product_id: Mapped[int] = mapped_column(ForeignKey("products.id"), index=True)
+    phase_id: Mapped[int | None] = mapped_column(ForeignKey("phases.id"), index=True)
+    name: Mapped[str] = mapped_column(String(200))
+    kind: Mapped[EnvironmentKind] = mapped_column(_enum(EnvironmentKind, "environment_kind"))
+    axis: Mapped[Axis] = mapped_column(_enum(Axis, "axis"))
+    #: Units of the stored data, e.g. "g^2/Hz", "g", "g peak".
+    units: Mapped[str] = mapped_column(String(40))
+    source: Mapped[str] = mapped_column(Text, default="")
+    provenance: Mapped[str] = mapped_column(Text, default="")
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    version: Mapped[int] = mapped_column(Integer, default=1)
+
+    product: Mapped[Product] = relationship()
+    phase: Mapped[Phase | None] = relationship()
+    revisions: Mapped[list[EnvironmentRevision]] = relationship(
+        back_populates="environment", order_by="EnvironmentRevision.number"
+    )
+
+    __mapper_args__ = {"version_id_col": version}
+
+
+class EnvironmentRevision(Base):
+    """Immutable content of an environment: a spec (JSON) and optional array data.
+
+    ``spec`` holds small tables (breakpoints, sine bands) and parameters
+    (durations, sample interval); ``data`` holds long arrays (time histories,
+    measured spectra) as a compressed .npy blob. ``content_hash`` is the SHA-256
+    of both in canonical form (:func:`qualplan.store.hashing.revision_hash`).
+    """
+
+    __tablename__ = "environment_revisions"
+    __table_args__ = (UniqueConstraint("environment_id", "number"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    environment_id: Mapped[int] = mapped_column(ForeignKey("environments.id"), index=True)
+    number: Mapped[int] = mapped_column(Integer)
+    spec: Mapped[dict[str, Any]] = mapped_column(JSON)
+    data: Mapped[np.ndarray | None] = mapped_column(ArrayBlob())
+    content_hash: Mapped[str] = mapped_column(String(64), index=True)
+    author: Mapped[str] = mapped_column(String(120))
+    note: Mapped[str] = mapped_column(Text, default="")
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+    environment: Mapped[Environment] = relationship(back_populates="revisions")
+
+
+class MarginPolicy(Base):
+    """A named, editable rule set per grade and kind (see planning.policies)."""
+
+    __tablename__ = "margin_policies"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    name: Mapped[str] = mapped_column(String(200), unique=True)
+    description: Mapped[str] = mapped_column(Text, default="")
+    #: The published standard the defaults come from, when any.
+    basis: Mapped[str] = mapped_column(Text, default="")
+    rules: Mapped[dict[str, Any]] = mapped_column(JSON)
+    copied_from_id: Mapped[int | None] = mapped_column(ForeignKey("margin_policies.id"))
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    updated_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    version: Mapped[int] = mapped_column(Integer, default=1)
+
+    __mapper_args__ = {"version_id_col": version}
+
+
+class Level(Base):
+    """A derived test or analysis level: recipe, result and the hash of every input.
+
+    Immutable: deriving again makes a new row with the next ``number``.
+    """
+
+    __tablename__ = "levels"
+    __table_args__ = (UniqueConstraint("product_id", "name", "number"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    product_id: Mapped[int] = mapped_column(ForeignKey("products.id"), index=True)
+    policy_id: Mapped[int | None] = mapped_column(ForeignKey("margin_policies.id"))
+    name: Mapped[str] = mapped_column(String(200))
+    number: Mapped[int] = mapped_column(Integer, default=1)
+    purpose: Mapped[LevelPurpose] = mapped_column(_enum(LevelPurpose, "level_purpose"))
+    grade: Mapped[Grade | None] = mapped_column(_enum(Grade, "grade"))
+    kind: Mapped[EnvironmentKind] = mapped_column(_enum(EnvironmentKind, "level_kind"))
+    axis: Mapped[Axis] = mapped_column(_enum(Axis, "level_axis"))
+    recipe: Mapped[dict[str, Any]] = mapped_column(JSON)
+    result: Mapped[dict[str, Any]] = mapped_column(JSON)
+    #: {revision id: content hash} of every environment revision used, plus the policy.
+    input_hashes: Mapped[dict[str, Any]] = mapped_column(JSON)
+    level_hash: Mapped[str] = mapped_column(String(64), index=True)
+    author: Mapped[str] = mapped_column(String(120))
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+    product: Mapped[Product] = relationship()
+    policy: Mapped[MarginPolicy | None] = relationship()
+
+
+class Requirement(Base):
+    __tablename__ = "requirements"
+    __table_args__ = (UniqueConstraint("program_id", "key"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    program_id: Mapped[int] = mapped_column(ForeignKey("programs.id"), index=True)
+    product_id: Mapped[int] = mapped_column(ForeignKey("products.id"), index=True)
+    level_id: Mapped[int | None] = mapped_column(ForeignKey("levels.id"), index=True)
+    key: Mapped[str] = mapped_column(String(80))
+    text: Mapped[str] = mapped_column(Text)
+    method: Mapped[VerificationMethod] = mapped_column(
+        _enum(VerificationMethod, "verification_method")
+    )
+    acceptance_criterion: Mapped[str] = mapped_column(Text, default="")
+    #: Margin the evidence must show, in the unit of the criterion (e.g. MS >= 0, or dB).
+    required_margin: Mapped[float] = mapped_column(Float, default=0.0)
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    updated_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    version: Mapped[int] = mapped_column(Integer, default=1)
+
+    program: Mapped[Program] = relationship()
+    product: Mapped[Product] = relationship()
+    level: Mapped[Level | None] = relationship()
+    evidence: Mapped[list[Evidence]] = relationship(
+        back_populates="requirement",
+        order_by="Evidence.id",
+        foreign_keys="Evidence.requirement_id",
+    )
+    waivers: Mapped[list[Waiver]] = relationship(back_populates="requirement", order_by="Waiver.id")
+
+    __mapper_args__ = {"version_id_col": version}
+
+
+class Evidence(Base):
+    """An analysis result, a test record or a similarity claim, made against a level hash.
+
+    Immutable: new evidence is added, old evidence is never edited.
+    """
+
+    __tablename__ = "evidence"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    requirement_id: Mapped[int] = mapped_column(ForeignKey("requirements.id"), index=True)
+    kind: Mapped[EvidenceKind] = mapped_column(_enum(EvidenceKind, "evidence_kind"))
+    level_id: Mapped[int | None] = mapped_column(ForeignKey("levels.id"))
+    #: The level hash the evidence was made against; a different current hash = stale.
+    level_hash: Mapped[str | None] = mapped_column(String(64))
+    verdict: Mapped[Verdict] = mapped_column(_enum(Verdict, "verdict"))
+    #: Achieved margin in the unit of the requirement's criterion.
+    achieved_margin: Mapped[float | None] = mapped_column(Float)
+    summary: Mapped[dict[str, Any]] = mapped_column(JSON)
+    data: Mapped[np.ndarray | None] = mapped_column(ArrayBlob())
+    similar_requirement_id: Mapped[int | None] = mapped_column(ForeignKey("requirements.id"))
+    rationale: Mapped[str] = mapped_column(Text, default="")
+    author: Mapped[str] = mapped_column(String(120))
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+    requirement: Mapped[Requirement] = relationship(
+        back_populates="evidence", foreign_keys=[requirement_id]
+    )
+    level: Mapped[Level | None] = relationship()
+
+
+class Waiver(Base):
+    """An approver's waiver of a requirement, with rationale and expiry."""
+
+    __tablename__ = "waivers"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    requirement_id: Mapped[int] = mapped_column(ForeignKey("requirements.id"), index=True)
+    approver: Mapped[str] = mapped_column(String(120))
+    rationale: Mapped[str] = mapped_column(Text)
+    expires_at: Mapped[datetime] = mapped_column(UtcDateTime())
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    revoked_at: Mapped[datetime | None] = mapped_column(UtcDateTime())
+
+    requirement: Mapped[Requirement] = relationship(back_populates="waivers")
+
+
+class Event(Base):
+    """Who did what, when. Append-only."""
+
+    __tablename__ = "events"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow, index=True)
+    actor: Mapped[str] = mapped_column(String(120))
+    action: Mapped[str] = mapped_column(String(60))
+    entity: Mapped[str] = mapped_column(String(60))
+    entity_id: Mapped[int | None] = mapped_column(Integer)
+    detail: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict)
+
+
+#: Tables whose rows are never updated or deleted once written.
+IMMUTABLE_MODELS: tuple[type[Base], ...] = (EnvironmentRevision, Level, Evidence, Event)
+
+
+class DocumentKind(enum.StrEnum):
+    specification = "specification"
+    audit = "audit"
+
+
+class Document(Base):
+    """An issued document (test-level specification or audit report) and its hashes.
+
+    Immutable once issued: a re-issue is a new row with the next revision.
+    """
+
+    __tablename__ = "documents"
+    __table_args__ = (UniqueConstraint("number", "revision"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    product_id: Mapped[int] = mapped_column(ForeignKey("products.id"), index=True)
+    kind: Mapped[DocumentKind] = mapped_column(_enum(DocumentKind, "document_kind"))
+    number: Mapped[str] = mapped_column(String(80))
+    revision: Mapped[int] = mapped_column(Integer, default=1)
+    title: Mapped[str] = mapped_column(Text, default="")
+    #: SHA-256 of the document's content (the data it shows, not the PDF bytes).
+    content_hash: Mapped[str] = mapped_column(String(64))
+    input_hashes: Mapped[dict[str, Any]] = mapped_column(JSON)
+    note: Mapped[str] = mapped_column(Text, default="")
+    author: Mapped[str] = mapped_column(String(120))
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+
+IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, Document)

@@ -1,0 +1,234 @@
+"""Repositories: typed queries, add and flush. They never commit (the unit of work does).
+
+Append-only aggregates (environment revisions, levels, evidence, events) have
+repositories without any update or delete method; the ORM guard
+(:mod:`qualplan.store.guards`) and the database triggers refuse the rest.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from typing import Generic, TypeVar
+
+from sqlalchemy import func, select
+from sqlalchemy.orm import Session
+
+from qualplan.store import models as m
+
+M = TypeVar("M", bound=m.Base)
+
+
+class Repository(Generic[M]):
+    model: type[M]
+
+    def __init__(self, session: Session) -> None:
+        self.session = session
+
+    def get(self, id_: int) -> M | None:
+        return self.session.get(self.model, id_)
+
+    def add(self, obj: M) -> M:
+        self.session.add(obj)
+        self.session.flush()
+        return obj
+
+    def list(self, *, offset: int = 0, limit: int | None = None, **filters) -> Sequence[M]:
+        stmt = select(self.model).filter_by(**filters).order_by(self.model.id)
+        if offset:
+            stmt = stmt.offset(offset)
+        if limit is not None:
+            stmt = stmt.limit(limit)
+        return self.session.scalars(stmt).all()
+
+    def count(self, **filters) -> int:
+        stmt = select(func.count()).select_from(self.model).filter_by(**filters)
+        return int(self.session.scalar(stmt) or 0)
+
+
+class UserRepository(Repository[m.User]):
+    model = m.User
+
+    def by_name(self, name: str) -> m.User | None:
+        return self.session.scalar(select(m.User).where(m.User.name == name))
+
+
+class TokenRepository(Repository[m.ApiToken]):
+    model = m.ApiToken
+
+    def by_hash(self, token_hash: str) -> m.ApiToken | None:
+        return self.session.scalar(select(m.ApiToken).where(m.ApiToken.token_hash == token_hash))
+
+
+class ProgramRepository(Repository[m.Program]):
+    model = m.Program
+
+    def by_name(self, name: str) -> m.Program | None:
+        return self.session.scalar(select(m.Program).where(m.Program.name == name))
+
+
+class ProductRepository(Repository[m.Product]):
+    model = m.Product
+
+    def by_name(self, program_id: int, name: str) -> m.Product | None:
+        return self.session.scalar(
+            select(m.Product).where(m.Product.program_id == program_id, m.Product.name == name)
+        )
+
+    def subtree_ids(self, product_id: int) -> list[int]:
+        """Ids of a product and all its descendants (breadth first)."""
+        ids, frontier = [product_id], [product_id]
+        while frontier:
+            frontier = list(
+                self.session.scalars(select(m.Product.id).where(m.Product.parent_id.in_(frontier)))
+            )
+            ids.extend(frontier)
+        return ids
+
+
+class PhaseRepository(Repository[m.Phase]):
+    model = m.Phase
+
+
+class EnvironmentRepository(Repository[m.Environment]):
+    model = m.Environment
+
+
+class RevisionRepository:
+    """Append-only: add a revision, read revisions. No update, no delete."""
+
+    def __init__(self, session: Session) -> None:
+        self.session = session
+
+    def add(self, revision: m.EnvironmentRevision) -> m.EnvironmentRevision:
+        self.session.add(revision)
+        self.session.flush()
+        return revision
+
+    def get(self, id_: int) -> m.EnvironmentRevision | None:
+        return self.session.get(m.EnvironmentRevision, id_)
+
+    def latest(self, environment_id: int) -> m.EnvironmentRevision | None:
+        return self.session.scalar(
+            select(m.EnvironmentRevision)
+            .where(m.EnvironmentRevision.environment_id == environment_id)
+            .order_by(m.EnvironmentRevision.number.desc())
+            .limit(1)
+        )
+
+    def history(self, environment_id: int) -> Sequence[m.EnvironmentRevision]:
+        return self.session.scalars(
+            select(m.EnvironmentRevision)
+            .where(m.EnvironmentRevision.environment_id == environment_id)
+            .order_by(m.EnvironmentRevision.number)
+        ).all()
+
+    def next_number(self, environment_id: int) -> int:
+        latest = self.session.scalar(
+            select(func.max(m.EnvironmentRevision.number)).where(
+                m.EnvironmentRevision.environment_id == environment_id
+            )
+        )
+        return int(latest or 0) + 1
+
+
+class PolicyRepository(Repository[m.MarginPolicy]):
+    model = m.MarginPolicy
+
+    def by_name(self, name: str) -> m.MarginPolicy | None:
+        return self.session.scalar(select(m.MarginPolicy).where(m.MarginPolicy.name == name))
+
+
+class LevelRepository:
+    """Append-only: deriving again adds a level with the next number."""
+
+    def __init__(self, session: Session) -> None:
+        self.session = session
+
+    def add(self, level: m.Level) -> m.Level:
+        self.session.add(level)
+        self.session.flush()
+        return level
+
+    def get(self, id_: int) -> m.Level | None:
+        return self.session.get(m.Level, id_)
+
+    def list(self, **filters) -> Sequence[m.Level]:
+        return self.session.scalars(select(m.Level).filter_by(**filters).order_by(m.Level.id)).all()
+
+    def next_number(self, product_id: int, name: str) -> int:
+        latest = self.session.scalar(
+            select(func.max(m.Level.number)).where(
+                m.Level.product_id == product_id, m.Level.name == name
+            )
+        )
+        return int(latest or 0) + 1
+
+
+class RequirementRepository(Repository[m.Requirement]):
+    model = m.Requirement
+
+    def by_key(self, program_id: int, key: str) -> m.Requirement | None:
+        return self.session.scalar(
+            select(m.Requirement).where(
+                m.Requirement.program_id == program_id, m.Requirement.key == key
+            )
+        )
+
+
+class EvidenceRepository:
+    """Append-only."""
+
+    def __init__(self, session: Session) -> None:
+        self.session = session
+
+    def add(self, evidence: m.Evidence) -> m.Evidence:
+        self.session.add(evidence)
+        self.session.flush()
+        return evidence
+
+    def get(self, id_: int) -> m.Evidence | None:
+        return self.session.get(m.Evidence, id_)
+
+    def for_requirement(self, requirement_id: int) -> Sequence[m.Evidence]:
+        return self.session.scalars(
+            select(m.Evidence)
+            .where(m.Evidence.requirement_id == requirement_id)
+            .order_by(m.Evidence.id)
+        ).all()
+
+
+class WaiverRepository(Repository[m.Waiver]):
+    model = m.Waiver
+
+
+class EventRepository:
+    """Append-only log."""
+
+    def __init__(self, session: Session) -> None:
+        self.session = session
+
+    def append(
+        self,
+        *,
+        actor: str,
+        action: str,
+        entity: str,
+        entity_id: int | None,
+        detail: dict | None = None,
+    ) -> m.Event:
+        ev = m.Event(
+            actor=actor, action=action, entity=entity, entity_id=entity_id, detail=detail or {}
+        )
+        self.session.add(ev)
+        self.session.flush()
+        return ev
+
+    def list(
+        self, *, entity: str | None = None, entity_id: int | None = None, limit: int = 200
+    ) -> Sequence[m.Event]:
+        stmt = select(m.Event)
+        if entity is not None:
+            stmt = stmt.where(m.Event.entity == entity)
+        if entity_id is not None:
+            stmt = stmt.where(m.Event.entity_id == entity_id)
+        return self.session.scalars(stmt.order_by(m.Event.id.desc()).limit(limit)).all()

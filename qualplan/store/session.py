@@ -1,0 +1,95 @@
+"""Engine and session factory from one database URL.
+
+SQLite: foreign keys on, WAL journal, a busy timeout, and the pysqlite
+transaction workaround so SAVEPOINTs work (SQLAlchemy 2 docs, "SQLite -
+Serializable isolation / Savepoints / Transactional DDL"). PostgreSQL: psycopg 3,
+with ``pool_pre_ping``.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from contextlib import contextmanager
+
+from sqlalchemy import Engine, create_engine, event
+from sqlalchemy.engine import make_url
+from sqlalchemy.exc import ArgumentError, NoSuchModuleError
+from sqlalchemy.orm import Session, sessionmaker
+
+import qualplan.store.guards  # noqa: F401  (registers the immutability guard)
+
+SQLITE_BUSY_TIMEOUT_MS = 5000
+
+
+class DatabaseUrlError(ValueError):
+    """The database URL cannot be parsed or names an unknown driver."""
+
+
+def masked(url: str) -> str:
+    """The URL with its password hidden, for messages and logs."""
+    try:
+        return make_url(url).render_as_string(hide_password=True)
+    except ArgumentError:
+        return url.split("@")[-1] if "@" in url else url
+
+
+def normalise_url(url: str) -> str:
+    """Use the psycopg 3 driver for plain ``postgresql://`` URLs."""
+    try:
+        parsed = make_url(url)
+    except ArgumentError as exc:
+        raise DatabaseUrlError(f"cannot parse database URL {masked(url)!r}") from exc
+    if parsed.drivername in ("postgresql", "postgres"):
+        parsed = parsed.set(drivername="postgresql+psycopg")
+    return parsed.render_as_string(hide_password=False)
+
+
+def make_engine(url: str, **kwargs) -> Engine:
+    """Create an engine for `url` with the settings qualplan relies on."""
+    url = normalise_url(url)
+    try:
+        if url.startswith("sqlite"):
+            engine = create_engine(
+                url, connect_args={"timeout": SQLITE_BUSY_TIMEOUT_MS / 1000}, **kwargs
+            )
+            _configure_sqlite(engine)
+        else:
+            engine = create_engine(url, pool_pre_ping=True, **kwargs)
+    except (ArgumentError, NoSuchModuleError) as exc:
+        raise DatabaseUrlError(f"unusable database URL {masked(url)!r}: {exc}") from exc
+    return engine
+
+
+def _configure_sqlite(engine: Engine) -> None:
+    memory = engine.url.database in (None, "", ":memory:")
+
+    @event.listens_for(engine, "connect")
+    def _on_connect(dbapi_conn, _record) -> None:
+        # Let SQLAlchemy emit BEGIN itself (pysqlite would defer it and break SAVEPOINT).
+        dbapi_conn.isolation_level = None
+        cur = dbapi_conn.cursor()
+        cur.execute("PRAGMA foreign_keys=ON")
+        cur.execute(f"PRAGMA busy_timeout={SQLITE_BUSY_TIMEOUT_MS}")
+        if not memory:
+            cur.execute("PRAGMA journal_mode=WAL")
+        cur.close()
+
+    @event.listens_for(engine, "begin")
+    def _on_begin(conn) -> None:
+        conn.exec_driver_sql("BEGIN")
+
+
+def make_sessionmaker(engine: Engine) -> sessionmaker[Session]:
+    return sessionmaker(bind=engine, expire_on_commit=False)
+
+
+@contextmanager
+def unit_of_work(factory: sessionmaker[Session]) -> Iterator[Session]:
+    """One transaction: commit at the end, roll back on any error."""
+    with factory() as session:
+        try:
+            yield session
+            session.commit()
+        except BaseException:
+            session.rollback()
+            raise

@@ -1,0 +1,61 @@
+"""Migrations: upgrade -> downgrade -> upgrade with data; schema checks; no model drift."""
+
+from __future__ import annotations
+
+import pytest
+from alembic.autogenerate import compare_metadata
+from alembic.runtime.migration import MigrationContext
+from sqlalchemy import inspect, text
+
+from qualplan.store import migrate
+from qualplan.store.base import Base
+from qualplan.store.session import make_engine
+
+
+def test_upgrade_downgrade_upgrade_keeps_data(fresh_db_url):
+    migrate.upgrade(fresh_db_url)
+    engine = make_engine(fresh_db_url)
+    with engine.begin() as conn:
+        conn.execute(text("INSERT INTO programs (name, description, created_at, version) "
+                          "VALUES ('Survey drone', 'kept', CURRENT_TIMESTAMP, 1)"))
+        pid = conn.execute(text("SELECT id FROM programs")).scalar_one()
+        conn.execute(text("INSERT INTO products (program_id, name, part_number, description, "
+                          "created_at, version) VALUES (:p, 'Camera unit', 'CU-1', '', "
+                          "CURRENT_TIMESTAMP, 1)"), {"p": pid})
+    assert "documents" in inspect(engine).get_table_names()
+
+    migrate.downgrade(fresh_db_url, "0001")
+    engine.dispose()
+    assert migrate.current_revision(engine) == "0001"
+    assert "documents" not in inspect(engine).get_table_names()
+
+    migrate.upgrade(fresh_db_url)
+    assert migrate.check_schema(engine) == migrate.head_revision()
+    with engine.connect() as conn:
+        rows = conn.execute(text("SELECT p.name, r.name FROM programs p "
+                                 "JOIN products r ON r.program_id = p.id")).all()
+    assert rows == [("Survey drone", "Camera unit")]
+    engine.dispose()
+
+
+def test_check_schema_refuses_empty_behind_and_ahead(fresh_db_url):
+    engine = make_engine(fresh_db_url)
+    with pytest.raises(migrate.SchemaMismatch, match="no qualplan schema.*qualplan init"):
+        migrate.check_schema(engine)
+    migrate.upgrade(fresh_db_url, "0001")
+    with pytest.raises(migrate.SchemaMismatch, match="behind.*qualplan db upgrade"):
+        migrate.check_schema(engine)
+    migrate.upgrade(fresh_db_url)
+    with engine.begin() as conn:
+        conn.execute(text("UPDATE alembic_version SET version_num = '9999'"))
+    with pytest.raises(migrate.SchemaMismatch, match="newer than this qualplan"):
+        migrate.check_schema(engine)
+    engine.dispose()
+
+
+def test_models_and_migrations_agree(engine):
+    """Like `alembic check`: the migrated schema matches the models, nothing to generate."""
+    with engine.connect() as conn:
+        ctx = MigrationContext.configure(conn, opts={"compare_type": True})
+        diff = compare_metadata(ctx, Base.metadata)
+    assert diff == []
