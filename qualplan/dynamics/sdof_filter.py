@@ -245,7 +245,8 @@ if _HAVE_NUMBA:
         """Max and min of each filter output during the record and after it.
 
         out[i] = (max during, min during, max after, min after); the record
-        is followed by n_extra[i] zero samples (free decay).
+        is followed by n_extra[i] zero samples (free decay). "After" starts at
+        the last sample of the record, the instant the input ends.
         """
         n_fn = b.shape[0]
         n = x.shape[0]
@@ -269,8 +270,8 @@ if _HAVE_NUMBA:
                 x1 = x0
                 y2 = y1
                 y1 = y0
-            rhi = -np.inf
-            rlo = np.inf
+            rhi = y1
+            rlo = y1
             for _k in range(n_extra[i]):
                 y0 = b1 * x1 + b2 * x2 - a1 * y1 - a2 * y2
                 if y0 > rhi:
@@ -300,12 +301,9 @@ def _extremes_bank_scipy(x, b, a, n_extra, out):
     for i in range(b.shape[0]):
         xe = np.concatenate([x, np.zeros(int(n_extra[i]))])
         y = lfilter(b[i], a[i], xe)
-        yp, yr = y[: x.size], y[x.size:]
+        yp, yr = y[: x.size], y[x.size - 1:]
         out[i, 0], out[i, 1] = yp.max(), yp.min()
-        if yr.size:
-            out[i, 2], out[i, 3] = yr.max(), yr.min()
-        else:
-            out[i, 2], out[i, 3] = -np.inf, np.inf
+        out[i, 2], out[i, 3] = yr.max(), yr.min()
 
 
 def run_filters(x: np.ndarray, b: np.ndarray, a: np.ndarray) -> np.ndarray:
@@ -357,8 +355,9 @@ def run_extremes(x: np.ndarray, b: np.ndarray, a: np.ndarray, n_extra) -> np.nda
     Returns
     -------
     numpy.ndarray
-        Shape (n_fn, 4): max and min during the record, max and min after it
-        [output unit]; +/-inf after the record when n_extra is 0.
+        Shape (n_fn, 4): max and min during the record, max and min from its
+        last sample (the instant the input ends) to the end of the free decay
+        [output unit].
 
     References
     ----------
