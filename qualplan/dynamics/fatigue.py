@@ -1,0 +1,658 @@
+"""Fatigue damage spectra (FDS) of random, sine, swept-sine and time-history environments.
+
+Convention (every kind of environment, so that damages compare at equal fn, Q and b):
+
+- a bank of base-excited SDOF oscillators, natural frequencies ``fn_hz``, one Q;
+- the response is the pseudo-acceleration (2 pi fn)^2 z of the relative
+  displacement z, in g;
+- Basquin's law N S^b = C on the response amplitude S = range / 2 with unit
+  material constants (C = 1, stress = response), and Miner's linear sum:
+  D = sum over cycles of n_i (range_i / 2)^b, in g^b. Damage is relative: only
+  ratios at the same fn, Q and b are physical.
+
+To compare with values computed on relative displacement with a stress factor
+K [1/mm] (e.g. Lalanne's examples), multiply those by (wn^2 / (1000 g0 K))^b.
+
+References
+----------
+.. [1] C. Lalanne, Mechanical Vibration and Shock Analysis, vol. 4 "Fatigue
+   Damage" and vol. 5 "Specification Development", ISTE/Wiley, 2nd ed. 2009.
+.. [2] G. R. Henderson, A. G. Piersol, "Fatigue damage related descriptor for
+   random vibration test environments", Sound and Vibration 29(10), 1995.
+.. [3] S. J. McNeill, "Implementing the Fatigue Damage Spectrum and Fatigue
+   Damage Equivalent Vibration Testing", 79th Shock and Vibration Symposium, 2008.
+.. [4] T. Dirlik, "Application of computers in fatigue analysis", PhD thesis,
+   University of Warwick, 1985.
+.. [5] ASTM E1049-85 (R2017), rainflow counting, section 5.4.4.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import warnings
+from collections.abc import Iterable
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import dataclass
+from typing import Literal
+
+import numpy as np
+from numba import njit
+from scipy.special import gamma as gamma_fn
+
+from qualplan.dynamics import _validate as v
+from qualplan.dynamics import sdof
+from qualplan.dynamics.errors import AccuracyWarning, InputError
+from qualplan.dynamics.sine import Sweep
+from qualplan.dynamics.units import G0_M_S2
+
+__all__ = [
+    "FdsContribution",
+    "fds_random",
+    "fds_sine_dwell",
+    "fds_sweep",
+    "fds_time",
+    "life_cycle_fds",
+    "equivalent_psd",
+    "equivalent_psd_narrow_band",
+    "sweep_severity",
+]
+
+RandomMethod = Literal["narrow_band", "dirlik", "miles"]
+
+
+def _check_b(b) -> float:
+    return v.positive_scalar("b", b)
+
+
+# --------------------------------------------------------------------------
+# Random PSD
+
+
+def fds_random(freq_hz, asd_g2_hz, duration_s: float, fn_hz, q: float, b: float, *,
+               method: RandomMethod = "narrow_band") -> np.ndarray:
+    """Fatigue damage spectrum of a stationary random PSD over a duration.
+
+    Parameters
+    ----------
+    freq_hz : array_like, shape (m,)
+        PSD breakpoints (or lines), strictly increasing. [Hz]
+    asd_g2_hz : array_like, shape (m,)
+        Base-acceleration ASD, > 0, log-log interpolated. [g^2/Hz]
+    duration_s : float
+        Exposure time. [s]
+    fn_hz : array_like, shape (k,)
+        Natural frequencies. [Hz]
+    q : float
+        Amplification factor, > 0.5. [unitless]
+    b : float
+        Basquin exponent, > 0. [unitless]
+    method : {"narrow_band", "dirlik", "miles"}
+        "narrow_band" (default): Rayleigh amplitudes of the exact response,
+        counted at its own rate of zero up-crossings. "dirlik": Dirlik's
+        empirical range distribution, counted at the rate of peaks (for
+        broad-band responses, e.g. fn below the PSD band). "miles": the
+        closed form with Miles' rms and n0+ = fn (white-noise approximation;
+        for hand checks only).
+
+    Returns
+    -------
+    numpy.ndarray, shape (k,)
+        Damage D(fn). [g^b]
+
+    Warns
+    -----
+    AccuracyWarning
+        For natural frequencies outside the PSD band (off-resonance response).
+
+    Notes
+    -----
+    Response spectral moments m_k = integral of G(f) |H(f)|^2 f^k df with the
+    exact pseudo-acceleration gain |H|^2 = 1 / ((1 - r^2)^2 + (r/Q)^2)
+    (:func:`qualplan.dynamics.sdof.response_moments`). Narrow band:
+
+        D = n0+ T (sqrt(2 m0))^b Gamma(1 + b/2),   n0+ = sqrt(m2 / m0).
+
+    Dirlik (1985), with amplitude S = range / 2 and Z = S / sqrt(m0):
+
+        D = np T m0^(b/2) [D1 Qd^b Gamma(1 + b) + 2^(b/2) Gamma(1 + b/2) (D2 |R|^b + D3)],
+        np = sqrt(m4 / m2), gamma = m2 / sqrt(m0 m4), xm = (m1 / m0) sqrt(m2 / m4),
+        D1 = 2 (xm - gamma^2) / (1 + gamma^2), R = (gamma - xm - D1^2) / (1 - gamma - D1 + D1^2),
+        D2 = (1 - gamma - D1 + D1^2) / (1 - R), D3 = 1 - D1 - D2,
+        Qd = 1.25 (gamma - D3 - D2 R) / D1.
+
+    Miles: D = fn T (pi fn Q G(fn))^(b/2) Gamma(1 + b/2).
+
+    References
+    ----------
+    .. [1] Lalanne vol. 4, ch. on random vibration damage (narrow band).
+    .. [2] Dirlik 1985 (thesis); the closed-form moment of his distribution.
+    .. [3] Miles 1954, J. Aero. Sci. 21(11).
+    """
+    duration = v.positive_scalar("duration_s", duration_s)
+    b = _check_b(b)
+    q = v.check_q(q)
+    if method not in ("narrow_band", "dirlik", "miles"):
+        raise InputError("method", method, "must be 'narrow_band', 'dirlik' or 'miles'")
+    if method == "miles":
+        from qualplan.dynamics.psd import asd_at, check_psd
+
+        f, g = check_psd(freq_hz, asd_g2_hz)
+        fn = sdof._check_fn(fn_hz)
+        sdof.warn_outside_band(fn, f)
+        gfn = asd_at(f, g, fn)
+        return fn * duration * (np.pi * fn * q * gfn) ** (b / 2) * gamma_fn(1 + b / 2)
+    m = sdof.response_moments(freq_hz, asd_g2_hz, fn_hz, q, warn=False)
+    f = np.asarray(freq_hz, float)
+    sdof.warn_outside_band(m.fn_hz, f)
+    return _damage_from_moments(m.m0, m.m1, m.m2, m.m4, duration, b, method)
+
+
+def _damage_from_moments(m0, m1, m2, m4, duration, b, method) -> np.ndarray:
+    if method == "narrow_band":
+        n0 = np.sqrt(m2 / m0)
+        return n0 * duration * (2.0 * m0) ** (b / 2) * gamma_fn(1 + b / 2)
+    npk = np.sqrt(m4 / m2)
+    gam = m2 / np.sqrt(m0 * m4)
+    xm = (m1 / m0) * np.sqrt(m2 / m4)
+    d1 = 2.0 * (xm - gam**2) / (1.0 + gam**2)
+    r = (gam - xm - d1**2) / (1.0 - gam - d1 + d1**2)
+    d2 = (1.0 - gam - d1 + d1**2) / (1.0 - r)
+    d3 = 1.0 - d1 - d2
+    qd = 1.25 * (gam - d3 - d2 * r) / d1
+    moment = (d1 * qd**b * gamma_fn(1 + b)
+              + 2.0 ** (b / 2) * gamma_fn(1 + b / 2) * (d2 * np.abs(r) ** b + d3))
+    return npk * duration * m0 ** (b / 2) * moment
+
+
+# --------------------------------------------------------------------------
+# Sine
+
+
+def fds_sine_dwell(freq_hz: float, accel_g: float, duration_s: float, fn_hz, q: float,
+                   b: float) -> np.ndarray:
+    """Fatigue damage spectrum of a sine dwell (steady state, closed form).
+
+    Parameters
+    ----------
+    freq_hz : float
+        Dwell frequency. [Hz]
+    accel_g : float
+        Peak base acceleration. [g]
+    duration_s : float
+        Dwell time. [s]
+    fn_hz : array_like
+        Natural frequencies. [Hz]
+    q : float
+        Amplification factor, > 0.5. [unitless]
+    b : float
+        Basquin exponent, > 0. [unitless]
+
+    Returns
+    -------
+    numpy.ndarray
+        D = f T (a |H_pa(f)|)^b, |H_pa| = 1 / sqrt((1 - r^2)^2 + (r/Q)^2). [g^b]
+
+    Notes
+    -----
+    Steady-state response, the transient at the start of the dwell ignored
+    (exact for f T >> Q).
+
+    References
+    ----------
+    .. [1] Lalanne vol. 4, damage under sinusoidal vibration.
+    """
+    f0 = v.positive_scalar("freq_hz", freq_hz)
+    a = v.positive_scalar("accel_g", accel_g)
+    t = v.positive_scalar("duration_s", duration_s)
+    b = _check_b(b)
+    fn = sdof._check_fn(fn_hz)
+    q = v.check_q(q)
+    r = f0 / fn
+    h = 1.0 / np.sqrt((1 - r * r) ** 2 + (r / q) ** 2)
+    return f0 * t * (a * h) ** b
+
+
+def sweep_severity(sweep: Sweep, fn_hz, q: float) -> np.ndarray:
+    """Sweep-rate parameter eta = Q^2 (df/dt) / fn^2 at each fn (quasi-steady if << 1).
+
+    Parameters
+    ----------
+    sweep : Sweep
+        The sweep. For a log sweep df/dt = fn R ln 2 / 60 at fn.
+    fn_hz : array_like
+        Natural frequencies. [Hz]
+    q : float
+        Amplification factor. [unitless]
+
+    Returns
+    -------
+    numpy.ndarray
+        eta [unitless] (common practice; 2 oct/min, fn 100 Hz, Q 10: 0.023).
+    """
+    fn = sdof._check_fn(fn_hz)
+    q = v.check_q(q)
+    dfdt = fn * sweep.rate * math.log(2.0) / 60.0 if sweep.mode == "log" else sweep.rate
+    return q * q * dfdt / fn**2
+
+
+def _edge_simpson(fun, x: np.ndarray) -> np.ndarray:
+    """Simpson per row with end values taken just inside each interval (jumps at nodes)."""
+    eps = 1e-12
+    xl = x[:, :-1] * (1 + eps)
+    xr = x[:, 1:] * (1 - eps)
+    xm = 0.5 * (x[:, :-1] + x[:, 1:])
+    h = np.diff(x, axis=1)
+    return np.sum(h * (fun(xl) + 4.0 * fun(xm) + fun(xr)), axis=1) / 6.0
+
+
+def fds_sweep(sweep: Sweep, fn_hz, q: float, b: float, *, n_res: int = 400) -> np.ndarray:
+    """Fatigue damage spectrum of a swept sine (integration over time at frequency).
+
+    Parameters
+    ----------
+    sweep : Sweep
+        The sweep (specification, rate, log or linear, direction, number of sweeps).
+    fn_hz : array_like
+        Natural frequencies. [Hz]
+    q : float
+        Amplification factor, > 0.5. [unitless]
+    b : float
+        Basquin exponent, > 0. [unitless]
+    n_res : int
+        Quadrature nodes around each resonance (default 400).
+
+    Returns
+    -------
+    numpy.ndarray
+        Damage over all passes. [g^b]
+
+    Warns
+    -----
+    AccuracyWarning
+        When the sweep is fast for an oscillator (eta = Q^2 (df/dt)/fn^2 > 0.1):
+        the quasi-steady assumption then overestimates the response near fn.
+
+    Notes
+    -----
+    Quasi-steady response (each frequency is held long enough for the steady
+    state): the cycles spent between f and f + df are dN = f (dt/df) df, so
+
+        log sweep at R oct/min:  D = passes x T1 integral (a(f) |H_pa(f)|)^b df,
+                                 T1 = 60 / (R ln 2) [s];
+        linear sweep at r Hz/s:  D = passes x (1/r) integral f (a(f) |H_pa(f)|)^b df,
+
+    integrated numerically (composite Simpson on band edges, a log grid and
+    Lorentzian-mapped nodes around fn). Lalanne's closed forms (incomplete beta
+    functions) give the same integral; the high-Q form for a constant amplitude a
+    on a log sweep spanning fn is D ~ passes T1 a^b fn (Q^(b-1)/2) sqrt(pi)
+    Gamma((b-1)/2) / Gamma(b/2) (see docs/methods/fatigue.md).
+
+    References
+    ----------
+    .. [1] Lalanne vol. 4, damage under swept sine vibration; vol. 1 (sweeps).
+    """
+    if not isinstance(sweep, Sweep):
+        raise InputError("sweep", type(sweep).__name__, "must be a sine.Sweep")
+    fn = sdof._check_fn(fn_hz)
+    q = v.check_q(q)
+    b = _check_b(b)
+    lo, hi = sweep.band_hz
+    eta = sweep_severity(sweep, fn, q)
+    fast = (eta > 0.1) & (fn >= lo) & (fn <= hi)
+    if fast.any():
+        warnings.warn(
+            f"fast sweep for {int(fast.sum())} natural frequencies (eta = Q^2 (df/dt)/fn^2 up "
+            f"to {eta[fast].max():.3g} > 0.1, e.g. fn = {fn[fast][0]:g} Hz): the quasi-steady "
+            "FDS/ERS overestimates the response there",
+            AccuracyWarning, stacklevel=2)
+    brk = sweep.spec.breaks_hz
+    brk = np.concatenate([[lo, hi], brk[(brk > lo) & (brk < hi)]])
+    x = sdof.quadrature_nodes(lo, hi, fn, q, fixed=brk, n_res=n_res)
+    spec = sweep.spec
+
+    def integrand(xx):
+        r = xx / fn[:, None]
+        h = 1.0 / np.sqrt((1 - r * r) ** 2 + (r / q) ** 2)
+        val = (spec.accel_g(xx) * h) ** b
+        return val if sweep.mode == "log" else val * xx
+
+    integral = _edge_simpson(integrand, x)
+    scale = 60.0 / (sweep.rate * math.log(2.0)) if sweep.mode == "log" else 1.0 / sweep.rate
+    return sweep.passes * scale * integral
+
+
+# --------------------------------------------------------------------------
+# Time history
+
+
+@njit(cache=True, nogil=True)
+def _push(stack, sp, val, b):
+    """Push a reversal on the rainflow stack; return (new sp, damage counted)."""
+    stack[sp] = val
+    sp += 1
+    d = 0.0
+    while sp >= 3:
+        x_rng = abs(stack[sp - 1] - stack[sp - 2])
+        y_rng = abs(stack[sp - 2] - stack[sp - 3])
+        if x_rng < y_rng:
+            break
+        if sp == 3:
+            d += 0.5 * math.pow(0.5 * y_rng, b)
+            stack[0] = stack[1]
+            stack[1] = stack[2]
+            sp = 2
+        else:
+            d += math.pow(0.5 * y_rng, b)
+            stack[sp - 3] = stack[sp - 1]
+            sp -= 2
+    return sp, d
+
+
+@njit(cache=True, nogil=True)
+def _vertex(ym, y0, yp):
+    """Parabolic peak through three equally spaced samples around a reversal."""
+    den = ym - 2.0 * y0 + yp
+    if den == 0.0:
+        return y0
+    p = 0.5 * (ym - yp) / den
+    return y0 - 0.25 * (ym - yp) * p
+
+
+@njit(cache=True, nogil=True)
+def _filter_miner(x, b0, b1, b2, a1, a2, n_extra, b, interp):
+    """SDOF filter + online reversals + rainflow + Miner sum, in one pass, O(1) memory
+    beyond the rainflow stack."""
+    n = x.shape[0]
+    n_tot = n + n_extra
+    stack = np.empty(n_tot + 2, dtype=np.float64)
+    sp = 0
+    dmg = 0.0
+    x1 = 0.0
+    x2 = 0.0
+    y1 = 0.0
+    y2 = 0.0
+    xc = 0.0  # reversal candidate
+    xprev = 0.0  # sample before the candidate
+    dl = 0.0
+    for k in range(n_tot):
+        x0 = x[k] if k < n else 0.0
+        y0 = b0 * x0 + b1 * x1 + b2 * x2 - a1 * y1 - a2 * y2
+        x2 = x1
+        x1 = x0
+        y2 = y1
+        y1 = y0
+        if k == 0:
+            sp, d = _push(stack, sp, y0, b)
+            dmg += d
+            xprev = y0
+            continue
+        if k == 1:
+            xc = y0
+            dl = y0 - xprev
+            continue
+        if y0 == xc:
+            continue
+        dn = y0 - xc
+        if dl * dn < 0.0:
+            val = _vertex(xprev, xc, y0) if interp else xc
+            sp, d = _push(stack, sp, val, b)
+            dmg += d
+        xprev = xc
+        xc = y0
+        dl = dn
+    if n_tot >= 2:
+        sp, d = _push(stack, sp, xc, b)
+        dmg += d
+    for j in range(sp - 1):
+        dmg += 0.5 * math.pow(0.5 * abs(stack[j + 1] - stack[j]), b)
+    return dmg
+
+
+def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: bool = False,
+             interpolate_peaks: bool = True, workers: int | None = None) -> np.ndarray:
+    """Fatigue damage spectrum of any time history (shock, measured record, synthesis).
+
+    Parameters
+    ----------
+    accel_g : array_like, shape (n,)
+        Base acceleration, uniformly sampled. [g]
+    dt_s : float
+        Sample step. [s]
+    fn_hz : array_like, shape (k,)
+        Natural frequencies, below Nyquist (1/(2 dt)). [Hz]
+    q : float
+        Amplification factor, > 0.5. [unitless]
+    b : float
+        Basquin exponent, > 0. [unitless]
+    free_decay : bool
+        Append, per fn, zero input until the free response has decayed by 1e-4
+        (ln(1e4) / (zeta wn) seconds), so the residual vibration of a shock is
+        counted. Default False (a stationary record).
+    interpolate_peaks : bool
+        Replace each reversal by the vertex of the parabola through it and its
+        two neighbouring samples (default True). This removes the peak
+        clipping of sampling (up to 1 - cos(pi fn / fs) in amplitude, amplified
+        b times in damage); set False to count the raw samples.
+    workers : int, optional
+        Threads over natural frequencies (default: all cores). The compiled
+        kernel releases the GIL.
+
+    Returns
+    -------
+    numpy.ndarray, shape (k,)
+        D(fn) = sum over rainflow cycles of count (range / 2)^b of the
+        pseudo-acceleration response. [g^b]
+
+    Warns
+    -----
+    AccuracyWarning
+        When fn exceeds fs / 10 (the filter and peak picking lose accuracy).
+
+    Notes
+    -----
+    The response is the ramp-invariant relative-displacement filter of
+    :func:`qualplan.dynamics.sdof_filter.coefficients` (Smallwood 1981 / ISO
+    18431-4 family) scaled by wn^2 / g0. Each oscillator runs in one compiled
+    pass that filters, finds reversals, counts them with the ASTM E1049-85
+    rainflow stack (same rule as :func:`qualplan.dynamics.rainflow.count`) and
+    sums damage; no response history is stored.
+
+    References
+    ----------
+    .. [1] ASTM E1049-85 (R2017) section 5.4.4; Smallwood 1981, Shock and
+       Vibration Bulletin 51; Lalanne vol. 4.
+    """
+    from qualplan.dynamics.sdof_filter import coefficients
+
+    x = np.ascontiguousarray(v.as_1d_float("accel_g", accel_g, min_size=2))
+    dt = v.positive_scalar("dt_s", dt_s)
+    b = _check_b(b)
+    q = v.check_q(q)
+    fn = sdof._check_fn(fn_hz)
+    bz, az = coefficients(fn, q, dt, output="rel_disp")
+    scale = (2.0 * np.pi * fn) ** 2 / G0_M_S2
+    bp = bz * scale[:, None]
+    fs = 1.0 / dt
+    hi = fn > fs / 10.0
+    if hi.any():
+        warnings.warn(
+            f"{int(hi.sum())} natural frequencies exceed fs/10 = {fs / 10:g} Hz: the sampled "
+            "response loses accuracy there (resample the record faster)",
+            AccuracyWarning, stacklevel=2)
+    if free_decay:
+        zeta = 1.0 / (2.0 * q)
+        n_extra = np.ceil(math.log(1e4) / (zeta * 2 * np.pi * fn * dt)).astype(np.int64)
+    else:
+        n_extra = np.zeros(fn.size, dtype=np.int64)
+
+    def one(i: int) -> float:
+        return _filter_miner(x, bp[i, 0], bp[i, 1], bp[i, 2], az[i, 1], az[i, 2],
+                             int(n_extra[i]), b, interpolate_peaks)
+
+    nw = workers or os.cpu_count() or 1
+    order = np.argsort(-(x.size + n_extra))  # longest first balances the threads
+    out = np.empty(fn.size)
+    if nw == 1 or fn.size == 1:
+        for i in order:
+            out[i] = one(int(i))
+    else:
+        with ThreadPoolExecutor(max_workers=nw) as ex:
+            for i, d in zip(order, ex.map(one, [int(i) for i in order]), strict=True):
+                out[i] = d
+    return out
+
+
+# --------------------------------------------------------------------------
+# Life cycle
+
+
+@dataclass(frozen=True)
+class FdsContribution:
+    """One environment's share of a life cycle.
+
+    Attributes
+    ----------
+    label : str
+        What it is (phase, environment, axis).
+    fds : numpy.ndarray
+        FDS of one unit of exposure: 1 s of a random or dwell environment, one
+        sweep, one shock occurrence, one pass of a record. [g^b]
+    multiplier : float
+        Units of exposure: duration [s] or number of occurrences [count].
+    """
+
+    label: str
+    fds: np.ndarray
+    multiplier: float
+
+
+def life_cycle_fds(contributions: Iterable[FdsContribution]) -> np.ndarray:
+    """FDS of a life cycle: sum over contributions of FDS x multiplier (Miner).
+
+    Parameters
+    ----------
+    contributions : iterable of FdsContribution
+        All on the same fn grid, Q and b.
+
+    Returns
+    -------
+    numpy.ndarray
+        Total damage per fn. [g^b]
+    """
+    total = None
+    for i, c in enumerate(contributions):
+        d = v.as_1d_float(f"contributions[{i}].fds", c.fds)
+        if (d < 0).any():
+            raise InputError(f"contributions[{i}].fds", c.label, "damage must be >= 0")
+        m = float(c.multiplier)
+        if not np.isfinite(m) or m < 0:
+            raise InputError(f"contributions[{i}].multiplier", c.multiplier, "must be >= 0")
+        if total is None:
+            total = d * m
+        elif d.size != total.size:
+            raise InputError(f"contributions[{i}].fds", f"{d.size} values",
+                             f"must match the first contribution ({total.size} values)")
+        else:
+            total = total + d * m
+    if total is None:
+        raise InputError("contributions", "none", "needs at least one contribution")
+    return total
+
+
+# --------------------------------------------------------------------------
+# Inverse: equivalent PSD
+
+
+def equivalent_psd_narrow_band(fn_hz, fds, duration_s: float, q: float, b: float) -> np.ndarray:
+    """Closed-form narrow-band (Miles) inversion of an FDS into a PSD at fn.
+
+    Parameters
+    ----------
+    fn_hz : array_like
+        Natural frequencies. [Hz]
+    fds : array_like
+        Target damage per fn, > 0. [g^b]
+    duration_s : float
+        Test duration. [s]
+    q : float
+        Amplification factor. [unitless]
+    b : float
+        Basquin exponent. [unitless]
+
+    Returns
+    -------
+    numpy.ndarray
+        G(fn) = [D / (fn T Gamma(1 + b/2))]^(2/b) / (pi fn Q). [g^2/Hz]
+
+    References
+    ----------
+    .. [1] Lalanne vol. 5 (specification by FDS equivalence); Henderson & Piersol 1995.
+    """
+    fn = sdof._check_fn(fn_hz)
+    d = v.as_1d_float("fds", fds)
+    if d.size != fn.size:
+        raise InputError("fds", f"{d.size} values", f"must match fn_hz ({fn.size} values)")
+    v.all_positive("fds", d)
+    t = v.positive_scalar("duration_s", duration_s)
+    q = v.check_q(q)
+    b = _check_b(b)
+    return (d / (fn * t * gamma_fn(1 + b / 2))) ** (2 / b) / (np.pi * fn * q)
+
+
+def equivalent_psd(fn_hz, fds, duration_s: float, q: float, b: float, *, rtol: float = 1e-3,
+                   max_iter: int = 50) -> np.ndarray:
+    """Random test PSD at the natural frequencies whose FDS in a duration matches a target.
+
+    Parameters
+    ----------
+    fn_hz : array_like, shape (k,)
+        Natural frequencies, strictly increasing, >= 2; they become the PSD's
+        breakpoints. [Hz]
+    fds : array_like, shape (k,)
+        Target damage (e.g. a life cycle's FDS times a margin factor), > 0. [g^b]
+    duration_s : float
+        Test duration. [s]
+    q : float
+        Amplification factor of the FDS. [unitless]
+    b : float
+        Basquin exponent of the FDS. [unitless]
+    rtol : float
+        Stop when the exact narrow-band FDS of the PSD is within rtol of the
+        target at every fn (default 1e-3; the issue asks 1e-2).
+    max_iter : int
+        Iteration limit; an AccuracyWarning is emitted when it is reached.
+
+    Returns
+    -------
+    numpy.ndarray, shape (k,)
+        ASD at fn (log-log interpolated between fn, 0 outside). [g^2/Hz]
+
+    Notes
+    -----
+    Start from the closed-form inversion (:func:`equivalent_psd_narrow_band`),
+    then iterate G <- G (D_target / D_exact(G))^(2/b), where D_exact is
+    :func:`fds_random` (exact SDOF transfer function, narrow band) of the
+    breakpoint PSD (fn, G). Each step is exact for a locally white PSD
+    (D ~ G^(b/2)); 3 to 6 steps reach 1e-3.
+
+    References
+    ----------
+    .. [1] Lalanne vol. 5; Henderson & Piersol 1995, Sound and Vibration 29(10).
+    """
+    fn = sdof._check_fn(fn_hz)
+    if fn.size < 2:
+        raise InputError("fn_hz", fn, "needs at least 2 natural frequencies (PSD breakpoints)")
+    v.strictly_increasing("fn_hz", fn)
+    target = v.as_1d_float("fds", fds)
+    g = equivalent_psd_narrow_band(fn, target, duration_s, q, b)
+    for _ in range(max_iter):
+        d = fds_random(fn, g, duration_s, fn, q, b)
+        ratio = target / d
+        if np.max(np.abs(ratio - 1.0)) <= rtol:
+            return g
+        g = g * ratio ** (2.0 / b)
+    warnings.warn(f"equivalent_psd did not reach rtol={rtol:g} in {max_iter} iterations "
+                  f"(worst FDS ratio {np.max(np.abs(ratio - 1)):.3g})", AccuracyWarning,
+                  stacklevel=2)
+    return g
