@@ -58,6 +58,9 @@ class TokenRepository(Repository[m.ApiToken]):
     def by_hash(self, token_hash: str) -> m.ApiToken | None:
         return self.session.scalar(select(m.ApiToken).where(m.ApiToken.token_hash == token_hash))
 
+    def by_prefix(self, prefix: str) -> Sequence[m.ApiToken]:
+        return self.session.scalars(select(m.ApiToken).where(m.ApiToken.prefix == prefix)).all()
+
 
 class ProgramRepository(Repository[m.Program]):
     model = m.Program

@@ -1,0 +1,279 @@
+"""Environment data: validation of each kind's content, summaries, and core objects.
+
+The content of a revision (``spec`` JSON plus an optional array) is checked here
+with the numeric core's own validators, so the same fault gives the same message
+from the API, the CLI and the web pages. Core errors become ValidationFailed with
+the field prefixed by ``data.``.
+"""
+
+from __future__ import annotations
+
+import math
+from contextlib import contextmanager
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from qualplan.dynamics import psd as core_psd
+from qualplan.dynamics import sine as core_sine
+from qualplan.dynamics import srs as core_srs
+from qualplan.dynamics._validate import check_q
+from qualplan.dynamics.errors import InputError
+from qualplan.planning.errors import ValidationFailed
+from qualplan.store.models import EnvironmentKind
+
+UNITS = {
+    EnvironmentKind.random: "g^2/Hz",
+    EnvironmentKind.shock: "g (SRS)",
+    EnvironmentKind.sine: "g peak",
+    EnvironmentKind.time_history: "g",
+}
+
+
+@contextmanager
+def core_errors(prefix: str = "data."):
+    """Turn InputError of the numeric core into ValidationFailed naming the data field."""
+    try:
+        yield
+    except InputError as exc:
+        raise ValidationFailed(prefix + exc.field, exc.value, exc.rule) from exc
+
+
+def _floats(data: dict, key: str) -> list[float]:
+    if key not in data:
+        raise ValidationFailed(f"data.{key}", None, "is required")
+    value = data[key]
+    if not isinstance(value, list | tuple) or not value:
+        raise ValidationFailed(f"data.{key}", value, "must be a non-empty list of numbers")
+    out = []
+    for i, x in enumerate(value):
+        if isinstance(x, bool) or not isinstance(x, int | float):
+            raise ValidationFailed(f"data.{key}[{i}]", x, "must be a number")
+        if not math.isfinite(float(x)):
+            raise ValidationFailed(f"data.{key}[{i}]", x, "must be finite (no NaN or inf)")
+        out.append(float(x))
+    return out
+
+
+def _optional_positive(data: dict, key: str) -> float | None:
+    if data.get(key) is None:
+        return None
+    try:
+        value = float(data[key])
+    except (TypeError, ValueError) as exc:
+        raise ValidationFailed(f"data.{key}", data[key], "must be a number") from exc
+    if not math.isfinite(value) or value <= 0:
+        raise ValidationFailed(f"data.{key}", data[key], "must be a finite number > 0")
+    return value
+
+
+def _known_keys(data: dict, allowed: set[str]) -> None:
+    extra = sorted(set(data) - allowed)
+    if extra:
+        raise ValidationFailed(
+            f"data.{extra[0]}",
+            data[extra[0]],
+            f"is not a field of this kind; expected {sorted(allowed)}",
+        )
+
+
+def normalise(
+    kind: EnvironmentKind, data: dict[str, Any], array: np.ndarray | None = None
+) -> tuple[dict[str, Any], np.ndarray | None]:
+    """Validate `data` for `kind`; return the canonical (spec, array) to store."""
+    if not isinstance(data, dict):
+        raise ValidationFailed("data", data, "must be an object")
+    kind = EnvironmentKind(kind)
+    if kind is EnvironmentKind.random:
+        _known_keys(data, {"freq_hz", "asd_g2_hz", "duration_s"})
+        f, a = _floats(data, "freq_hz"), _floats(data, "asd_g2_hz")
+        with core_errors():
+            core_psd.check_psd(f, a)
+        spec = {"freq_hz": f, "asd_g2_hz": a}
+        if (d := _optional_positive(data, "duration_s")) is not None:
+            spec["duration_s"] = d
+        return spec, None
+    if kind is EnvironmentKind.shock:
+        _known_keys(data, {"freq_hz", "accel_g", "q", "count"})
+        f, a = _floats(data, "freq_hz"), _floats(data, "accel_g")
+        q = _optional_positive(data, "q") or 10.0
+        with core_errors():
+            core_srs.SrsProfile(f, a)
+            check_q(q)
+        spec = {"freq_hz": f, "accel_g": a, "q": q}
+        if data.get("count") is not None:
+            count = data["count"]
+            if isinstance(count, bool) or not isinstance(count, int) or count < 1:
+                raise ValidationFailed("data.count", count, "must be a whole number >= 1")
+            spec["count"] = count
+        return spec, None
+    if kind is EnvironmentKind.sine:
+        _known_keys(data, {"bands", "sweep", "dwell"})
+        spec = {"bands": _sine_bands(data), "sweep": _sweep(data.get("sweep") or {})}
+        sweep_of(spec)  # full check through the core
+        return spec, None
+    # time history
+    _known_keys(data, {"dt_s", "accel_g", "duration_s"})
+    dt = _optional_positive(data, "dt_s")
+    if dt is None:
+        raise ValidationFailed("data.dt_s", data.get("dt_s"), "is required (sample interval [s])")
+    samples = (
+        np.asarray(_floats(data, "accel_g"), float) if array is None else np.asarray(array, float)
+    )
+    if samples.ndim != 1 or samples.size < 2:
+        raise ValidationFailed("data.accel_g", f"{samples.size} samples", "needs at least 2")
+    bad = ~np.isfinite(samples)
+    if bad.any():
+        i = int(np.argmax(bad))
+        raise ValidationFailed(f"data.accel_g[{i}]", float(samples[i]), "must be finite")
+    spec = {"dt_s": dt}
+    if (d := _optional_positive(data, "duration_s")) is not None:
+        spec["duration_s"] = d
+    return spec, samples
+
+
+def _sine_bands(data: dict) -> list[dict[str, Any]]:
+    bands = data.get("bands")
+    if not isinstance(bands, list) or not bands:
+        raise ValidationFailed("data.bands", bands, "must be a non-empty list of bands")
+    out = []
+    for i, band in enumerate(bands):
+        if not isinstance(band, dict):
+            raise ValidationFailed(f"data.bands[{i}]", band, "must be an object")
+        quantity = band.get("quantity")
+        if quantity not in ("displacement", "velocity", "acceleration"):
+            raise ValidationFailed(
+                f"data.bands[{i}].quantity",
+                quantity,
+                "must be 'displacement', 'velocity' or 'acceleration'",
+            )
+        measure = band.get("measure", "peak")
+        if quantity == "displacement" and measure not in ("peak", "peak_to_peak"):
+            raise ValidationFailed(
+                f"data.bands[{i}].measure",
+                measure,
+                "must say 'peak' or 'peak_to_peak' for a displacement",
+            )
+        item = {
+            "f_lo_hz": band.get("f_lo_hz"),
+            "f_hi_hz": band.get("f_hi_hz"),
+            "quantity": quantity,
+            "amplitude": band.get("amplitude"),
+        }
+        if quantity == "displacement":
+            item["measure"] = measure
+        out.append(item)
+    return out
+
+
+def _sweep(sweep: dict) -> dict[str, Any]:
+    if not isinstance(sweep, dict):
+        raise ValidationFailed("data.sweep", sweep, "must be an object")
+    out: dict[str, Any] = {
+        "direction": sweep.get("direction", "up"),
+        "sweeps": sweep.get("sweeps", 1),
+    }
+    if "rate_hz_per_s" in sweep:
+        out["rate_hz_per_s"] = sweep["rate_hz_per_s"]
+    else:
+        out["rate_oct_per_min"] = sweep.get("rate_oct_per_min", 2.0)
+    return out
+
+
+def sine_spec_of(spec: dict[str, Any]) -> core_sine.SineSpec:
+    bands = []
+    with core_errors():
+        for i, b in enumerate(spec["bands"]):
+            with core_errors(f"data.bands[{i}]."):
+                if b["quantity"] == "displacement":
+                    bands.append(
+                        core_sine.SineBand.displacement(
+                            b["f_lo_hz"], b["f_hi_hz"], b["amplitude"], measure=b["measure"]
+                        )
+                    )
+                else:
+                    bands.append(
+                        core_sine.SineBand(
+                            b["f_lo_hz"], b["f_hi_hz"], b["quantity"], b["amplitude"]
+                        )
+                    )
+        return core_sine.SineSpec(tuple(bands))
+
+
+def sweep_of(spec: dict[str, Any]) -> core_sine.Sweep:
+    sweep = spec["sweep"]
+    log = "rate_oct_per_min" in sweep
+    with core_errors("data.sweep."):
+        return core_sine.Sweep(
+            sine_spec_of(spec),
+            sweep["rate_oct_per_min"] if log else sweep["rate_hz_per_s"],
+            mode="log" if log else "linear",
+            direction=sweep["direction"],
+            n_sweeps=sweep["sweeps"],
+        )
+
+
+@dataclass(frozen=True)
+class Summary:
+    """Overall measures of one revision, each with its unit."""
+
+    values: dict[str, dict[str, Any]]
+
+    def as_dict(self) -> dict[str, dict[str, Any]]:
+        return self.values
+
+
+def summarise(kind: EnvironmentKind, spec: dict[str, Any], array: np.ndarray | None) -> Summary:
+    kind = EnvironmentKind(kind)
+    if kind is EnvironmentKind.random:
+        f, a = spec["freq_hz"], spec["asd_g2_hz"]
+        vals = {
+            "grms": {"value": core_psd.grms(f, a), "unit": "g rms"},
+            "peak_asd": {"value": max(a), "unit": "g^2/Hz"},
+            "band": {"value": [f[0], f[-1]], "unit": "Hz"},
+        }
+        if "duration_s" in spec:
+            vals["duration"] = {"value": spec["duration_s"], "unit": "s"}
+        return Summary(vals)
+    if kind is EnvironmentKind.shock:
+        return Summary(
+            {
+                "peak_srs": {"value": max(spec["accel_g"]), "unit": "g"},
+                "q": {"value": spec["q"], "unit": ""},
+                "band": {"value": [spec["freq_hz"][0], spec["freq_hz"][-1]], "unit": "Hz"},
+            }
+        )
+    if kind is EnvironmentKind.sine:
+        sweep = sweep_of(spec)
+        freq = np.geomspace(sweep.band_hz[0], sweep.band_hz[1], 400)
+        return Summary(
+            {
+                "peak_accel": {"value": float(sweep.spec.accel_g(freq).max()), "unit": "g peak"},
+                "band": {"value": list(sweep.band_hz), "unit": "Hz"},
+                "sweep_time": {"value": sweep.duration_s, "unit": "s"},
+            }
+        )
+    x = np.asarray(array, float)
+    return Summary(
+        {
+            "peak": {"value": float(np.max(np.abs(x))), "unit": "g"},
+            "rms": {"value": float(np.sqrt(np.mean(x * x))), "unit": "g rms"},
+            "duration": {"value": float(x.size * spec["dt_s"]), "unit": "s"},
+            "sample_rate": {"value": 1.0 / spec["dt_s"], "unit": "Hz"},
+        }
+    )
+
+
+def curve(
+    kind: EnvironmentKind, spec: dict[str, Any], array: np.ndarray | None, freq_hz: np.ndarray
+) -> np.ndarray | None:
+    """The revision's spectral curve on `freq_hz` (PSD g^2/Hz, SRS g, sine g peak)."""
+    kind = EnvironmentKind(kind)
+    if kind is EnvironmentKind.random:
+        return core_psd.asd_at(spec["freq_hz"], spec["asd_g2_hz"], freq_hz)
+    if kind is EnvironmentKind.shock:
+        return core_srs.SrsProfile(spec["freq_hz"], spec["accel_g"]).value_at(freq_hz)
+    if kind is EnvironmentKind.sine:
+        return sine_spec_of(spec).accel_g(freq_hz)
+    return None

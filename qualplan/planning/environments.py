@@ -1,0 +1,211 @@
+"""Environments and their immutable revisions: create, revise, list history, compare."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+from sqlalchemy.orm import Session
+
+from qualplan.dynamics.srs import octave_grid
+from qualplan.planning import envdata
+from qualplan.planning import schemas as s
+from qualplan.planning.access import Actor, record, require
+from qualplan.planning.catalog import _add_unique, get
+from qualplan.planning.errors import Conflict, NotFound, ValidationFailed, VersionMismatch
+from qualplan.store import models as m
+from qualplan.store.hashing import revision_hash
+from qualplan.store.repositories import EnvironmentRepository, RevisionRepository
+
+
+def create_environment(
+    session: Session, actor: Actor, cmd: s.EnvironmentCreate, array: np.ndarray | None = None
+) -> m.Environment:
+    """Create an environment with its first revision (data validated for its kind)."""
+    require(actor, m.Role.engineer, "creating an environment")
+    product = get(session, m.Product, cmd.product_id, "product")
+    if cmd.phase_id is not None:
+        phase = get(session, m.Phase, cmd.phase_id, "phase")
+        if phase.program_id != product.program_id:
+            raise ValidationFailed("phase_id", cmd.phase_id, "the phase belongs to another program")
+    spec, data = envdata.normalise(cmd.kind, cmd.data, array)
+    env = _add_unique(
+        session,
+        m.Environment(
+            product_id=cmd.product_id,
+            phase_id=cmd.phase_id,
+            name=cmd.name,
+            kind=cmd.kind,
+            axis=cmd.axis,
+            units=envdata.UNITS[cmd.kind],
+            source=cmd.source,
+            provenance=cmd.provenance,
+        ),
+        f"environment {cmd.name!r} of product {product.name!r}",
+    )
+    _append_revision(session, actor, env, spec, data, cmd.note or "first revision")
+    record(
+        session,
+        actor,
+        "create",
+        "environment",
+        env.id,
+        name=cmd.name,
+        kind=env.kind.value,
+        axis=env.axis.value,
+    )
+    return env
+
+
+def revise_environment(
+    session: Session,
+    actor: Actor,
+    environment_id: int,
+    cmd: s.RevisionIn,
+    array: np.ndarray | None = None,
+) -> m.EnvironmentRevision:
+    """Add a revision; refuse an identical content and a stale `expected_revision`."""
+    require(actor, m.Role.engineer, "revising an environment")
+    env = get(session, m.Environment, environment_id, "environment")
+    latest = RevisionRepository(session).latest(env.id)
+    if (
+        cmd.expected_revision is not None
+        and latest is not None
+        and latest.number != cmd.expected_revision
+    ):
+        raise VersionMismatch("environment", env.id, cmd.expected_revision, latest.number)
+    spec, data = envdata.normalise(env.kind, cmd.data, array)
+    if latest is not None and revision_hash(spec, data) == latest.content_hash:
+        raise Conflict(f"the data are identical to revision {latest.number}; nothing to revise")
+    return _append_revision(session, actor, env, spec, data, cmd.note)
+
+
+def _append_revision(
+    session: Session,
+    actor: Actor,
+    env: m.Environment,
+    spec: dict[str, Any],
+    data: np.ndarray | None,
+    note: str,
+) -> m.EnvironmentRevision:
+    repo = RevisionRepository(session)
+    rev = repo.add(
+        m.EnvironmentRevision(
+            environment_id=env.id,
+            number=repo.next_number(env.id),
+            spec=spec,
+            data=data,
+            content_hash=revision_hash(spec, data),
+            author=actor.name,
+            note=note,
+        )
+    )
+    record(
+        session,
+        actor,
+        "revise",
+        "environment",
+        env.id,
+        revision=rev.number,
+        content_hash=rev.content_hash,
+        note=note,
+    )
+    return rev
+
+
+def read_environment(session: Session, env: m.Environment) -> s.EnvironmentRead:
+    latest = RevisionRepository(session).latest(env.id)
+    out = s.EnvironmentRead.model_validate(env)
+    out.latest_revision = latest.number if latest else None
+    return out
+
+
+def list_environments(
+    session: Session,
+    *,
+    product_id: int | None = None,
+    kind: m.EnvironmentKind | None = None,
+    axis: m.Axis | None = None,
+) -> list[m.Environment]:
+    filters: dict[str, Any] = {}
+    if product_id is not None:
+        filters["product_id"] = product_id
+    if kind is not None:
+        filters["kind"] = kind
+    if axis is not None:
+        filters["axis"] = axis
+    return list(EnvironmentRepository(session).list(**filters))
+
+
+def read_revision(rev: m.EnvironmentRevision, kind: m.EnvironmentKind) -> s.RevisionRead:
+    return s.RevisionRead(
+        id=rev.id,
+        environment_id=rev.environment_id,
+        number=rev.number,
+        spec=rev.spec,
+        samples=None if rev.data is None else int(np.asarray(rev.data).size),
+        content_hash=rev.content_hash,
+        author=rev.author,
+        note=rev.note,
+        created_at=rev.created_at,
+        summary=envdata.summarise(kind, rev.spec, rev.data).as_dict(),
+    )
+
+
+def history(session: Session, environment_id: int) -> list[s.RevisionRead]:
+    env = get(session, m.Environment, environment_id, "environment")
+    return [read_revision(r, env.kind) for r in RevisionRepository(session).history(env.id)]
+
+
+def revision(session: Session, environment_id: int, number: int) -> m.EnvironmentRevision:
+    for rev in RevisionRepository(session).history(environment_id):
+        if rev.number == number:
+            return rev
+    raise NotFound("revision", f"{environment_id}/{number}")
+
+
+def compare(session: Session, environment_id: int, a: int, b: int) -> s.RevisionComparison:
+    """Compare two revisions: overall measures and the largest difference in dB."""
+    env = get(session, m.Environment, environment_id, "environment")
+    ra, rb = revision(session, env.id, a), revision(session, env.id, b)
+    out = s.RevisionComparison(
+        environment_id=env.id,
+        a=a,
+        b=b,
+        kind=env.kind,
+        a_summary=envdata.summarise(env.kind, ra.spec, ra.data).as_dict(),
+        b_summary=envdata.summarise(env.kind, rb.spec, rb.data).as_dict(),
+        max_difference_db=None,
+        max_difference_at_hz=None,
+    )
+    if env.kind is m.EnvironmentKind.time_history:
+        out.notes.append("time histories are compared by their overall measures only")
+        return out
+    lo = max(_band(env.kind, ra.spec)[0], _band(env.kind, rb.spec)[0])
+    hi = min(_band(env.kind, ra.spec)[1], _band(env.kind, rb.spec)[1])
+    if lo >= hi:
+        out.notes.append("the two revisions share no frequency band")
+        return out
+    grid = octave_grid(lo, hi, 24)
+    grid = grid[(grid >= lo) & (grid <= hi)]
+    va = envdata.curve(env.kind, ra.spec, ra.data, grid)
+    vb = envdata.curve(env.kind, rb.spec, rb.data, grid)
+    ok = (va > 0) & (vb > 0)
+    if not ok.any():
+        out.notes.append("no common frequency with both curves above zero")
+        return out
+    scale = 10.0 if env.kind is m.EnvironmentKind.random else 20.0  # power vs amplitude dB
+    diff = scale * np.log10(vb[ok] / va[ok])
+    i = int(np.argmax(np.abs(diff)))
+    out.max_difference_db = float(diff[i])
+    out.max_difference_at_hz = float(grid[ok][i])
+    out.notes.append(
+        f"dB = {'10' if scale == 10 else '20'} log10(b/a) on a 1/24-octave grid, {lo:g}-{hi:g} Hz"
+    )
+    return out
+
+
+def _band(kind: m.EnvironmentKind, spec: dict[str, Any]) -> tuple[float, float]:
+    if kind is m.EnvironmentKind.sine:
+        return spec["bands"][0]["f_lo_hz"], spec["bands"][-1]["f_hi_hz"]
+    return spec["freq_hz"][0], spec["freq_hz"][-1]

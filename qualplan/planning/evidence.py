@@ -1,0 +1,301 @@
+"""Evidence against a requirement: analysis results, test records, similarity, inspection.
+
+Evidence is append-only and carries the hash of the level it was made against, so a
+later change of the level's inputs turns the requirement stale rather than silently
+verified. Test records are checked automatically against the level's tolerances.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+from sqlalchemy.orm import Session
+
+from qualplan.dynamics import psd as core_psd
+from qualplan.dynamics import srs as core_srs
+from qualplan.dynamics.units import db_amplitude
+from qualplan.planning import envdata
+from qualplan.planning import schemas as s
+from qualplan.planning.access import Actor, record, require
+from qualplan.planning.catalog import get
+from qualplan.planning.errors import Conflict, ValidationFailed
+from qualplan.planning.requirements import status_of
+from qualplan.store import models as m
+from qualplan.store.repositories import EvidenceRepository
+
+
+def _add(
+    session: Session,
+    actor: Actor,
+    req: m.Requirement,
+    kind: m.EvidenceKind,
+    verdict: m.Verdict,
+    summary: dict[str, Any],
+    *,
+    achieved: float | None = None,
+    data: np.ndarray | None = None,
+    similar: int | None = None,
+    rationale: str = "",
+) -> m.Evidence:
+    ev = EvidenceRepository(session).add(
+        m.Evidence(
+            requirement_id=req.id,
+            kind=kind,
+            level_id=req.level_id,
+            level_hash=req.level.level_hash if req.level is not None else None,
+            verdict=verdict,
+            achieved_margin=achieved,
+            summary=summary,
+            data=data,
+            similar_requirement_id=similar,
+            rationale=rationale,
+            author=actor.name,
+        )
+    )
+    session.refresh(req, ["evidence"])
+    record(
+        session,
+        actor,
+        "add-evidence",
+        "requirement",
+        req.id,
+        key=req.key,
+        evidence=ev.id,
+        kind=kind.value,
+        verdict=verdict.value,
+    )
+    return ev
+
+
+def add_analysis(
+    session: Session, actor: Actor, requirement_id: int, cmd: s.AnalysisEvidenceIn
+) -> m.Evidence:
+    """An analysis result: margin of safety MS = allowable / (FS x applied) - 1."""
+    require(actor, m.Role.engineer, "adding evidence")
+    req = get(session, m.Requirement, requirement_id, "requirement")
+    if cmd.applied <= 0:
+        raise ValidationFailed(
+            "applied", cmd.applied, "must be > 0 (same sign convention as the allowable)"
+        )
+    if cmd.allowable <= 0:
+        raise ValidationFailed("allowable", cmd.allowable, "must be > 0")
+    ms = cmd.allowable / (cmd.factor_of_safety * cmd.applied) - 1.0
+    ok = ms >= req.required_margin
+    summary = {
+        "applied": {"value": cmd.applied, "unit": cmd.units},
+        "allowable": {"value": cmd.allowable, "unit": cmd.units},
+        "factor_of_safety": cmd.factor_of_safety,
+        "margin_of_safety": ms,
+        "reason": f"MS = {cmd.allowable:g} / ({cmd.factor_of_safety:g} x {cmd.applied:g}) - 1 "
+        f"= {ms:+.3f} ({'>=' if ok else '<'} required {req.required_margin:+.3f})",
+        "note": cmd.note,
+    }
+    return _add(
+        session,
+        actor,
+        req,
+        m.EvidenceKind.analysis,
+        m.Verdict.passed if ok else m.Verdict.failed,
+        summary,
+        achieved=ms,
+    )
+
+
+def add_test_record(
+    session: Session, actor: Actor, requirement_id: int, cmd: s.TestEvidenceIn
+) -> m.Evidence:
+    """An achieved control spectrum checked against the requirement's level."""
+    require(actor, m.Role.engineer, "adding evidence")
+    req = get(session, m.Requirement, requirement_id, "requirement")
+    if req.level is None:
+        raise ValidationFailed("requirement", req.key, "points at no level to test against")
+    level = req.level
+    if level.purpose is not m.LevelPurpose.test:
+        raise ValidationFailed("requirement", req.key, "its level is an analysis level")
+    f = np.asarray(cmd.freq_hz, float)
+    v = np.asarray(cmd.values, float)
+    if f.size != v.size:
+        raise ValidationFailed("values", f"{v.size} values", f"must match freq_hz ({f.size})")
+    with envdata.core_errors(""):
+        if level.kind is m.EnvironmentKind.random:
+            verdict, summary, achieved = _check_random(level.result, f, v, cmd.duration_s)
+        elif level.kind is m.EnvironmentKind.shock:
+            verdict, summary, achieved = _check_shock(level.result, f, v, cmd.shocks)
+        else:
+            verdict, summary, achieved = _check_sine(level.result, f, v)
+    summary["note"] = cmd.note
+    return _add(
+        session,
+        actor,
+        req,
+        m.EvidenceKind.test,
+        verdict,
+        summary,
+        achieved=achieved,
+        data=np.vstack([f, v]),
+    )
+
+
+def _verdict(ok: bool) -> m.Verdict:
+    return m.Verdict.passed if ok else m.Verdict.failed
+
+
+def _check_random(level: dict, f, v, duration_s):
+    chk = core_psd.check_against(
+        f,
+        v,
+        level["freq_hz"],
+        level["asd_g2_hz"],
+        tolerance_db=level["tolerance_db"],
+        grms_tolerance_pct=level["grms_tolerance_pct"],
+    )
+    problems = []
+    if not chk.passed:
+        problems.append(chk.reason)
+    required_s = level["duration_s"] * (1 - level["duration_tolerance_pct"] / 100)
+    if duration_s is None:
+        problems.append("no test duration given")
+    elif duration_s < required_s:
+        problems.append(
+            f"duration {duration_s:g} s is shorter than the required "
+            f"{level['duration_s']:g} s (-{level['duration_tolerance_pct']:g} %)"
+        )
+    achieved = db_amplitude(chk.grms / level["limit"]["grms"])
+    summary = {
+        "check": chk.as_dict(),
+        "achieved_grms": {"value": chk.grms, "unit": "g rms"},
+        "required_grms": {"value": level["grms"], "unit": "g rms"},
+        "duration": {"value": duration_s, "unit": "s"},
+        "achieved_margin_db": {"value": achieved, "unit": "dB over the limit level (g rms)"},
+        "reason": "; ".join(problems)
+        if problems
+        else f"within +/-{level['tolerance_db']:g} dB at every line, g rms "
+        f"{chk.grms:.3g} g within +/-{level['grms_tolerance_pct']:g} %, "
+        f"duration {duration_s:g} s",
+    }
+    return _verdict(not problems), summary, achieved
+
+
+def _check_shock(level: dict, f, v, shocks):
+    nominal = core_srs.SrsProfile(level["freq_hz"], level["accel_g"])
+    chk = core_srs.check_srs(
+        f,
+        v,
+        nominal,
+        lower_db=level["lower_db"],
+        upper_db=level["upper_db"],
+        min_fraction_above=level["min_fraction_above_nominal"],
+    )
+    problems = [] if chk.passed else [chk.reason]
+    need = level["shocks_per_axis"]
+    if shocks is None:
+        problems.append("the number of shocks applied is not given")
+    elif shocks < need:
+        problems.append(f"{shocks} shocks applied, {need} required per axis")
+    limit = core_srs.SrsProfile(level["limit"]["freq_hz"], level["limit"]["accel_g"])
+    inside = (f >= limit.freq_hz[0]) & (f <= limit.freq_hz[-1])
+    achieved = (
+        float(np.mean(20 * np.log10(v[inside] / limit.value_at(f[inside]))))
+        if inside.any()
+        else None
+    )
+    summary = {
+        "check": chk.as_dict(),
+        "shocks": shocks,
+        "shocks_required": need,
+        "achieved_margin_db": {"value": achieved, "unit": "dB over the limit SRS (mean)"},
+        "reason": "; ".join(problems) if problems else chk.reason,
+    }
+    return _verdict(not problems), summary, achieved
+
+
+def _check_sine(level: dict, f, v):
+    ref_f, ref_a = np.asarray(level["freq_hz"]), np.asarray(level["accel_g"])
+    inside = (f >= ref_f[0]) & (f <= ref_f[-1])
+    if not inside.any():
+        raise ValidationFailed(
+            "freq_hz",
+            [float(f[0]), float(f[-1])],
+            f"no point inside the level's band {ref_f[0]:g}-{ref_f[-1]:g} Hz",
+        )
+    nominal = np.exp(np.interp(np.log(f[inside]), np.log(ref_f), np.log(ref_a)))
+    ratio = v[inside] / nominal
+    tol = level["tolerance_pct"] / 100
+    bad = np.abs(ratio - 1) > tol
+    worst = int(np.argmax(np.abs(ratio - 1)))
+    lim_a = np.exp(
+        np.interp(
+            np.log(f[inside]), np.log(level["limit"]["freq_hz"]), np.log(level["limit"]["accel_g"])
+        )
+    )
+    achieved = float(np.min(20 * np.log10(v[inside] / lim_a)))
+    reason = (
+        f"{int(bad.sum())} of {int(inside.sum())} points outside +/-{level['tolerance_pct']:g}"
+        f" %; worst {100 * (ratio[worst] - 1):+.1f} % at {f[inside][worst]:g} Hz"
+        if bad.any()
+        else f"within +/-{level['tolerance_pct']:g} % at every point"
+    )
+    summary = {
+        "points": int(inside.sum()),
+        "points_outside": int(bad.sum()),
+        "worst_freq_hz": float(f[inside][worst]),
+        "worst_pct": float(100 * (ratio[worst] - 1)),
+        "achieved_margin_db": {"value": achieved, "unit": "dB over the limit (minimum)"},
+        "reason": reason,
+    }
+    return _verdict(not bad.any()), summary, achieved
+
+
+def add_similarity(
+    session: Session, actor: Actor, requirement_id: int, cmd: s.SimilarityEvidenceIn
+) -> m.Evidence:
+    """Claim similarity to another product's requirement (it must be verified now)."""
+    require(actor, m.Role.engineer, "adding evidence")
+    req = get(session, m.Requirement, requirement_id, "requirement")
+    other = get(session, m.Requirement, cmd.similar_requirement_id, "requirement")
+    if other.id == req.id:
+        raise ValidationFailed("similar_requirement_id", other.id, "must be another requirement")
+    st = status_of(session, other)
+    if st.status != "verified":
+        raise Conflict(
+            f"requirement {other.key} is {st.status}, not verified: it cannot carry "
+            "a similarity claim"
+        )
+    summary = {
+        "similar_to": other.key,
+        "similar_product_id": other.product_id,
+        "reason": f"similar to {other.key} (verified): {cmd.rationale}",
+    }
+    return _add(
+        session,
+        actor,
+        req,
+        m.EvidenceKind.similarity,
+        m.Verdict.passed,
+        summary,
+        similar=other.id,
+        rationale=cmd.rationale,
+    )
+
+
+def add_inspection(
+    session: Session, actor: Actor, requirement_id: int, cmd: s.InspectionEvidenceIn
+) -> m.Evidence:
+    require(actor, m.Role.engineer, "adding evidence")
+    req = get(session, m.Requirement, requirement_id, "requirement")
+    summary = {"reason": f"inspection {'passed' if cmd.passed else 'failed'}: {cmd.note}"}
+    return _add(
+        session,
+        actor,
+        req,
+        m.EvidenceKind.inspection,
+        _verdict(cmd.passed),
+        summary,
+        rationale=cmd.note,
+    )
+
+
+def list_evidence(session: Session, requirement_id: int) -> list[m.Evidence]:
+    get(session, m.Requirement, requirement_id, "requirement")
+    return list(EvidenceRepository(session).for_requirement(requirement_id))

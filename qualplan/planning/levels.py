@@ -1,0 +1,521 @@
+"""Derive test and analysis levels from environment revisions, and keep them honest.
+
+A level stores its recipe, its result and the content hash of every input (the
+environment revisions it was made from, the life cycle it was checked against, and
+the margin policy's rules). Levels are immutable: deriving again makes the next
+number. A level whose inputs have changed since is *stale*, never silently different.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+from sqlalchemy.orm import Session
+
+from qualplan.dynamics import psd as core_psd
+from qualplan.dynamics import sdof as core_sdof
+from qualplan.dynamics import sine as core_sine
+from qualplan.dynamics import srs as core_srs
+from qualplan.dynamics import stats as core_stats
+from qualplan.dynamics.units import from_db_amplitude
+from qualplan.planning import coverage as cov
+from qualplan.planning import envdata
+from qualplan.planning import schemas as s
+from qualplan.planning.access import Actor, record, require
+from qualplan.planning.catalog import get
+from qualplan.planning.errors import ValidationFailed
+from qualplan.planning.policies import rules_of
+from qualplan.store import models as m
+from qualplan.store.hashing import json_hash
+from qualplan.store.repositories import LevelRepository, ProductRepository, RevisionRepository
+
+K = m.EnvironmentKind
+#: Natural-frequency grid of SRS computed from time histories: 1/6 octave (common practice).
+SRS_POINTS_PER_OCTAVE = 6
+
+
+@dataclass(frozen=True)
+class Input:
+    """One environment revision chosen for a level, with its environment."""
+
+    revision: m.EnvironmentRevision
+    environment: m.Environment
+
+    @property
+    def label(self) -> str:
+        return f"{self.environment.name} r{self.revision.number}"
+
+
+def _inputs(session: Session, recipe: s.LevelRecipe, product: m.Product) -> list[Input]:
+    allowed_products = set(_lineage(session, product))
+    out = []
+    for i, rid in enumerate(recipe.revision_ids):
+        rev = get(session, m.EnvironmentRevision, rid, "environment revision")
+        env = rev.environment
+        field = f"revision_ids[{i}]"
+        if env.product_id not in allowed_products:
+            raise ValidationFailed(
+                field,
+                rid,
+                f"environment {env.name!r} belongs to another "
+                "product (not this one or one of its parents)",
+            )
+        if env.axis not in (recipe.axis, m.Axis.all) and recipe.axis is not m.Axis.all:
+            raise ValidationFailed(
+                field,
+                rid,
+                f"environment {env.name!r} is on axis "
+                f"{env.axis.value}, the level on {recipe.axis.value}",
+            )
+        usable = {
+            "random": (K.random, K.time_history),
+            "shock": (K.shock, K.time_history),
+            "sine": (K.sine,),
+        }[recipe.kind]
+        if env.kind not in usable:
+            raise ValidationFailed(
+                field, rid, f"a {env.kind.value} environment cannot make a {recipe.kind} level"
+            )
+        out.append(Input(rev, env))
+    return out
+
+
+def _lineage(session: Session, product: m.Product) -> list[int]:
+    """The product and its ancestors (an environment of a parent applies to its units)."""
+    ids, p = [], product
+    while p is not None:
+        ids.append(p.id)
+        p = session.get(m.Product, p.parent_id) if p.parent_id else None
+    return ids
+
+
+def exposure(env: m.Environment, rev: m.EnvironmentRevision) -> tuple[float, str]:
+    """Exposure of one environment over the life: seconds (random, sine, records) or
+    occurrences (shock), from the revision's own duration or its phase."""
+    phase = env.phase
+    occurrences = phase.occurrences if phase else 1
+    if env.kind is K.shock:
+        return float(rev.spec.get("count", 1) * occurrences), "shocks"
+    if env.kind is K.sine:
+        return float(occurrences), "sweeps"
+    if env.kind is K.time_history:
+        if "duration_s" in rev.spec or phase is not None:
+            record_s = np.asarray(rev.data).size * rev.spec["dt_s"]
+            total = rev.spec.get("duration_s", phase.duration_s if phase else record_s)
+            return float(total * occurrences / record_s), "passes of the record"
+        return float(occurrences), "passes of the record"
+    per = rev.spec.get("duration_s", phase.duration_s if phase else None)
+    if per is None:
+        raise ValidationFailed(
+            "duration_s", None, f"environment {env.name!r} has neither a duration nor a phase"
+        )
+    return float(per * occurrences), "s"
+
+
+# --- combination ----------------------------------------------------------------------
+
+
+def _random_curves(inputs: list[Input]) -> list[tuple[np.ndarray, np.ndarray]]:
+    from qualplan.dynamics import signal as core_signal
+
+    curves = []
+    for item in inputs:
+        if item.environment.kind is K.random:
+            curves.append(
+                (
+                    np.asarray(item.revision.spec["freq_hz"]),
+                    np.asarray(item.revision.spec["asd_g2_hz"]),
+                )
+            )
+        else:
+            x, dt = np.asarray(item.revision.data), item.revision.spec["dt_s"]
+            est = core_signal.maximax_psd(x, 1.0 / dt)
+            keep = (est.freq_hz > 0) & (est.asd_g2_hz > 0)
+            curves.append((est.freq_hz[keep], est.asd_g2_hz[keep]))
+    return curves
+
+
+def _shock_curves(inputs: list[Input], q: float) -> list[tuple[np.ndarray, np.ndarray]]:
+    curves = []
+    for item in inputs:
+        spec = item.revision.spec
+        if item.environment.kind is K.shock:
+            if abs(spec["q"] - q) > 1e-9:
+                raise ValidationFailed(
+                    "revision_ids",
+                    item.revision.id,
+                    f"SRS {item.label} is at Q = {spec['q']:g}, the policy asks Q = {q:g}",
+                )
+            curves.append((np.asarray(spec["freq_hz"]), np.asarray(spec["accel_g"])))
+        else:
+            x, dt = np.asarray(item.revision.data), spec["dt_s"]
+            hi = min(10_000.0, 0.1 / dt)
+            grid = core_srs.octave_grid(10.0, hi, SRS_POINTS_PER_OCTAVE)
+            curves.append((grid, core_srs.srs(x, dt, grid, q=q, kind="maximax")))
+    return curves
+
+
+def _statistical(curves, power: bool) -> tuple[np.ndarray, np.ndarray, dict[str, Any]]:
+    """P95/50 of several spectra on their common band (1/24-octave grid)."""
+    if len(curves) < 2:
+        raise ValidationFailed("combination", "p95_50", "needs at least 2 measured spectra")
+    lo = max(c[0][0] for c in curves)
+    hi = min(c[0][-1] for c in curves)
+    if lo >= hi:
+        raise ValidationFailed("revision_ids", "spectra", "the spectra share no frequency band")
+    grid = core_srs.octave_grid(lo, hi, 24)
+    grid = np.unique(np.clip(grid, lo, hi))
+    values = np.vstack([np.interp(np.log(grid), np.log(f), np.log(v)) for f, v in curves])
+    limits = core_stats.log_tolerance_limits(np.exp(values))
+    info = {
+        "n": limits.n,
+        "k_factor": limits.k_factor,
+        "method": "normal tolerance limit on log10 values, 95 % coverage, 50 % "
+        "confidence (NASA-HDBK-7005)",
+    }
+    return grid, np.asarray(limits.upper), info
+
+
+def _simplified(freq, values, max_points: int, *, power: bool):
+    """Conservative simplification; amplitudes (SRS) are simplified as their squares."""
+    if len(freq) <= max_points:
+        return np.asarray(freq), np.asarray(values), 0.0
+    work = values if power else np.asarray(values) ** 2
+    f2, v2 = core_psd.simplify(freq, work, max_points)
+    excess_db = 10 * np.log10(core_psd.grms(f2, v2) ** 2 / core_psd.grms(freq, work) ** 2)
+    return f2, (v2 if power else np.sqrt(v2)), float(excess_db * (1 if power else 0.5))
+
+
+def derive_random(
+    recipe: s.LevelRecipe, rules: s.PolicyRules, inputs: list[Input], life_s: float
+) -> dict[str, Any]:
+    curves = _random_curves(inputs)
+    steps: list[dict[str, Any]] = []
+    if recipe.combination == "envelope":
+        f, a = core_psd.envelope(curves) if len(curves) > 1 else curves[0]
+        steps.append({"step": "maximum envelope", "inputs": [i.label for i in inputs]})
+    else:
+        f, a, info = _statistical(curves, power=True)
+        steps.append({"step": "P95/50", **info})
+    f, a, excess = _simplified(f, a, recipe.max_breakpoints, power=True)
+    limit = {"freq_hz": f.tolist(), "asd_g2_hz": a.tolist(), "grms": core_psd.grms(f, a)}
+    steps.append(
+        {
+            "step": "conservative simplification",
+            "max_breakpoints": recipe.max_breakpoints,
+            "excess_db": excess,
+        }
+    )
+    if recipe.purpose is m.LevelPurpose.analysis:
+        margin = rules.analysis.margin_db
+        f, a = core_psd.scale_db(f, a, margin)
+        steps.append({"step": "analysis margin", "db": margin, "basis": rules.analysis.basis})
+        out = {
+            "freq_hz": f.tolist(),
+            "asd_g2_hz": a.tolist(),
+            "grms": core_psd.grms(f, a),
+            "limit": limit,
+            "steps": steps,
+            "life_exposure_s": life_s,
+        }
+        if recipe.load_factor_fn_hz:
+            fn, q = recipe.load_factor_fn_hz, recipe.load_factor_q
+            g_fn = float(core_psd.asd_at(f, a, fn))
+            rms = float(core_sdof.miles_grms(fn, q, g_fn))
+            out["load_factor"] = {
+                "fn_hz": fn,
+                "q": q,
+                "asd_at_fn_g2_hz": g_fn,
+                "miles_grms": rms,
+                "three_sigma_g": 3 * rms,
+                "method": "Miles' equation, 3 sigma",
+            }
+        return out
+    rule = rules.random[recipe.grade]
+    f, a = core_psd.scale_db(f, a, rule.margin_db)
+    steps.append({"step": "margin", "db": rule.margin_db, "basis": rule.basis})
+    duration, compression = _random_duration(rule, life_s)
+    if compression is not None:
+        f, a = core_psd.scale_db(f, a, compression["db"])
+        steps.append({"step": "time compression", **compression})
+    if rule.minimum_profile:
+        mf, ma = rule.minimum_profile["freq_hz"], rule.minimum_profile["asd_g2_hz"]
+        floor_grms = core_psd.grms(mf, ma)
+        ef, ea = core_psd.envelope([(f, a), (mf, ma)])
+        raised = not np.allclose(core_psd.asd_at(ef, ea, ef), core_psd.asd_at(f, a, ef))
+        if raised:
+            f, a, _ = _simplified(ef, ea, recipe.max_breakpoints, power=True)
+        steps.append({"step": "minimum level", "floor_grms": floor_grms, "raised": bool(raised)})
+    return {
+        "freq_hz": list(map(float, f)),
+        "asd_g2_hz": list(map(float, a)),
+        "grms": core_psd.grms(f, a),
+        "slopes_db_per_oct": core_psd.slopes_db_per_oct(f, a).tolist(),
+        "duration_s": duration,
+        "tolerance_db": rule.tolerance_db,
+        "grms_tolerance_pct": rule.grms_tolerance_pct,
+        "duration_tolerance_pct": rule.duration_tolerance_pct,
+        "shaker": _shaker(f, a),
+        "limit": limit,
+        "steps": steps,
+        "life_exposure_s": life_s,
+    }
+
+
+def _shaker(f, a) -> dict[str, Any]:
+    d = core_psd.shaker_demand(f, a)
+    return {
+        "velocity_rms_m_s": d.velocity_rms_m_s,
+        "displacement_rms_m": d.displacement_rms_m,
+        "displacement_peak_m": d.displacement_peak_m,
+        "displacement_pk_pk_m": d.displacement_pk_pk_m,
+    }
+
+
+def _random_duration(rule: s.RandomRule, life_s: float):
+    """Test duration per axis and, under an inverse power law, the level increase."""
+    if rule.compression_exponent and rule.duration_s:
+        t = rule.duration_s
+        if life_s > t:
+            factor = (life_s / t) ** (2.0 / rule.compression_exponent)
+            return t, {
+                "db": float(10 * np.log10(factor)),
+                "life_s": life_s,
+                "test_s": t,
+                "exponent": rule.compression_exponent,
+                "method": "inverse power law, W2/W1 = (T1/T2)^(2/m) "
+                "(MIL-STD-810H Method 514.8 Annex A)",
+            }
+        return life_s, None
+    if rule.duration_factor:
+        return rule.duration_factor * life_s, None
+    if rule.duration_s:
+        return rule.duration_s, None
+    return life_s, None
+
+
+def derive_shock(
+    recipe: s.LevelRecipe, rules: s.PolicyRules, inputs: list[Input]
+) -> dict[str, Any]:
+    rule = rules.shock[recipe.grade]
+    curves = _shock_curves(inputs, rule.q)
+    steps: list[dict[str, Any]] = []
+    if recipe.combination == "envelope":
+        if len(curves) > 1:
+            env = core_srs.srs_envelope([core_srs.SrsProfile(f, v) for f, v in curves])
+            f, v = env.freq_hz, env.accel_g
+        else:
+            f, v = curves[0]
+        steps.append({"step": "maximum envelope", "inputs": [i.label for i in inputs]})
+    else:
+        f, v, info = _statistical(curves, power=False)
+        steps.append({"step": "P95/50", **info})
+    f, v, excess = _simplified(f, v, recipe.max_breakpoints, power=False)
+    steps.append(
+        {
+            "step": "conservative simplification",
+            "max_breakpoints": recipe.max_breakpoints,
+            "excess_db": excess,
+        }
+    )
+    limit = {"freq_hz": list(map(float, f)), "accel_g": list(map(float, v))}
+    margin = (
+        rules.analysis.margin_db if recipe.purpose is m.LevelPurpose.analysis else rule.margin_db
+    )
+    v = np.asarray(v) * from_db_amplitude(margin)
+    steps.append({"step": "margin", "db": margin})
+    directions = 2 if rule.directions == "both" else 1
+    return {
+        "freq_hz": list(map(float, f)),
+        "accel_g": list(map(float, v)),
+        "q": rule.q,
+        "slopes_db_per_oct": core_srs.SrsProfile(f, v).slopes_db_per_oct().tolist(),
+        "lower_db": rule.lower_db,
+        "upper_db": rule.upper_db,
+        "min_fraction_above_nominal": rule.min_fraction_above_nominal,
+        "shocks_per_direction": rule.shocks_per_direction,
+        "directions": rule.directions,
+        "shocks_per_axis": rule.shocks_per_direction * directions,
+        "steps": steps,
+        "limit": limit,
+    }
+
+
+def derive_sine(recipe: s.LevelRecipe, rules: s.PolicyRules, inputs: list[Input]) -> dict[str, Any]:
+    rule = rules.sine[recipe.grade]
+    if recipe.purpose is m.LevelPurpose.analysis:
+        factor = from_db_amplitude(rules.analysis.margin_db)
+    else:
+        factor = rule.factor
+    specs = [envdata.sine_spec_of(i.revision.spec) for i in inputs]
+    steps: list[dict[str, Any]] = [
+        {"step": "maximum envelope", "inputs": [i.label for i in inputs]}
+    ]
+    out: dict[str, Any] = {}
+    if len(specs) == 1:
+        bands = [
+            dict(b, amplitude=b["amplitude"] * factor) for b in inputs[0].revision.spec["bands"]
+        ]
+        out["bands"] = bands
+        spec = envdata.sine_spec_of({"bands": bands})
+        table_f = np.unique(
+            np.concatenate([spec.breaks_hz, np.geomspace(spec.f_lo_hz, spec.f_hi_hz, 49)])
+        )
+        table_a = spec.accel_g(table_f)
+    else:
+        table = core_sine.envelope(specs)
+        table_f, table_a = table.freq_hz, table.accel_g_points * factor
+    steps.append({"step": "factor", "factor": factor, "basis": rule.basis})
+    out.update(
+        {
+            "freq_hz": list(map(float, table_f)),
+            "accel_g": list(map(float, table_a)),
+            "sweep_rate_oct_per_min": rule.sweep_rate_oct_per_min,
+            "direction": rule.direction,
+            "sweeps": rule.sweeps,
+            "tolerance_pct": rule.tolerance_pct,
+            "steps": steps,
+            "limit": {
+                "freq_hz": list(map(float, table_f)),
+                "accel_g": list(map(float, np.asarray(table_a) / factor)),
+            },
+        }
+    )
+    sweep = core_sine.Sweep(
+        core_sine.SineTable(table_f, table_a),
+        rule.sweep_rate_oct_per_min,
+        direction=rule.direction,
+        n_sweeps=rule.sweeps,
+    )
+    out["sweep_time_s"] = sweep.duration_s
+    out["peak_accel_g"] = float(np.max(table_a))
+    return out
+
+
+# --- the use case ---------------------------------------------------------------------
+
+
+def derive_level(session: Session, actor: Actor, recipe: s.LevelRecipe) -> m.Level:
+    """Derive a level from a recipe; store it with its inputs' hashes and coverage."""
+    require(actor, m.Role.engineer, "deriving a level")
+    product = get(session, m.Product, recipe.product_id, "product")
+    policy = get(session, m.MarginPolicy, recipe.policy_id, "policy")
+    rules = rules_of(policy)
+    inputs = _inputs(session, recipe, product)
+    life = cov.life_cycle(session, product, recipe.axis)
+    with envdata.core_errors(""):
+        if recipe.kind == "random":
+            life_s = (
+                sum(
+                    exposure(i.environment, i.revision)[0]
+                    for i in inputs
+                    if i.environment.kind is K.random
+                )
+                or 0.0
+            )
+            result = derive_random(recipe, rules, inputs, life_s)
+        elif recipe.kind == "shock":
+            result = derive_shock(recipe, rules, inputs)
+        else:
+            result = derive_sine(recipe, rules, inputs)
+        if recipe.purpose is m.LevelPurpose.test:
+            result["coverage"] = cov.coverage_of_level(recipe.kind, result, life, rules)
+    hashes = {
+        "revisions": {str(i.revision.id): i.revision.content_hash for i in inputs},
+        "life_cycle": {str(x.revision.id): x.revision.content_hash for x in life},
+        "policy": {"id": policy.id, "rules_hash": json_hash(policy.rules)},
+    }
+    recipe_json = recipe.model_dump(mode="json")
+    repo = LevelRepository(session)
+    level = repo.add(
+        m.Level(
+            product_id=product.id,
+            policy_id=policy.id,
+            name=recipe.name,
+            number=repo.next_number(product.id, recipe.name),
+            purpose=recipe.purpose,
+            grade=recipe.grade,
+            kind=K(recipe.kind),
+            axis=recipe.axis,
+            recipe=recipe_json,
+            result=_json_safe(result),
+            input_hashes=hashes,
+            level_hash=json_hash({"recipe": recipe_json, "inputs": hashes}),
+            author=actor.name,
+        )
+    )
+    record(
+        session,
+        actor,
+        "derive",
+        "level",
+        level.id,
+        name=level.name,
+        number=level.number,
+        level_hash=level.level_hash,
+    )
+    return level
+
+
+def _json_safe(value):
+    if isinstance(value, dict):
+        return {str(k): _json_safe(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_json_safe(v) for v in value]
+    if isinstance(value, np.ndarray):
+        return [_json_safe(v) for v in value.tolist()]
+    if isinstance(value, np.floating | np.integer | np.bool_):
+        return value.item()
+    if isinstance(value, float) and not np.isfinite(value):
+        return None
+    return value
+
+
+def staleness(session: Session, level: m.Level) -> list[str]:
+    """Why a level no longer reflects its inputs (empty when it is current)."""
+    reasons = []
+    revs = RevisionRepository(session)
+    used = {**level.input_hashes.get("revisions", {}), **level.input_hashes.get("life_cycle", {})}
+    for rid in used:
+        rev = revs.get(int(rid))
+        latest = revs.latest(rev.environment_id)
+        if latest is not None and latest.number != rev.number:
+            reasons.append(
+                f"environment {rev.environment.name!r} has revision {latest.number}, "
+                f"the level used revision {rev.number}"
+            )
+    policy = session.get(m.MarginPolicy, level.input_hashes["policy"]["id"])
+    if policy is None or json_hash(policy.rules) != level.input_hashes["policy"]["rules_hash"]:
+        reasons.append("the margin policy's rules changed since the level was derived")
+    if level.purpose is m.LevelPurpose.test:
+        product = session.get(m.Product, level.product_id)
+        known = set(level.input_hashes.get("life_cycle", {}))
+        for x in cov.life_cycle(session, product, level.axis):
+            if str(x.revision.id) not in known and str(x.revision.id) not in used:
+                if x.revision.number == 1:
+                    reasons.append(
+                        f"environment {x.environment.name!r} joined the life cycle "
+                        "after the level was derived"
+                    )
+    return reasons
+
+
+def read_level(session: Session, level: m.Level) -> s.LevelRead:
+    out = s.LevelRead.model_validate(level)
+    out.stale_reasons = staleness(session, level)
+    out.stale = bool(out.stale_reasons)
+    return out
+
+
+def list_levels(session: Session, product_id: int | None = None) -> list[m.Level]:
+    return list(
+        LevelRepository(session).list(
+            **({"product_id": product_id} if product_id is not None else {})
+        )
+    )
+
+
+def products_in_scope(session: Session, product_id: int) -> list[int]:
+    return ProductRepository(session).subtree_ids(product_id)

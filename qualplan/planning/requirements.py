@@ -1,0 +1,228 @@
+"""Requirements, their evidence, waivers, and the computed status.
+
+Status is computed, never typed: ``waived`` (an approver's waiver in force),
+``open`` (no evidence), ``stale`` (the newest evidence was made against a level
+whose hash differs from the requirement's current level, or the level's inputs
+changed since), ``failed`` (the newest evidence fails) or ``verified``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from datetime import UTC, datetime
+
+from sqlalchemy import select
+from sqlalchemy.exc import IntegrityError
+from sqlalchemy.orm import Session
+
+from qualplan.planning import schemas as s
+from qualplan.planning.access import Actor, record, require
+from qualplan.planning.catalog import get
+from qualplan.planning.errors import Conflict, NotFound, ValidationFailed, VersionMismatch
+from qualplan.store import models as m
+from qualplan.store.types import utcnow
+
+
+@dataclass(frozen=True)
+class StatusOf:
+    status: s.Status
+    reason: str
+    evidence: m.Evidence | None
+    waiver: m.Waiver | None = None
+
+
+def create_requirement(session: Session, actor: Actor, cmd: s.RequirementCreate) -> m.Requirement:
+    require(actor, m.Role.engineer, "creating a requirement")
+    get(session, m.Program, cmd.program_id, "program")
+    product = get(session, m.Product, cmd.product_id, "product")
+    if product.program_id != cmd.program_id:
+        raise ValidationFailed("product_id", cmd.product_id, "belongs to another program")
+    if cmd.level_id is not None:
+        _check_level(session, cmd.level_id, product)
+    try:
+        with session.begin_nested():
+            req = m.Requirement(**cmd.model_dump())
+            session.add(req)
+            session.flush()
+    except IntegrityError as exc:
+        raise Conflict(f"requirement key {cmd.key!r} exists already in this program") from exc
+    record(session, actor, "create", "requirement", req.id, key=req.key)
+    return req
+
+
+def _check_level(session: Session, level_id: int, product: m.Product) -> m.Level:
+    level = get(session, m.Level, level_id, "level")
+    if level.product_id != product.id:
+        raise ValidationFailed(
+            "level_id", level_id, f"the level belongs to another product than {product.name!r}"
+        )
+    return level
+
+
+def update_requirement(
+    session: Session, actor: Actor, requirement_id: int, cmd: s.RequirementUpdate
+) -> m.Requirement:
+    """Edit a requirement made from version `cmd.expected_version` (else VersionMismatch)."""
+    require(actor, m.Role.engineer, "editing a requirement")
+    req = get(session, m.Requirement, requirement_id, "requirement")
+    if req.version != cmd.expected_version:
+        raise VersionMismatch("requirement", req.key, cmd.expected_version, req.version)
+    changes = cmd.model_dump(exclude_unset=True, exclude={"expected_version"})
+    if "level_id" in changes and changes["level_id"] is not None:
+        _check_level(session, changes["level_id"], req.product)
+    for key, value in changes.items():
+        setattr(req, key, value)
+    req.updated_at = utcnow()
+    session.flush()  # the version column refuses a concurrent commit of the same version
+    record(
+        session,
+        actor,
+        "update",
+        "requirement",
+        req.id,
+        key=req.key,
+        fields=sorted(changes),
+        version=req.version,
+    )
+    return req
+
+
+def requirement_ref(session: Session, program: m.Program | None, ref: str | int) -> m.Requirement:
+    if isinstance(ref, int) or str(ref).isdigit():
+        return get(session, m.Requirement, int(ref), "requirement")
+    stmt = select(m.Requirement).where(m.Requirement.key == str(ref))
+    if program is not None:
+        stmt = stmt.where(m.Requirement.program_id == program.id)
+    rows = session.scalars(stmt).all()
+    if len(rows) != 1:
+        if not rows:
+            raise NotFound("requirement", ref)
+        raise Conflict(f"requirement key {ref!r} is used in several programs; give the program")
+    return rows[0]
+
+
+def list_requirements(
+    session: Session,
+    *,
+    program_id: int | None = None,
+    product_ids: list[int] | None = None,
+    offset: int = 0,
+    limit: int | None = None,
+) -> list[m.Requirement]:
+    stmt = select(m.Requirement)
+    if program_id is not None:
+        stmt = stmt.where(m.Requirement.program_id == program_id)
+    if product_ids is not None:
+        stmt = stmt.where(m.Requirement.product_id.in_(product_ids))
+    stmt = stmt.order_by(m.Requirement.key, m.Requirement.id).offset(offset)
+    if limit is not None:
+        stmt = stmt.limit(limit)
+    return list(session.scalars(stmt))
+
+
+def active_waiver(req: m.Requirement, now: datetime | None = None) -> m.Waiver | None:
+    now = now or datetime.now(UTC)
+    for w in reversed(req.waivers):
+        if w.revoked_at is None and w.expires_at > now:
+            return w
+    return None
+
+
+def status_of(
+    session: Session,
+    req: m.Requirement,
+    *,
+    level_stale: dict[int, list[str]] | None = None,
+    now: datetime | None = None,
+) -> StatusOf:
+    """The requirement's status with the reason an auditor reads."""
+    from qualplan.planning.levels import staleness
+
+    waiver = active_waiver(req, now)
+    if waiver is not None:
+        return StatusOf(
+            "waived",
+            f"waived by {waiver.approver} until {waiver.expires_at:%Y-%m-%d}: {waiver.rationale}",
+            None,
+            waiver,
+        )
+    if not req.evidence:
+        return StatusOf("open", "no evidence recorded", None)
+    ev = req.evidence[-1]
+    if req.method is not m.VerificationMethod.similarity and req.level_id is not None:
+        if ev.level_hash != req.level.level_hash:
+            return StatusOf(
+                "stale",
+                f"evidence {ev.id} was made against level hash "
+                f"{(ev.level_hash or 'none')[:12]}, the requirement now "
+                f"points at {req.level.level_hash[:12]}",
+                ev,
+            )
+        cache = level_stale if level_stale is not None else {}
+        if req.level_id not in cache:
+            cache[req.level_id] = staleness(session, req.level)
+        if cache[req.level_id]:
+            return StatusOf("stale", "; ".join(cache[req.level_id]), ev)
+    if ev.kind is m.EvidenceKind.similarity and ev.similar_requirement_id is not None:
+        other = session.get(m.Requirement, ev.similar_requirement_id)
+        inner = status_of(session, other, level_stale=level_stale, now=now)
+        if inner.status != "verified":
+            return StatusOf(
+                "stale" if inner.status == "stale" else "open",
+                f"similar requirement {other.key} is {inner.status}",
+                ev,
+            )
+    if ev.verdict is m.Verdict.failed:
+        return StatusOf("failed", ev.summary.get("reason", "the evidence fails"), ev)
+    if ev.achieved_margin is not None and ev.achieved_margin < req.required_margin:
+        return StatusOf(
+            "failed",
+            f"achieved margin {ev.achieved_margin:.3g} is below the "
+            f"required {req.required_margin:.3g}",
+            ev,
+        )
+    return StatusOf("verified", ev.summary.get("reason", "evidence passes"), ev)
+
+
+def read_requirement(session: Session, req: m.Requirement, **kw) -> s.RequirementRead:
+    out = s.RequirementRead.model_validate(req)
+    st = status_of(session, req, **kw)
+    out.status, out.status_reason = st.status, st.reason
+    return out
+
+
+def waive(session: Session, actor: Actor, requirement_id: int, cmd: s.WaiverIn) -> m.Waiver:
+    """An approver waives a requirement until `expires_at`, with a rationale."""
+    require(actor, m.Role.approver, "waiving a requirement")
+    req = get(session, m.Requirement, requirement_id, "requirement")
+    expires = cmd.expires_at if cmd.expires_at.tzinfo else cmd.expires_at.replace(tzinfo=UTC)
+    if expires <= datetime.now(UTC):
+        raise ValidationFailed("expires_at", cmd.expires_at.isoformat(), "must lie in the future")
+    w = m.Waiver(
+        requirement_id=req.id, approver=actor.name, rationale=cmd.rationale, expires_at=expires
+    )
+    session.add(w)
+    session.flush()
+    session.refresh(req, ["waivers"])
+    record(
+        session,
+        actor,
+        "waive",
+        "requirement",
+        req.id,
+        key=req.key,
+        waiver=w.id,
+        expires_at=expires.isoformat(),
+    )
+    return w
+
+
+def revoke_waiver(session: Session, actor: Actor, waiver_id: int) -> m.Waiver:
+    require(actor, m.Role.approver, "revoking a waiver")
+    w = get(session, m.Waiver, waiver_id, "waiver")
+    if w.revoked_at is not None:
+        raise Conflict(f"waiver {waiver_id} is revoked already")
+    w.revoked_at = utcnow()
+    session.flush()
+    record(session, actor, "revoke", "waiver", w.id, requirement=w.requirement_id)
+    return w
