@@ -1,5 +1,16 @@
 """Shock response spectra (SRS) of acceleration time histories, and SRS profiles.
 
+Functions by topic
+------------------
+- SRS of a record: :func:`srs` (the public entry point),
+  :func:`shock_response_spectrum` (all kinds, warnings), :func:`pseudo_velocity_srs`
+- natural-frequency grids: :func:`octave_grid`
+- specifications: :class:`SrsProfile` (breakpoints, log-log), :func:`srs_envelope`
+  (exact), :func:`srs_tolerance_limits` (P95/50), :func:`tolerance_band`
+- judging a measured SRS: :func:`check_srs` -> :class:`SrsCheck`
+
+See docs/methods/srs.md.
+
 The SRS of a record is the peak response of a family of base-excited
 single-degree-of-freedom oscillators (natural frequency fn, amplification Q)
 to that record. The responses come from the ramp-invariant recursive filters
@@ -31,7 +42,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from qualplan.dynamics import _validate, sdof_filter
+from qualplan.dynamics import _loglog, _validate, sdof_filter
+from qualplan.dynamics import stats as _stats
 from qualplan.dynamics.errors import AccuracyWarning, InputError
 
 KINDS = ("maximax", "positive", "negative", "primary", "residual")
@@ -41,7 +53,14 @@ UNIFORM_STEP_RTOL = 1e-3
 
 __all__ = [
     "KINDS",
+    "SrsCheck",
+    "SrsLimits",
+    "SrsProfile",
     "SrsResult",
+    "check_srs",
+    "srs_envelope",
+    "srs_tolerance_limits",
+    "tolerance_band",
     "octave_grid",
     "pseudo_velocity_srs",
     "sample_step",
@@ -428,3 +447,483 @@ def pseudo_velocity_srs(accel_g, dt_s, freq_hz, q=10.0) -> np.ndarray:
     b, a = sdof_filter.coefficients(fn, qv, dt, output="pseudo_vel")
     e = sdof_filter.run_extremes(x, b, a, _residual_samples(fn, qv, dt))
     return np.max(np.abs(e), axis=1)
+
+
+# --------------------------------------------------------------------------
+# SRS profiles (breakpoints in g, log-log), envelopes, statistics, tolerances
+
+
+@dataclass(frozen=True, eq=False)
+class SrsProfile:
+    """An SRS specification given by breakpoints (immutable, validated).
+
+    Attributes
+    ----------
+    freq_hz : numpy.ndarray
+        Breakpoint natural frequencies [Hz], strictly increasing, > 0
+        (read-only array).
+    accel_g : numpy.ndarray
+        SRS values [g], > 0 (read-only array); log-log interpolation between
+        breakpoints, 0 g outside the band.
+    q : float
+        Amplification Q the spectrum refers to [unitless]. Default 10.
+    """
+
+    freq_hz: np.ndarray
+    accel_g: np.ndarray
+    q: float = 10.0
+
+    def __post_init__(self) -> None:
+        f, a = _loglog.check_profile(self.freq_hz, self.accel_g, "freq_hz", "accel_g")
+        f.flags.writeable = False
+        a.flags.writeable = False
+        object.__setattr__(self, "freq_hz", f)
+        object.__setattr__(self, "accel_g", a)
+        object.__setattr__(self, "q", _validate.check_q(self.q))
+
+    def __eq__(self, other: object) -> bool:
+        if not isinstance(other, SrsProfile):
+            return NotImplemented
+        return bool(np.array_equal(self.freq_hz, other.freq_hz)
+                    and np.array_equal(self.accel_g, other.accel_g) and self.q == other.q)
+
+    def __hash__(self) -> int:
+        return hash((self.freq_hz.tobytes(), self.accel_g.tobytes(), self.q))
+
+    def value_at(self, f):
+        """SRS at `f` [Hz] by log-log interpolation -> [g]; 0 outside the band."""
+        return _loglog.interp(self.freq_hz, self.accel_g, f)
+
+    def slopes_db_per_oct(self) -> np.ndarray:
+        """Segment slopes, 20 log10 per octave [dB/oct] (6.0206 dB/oct per unit exponent)."""
+        return _loglog.slopes_db_per_oct(self.freq_hz, self.accel_g, power=False)
+
+    def scaled_db(self, db: float) -> SrsProfile:
+        """Copy scaled by `db` [dB on amplitude: x 10^(db/20)]."""
+        try:
+            d = float(db)
+        except (TypeError, ValueError) as exc:
+            raise InputError("db", db, "must be a number") from exc
+        if not np.isfinite(d):
+            raise InputError("db", db, "must be finite")
+        return SrsProfile(self.freq_hz, self.accel_g * 10.0 ** (d / 20.0), self.q)
+
+    @classmethod
+    def from_slopes(cls, freq_edges_hz, start_accel_g: float, slopes_db_oct,
+                    q: float = 10.0) -> SrsProfile:
+        """Profile from a start value and one slope per band, as specs print them.
+
+        Parameters
+        ----------
+        freq_edges_hz : array_like
+            Band edges [Hz].
+        start_accel_g : float
+            SRS at the first edge [g].
+        slopes_db_oct : array_like
+            One slope per band, 20 log10 per octave [dB/oct]; 0 for a plateau.
+        q : float, optional
+            Amplification Q [unitless].
+
+        Returns
+        -------
+        SrsProfile
+            ``a_(i+1) = a_i 10^(s_i log2(f_(i+1)/f_i) / 20)`` [g].
+
+        References
+        ----------
+        Log-log straight lines, amplitude dB (domain.md section 1 conventions).
+        """
+        f, v = _loglog.from_slopes(freq_edges_hz, start_accel_g, slopes_db_oct, power=False)
+        return cls(f, v, q)
+
+
+def _as_pair(p, j):
+    if isinstance(p, SrsProfile):
+        return p.freq_hz, p.accel_g
+    try:
+        f, a = p
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"profiles[{j}]", type(p).__name__,
+                         "must be an SrsProfile or a (freq_hz, accel_g) pair") from exc
+    return f, a
+
+
+def srs_envelope(profiles) -> SrsProfile:
+    """Exact maximum envelope of several SRS profiles.
+
+    Parameters
+    ----------
+    profiles : sequence of SrsProfile or (freq_hz, accel_g)
+        Profiles to envelope [Hz, g]; SrsProfile entries must share one Q.
+
+    Returns
+    -------
+    SrsProfile
+        Breakpoints of ``max_j SRS_j(f)`` with new breakpoints where log-log
+        segments cross [g]; Q of the inputs (10 when only pairs are given).
+
+    Notes
+    -----
+    Same exact envelope as for PSDs (the geometry of log-log straight lines
+    does not depend on the dB convention): see ``_loglog.envelope``.
+
+    References
+    ----------
+    NASA-HDBK-7005 (2001), envelope of spectra; domain.md section 9 [CP].
+    """
+    if isinstance(profiles, SrsProfile):
+        profiles = [profiles]
+    if profiles is None or len(profiles) == 0:
+        raise InputError("profiles", profiles, "needs at least one SRS profile")
+    qs = {p.q for p in profiles if isinstance(p, SrsProfile)}
+    if len(qs) > 1:
+        raise InputError("profiles", sorted(qs), "must all refer to the same Q")
+    f, v = _loglog.envelope([_as_pair(p, j) for j, p in enumerate(profiles)])
+    return SrsProfile(f, v, qs.pop() if qs else 10.0)
+
+
+@dataclass(frozen=True, eq=False)
+class SrsLimits:
+    """Statistics of several measured SRS on one natural-frequency grid.
+
+    Attributes
+    ----------
+    freq_hz : numpy.ndarray
+        Natural frequencies [Hz].
+    p50_g : numpy.ndarray
+        Log-normal median 10^mean(log10 SRS) [g].
+    upper_g : numpy.ndarray
+        Normal tolerance limit on log10 values (P95/50 by default) [g].
+    maximum_g : numpy.ndarray
+        Plain maximum of the spectra [g].
+    std_db : numpy.ndarray
+        Sample standard deviation of 20 log10 SRS [dB].
+    k_factor : float
+        One-sided tolerance factor used [unitless].
+    n : int
+        Number of spectra.
+    coverage, confidence : float
+        beta and gamma of the limit [unitless].
+    """
+
+    freq_hz: np.ndarray
+    p50_g: np.ndarray
+    upper_g: np.ndarray
+    maximum_g: np.ndarray
+    std_db: np.ndarray
+    k_factor: float
+    n: int
+    coverage: float
+    confidence: float
+
+
+def srs_tolerance_limits(freq_hz, srs_g, *, coverage: float = 0.95,
+                         confidence: float = 0.50) -> SrsLimits:
+    """P95/50 (or any P beta/gamma) limit of several measured SRS.
+
+    Parameters
+    ----------
+    freq_hz : array_like
+        Common natural-frequency grid [Hz], strictly increasing.
+    srs_g : array_like, shape (n_spectra, n_freq)
+        Measured SRS, all > 0 [g]; n_spectra >= 2.
+    coverage : float, optional
+        Proportion beta below the limit [unitless]. Default 0.95.
+    confidence : float, optional
+        Confidence gamma [unitless]. Default 0.50.
+
+    Returns
+    -------
+    SrsLimits
+        P50, upper limit, maximum [g], spread [dB], k, n.
+
+    Notes
+    -----
+    Log-normal model: ``upper = 10^(ybar + k s)`` with ``y = log10(SRS)``
+    per frequency, ``k`` the exact one-sided normal tolerance factor
+    (non-central t). Shared with the PSD statistics (:mod:`stats`).
+
+    References
+    ----------
+    NASA-HDBK-7005 (2001), Dynamic Environmental Criteria; NASA-STD-7003A
+    (2011), maximum expected environment as P95/50; Owen 1963 (SCR-607).
+    """
+    f = _validate.as_1d_float("freq_hz", freq_hz)
+    _validate.all_positive("freq_hz", f)
+    _validate.strictly_increasing("freq_hz", f)
+    x = np.asarray(srs_g, dtype=float)
+    if x.ndim != 2 or x.shape[1] != f.size:
+        raise InputError("srs_g", f"shape {x.shape}", f"must be (n_spectra, {f.size})")
+    lim = _stats.log_tolerance_limits(x, coverage=coverage, confidence=confidence)
+    return SrsLimits(
+        freq_hz=f,
+        p50_g=lim.mean_p50,
+        upper_g=lim.upper,
+        maximum_g=lim.maximum,
+        std_db=20.0 * lim.std_log10,
+        k_factor=lim.k_factor,
+        n=lim.n,
+        coverage=lim.coverage,
+        confidence=lim.confidence,
+    )
+
+
+def _nominal_values(nominal_profile, f: np.ndarray) -> np.ndarray:
+    if isinstance(nominal_profile, SrsProfile):
+        pf, pa = nominal_profile.freq_hz, nominal_profile.accel_g
+    else:
+        try:
+            pf, pa = nominal_profile
+        except (TypeError, ValueError) as exc:
+            raise InputError("nominal_profile", type(nominal_profile).__name__,
+                             "must be an SrsProfile or (freq_hz, accel_g)") from exc
+        pf, pa = _loglog.check_profile(pf, pa, "nominal_profile.freq_hz",
+                                       "nominal_profile.accel_g")
+    out = (f < pf[0] * (1 - 1e-12)) | (f > pf[-1] * (1 + 1e-12))
+    if out.any():
+        i = int(np.argmax(out))
+        raise InputError(
+            f"freq_hz[{i}]", float(f[i]),
+            f"lies outside the specified band {pf[0]:g} to {pf[-1]:g} Hz: check only inside it",
+        )
+    return _loglog.interp(pf, pa, np.clip(f, pf[0], pf[-1]))
+
+
+def tolerance_band(nominal_profile, freq_hz, *, lower_db: float, upper_db: float):
+    """Lower and upper tolerance limits around a nominal SRS.
+
+    Parameters
+    ----------
+    nominal_profile : SrsProfile or (freq_hz, accel_g)
+        Specified SRS [Hz, g].
+    freq_hz : array_like
+        Natural frequencies inside the specified band [Hz].
+    lower_db : float
+        Lower limit relative to nominal, <= 0 (e.g. -3) [dB].
+    upper_db : float
+        Upper limit relative to nominal, >= 0 (e.g. +6) [dB].
+
+    Returns
+    -------
+    lower_g, nominal_g, upper_g : numpy.ndarray
+        ``nominal x 10^(lower_db/20)``, nominal, ``nominal x 10^(upper_db/20)`` [g].
+
+    References
+    ----------
+    Amplitude dB, 20 log10 (domain.md conventions); tolerance bands as in
+    MIL-STD-810H Method 516.8 / 517.3 and NASA-STD-7003A [M].
+    """
+    f = _validate.as_1d_float("freq_hz", freq_hz)
+    lo, hi = _band("lower_db", lower_db, "upper_db", upper_db)
+    nom = _nominal_values(nominal_profile, f)
+    return nom * 10.0 ** (lo / 20.0), nom, nom * 10.0 ** (hi / 20.0)
+
+
+def _band(lname, lower, uname, upper) -> tuple[float, float]:
+    try:
+        lo, hi = float(lower), float(upper)
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"{lname}/{uname}", (lower, upper), "must be numbers") from exc
+    if not np.isfinite(lo) or lo > 0:
+        raise InputError(lname, lower, "must be a finite number <= 0 dB (e.g. -3)")
+    if not np.isfinite(hi) or hi < 0:
+        raise InputError(uname, upper, "must be a finite number >= 0 dB (e.g. +6)")
+    return lo, hi
+
+
+@dataclass(frozen=True, eq=False)
+class SrsCheck:
+    """Verdict of a measured SRS against a specified one with its tolerances.
+
+    Attributes
+    ----------
+    freq_hz : numpy.ndarray
+        Natural frequencies checked [Hz].
+    measured_g, nominal_g : numpy.ndarray
+        Measured and specified SRS [g].
+    deviation_db : numpy.ndarray
+        ``20 log10(measured / nominal)`` [dB].
+    lower_db, upper_db : float
+        Tolerance band [dB].
+    within_band : numpy.ndarray of bool
+        Per frequency: ``lower_db <= deviation_db <= upper_db``.
+    passed_per_freq : numpy.ndarray of bool
+        Per frequency verdict: within the band, or (when an outer band is
+        given) within the outer band.
+    share_within_band : float
+        Fraction of points within the band [unitless].
+    fraction_at_or_above_nominal : float
+        Fraction of points with ``measured >= nominal`` [unitless].
+    worst_freq_hz : float
+        Frequency of the worst point [Hz]: the one with the least margin to
+        the band edges (most negative when outside).
+    worst_deviation_db : float
+        Its deviation from nominal [dB].
+    worst_margin_db : float
+        Its margin to the nearer band edge, negative when outside [dB].
+    passed : bool
+        Overall verdict (every rule below holds).
+    reasons : tuple of str
+        Why it failed (empty when passed).
+    outer_lower_db, outer_upper_db : float or None
+        Outer band, when the rule allows a share of points outside the band.
+    min_share_within_band : float
+        Required share within the band (1.0: every point) [unitless].
+    min_fraction_above : float or None
+        Required fraction at or above nominal [unitless], None if no rule.
+    """
+
+    freq_hz: np.ndarray
+    measured_g: np.ndarray
+    nominal_g: np.ndarray
+    deviation_db: np.ndarray
+    lower_db: float
+    upper_db: float
+    within_band: np.ndarray
+    passed_per_freq: np.ndarray
+    share_within_band: float
+    fraction_at_or_above_nominal: float
+    worst_freq_hz: float
+    worst_deviation_db: float
+    worst_margin_db: float
+    passed: bool
+    reasons: tuple[str, ...]
+    outer_lower_db: float | None
+    outer_upper_db: float | None
+    min_share_within_band: float
+    min_fraction_above: float | None
+
+
+def check_srs(
+    freq_hz,
+    measured_g,
+    nominal_profile,
+    *,
+    lower_db: float,
+    upper_db: float,
+    outer_lower_db: float | None = None,
+    outer_upper_db: float | None = None,
+    min_share_within_band: float = 1.0,
+    min_fraction_above: float | None = None,
+) -> SrsCheck:
+    """Judge a measured SRS against a specified SRS and its tolerance bands.
+
+    Parameters
+    ----------
+    freq_hz : array_like
+        Natural frequencies of the measured SRS, inside the specified band
+        [Hz].
+    measured_g : array_like
+        Measured SRS, > 0 [g].
+    nominal_profile : SrsProfile or (freq_hz, accel_g)
+        Specified SRS [Hz, g].
+    lower_db, upper_db : float
+        Tolerance band around nominal, e.g. -3 and +6 [dB].
+    outer_lower_db, outer_upper_db : float, optional
+        Wider band for the points allowed outside the band, e.g. -6 and +9
+        [dB]. Give both or neither.
+    min_share_within_band : float, optional
+        Share of points that must lie within the band, in (0, 1] (e.g. 0.9
+        for "over >= 90 % of the points") [unitless]. Default 1.0. Below 1
+        an outer band is required: every other point must lie within it.
+    min_fraction_above : float, optional
+        Required fraction of points at or above nominal, e.g. 0.5 [unitless].
+
+    Returns
+    -------
+    SrsCheck
+        Per-frequency verdicts, worst point, fractions and the overall
+        verdict with reasons.
+
+    Notes
+    -----
+    ``dev = 20 log10(measured/nominal)``; a point is within the band if
+    ``lower_db <= dev <= upper_db`` (edges included, to 1e-9 dB). Margin to
+    the band ``min(upper_db - dev, dev - lower_db)``; the worst point has
+    the least margin. Example rules: MIL-STD-810H 516.8 -1.5/+3 dB over
+    >= 90 % with the rest within -3/+6 dB; NASA-STD-7003A +/-6 dB with
+    >= 50 % at or above nominal [M, verify against the printed documents].
+
+    References
+    ----------
+    MIL-STD-810H (2019) Methods 516.8 and 517.3; NASA-STD-7003A (2011);
+    GSFC-STD-7000B (GEVS); domain.md section 10 (tolerances, [M]).
+    """
+    f = _validate.as_1d_float("freq_hz", freq_hz)
+    _validate.all_positive("freq_hz", f)
+    m = _validate.as_1d_float("measured_g", measured_g)
+    if m.shape != f.shape:
+        raise InputError("measured_g", f"{m.size} values", f"must match freq_hz ({f.size})")
+    _validate.all_positive("measured_g", m)
+    lo, hi = _band("lower_db", lower_db, "upper_db", upper_db)
+    if (outer_lower_db is None) != (outer_upper_db is None):
+        raise InputError("outer_lower_db/outer_upper_db", (outer_lower_db, outer_upper_db),
+                         "give both or neither")
+    olo = ohi = None
+    if outer_lower_db is not None:
+        olo, ohi = _band("outer_lower_db", outer_lower_db, "outer_upper_db", outer_upper_db)
+        if olo > lo or ohi < hi:
+            raise InputError("outer_lower_db/outer_upper_db", (olo, ohi),
+                             f"must contain the band ({lo:g}, {hi:g}) dB")
+    share_req = float(min_share_within_band)
+    if not (0.0 < share_req <= 1.0):
+        raise InputError("min_share_within_band", min_share_within_band, "must be in (0, 1]")
+    if share_req < 1.0 and olo is None:
+        raise InputError("min_share_within_band", min_share_within_band,
+                         "below 1 needs an outer band for the other points")
+    frac_req = None
+    if min_fraction_above is not None:
+        frac_req = float(min_fraction_above)
+        if not (0.0 <= frac_req <= 1.0):
+            raise InputError("min_fraction_above", min_fraction_above, "must be in [0, 1]")
+    nom = _nominal_values(nominal_profile, f)
+    dev = 20.0 * np.log10(m / nom)
+    eps = 1e-9
+    within = (dev >= lo - eps) & (dev <= hi + eps)
+    if olo is None:
+        ok = within
+    else:
+        ok = (dev >= olo - eps) & (dev <= ohi + eps)
+    share = float(within.mean())
+    above = float((dev >= -eps).mean())
+    margin = np.minimum(hi - dev, dev - lo)
+    w = int(np.argmin(margin))
+    reasons = []
+    if olo is None and not within.all():
+        reasons.append(
+            f"{int((~within).sum())} of {f.size} points outside {lo:+g}/{hi:+g} dB; worst"
+            f" {dev[w]:+.2f} dB at {f[w]:g} Hz"
+        )
+    if olo is not None:
+        if share < share_req - 1e-12:
+            reasons.append(f"{share:.1%} of points within {lo:+g}/{hi:+g} dB, needs"
+                           f" {share_req:.0%}")
+        if not ok.all():
+            wo = int(np.argmin(np.minimum(ohi - dev, dev - olo)))
+            reasons.append(
+                f"{int((~ok).sum())} points outside the outer band {olo:+g}/{ohi:+g} dB;"
+                f" worst {dev[wo]:+.2f} dB at {f[wo]:g} Hz"
+            )
+    if frac_req is not None and above < frac_req - 1e-12:
+        reasons.append(f"{above:.1%} of points at or above nominal, needs {frac_req:.0%}")
+    return SrsCheck(
+        freq_hz=f,
+        measured_g=m,
+        nominal_g=nom,
+        deviation_db=dev,
+        lower_db=lo,
+        upper_db=hi,
+        within_band=within,
+        passed_per_freq=ok,
+        share_within_band=share,
+        fraction_at_or_above_nominal=above,
+        worst_freq_hz=float(f[w]),
+        worst_deviation_db=float(dev[w]),
+        worst_margin_db=float(margin[w]),
+        passed=not reasons,
+        reasons=tuple(reasons),
+        outer_lower_db=olo,
+        outer_upper_db=ohi,
+        min_share_within_band=share_req,
+        min_fraction_above=frac_req,
+    )

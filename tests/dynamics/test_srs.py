@@ -271,3 +271,120 @@ def test_octave_grid():
         S.octave_grid(10.0, 100.0, 2.5)
     with pytest.raises(InputError, match="f_hi_hz"):
         S.octave_grid(100.0, 10.0, 3)
+
+
+# --------------------------------------------------------------------------
+# SRS profiles, envelopes, statistics, tolerance checks
+
+
+def test_profile_interpolation_and_slopes():
+    # closed form: 10 g at 100 Hz to 1000 g at 1 kHz is exponent 2, i.e.
+    # 40 dB per decade = 40/log2(10) = 12.041 dB/oct; 100 g at sqrt(1e5) Hz
+    p = S.SrsProfile([100.0, 1000.0], [10.0, 1000.0])
+    assert p.value_at(np.sqrt(1e5)) == pytest.approx(100.0, rel=1e-12)
+    assert p.value_at(100.0) == pytest.approx(10.0, rel=1e-14) and p.value_at(50.0) == 0.0
+    np.testing.assert_allclose(p.slopes_db_per_oct(), [40.0 / np.log2(10.0)], rtol=1e-12)
+    assert p.scaled_db(3.0).accel_g[0] == pytest.approx(10.0 * 10 ** (3 / 20), rel=1e-12)
+    q = S.SrsProfile.from_slopes([100.0, 1000.0], 10.0, [40.0 / np.log2(10.0)])
+    np.testing.assert_allclose(q.accel_g, [10.0, 1000.0], rtol=1e-12)
+    assert q == p and hash(q) == hash(p)
+    with pytest.raises(InputError, match="accel_g"):
+        S.SrsProfile([100.0, 1000.0], [10.0, -1.0])
+    with pytest.raises(InputError, match="q"):
+        S.SrsProfile([100.0, 1000.0], [10.0, 1.0], q=0.3)
+
+
+def test_envelope_exact_crossing():
+    # closed form: 10 (f/100)^2 = 100 at f = 316.228 Hz
+    rising = S.SrsProfile([100.0, 1000.0], [10.0, 1000.0])
+    flat = S.SrsProfile([100.0, 1000.0], [100.0, 100.0])
+    env = S.srs_envelope([rising, flat])
+    np.testing.assert_allclose(env.freq_hz, [100.0, np.sqrt(1e5), 1000.0], rtol=1e-9)
+    np.testing.assert_allclose(env.accel_g, [100.0, 100.0, 1000.0], rtol=1e-9)
+    f = np.geomspace(100, 1000, 301)
+    assert np.all(env.value_at(f) >= np.maximum(rising.value_at(f), flat.value_at(f)) * (1 - 1e-12))
+    with pytest.raises(InputError, match="same Q"):
+        S.srs_envelope([rising, S.SrsProfile([100.0, 1000.0], [1.0, 1.0], q=20.0)])
+
+
+def test_tolerance_limits_p95_50():
+    # domain.md check #15 [M][R]: 0.02, 0.03, 0.05 -> P95/50 = 0.075668, k(3) = 1.9384
+    lim = S.srs_tolerance_limits([100.0, 200.0], [[0.02, 2.0], [0.03, 3.0], [0.05, 5.0]])
+    np.testing.assert_allclose(lim.upper_g, [0.075668, 7.5668], rtol=1e-4)
+    assert lim.k_factor == pytest.approx(1.9384, abs=5e-4)
+    np.testing.assert_allclose(lim.maximum_g, [0.05, 5.0])
+    np.testing.assert_allclose(lim.std_db, 20 * 0.19941, rtol=1e-4)  # s = 0.19941 (domain.md)
+    with pytest.raises(InputError, match="srs_g"):
+        S.srs_tolerance_limits([100.0, 200.0], [[1.0, 2.0, 3.0]])
+
+
+NOMINAL = S.SrsProfile([100.0, 1000.0, 10000.0], [50.0, 1000.0, 1000.0])
+
+
+def _measured(dev_db):
+    f = S.octave_grid(100.0, 10000.0, 6)
+    return f, NOMINAL.value_at(f) * 10 ** (np.asarray(dev_db) / 20.0)
+
+
+def test_check_srs_every_point_rule():
+    # closed form: deviations built in dB, +/-6 dB band (NASA-STD-7003A style [M])
+    f = S.octave_grid(100.0, 10000.0, 6)
+    dev = np.zeros(f.size)
+    dev[::2] = 2.0
+    dev[5] = -6.5
+    f, m = _measured(dev)
+    res = S.check_srs(f, m, NOMINAL, lower_db=-6.0, upper_db=6.0, min_fraction_above=0.5)
+    np.testing.assert_allclose(res.deviation_db, dev, atol=1e-9)
+    assert not res.passed and res.passed_per_freq.sum() == f.size - 1
+    assert not res.passed_per_freq[5]
+    assert res.worst_freq_hz == pytest.approx(f[5])
+    assert res.worst_deviation_db == pytest.approx(-6.5)
+    assert res.worst_margin_db == pytest.approx(-0.5)
+    assert res.fraction_at_or_above_nominal == pytest.approx((f.size - 1) / f.size)
+    dev[5] = -5.0
+    f, m = _measured(dev)
+    ok = S.check_srs(f, m, NOMINAL, lower_db=-6.0, upper_db=6.0, min_fraction_above=0.5)
+    assert ok.passed and ok.reasons == ()
+    assert ok.worst_margin_db == pytest.approx(1.0)
+
+
+def test_check_srs_share_rule_and_fraction_above():
+    # MIL-STD-810H 516.8 style [M]: -1.5/+3 dB over >= 90 %, the rest within -3/+6 dB
+    f = S.octave_grid(100.0, 10000.0, 6)  # 39 points
+    dev = np.full(f.size, 1.0)
+    dev[:3] = 4.5  # 3 of 39 outside the band, inside the outer band: 92 % within
+    f, m = _measured(dev)
+    kw = dict(lower_db=-1.5, upper_db=3.0, outer_lower_db=-3.0, outer_upper_db=6.0,
+              min_share_within_band=0.9)
+    res = S.check_srs(f, m, NOMINAL, **kw)
+    assert res.passed and res.share_within_band == pytest.approx(36 / 39)
+    dev[:5] = 4.5  # 34/39 = 87 % within: fails the share rule
+    f, m = _measured(dev)
+    res = S.check_srs(f, m, NOMINAL, **kw)
+    assert not res.passed and "needs 90%" in res.reasons[0]
+    dev = np.full(f.size, -1.0)  # inside the band but all below nominal
+    f, m = _measured(dev)
+    res = S.check_srs(f, m, NOMINAL, lower_db=-6.0, upper_db=6.0, min_fraction_above=0.3)
+    assert not res.passed and res.fraction_at_or_above_nominal == 0.0
+
+
+@pytest.mark.parametrize("kwargs, match", [
+    (dict(lower_db=1.0, upper_db=6.0), "lower_db"),
+    (dict(lower_db=-3.0, upper_db=-1.0), "upper_db"),
+    (dict(lower_db=-3.0, upper_db=3.0, min_share_within_band=0.9), "outer band"),
+    (dict(lower_db=-3.0, upper_db=3.0, outer_lower_db=-2.0, outer_upper_db=6.0,
+          min_share_within_band=0.9), "contain"),
+])
+def test_check_srs_bad_rules(kwargs, match):
+    f, m = _measured(np.zeros(39))
+    with pytest.raises(InputError, match=match):
+        S.check_srs(f, m, NOMINAL, **kwargs)
+
+
+def test_check_srs_outside_band_and_bad_values():
+    with pytest.raises(InputError, match="outside the specified band"):
+        S.check_srs([50.0, 200.0], [1.0, 1.0], NOMINAL, lower_db=-3, upper_db=3)
+    with pytest.raises(InputError, match="measured_g"):
+        S.check_srs([150.0, 200.0], [1.0, 0.0], NOMINAL, lower_db=-3, upper_db=3)
+    lo, nom, hi = S.tolerance_band(NOMINAL, [1000.0], lower_db=-6.0, upper_db=6.0)
+    np.testing.assert_allclose([lo[0], nom[0], hi[0]], [1000 / 10**0.3, 1000, 1000 * 10**0.3])
