@@ -247,45 +247,86 @@ if _HAVE_NUMBA:
         out[i] = (max during, min during, max after, min after); the record
         is followed by n_extra[i] zero samples (free decay). "After" starts at
         the last sample of the record, the instant the input ends.
+
+        Four filters run interleaved in one pass over the record: the
+        recursion of one filter is latency-bound (y_k needs y_(k-1)), four
+        independent chains keep the floating-point units busy (about 2x
+        faster than one filter per pass, measured in benchmarks/bench_srs.py).
         """
         n_fn = b.shape[0]
         n = x.shape[0]
-        for i in numba.prange(n_fn):
-            b0, b1, b2 = b[i, 0], b[i, 1], b[i, 2]
-            a1, a2 = a[i, 1], a[i, 2]
+        n_groups = (n_fn + 3) // 4
+        for g in numba.prange(n_groups):
+            i0 = g * 4
+            m = min(4, n_fn - i0)
+            c = np.zeros((5, 4))
+            for r in range(m):
+                c[0, r] = b[i0 + r, 0]
+                c[1, r] = b[i0 + r, 1]
+                c[2, r] = b[i0 + r, 2]
+                c[3, r] = a[i0 + r, 1]
+                c[4, r] = a[i0 + r, 2]
+            p0, p1, p2, p3 = c[0, 0], c[0, 1], c[0, 2], c[0, 3]
+            q0, q1, q2, q3 = c[1, 0], c[1, 1], c[1, 2], c[1, 3]
+            r0, r1, r2, r3 = c[2, 0], c[2, 1], c[2, 2], c[2, 3]
+            s0, s1, s2, s3 = c[3, 0], c[3, 1], c[3, 2], c[3, 3]
+            t0, t1, t2, t3 = c[4, 0], c[4, 1], c[4, 2], c[4, 3]
+            u0 = u1 = u2 = u3 = 0.0  # y_(k-1)
+            v0 = v1 = v2 = v3 = 0.0  # y_(k-2)
+            h0 = h1 = h2 = h3 = -np.inf
+            l0 = l1 = l2 = l3 = np.inf
             x1 = 0.0
             x2 = 0.0
-            y1 = 0.0
-            y2 = 0.0
-            hi = -np.inf
-            lo = np.inf
             for k in range(n):
                 x0 = x[k]
-                y0 = b0 * x0 + b1 * x1 + b2 * x2 - a1 * y1 - a2 * y2
-                if y0 > hi:
-                    hi = y0
-                if y0 < lo:
-                    lo = y0
+                y0 = p0 * x0 + q0 * x1 + r0 * x2 - s0 * u0 - t0 * v0
+                y1 = p1 * x0 + q1 * x1 + r1 * x2 - s1 * u1 - t1 * v1
+                y2 = p2 * x0 + q2 * x1 + r2 * x2 - s2 * u2 - t2 * v2
+                y3 = p3 * x0 + q3 * x1 + r3 * x2 - s3 * u3 - t3 * v3
+                h0 = max(h0, y0)
+                l0 = min(l0, y0)
+                h1 = max(h1, y1)
+                l1 = min(l1, y1)
+                h2 = max(h2, y2)
+                l2 = min(l2, y2)
+                h3 = max(h3, y3)
+                l3 = min(l3, y3)
+                v0 = u0
+                u0 = y0
+                v1 = u1
+                u1 = y1
+                v2 = u2
+                u2 = y2
+                v3 = u3
+                u3 = y3
                 x2 = x1
                 x1 = x0
-                y2 = y1
-                y1 = y0
-            rhi = y1
-            rlo = y1
-            for _k in range(n_extra[i]):
-                y0 = b1 * x1 + b2 * x2 - a1 * y1 - a2 * y2
-                if y0 > rhi:
-                    rhi = y0
-                if y0 < rlo:
-                    rlo = y0
-                x2 = x1
-                x1 = 0.0
-                y2 = y1
-                y1 = y0
-            out[i, 0] = hi
-            out[i, 1] = lo
-            out[i, 2] = rhi
-            out[i, 3] = rlo
+            hs = (h0, h1, h2, h3)
+            ls = (l0, l1, l2, l3)
+            us = (u0, u1, u2, u3)
+            vs = (v0, v1, v2, v3)
+            for r in range(m):
+                i = i0 + r
+                bb1, bb2 = c[1, r], c[2, r]
+                aa1, aa2 = c[3, r], c[4, r]
+                yy1 = us[r]
+                yy2 = vs[r]
+                xx1 = x1
+                xx2 = x2
+                rhi = yy1
+                rlo = yy1
+                for _k in range(n_extra[i]):
+                    y0 = bb1 * xx1 + bb2 * xx2 - aa1 * yy1 - aa2 * yy2
+                    rhi = max(rhi, y0)
+                    rlo = min(rlo, y0)
+                    xx2 = xx1
+                    xx1 = 0.0
+                    yy2 = yy1
+                    yy1 = y0
+                out[i, 0] = hs[r]
+                out[i, 1] = ls[r]
+                out[i, 2] = rhi
+                out[i, 3] = rlo
 
 
 def _filter_bank_scipy(x, b, a, out):
