@@ -59,6 +59,10 @@ def create_user(session: Session, actor: Actor, name: str, role: m.Role) -> m.Us
     return user
 
 
+def list_users(session: Session) -> list[m.User]:
+    return list(UserRepository(session).list())
+
+
 def create_token(session: Session, actor: Actor, user_name: str, label: str = "") -> str:
     """Create a token for `user_name`; return it in clear (shown once, stored hashed)."""
     user = UserRepository(session).by_name(user_name)

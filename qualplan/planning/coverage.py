@@ -1,15 +1,17 @@
 """The life cycle of a product and axis, and the coverage of a level against it.
 
-Each environment of the life becomes an *exposure* of the numeric core (a PSD over
-a duration, a sweep repeated, a shock repeated, a record replayed); its FDS and
-ERS on the policy's natural-frequency grid come from ``qualplan.dynamics.fatigue``
-and ``qualplan.dynamics.extreme``; the life's FDS is the Miner sum over phases and
-its ERS the maximum. The ratios test/life are formed by the equivalence engine
-(``qualplan.dynamics.equivalence``).
+Each environment of the life is turned into FDS and ERS on the policy's
+natural-frequency grid by the numeric core (``fatigue``, ``extreme``): a PSD over
+its exposure time, a sweep times its occurrences, a record times its passes. A
+shock given only as an SRS is represented by a wavelet synthesis that matches the
+SRS within +/-1.5 dB (``shock_synthesis``), whose FDS and ERS are computed in the
+time domain. The life's FDS is the Miner sum over environments, its ERS the
+maximum; ``equivalence.coverage`` forms the ratios test/life and their verdicts.
 """
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass
 from typing import Any
 
@@ -18,14 +20,20 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from qualplan.dynamics import equivalence as core_eq
+from qualplan.dynamics import extreme as core_ers
+from qualplan.dynamics import fatigue as core_fds
+from qualplan.dynamics import shock_synthesis as core_synth
 from qualplan.dynamics import sine as core_sine
 from qualplan.dynamics import srs as core_srs
+from qualplan.dynamics.errors import AccuracyWarning
 from qualplan.planning import envdata
 from qualplan.planning import schemas as s
 from qualplan.store import models as m
 from qualplan.store.repositories import RevisionRepository
 
 K = m.EnvironmentKind
+#: Natural frequencies kept for a sampled record: below this fraction of its sample rate.
+RECORD_FN_LIMIT = 0.1
 
 
 @dataclass(frozen=True)
@@ -39,12 +47,18 @@ class LifeItem:
         return f"{self.environment.name} r{self.revision.number} ({phase})"
 
 
+def lineage(session: Session, product: m.Product) -> list[int]:
+    """The product and its ancestors (an environment of a parent applies to its units)."""
+    ids, p = [], product
+    while p is not None:
+        ids.append(p.id)
+        p = session.get(m.Product, p.parent_id) if p.parent_id else None
+    return ids
+
+
 def life_cycle(session: Session, product: m.Product, axis: m.Axis) -> list[LifeItem]:
     """Latest revision of every environment of the product (and its parents) on `axis`."""
-    from qualplan.planning.levels import _lineage
-
-    ids = _lineage(session, product)
-    stmt = select(m.Environment).where(m.Environment.product_id.in_(ids))
+    stmt = select(m.Environment).where(m.Environment.product_id.in_(lineage(session, product)))
     if axis is not m.Axis.all:
         stmt = stmt.where(m.Environment.axis.in_([axis, m.Axis.all]))
     revs = RevisionRepository(session)
@@ -56,34 +70,87 @@ def life_cycle(session: Session, product: m.Product, axis: m.Axis) -> list[LifeI
     return out
 
 
-def exposure_of_environment(item: LifeItem) -> core_eq.Exposure:
-    """The core's exposure object for one life-cycle environment."""
-    from qualplan.planning.levels import exposure
+def exposure(env: m.Environment, rev: m.EnvironmentRevision) -> tuple[float, str]:
+    """How much of an environment the life holds: seconds (random), sweeps (sine),
+    shocks (shock) or passes of the record (time history)."""
+    phase = env.phase
+    occurrences = phase.occurrences if phase else 1
+    if env.kind is K.shock:
+        return float(rev.spec.get("count", 1) * occurrences), "shocks"
+    if env.kind is K.sine:
+        return float(occurrences), "sweep sequences"
+    if env.kind is K.time_history:
+        record_s = np.asarray(rev.data).size * rev.spec["dt_s"]
+        per = rev.spec.get("duration_s", phase.duration_s if phase else record_s)
+        return float(per * occurrences / record_s), "passes of the record"
+    per = rev.spec.get("duration_s", phase.duration_s if phase else None)
+    if per is None:
+        from qualplan.planning.errors import ValidationFailed
 
+        raise ValidationFailed(
+            "duration_s", None, f"environment {env.name!r} has neither a duration nor a phase"
+        )
+    return float(per * occurrences), "s"
+
+
+@dataclass(frozen=True)
+class Spectra:
+    """FDS per b (for one unit of exposure times its amount) and ERS, on one fn grid."""
+
+    label: str
+    fds: dict[float, np.ndarray]
+    ers: np.ndarray
+
+
+def _random(label, f, a, seconds, fn, q, bs) -> Spectra:
+    return Spectra(
+        label,
+        {b: core_fds.fds_random(f, a, seconds, fn, q, b) for b in bs},
+        core_ers.ers_random(f, a, seconds, fn, q),
+    )
+
+
+def _sweep(label, sweep: core_sine.Sweep, times: float, fn, q, bs) -> Spectra:
+    return Spectra(
+        label,
+        {b: times * core_fds.fds_sweep(sweep, fn, q, b) for b in bs},
+        core_ers.ers_sweep(sweep, fn, q),
+    )
+
+
+def _record(label, x, dt, times, fn, q, bs) -> Spectra:
+    keep = fn < RECORD_FN_LIMIT / dt
+    fds = {b: np.zeros_like(fn) for b in bs}
+    ers = np.zeros_like(fn)
+    if keep.any():
+        for b in bs:
+            fds[b][keep] = times * core_fds.fds_time(x, dt, fn[keep], q, b)
+        ers[keep] = core_ers.ers_shock(x, dt, fn[keep], q)
+    return Spectra(label, fds, ers)
+
+
+def _shock(label, freq_hz, accel_g, q_spec, count, fn, q, bs) -> Spectra:
+    synth = core_synth.synthesize_shock(core_srs.SrsProfile(freq_hz, accel_g), q=q_spec, seed=0)
+    return _record(label + " (wavelet synthesis)", synth.accel_g, synth.dt_s, count, fn, q, bs)
+
+
+def spectra_of_environment(item: LifeItem, fn, q: float, bs) -> Spectra:
     env, rev = item.environment, item.revision
-    amount, _unit = exposure(env, rev)
+    amount, _ = exposure(env, rev)
     spec = rev.spec
     if env.kind is K.random:
-        return core_eq.RandomExposure(
-            item.label, np.asarray(spec["freq_hz"]), np.asarray(spec["asd_g2_hz"]), amount
-        )
+        return _random(item.label, spec["freq_hz"], spec["asd_g2_hz"], amount, fn, q, bs)
     if env.kind is K.sine:
-        return core_eq.SweepExposure(item.label, envdata.sweep_of(spec), amount)
+        return _sweep(item.label, envdata.sweep_of(spec), amount, fn, q, bs)
     if env.kind is K.shock:
-        return core_eq.SrsExposure(
-            item.label, core_srs.SrsProfile(spec["freq_hz"], spec["accel_g"]), spec["q"], amount
-        )
-    return core_eq.TimeExposure(item.label, np.asarray(rev.data), spec["dt_s"], amount)
+        return _shock(item.label, spec["freq_hz"], spec["accel_g"], spec["q"], amount, fn, q, bs)
+    return _record(item.label, np.asarray(rev.data), spec["dt_s"], amount, fn, q, bs)
 
 
-def exposure_of_level(kind: str, result: dict[str, Any]) -> core_eq.Exposure:
-    """The core's exposure object for a derived test level (per axis)."""
+def spectra_of_level(kind: str, result: dict[str, Any], fn, q: float, bs) -> Spectra:
     if kind == "random":
-        return core_eq.RandomExposure(
-            "test level",
-            np.asarray(result["freq_hz"]),
-            np.asarray(result["asd_g2_hz"]),
-            result["duration_s"],
+        return _random(
+            "test level", result["freq_hz"], result["asd_g2_hz"], result["duration_s"], fn, q, bs
         )
     if kind == "sine":
         sweep = core_sine.Sweep(
@@ -92,33 +159,94 @@ def exposure_of_level(kind: str, result: dict[str, Any]) -> core_eq.Exposure:
             direction=result["direction"],
             n_sweeps=result["sweeps"],
         )
-        return core_eq.SweepExposure("test level", sweep, 1.0)
-    return core_eq.SrsExposure(
+        return _sweep("test level", sweep, 1.0, fn, q, bs)
+    return _shock(
         "test level",
-        core_srs.SrsProfile(result["freq_hz"], result["accel_g"]),
+        result["freq_hz"],
+        result["accel_g"],
         result["q"],
         float(result["shocks_per_axis"]),
+        fn,
+        q,
+        bs,
     )
 
 
 def coverage_of_level(
     kind: str, result: dict[str, Any], life: list[LifeItem], rules: s.PolicyRules
 ) -> dict[str, Any]:
-    """FDS and ERS coverage of the level against the life cycle, per b, as plain data."""
+    """FDS and ERS coverage of a test level against the life cycle, as plain data."""
     eq = rules.equivalence
+    notes: list[str] = []
     if not life:
-        return {"fn_hz": [], "note": "no environment in the life cycle of this axis"}
+        return {
+            "fn_hz": [],
+            "passed": False,
+            "notes": ["no environment in the life cycle of this axis"],
+            "life": [],
+        }
     fn = core_srs.octave_grid(eq.f_lo_hz, eq.f_hi_hz, eq.points_per_octave)
-    report = core_eq.coverage(
-        [exposure_of_level(kind, result)],
-        [exposure_of_environment(x) for x in life],
-        fn,
-        q=eq.q,
-        b=eq.b,
-        fds_margin_db=eq.fds_margin_db,
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", AccuracyWarning)
+        test = spectra_of_level(kind, result, fn, eq.q, eq.b)
+        parts = [spectra_of_environment(x, fn, eq.q, eq.b) for x in life]
+    notes.extend(sorted({str(w.message) for w in caught}))
+    life_ers = np.max([p.ers for p in parts], axis=0)
+    life_fds = {b: np.sum([p.fds[b] for p in parts], axis=0) for b in eq.b}
+    keep = (life_ers > 0) & np.all([life_fds[b] > 0 for b in eq.b], axis=0)
+    if not keep.all():
+        notes.append(
+            f"{int((~keep).sum())} natural frequencies have no life response "
+            "(outside every environment's reach) and are left out"
+        )
+    fk = fn[keep]
+    out: dict[str, Any] = {
+        "fn_hz": fk.tolist(),
+        "q": eq.q,
+        "b": list(eq.b),
+        "life": [x.label for x in life],
+        "by_b": {},
+        "notes": notes,
+    }
+    passed = True
+    for b in eq.b:
+        c = core_eq.coverage(
+            fk,
+            test_fds=test.fds[b][keep],
+            life_fds=life_fds[b][keep],
+            b=b,
+            fds_margin_db=eq.fds_margin_db,
+        )
+        out["by_b"][f"{b:g}"] = {
+            "test_fds": test.fds[b][keep].tolist(),
+            "life_fds": life_fds[b][keep].tolist(),
+            "fds_ratio_db": c.fds_ratio_db.tolist(),
+            "fds_level_db": c.fds_level_db.tolist(),
+            "required_db": eq.fds_margin_db,
+            "worst_fn_hz": c.worst_fds_fn_hz,
+            "worst_db": c.worst_fds_margin_db,
+            "passed": c.passed,
+        }
+        passed &= c.passed
+    e = core_eq.coverage(
+        fk,
+        test_ers=test.ers[keep],
+        life_ers=life_ers[keep],
         ers_margin_db=eq.ers_margin_db,
-        overtest_limit_db=eq.overtest_limit_db,
+        overtest_db=eq.overtest_limit_db,
     )
-    out = report.as_dict()
-    out["life"] = [x.label for x in life]
+    out["ers"] = {
+        "test_ers": test.ers[keep].tolist(),
+        "life_ers": life_ers[keep].tolist(),
+        "ers_ratio_db": e.ers_ratio_db.tolist(),
+        "required_db": eq.ers_margin_db,
+        "worst_fn_hz": e.worst_ers_fn_hz,
+        "worst_db": e.worst_ers_margin_db,
+        "passed": e.passed,
+        "overtest_limit_db": eq.overtest_limit_db,
+        "overtest_fn_hz": fk[e.overtest].tolist(),
+        "max_overtest_db": e.max_overtest_db,
+        "max_overtest_fn_hz": e.max_overtest_fn_hz,
+    }
+    out["passed"] = bool(passed and e.passed)
     return out

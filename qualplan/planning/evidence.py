@@ -15,7 +15,7 @@ from sqlalchemy.orm import Session
 from qualplan.dynamics import psd as core_psd
 from qualplan.dynamics import srs as core_srs
 from qualplan.dynamics.units import db_amplitude
-from qualplan.planning import envdata
+from qualplan.planning import envdata, imports
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require
 from qualplan.planning.catalog import get
@@ -134,6 +134,42 @@ def add_test_record(
         summary,
         achieved=achieved,
         data=np.vstack([f, v]),
+    )
+
+
+def add_test_record_file(
+    session: Session,
+    actor: Actor,
+    requirement_id: int,
+    filename: str,
+    content: bytes,
+    *,
+    value_units: str | None,
+    duration_s: float | None = None,
+    shocks: int | None = None,
+    note: str = "",
+) -> m.Evidence:
+    """A test record uploaded as a file: CSV (Hz, value) in declared units, or JSON."""
+    req = get(session, m.Requirement, requirement_id, "requirement")
+    if req.level is None:
+        raise ValidationFailed("requirement", req.key, "points at no level to test against")
+    data, _ = imports.environment_data_from_file(
+        req.level.kind, filename, content, value_units=value_units
+    )
+    key = imports.VALUE_KEY[req.level.kind]
+    if "freq_hz" not in data or key not in data:
+        raise ValidationFailed("file", filename, f"must hold freq_hz and {key}")
+    return add_test_record(
+        session,
+        actor,
+        requirement_id,
+        s.TestEvidenceIn(
+            freq_hz=data["freq_hz"],
+            values=data[key],
+            duration_s=duration_s,
+            shocks=shocks,
+            note=note,
+        ),
     )
 
 

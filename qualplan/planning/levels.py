@@ -29,7 +29,7 @@ from qualplan.planning.errors import ValidationFailed
 from qualplan.planning.policies import rules_of
 from qualplan.store import models as m
 from qualplan.store.hashing import json_hash
-from qualplan.store.repositories import LevelRepository, ProductRepository, RevisionRepository
+from qualplan.store.repositories import LevelRepository, RevisionRepository
 
 K = m.EnvironmentKind
 #: Natural-frequency grid of SRS computed from time histories: 1/6 octave (common practice).
@@ -49,7 +49,7 @@ class Input:
 
 
 def _inputs(session: Session, recipe: s.LevelRecipe, product: m.Product) -> list[Input]:
-    allowed_products = set(_lineage(session, product))
+    allowed_products = set(cov.lineage(session, product))
     out = []
     for i, rid in enumerate(recipe.revision_ids):
         rev = get(session, m.EnvironmentRevision, rid, "environment revision")
@@ -82,44 +82,10 @@ def _inputs(session: Session, recipe: s.LevelRecipe, product: m.Product) -> list
     return out
 
 
-def _lineage(session: Session, product: m.Product) -> list[int]:
-    """The product and its ancestors (an environment of a parent applies to its units)."""
-    ids, p = [], product
-    while p is not None:
-        ids.append(p.id)
-        p = session.get(m.Product, p.parent_id) if p.parent_id else None
-    return ids
-
-
-def exposure(env: m.Environment, rev: m.EnvironmentRevision) -> tuple[float, str]:
-    """Exposure of one environment over the life: seconds (random, sine, records) or
-    occurrences (shock), from the revision's own duration or its phase."""
-    phase = env.phase
-    occurrences = phase.occurrences if phase else 1
-    if env.kind is K.shock:
-        return float(rev.spec.get("count", 1) * occurrences), "shocks"
-    if env.kind is K.sine:
-        return float(occurrences), "sweeps"
-    if env.kind is K.time_history:
-        if "duration_s" in rev.spec or phase is not None:
-            record_s = np.asarray(rev.data).size * rev.spec["dt_s"]
-            total = rev.spec.get("duration_s", phase.duration_s if phase else record_s)
-            return float(total * occurrences / record_s), "passes of the record"
-        return float(occurrences), "passes of the record"
-    per = rev.spec.get("duration_s", phase.duration_s if phase else None)
-    if per is None:
-        raise ValidationFailed(
-            "duration_s", None, f"environment {env.name!r} has neither a duration nor a phase"
-        )
-    return float(per * occurrences), "s"
-
-
 # --- combination ----------------------------------------------------------------------
 
 
 def _random_curves(inputs: list[Input]) -> list[tuple[np.ndarray, np.ndarray]]:
-    from qualplan.dynamics import signal as core_signal
-
     curves = []
     for item in inputs:
         if item.environment.kind is K.random:
@@ -130,6 +96,8 @@ def _random_curves(inputs: list[Input]) -> list[tuple[np.ndarray, np.ndarray]]:
                 )
             )
         else:
+            from qualplan.dynamics import signal as core_signal
+
             x, dt = np.asarray(item.revision.data), item.revision.spec["dt_s"]
             est = core_signal.maximax_psd(x, 1.0 / dt)
             keep = (est.freq_hz > 0) & (est.asd_g2_hz > 0)
@@ -394,6 +362,15 @@ def derive_sine(recipe: s.LevelRecipe, rules: s.PolicyRules, inputs: list[Input]
     return out
 
 
+def _seconds(item: Input) -> float:
+    """Exposure time of a random environment or a record over the life [s]."""
+    amount, unit = cov.exposure(item.environment, item.revision)
+    if unit == "s":
+        return amount
+    rev = item.revision
+    return amount * np.asarray(rev.data).size * rev.spec["dt_s"]
+
+
 # --- the use case ---------------------------------------------------------------------
 
 
@@ -407,14 +384,7 @@ def derive_level(session: Session, actor: Actor, recipe: s.LevelRecipe) -> m.Lev
     life = cov.life_cycle(session, product, recipe.axis)
     with envdata.core_errors(""):
         if recipe.kind == "random":
-            life_s = (
-                sum(
-                    exposure(i.environment, i.revision)[0]
-                    for i in inputs
-                    if i.environment.kind is K.random
-                )
-                or 0.0
-            )
+            life_s = sum(_seconds(i) for i in inputs)
             result = derive_random(recipe, rules, inputs, life_s)
         elif recipe.kind == "shock":
             result = derive_shock(recipe, rules, inputs)
@@ -515,7 +485,3 @@ def list_levels(session: Session, product_id: int | None = None) -> list[m.Level
             **({"product_id": product_id} if product_id is not None else {})
         )
     )
-
-
-def products_in_scope(session: Session, product_id: int) -> list[int]:
-    return ProductRepository(session).subtree_ids(product_id)

@@ -212,6 +212,13 @@ class ShockRule(BaseModel):
     )
     lower_db: float = Field(default=-6.0, lt=0, description="Lower tolerance band [dB]")
     upper_db: float = Field(default=6.0, gt=0, description="Upper tolerance band [dB]")
+    outer_lower_db: float | None = Field(
+        default=None, lt=0, description="Outer band for the points allowed outside"
+    )
+    outer_upper_db: float | None = Field(default=None, gt=0)
+    min_share_within_band: float = Field(
+        default=1.0, gt=0, le=1, description="Share of points inside the band"
+    )
     min_fraction_above_nominal: float = Field(default=0.5, ge=0, le=1)
     q: float = Field(default=10.0, gt=0.5)
     basis: str = ""

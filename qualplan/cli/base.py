@@ -16,6 +16,7 @@ from sqlalchemy.engine import make_url
 
 from qualplan import __version__
 from qualplan.config import Settings
+from qualplan.planning.errors import PlanningError
 from qualplan.store import migrate
 from qualplan.store.session import DatabaseUrlError, make_engine, masked, normalise_url
 
@@ -140,8 +141,7 @@ def serve(
     # The app factory reads its Settings from the environment; the CLI and the API stay
     # independent interfaces (no import between them).
     os.environ["QUALPLAN_DATABASE_URL"] = url
-    uvicorn.run("qualplan.api.app:create_app", factory=True, host=host, port=port,
-                log_level="info")
+    uvicorn.run("qualplan.api.app:create_app", factory=True, host=host, port=port, log_level="info")
 
 
 KNOWN_ERRORS = (
@@ -149,6 +149,7 @@ KNOWN_ERRORS = (
     DatabaseUrlError,
     migrate.DatabaseUnavailable,
     migrate.SchemaMismatch,
+    PlanningError,
 )
 
 
@@ -171,7 +172,3 @@ def main(argv: list[str] | None = None) -> None:
             exc.show()
             sys.exit(exc.exit_code)
         raise
-
-
-if __name__ == "__main__":
-    main()

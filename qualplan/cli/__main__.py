@@ -1,0 +1,3 @@
+from qualplan.cli import main
+
+main()

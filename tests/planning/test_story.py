@@ -1,0 +1,169 @@
+"""A full story through the use cases: environments -> levels with coverage ->
+requirements -> evidence -> audit, and the stale path."""
+
+from __future__ import annotations
+
+import math
+from datetime import UTC, datetime, timedelta
+
+import numpy as np
+import pytest
+
+from qualplan.planning import audit, environments, evidence, levels, policies, requirements
+from qualplan.planning import schemas as s
+from qualplan.planning.errors import PermissionDenied, ValidationFailed
+from qualplan.store import models as m
+
+# Invented environments of the demo scenario (a survey drone's camera electronics).
+ROAD_Z = {"freq_hz": [10.0, 40.0, 500.0], "asd_g2_hz": [0.015, 0.015, 0.00015]}
+FLIGHT_Z = {"freq_hz": [20.0, 80.0, 350.0, 2000.0], "asd_g2_hz": [0.002, 0.01, 0.01, 0.001]}
+
+
+def _env(session, actor, unit, phase, name, kind, data, axis=m.Axis.Z):
+    return environments.create_environment(session, actor, s.EnvironmentCreate(
+        product_id=unit.id, phase_id=phase.id, name=name, kind=kind, axis=axis, data=data))
+
+
+def _random_level(session, actor, unit, revs, grade=m.Grade.qualification, name="random Z"):
+    gevs = policies.policy_ref(session, "spaceflight-gevs")
+    return levels.derive_level(session, actor, s.LevelRecipe(
+        product_id=unit.id, name=name, grade=grade, kind="random", axis=m.Axis.Z,
+        revision_ids=[r.id for r in revs], policy_id=gevs.id))
+
+
+@pytest.fixture
+def story(session, engineer, program, unit, road):
+    from qualplan.planning import catalog
+
+    flight = catalog.create_phase(session, engineer, s.PhaseCreate(
+        program_id=program.id, name="survey flight", duration_s=1800.0, occurrences=100))
+    road_env = _env(session, engineer, unit, road, "road Z", m.EnvironmentKind.random, ROAD_Z)
+    flight_env = _env(session, engineer, unit, flight, "flight Z", m.EnvironmentKind.random,
+                      FLIGHT_Z)
+    return {"flight": flight, "road_env": road_env, "flight_env": flight_env}
+
+
+def test_random_level_margin_duration_floor_and_coverage(session, engineer, unit, story):
+    revs = [story["road_env"].revisions[-1], story["flight_env"].revisions[-1]]
+    level = _random_level(session, engineer, unit, revs)
+    r = level.result
+    # GEVS qualification: limit + 3 dB, 120 s per axis, never below workmanship + 3 dB
+    # (GSFC-STD-7000B Table 2.4-1, from memory); the floor's overall level is 9.59 g rms
+    # (NASA-STD-7001B workmanship 6.78 g rms x sqrt(2), domain.md section 1).
+    assert r["duration_s"] == 120.0
+    assert r["grms"] >= 6.7842 * math.sqrt(2) * (1 - 1e-9)
+    assert [st["step"] for st in r["steps"]][:2] == ["maximum envelope",
+                                                     "conservative simplification"]
+    cov = r["coverage"]
+    assert cov["fn_hz"] and set(cov["by_b"]) == {"4", "6.4", "8", "12"}
+    assert isinstance(cov["passed"], bool)
+    assert sorted(level.input_hashes["revisions"]) == sorted(str(x.id) for x in revs)
+    assert not levels.read_level(session, level).stale
+
+
+def test_requirement_verified_then_stale_after_new_revision(session, engineer, unit, story):
+    revs = [story["road_env"].revisions[-1], story["flight_env"].revisions[-1]]
+    level = _random_level(session, engineer, unit, revs)
+    req = requirements.create_requirement(session, engineer, s.RequirementCreate(
+        program_id=unit.program_id, key="ENV-001", text="Survive qualification random, Z",
+        product_id=unit.id, level_id=level.id, method=m.VerificationMethod.test))
+    assert requirements.status_of(session, req).status == "open"
+    r = level.result
+    # The achieved control spectrum equals the demand at every breakpoint.
+    ev = evidence.add_test_record(session, engineer, req.id, s.TestEvidenceIn(
+        freq_hz=r["freq_hz"], values=r["asd_g2_hz"], duration_s=r["duration_s"]))
+    assert ev.verdict is m.Verdict.passed, ev.summary["reason"]
+    report = audit.audit(session, unit.program_id)
+    assert report.release_ready and report.counts["verified"] == 1
+
+    environments.revise_environment(session, engineer, story["flight_env"].id, s.RevisionIn(
+        data={**FLIGHT_Z, "asd_g2_hz": [0.003, 0.015, 0.015, 0.0015]}, note="new flight data"))
+    st = requirements.status_of(session, req)
+    assert st.status == "stale" and "flight Z" in st.reason
+    report = audit.audit(session, unit.program_id)
+    assert not report.release_ready and report.counts["stale"] == 1
+
+
+def test_failing_test_record_and_waiver(session, engineer, approver, unit, story):
+    level = _random_level(session, engineer, unit, [story["road_env"].revisions[-1]])
+    req = requirements.create_requirement(session, engineer, s.RequirementCreate(
+        program_id=unit.program_id, key="ENV-002", text="Random Z", product_id=unit.id,
+        level_id=level.id, method=m.VerificationMethod.test))
+    r = level.result
+    low = list(np.asarray(r["asd_g2_hz"]) * 10 ** (-4.0 / 10))  # 4 dB under: outside +/-3 dB
+    ev = evidence.add_test_record(session, engineer, req.id, s.TestEvidenceIn(
+        freq_hz=r["freq_hz"], values=low, duration_s=r["duration_s"]))
+    assert ev.verdict is m.Verdict.failed
+    assert requirements.status_of(session, req).status == "failed"
+    with pytest.raises(PermissionDenied):
+        requirements.waive(session, engineer, req.id, s.WaiverIn(
+            rationale="accepted by the customer board", expires_at=datetime.now(UTC)))
+    requirements.waive(session, approver, req.id, s.WaiverIn(
+        rationale="accepted by the customer board",
+        expires_at=datetime.now(UTC) + timedelta(days=10)))
+    assert requirements.status_of(session, req).status == "waived"
+    later = datetime.now(UTC) + timedelta(days=11)
+    assert requirements.status_of(session, req, now=later).status == "failed"
+
+
+def test_analysis_evidence_margin_of_safety(session, engineer, unit):
+    req = requirements.create_requirement(session, engineer, s.RequirementCreate(
+        program_id=unit.program_id, key="STR-001", text="Bracket stress", product_id=unit.id,
+        method=m.VerificationMethod.analysis, required_margin=0.0))
+    # MS = allowable / (FS x applied) - 1 = 276 / (1.25 x 180) - 1 = 0.2267 (closed form)
+    ev = evidence.add_analysis(session, engineer, req.id, s.AnalysisEvidenceIn(
+        applied=180.0, allowable=276.0, units="MPa", factor_of_safety=1.25))
+    assert ev.achieved_margin == pytest.approx(276 / (1.25 * 180) - 1)
+    assert requirements.status_of(session, req).status == "verified"
+    ev = evidence.add_analysis(session, engineer, req.id, s.AnalysisEvidenceIn(
+        applied=250.0, allowable=276.0, units="MPa", factor_of_safety=1.25))
+    assert requirements.status_of(session, req).status == "failed"
+
+
+def test_level_refuses_an_environment_of_another_axis(session, engineer, unit, story, road):
+    x_env = _env(session, engineer, unit, road, "road X", m.EnvironmentKind.random, ROAD_Z,
+                 axis=m.Axis.X)
+    with pytest.raises(ValidationFailed, match="axis X"):
+        _random_level(session, engineer, unit, [x_env.revisions[-1]])
+
+
+def test_analysis_level_with_load_factor(session, engineer, unit, story):
+    gevs = policies.policy_ref(session, "spaceflight-gevs")
+    level = levels.derive_level(session, engineer, s.LevelRecipe(
+        product_id=unit.id, name="loads Z", purpose=m.LevelPurpose.analysis, kind="random",
+        axis=m.Axis.Z, revision_ids=[story["flight_env"].revisions[-1].id], policy_id=gevs.id,
+        load_factor_fn_hz=150.0, load_factor_q=10.0))
+    lf = level.result["load_factor"]
+    # Miles: g rms = sqrt(pi/2 fn Q G(fn)) (Miles 1954); 3 sigma.
+    assert lf["three_sigma_g"] == pytest.approx(3 * math.sqrt(math.pi / 2 * 150 * 10 *
+                                                              lf["asd_at_fn_g2_hz"]), rel=1e-9)
+    # Analysis margin +3 dB on the flight PSD: the 80-350 Hz plateau doubles (x1.995).
+    assert lf["asd_at_fn_g2_hz"] == pytest.approx(0.01 * 10 ** 0.3, rel=1e-9)
+
+
+def test_sine_and_shock_levels(session, engineer, unit, road):
+    gevs = policies.policy_ref(session, "spaceflight-gevs")
+    # Displacement chosen so that the 15 Hz crossover is continuous: X = A g0 / (2 pi f)^2.
+    x_pk_pk = 2 * 1.5 * 9.80665 / (2 * math.pi * 15.0) ** 2
+    sine = _env(session, engineer, unit, road, "engine sine", m.EnvironmentKind.sine, {
+        "bands": [{"f_lo_hz": 5.0, "f_hi_hz": 15.0, "quantity": "displacement",
+                   "amplitude": x_pk_pk, "measure": "peak_to_peak"},
+                  {"f_lo_hz": 15.0, "f_hi_hz": 100.0, "quantity": "acceleration",
+                   "amplitude": 1.5}],
+        "sweep": {"rate_oct_per_min": 2.0, "direction": "up", "sweeps": 1}}, axis=m.Axis.Z)
+    lvl = levels.derive_level(session, engineer, s.LevelRecipe(
+        product_id=unit.id, name="sine Z", kind="sine", axis=m.Axis.Z,
+        revision_ids=[sine.revisions[-1].id], policy_id=gevs.id))
+    # GEVS qualification sine: 1.25 x limit at 2 oct/min (from memory, see policies.py)
+    assert lvl.result["peak_accel_g"] == pytest.approx(1.25 * 1.5)
+    assert lvl.result["sweep_rate_oct_per_min"] == 2.0
+    shock = _env(session, engineer, unit, road, "landing shock", m.EnvironmentKind.shock,
+                 {"freq_hz": [100.0, 1000.0, 2000.0], "accel_g": [10.0, 100.0, 100.0],
+                  "q": 10.0}, axis=m.Axis.Z)
+    lvl = levels.derive_level(session, engineer, s.LevelRecipe(
+        product_id=unit.id, name="shock Z", kind="shock", axis=m.Axis.Z,
+        revision_ids=[shock.revisions[-1].id], policy_id=gevs.id))
+    # +3 dB on an SRS amplitude = x 1.4125 (20 log10)
+    assert lvl.result["accel_g"][-1] == pytest.approx(100 * 10 ** (3 / 20))
+    assert lvl.result["shocks_per_axis"] == 2
+    assert "ers" in lvl.result["coverage"]
