@@ -7,9 +7,35 @@ from contextlib import asynccontextmanager
 from fastapi import FastAPI, Request
 
 from qualplan import __version__
+from qualplan.api import errors
+from qualplan.api.limits import BodySizeLimit
+from qualplan.api.routers import (
+    audit,
+    catalog,
+    environments,
+    events,
+    evidence,
+    levels,
+    policies,
+    requirements,
+    users,
+)
 from qualplan.config import Settings
 from qualplan.store.migrate import check_schema
 from qualplan.store.session import make_engine, make_sessionmaker
+
+PREFIX = "/api/v1"
+ROUTERS = (
+    catalog.router,
+    environments.router,
+    policies.router,
+    levels.router,
+    requirements.router,
+    evidence.router,
+    audit.router,
+    users.router,
+    events.router,
+)
 
 
 def create_app(settings: Settings | None = None) -> FastAPI:
@@ -30,10 +56,17 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         title="qualplan",
         version=__version__,
         summary="Environments, test levels, equivalence and margin-closure audit.",
+        description="Every route except /health needs `Authorization: Bearer <token>`. "
+        "Errors are RFC 9457 problem details (application/problem+json).",
         lifespan=lifespan,
+        openapi_url=f"{PREFIX}/openapi.json",
+        docs_url=f"{PREFIX}/docs",
+        redoc_url=None,
     )
+    errors.install(app)
+    app.add_middleware(BodySizeLimit, max_bytes=settings.max_upload_bytes)
 
-    @app.get("/api/v1/health", tags=["service"])
+    @app.get(f"{PREFIX}/health", tags=["service"])
     def health(request: Request) -> dict:
         """Package version and the database schema revision."""
         return {
@@ -42,4 +75,6 @@ def create_app(settings: Settings | None = None) -> FastAPI:
             "schema_revision": request.app.state.schema_revision,
         }
 
+    for router in ROUTERS:
+        app.include_router(router, prefix=PREFIX)
     return app

@@ -1,0 +1,134 @@
+"""Request-scoped dependencies: the session (one unit of work), the caller, versions, pages."""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Iterator
+from typing import Annotated
+
+from fastapi import Depends, Header, Query, Request
+from fastapi.security import HTTPAuthorizationCredentials, HTTPBearer
+from sqlalchemy.orm import Session
+
+from qualplan.api.errors import Problem
+from qualplan.planning import access
+from qualplan.planning.access import Actor
+from qualplan.planning.schemas import Role
+
+MAX_LIMIT = 500
+DEFAULT_LIMIT = 50
+
+
+def get_session(request: Request) -> Iterator[Session]:
+    """One transaction per request: commit once at the end, roll back on any error.
+
+    Used with ``scope="function"`` so the commit happens before the response is sent:
+    a failed commit (a concurrent edit, a constraint) becomes the response.
+    """
+    session = request.app.state.sessionmaker()
+    try:
+        yield session
+        session.commit()
+    except BaseException:
+        session.rollback()
+        raise
+    finally:
+        session.close()
+
+
+SessionDep = Annotated[Session, Depends(get_session, scope="function")]
+
+bearer = HTTPBearer(
+    auto_error=False,
+    description="A token from `qualplan token create` or POST /api/v1/users/{name}/tokens.",
+)
+
+
+def current_actor(
+    session: SessionDep,
+    credentials: Annotated[HTTPAuthorizationCredentials | None, Depends(bearer)],
+) -> Actor:
+    """The caller; NotAuthenticated (401) without a valid, unrevoked token."""
+    return access.authenticate(session, credentials.credentials if credentials else None)
+
+
+ActorDep = Annotated[Actor, Depends(current_actor)]
+
+
+def reader(actor: ActorDep) -> Actor:
+    """A caller allowed to read (viewer or higher)."""
+    access.require(actor, Role.viewer, "reading")
+    return actor
+
+
+ReaderDep = Annotated[Actor, Depends(reader)]
+
+_ETAG = re.compile(r'^\s*(?:W/)?"?(\d+)"?\s*$')
+
+
+def parse_version(value: str) -> int:
+    match = _ETAG.match(value)
+    if match is None:
+        raise Problem(
+            412,
+            "version-mismatch",
+            "Precondition failed",
+            'If-Match must carry the ETag of the version you edited, e.g. "3"',
+            field="If-Match",
+            value=value,
+        )
+    return int(match.group(1))
+
+
+def required_version(
+    if_match: Annotated[
+        str | None,
+        Header(
+            alias="If-Match",
+            description='ETag of the version the edit was made from, e.g. "3" (from GET)',
+        ),
+    ] = None,
+) -> int:
+    """The version from If-Match; 428 when the header is missing."""
+    if if_match is None:
+        raise Problem(
+            428,
+            "precondition-required",
+            "Precondition required",
+            "edits need an If-Match header with the ETag from GET, so that two people "
+            "editing the same record never silently overwrite each other",
+            field="If-Match",
+            value=None,
+        )
+    return parse_version(if_match)
+
+
+def optional_version(
+    if_match: Annotated[str | None, Header(alias="If-Match")] = None,
+) -> int | None:
+    return None if if_match is None else parse_version(if_match)
+
+
+VersionDep = Annotated[int, Depends(required_version)]
+OptionalVersionDep = Annotated[int | None, Depends(optional_version)]
+
+
+class PageParams:
+    def __init__(
+        self,
+        offset: Annotated[int, Query(ge=0, description="Items to skip")] = 0,
+        limit: Annotated[
+            int, Query(ge=1, le=MAX_LIMIT, description=f"Items per page (max {MAX_LIMIT})")
+        ] = DEFAULT_LIMIT,
+    ) -> None:
+        self.offset, self.limit = offset, limit
+
+    def window(self, items):
+        return list(items)[self.offset : self.offset + self.limit]
+
+
+PageDep = Annotated[PageParams, Depends()]
+
+
+def etag(version: int) -> str:
+    return f'"{version}"'

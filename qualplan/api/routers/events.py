@@ -1,0 +1,31 @@
+"""The event log (who did what, when): read-only."""
+
+from __future__ import annotations
+
+from fastapi import APIRouter
+
+from qualplan.api.deps import PageDep, ReaderDep, SessionDep
+from qualplan.api.errors import Problem
+from qualplan.api.models import EventRead, Page
+from qualplan.planning import access
+
+router = APIRouter(tags=["events"])
+
+
+@router.get("/events", response_model=Page[EventRead])
+def list_events(
+    session: SessionDep,
+    _: ReaderDep,
+    page: PageDep,
+    entity: str | None = None,
+    entity_id: int | None = None,
+):
+    """Newest first."""
+    use_case = getattr(access, "list_events", None)
+    if use_case is None:
+        raise Problem(
+            501, "not-implemented", "Not implemented", "listing events has no use case yet"
+        )
+    rows = use_case(session, entity=entity, entity_id=entity_id)
+    items = [EventRead.model_validate(r) for r in page.window(rows)]
+    return Page(items=items, total=len(rows), offset=page.offset, limit=page.limit)

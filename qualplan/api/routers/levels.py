@@ -1,0 +1,42 @@
+"""Levels: derive from environment revisions, read with the stale flag, list."""
+
+from __future__ import annotations
+
+from fastapi import APIRouter
+
+from qualplan.api.deps import ActorDep, PageDep, ReaderDep, SessionDep
+from qualplan.api.models import Page
+from qualplan.planning import levels
+from qualplan.planning import schemas as s
+from qualplan.planning.errors import NotFound
+
+router = APIRouter(tags=["levels"])
+
+
+def _level(session, level_id: int):
+    # planning has no "level by id" use case yet (see the API report).
+    for row in levels.list_levels(session):
+        if row.id == level_id:
+            return row
+    raise NotFound("level", level_id)
+
+
+@router.post("/levels", status_code=201, response_model=s.LevelRead)
+def derive(recipe: s.LevelRecipe, session: SessionDep, actor: ActorDep):
+    """Derive a level (the next number of `recipe.name` for the product)."""
+    return levels.read_level(session, levels.derive_level(session, actor, recipe))
+
+
+@router.get("/levels", response_model=Page[s.LevelRead])
+def list_levels(
+    session: SessionDep, _: ReaderDep, page: PageDep, product_id: int | None = None
+):
+    rows = levels.list_levels(session, product_id)
+    items = [levels.read_level(session, r) for r in page.window(rows)]
+    return Page(items=items, total=len(rows), offset=page.offset, limit=page.limit)
+
+
+@router.get("/levels/{level_id}", response_model=s.LevelRead)
+def get_level(level_id: int, session: SessionDep, _: ReaderDep):
+    """The level with `stale` and the reasons, when its inputs changed since."""
+    return levels.read_level(session, _level(session, level_id))

@@ -1,0 +1,87 @@
+"""Requirements (If-Match on edits), their computed status, and waivers (approvers)."""
+
+from __future__ import annotations
+
+from fastapi import APIRouter, Response
+
+from qualplan.api.deps import ActorDep, PageDep, ReaderDep, SessionDep, VersionDep, etag
+from qualplan.api.models import Page, RequirementPatch, RequirementStatus
+from qualplan.planning import catalog, levels, requirements
+from qualplan.planning import schemas as s
+
+router = APIRouter(tags=["requirements"])
+
+
+@router.get("/requirements", response_model=Page[s.RequirementRead])
+def list_requirements(
+    session: SessionDep,
+    _: ReaderDep,
+    page: PageDep,
+    program_id: int | None = None,
+    product_id: int | None = None,
+):
+    """Requirements by key, with their computed status; `product_id` includes its children."""
+    scope = None
+    if product_id is not None:
+        catalog.product_ref(session, None, product_id)
+        scope = levels.products_in_scope(session, product_id)
+    rows = requirements.list_requirements(session, program_id=program_id, product_ids=scope)
+    items = [requirements.read_requirement(session, r) for r in page.window(rows)]
+    return Page(items=items, total=len(rows), offset=page.offset, limit=page.limit)
+
+
+@router.post("/requirements", status_code=201, response_model=s.RequirementRead)
+def create_requirement(
+    cmd: s.RequirementCreate, session: SessionDep, actor: ActorDep, response: Response
+):
+    row = requirements.create_requirement(session, actor, cmd)
+    response.headers["ETag"] = etag(row.version)
+    return requirements.read_requirement(session, row)
+
+
+@router.get("/requirements/{requirement_id}", response_model=s.RequirementRead)
+def get_requirement(requirement_id: int, session: SessionDep, _: ReaderDep, response: Response):
+    row = requirements.requirement_ref(session, None, requirement_id)
+    response.headers["ETag"] = etag(row.version)
+    return requirements.read_requirement(session, row)
+
+
+@router.patch("/requirements/{requirement_id}", response_model=s.RequirementRead)
+def update_requirement(
+    requirement_id: int,
+    patch: RequirementPatch,
+    version: VersionDep,
+    session: SessionDep,
+    actor: ActorDep,
+    response: Response,
+):
+    """Edit fields; If-Match names the version edited (412 when it is not the current)."""
+    cmd = s.RequirementUpdate(**patch.model_dump(exclude_unset=True), expected_version=version)
+    row = requirements.update_requirement(session, actor, requirement_id, cmd)
+    response.headers["ETag"] = etag(row.version)
+    return requirements.read_requirement(session, row)
+
+
+@router.get("/requirements/{requirement_id}/status", response_model=RequirementStatus)
+def requirement_status(requirement_id: int, session: SessionDep, _: ReaderDep):
+    row = requirements.requirement_ref(session, None, requirement_id)
+    st = requirements.status_of(session, row)
+    return RequirementStatus(
+        requirement_id=row.id, key=row.key, status=st.status, reason=st.reason
+    )
+
+
+@router.post(
+    "/requirements/{requirement_id}/waivers",
+    status_code=201,
+    response_model=s.WaiverRead,
+    tags=["waivers"],
+)
+def waive(requirement_id: int, cmd: s.WaiverIn, session: SessionDep, actor: ActorDep):
+    """An approver waives the requirement until `expires_at`."""
+    return s.WaiverRead.model_validate(requirements.waive(session, actor, requirement_id, cmd))
+
+
+@router.post("/waivers/{waiver_id}/revoke", response_model=s.WaiverRead, tags=["waivers"])
+def revoke_waiver(waiver_id: int, session: SessionDep, actor: ActorDep):
+    return s.WaiverRead.model_validate(requirements.revoke_waiver(session, actor, waiver_id))
