@@ -3,6 +3,8 @@
 import numpy as np
 import pytest
 import rainflow as rainflow_ref  # reference library (test-only dependency)
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from qualplan.dynamics import rainflow
 from qualplan.dynamics.errors import InputError
@@ -78,3 +80,15 @@ def test_bad_input():
         rainflow.count(np.zeros((3, 3)))
     with pytest.raises(InputError, match="b="):
         rainflow.damage([0.0, 1.0, 0.0], 0.0)
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(st.floats(-1e3, 1e3, allow_nan=False), min_size=3, max_size=60))
+def test_property_equal_to_reference_and_counts_every_range(xs):
+    # reference library rainflow 3.2 on arbitrary short histories
+    ref = [list(map(float, c[:3])) for c in rainflow_ref.extract_cycles(xs)]
+    ours = rainflow.count(xs)
+    assert ours.tolist() == ref
+    # closed form: the count of a history of m reversals spans m - 1 half ranges
+    m = rainflow.reversals(xs).size
+    assert ours[:, 2].sum() * 2 == pytest.approx(m - 1)
