@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Annotated
 
-from fastapi import APIRouter, Query, Response
+from fastapi import APIRouter, File, Form, Query, Response, UploadFile
 
 from qualplan.api.deps import (
     ActorDep,
@@ -17,6 +17,7 @@ from qualplan.api.deps import (
 from qualplan.api.errors import Problem
 from qualplan.api.models import Page
 from qualplan.planning import environments as envs
+from qualplan.planning import imports
 from qualplan.planning import schemas as s
 from qualplan.planning.errors import NotFound
 
@@ -115,3 +116,86 @@ def compare(
 ):
     """Overall measures of revisions `a` and `b` and their largest difference [dB]."""
     return envs.compare(session, environment_id, a, b)
+
+
+# --- uploads ------------------------------------------------------------------------------
+
+FileIn = Annotated[UploadFile, File(description=".json or .csv table; records .csv .npy .wav ...")]
+UnitsIn = Annotated[
+    str | None,
+    Form(description="Units of the file's values: g^2/Hz, (m/s^2)^2/Hz, g or m/s^2"),
+]
+
+
+def _file_data(kind, file: UploadFile, value_units, freq_units, sample_rate_hz):
+    return imports.environment_data_from_file(
+        kind,
+        file.filename or "upload",
+        file.file.read(),
+        value_units=value_units,
+        freq_units=freq_units,
+        sample_rate_hz=sample_rate_hz,
+    )
+
+
+@router.post("/environments/upload", status_code=201, response_model=s.EnvironmentRead)
+def upload_environment(
+    session: SessionDep,
+    actor: ActorDep,
+    response: Response,
+    file: FileIn,
+    product_id: Annotated[int, Form()],
+    name: Annotated[str, Form(min_length=1, max_length=200)],
+    kind: Annotated[s.EnvironmentKind, Form()],
+    axis: Annotated[s.Axis, Form()],
+    phase_id: Annotated[int | None, Form()] = None,
+    source: Annotated[str, Form()] = "",
+    provenance: Annotated[str, Form()] = "",
+    note: Annotated[str, Form()] = "",
+    value_units: UnitsIn = None,
+    freq_units: Annotated[str, Form()] = "Hz",
+    sample_rate_hz: Annotated[float | None, Form(gt=0)] = None,
+):
+    """Create an environment from an uploaded file (multipart), within the upload limit."""
+    data, array = _file_data(kind, file, value_units, freq_units, sample_rate_hz)
+    cmd = s.EnvironmentCreate(
+        product_id=product_id,
+        phase_id=phase_id,
+        name=name,
+        kind=kind,
+        axis=axis,
+        source=source,
+        provenance=provenance or f"uploaded file {file.filename}",
+        data=data,
+        note=note,
+    )
+    return _read(session, envs.create_environment(session, actor, cmd, array), response)
+
+
+@router.post(
+    "/environments/{environment_id}/revisions/upload",
+    status_code=201,
+    response_model=s.RevisionRead,
+)
+def upload_revision(
+    environment_id: int,
+    session: SessionDep,
+    actor: ActorDep,
+    version: OptionalVersionDep,
+    response: Response,
+    file: FileIn,
+    note: Annotated[str, Form()] = "",
+    expected_revision: Annotated[int | None, Form()] = None,
+    value_units: UnitsIn = None,
+    freq_units: Annotated[str, Form()] = "Hz",
+    sample_rate_hz: Annotated[float | None, Form(gt=0)] = None,
+):
+    """Add a revision from an uploaded file; If-Match or `expected_revision` as for JSON."""
+    env = _environment(session, environment_id)
+    data, array = _file_data(env.kind, file, value_units, freq_units, sample_rate_hz)
+    cmd = s.RevisionIn(data=data, note=note, expected_revision=expected_revision)
+    if version is not None:
+        cmd = cmd.model_copy(update={"expected_revision": version})
+    rev = envs.revise_environment(session, actor, environment_id, cmd, array)
+    response.headers["ETag"] = etag(rev.number)
+    return envs.read_revision(rev, env.kind)

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
-from fastapi import APIRouter
+from typing import Annotated
+
+from fastapi import APIRouter, File, Form, UploadFile
 
 from qualplan.api.deps import ActorDep, PageDep, ReaderDep, SessionDep
 from qualplan.api.models import Page
@@ -55,3 +57,29 @@ def add_inspection(
     return s.EvidenceRead.model_validate(
         evidence.add_inspection(session, actor, requirement_id, cmd)
     )
+
+
+@router.post("/test/upload", status_code=201, response_model=s.EvidenceRead)
+def upload_test_record(
+    requirement_id: int,
+    session: SessionDep,
+    actor: ActorDep,
+    file: Annotated[UploadFile, File(description="CSV (Hz, value) or JSON test record")],
+    value_units: Annotated[str | None, Form(description="g^2/Hz, (m/s^2)^2/Hz, g, m/s^2")] = None,
+    duration_s: Annotated[float | None, Form(gt=0)] = None,
+    shocks: Annotated[int | None, Form(ge=0)] = None,
+    note: Annotated[str, Form()] = "",
+):
+    """A test record uploaded as a file, checked against the level's tolerances."""
+    row = evidence.add_test_record_file(
+        session,
+        actor,
+        requirement_id,
+        file.filename or "upload",
+        file.file.read(),
+        value_units=value_units,
+        duration_s=duration_s,
+        shocks=shocks,
+        note=note,
+    )
+    return s.EvidenceRead.model_validate(row)

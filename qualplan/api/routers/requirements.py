@@ -6,7 +6,7 @@ from fastapi import APIRouter, Response
 
 from qualplan.api.deps import ActorDep, PageDep, ReaderDep, SessionDep, VersionDep, etag
 from qualplan.api.models import Page, RequirementPatch, RequirementStatus
-from qualplan.planning import catalog, levels, requirements
+from qualplan.planning import catalog, requirements
 from qualplan.planning import schemas as s
 
 router = APIRouter(tags=["requirements"])
@@ -20,11 +20,10 @@ def list_requirements(
     program_id: int | None = None,
     product_id: int | None = None,
 ):
-    """Requirements by key, with their computed status; `product_id` includes its children."""
+    """Requirements by key, with their computed status (of one program or product)."""
     scope = None
     if product_id is not None:
-        catalog.product_ref(session, None, product_id)
-        scope = levels.products_in_scope(session, product_id)
+        scope = [catalog.product_ref(session, None, product_id).id]
     rows = requirements.list_requirements(session, program_id=program_id, product_ids=scope)
     items = [requirements.read_requirement(session, r) for r in page.window(rows)]
     return Page(items=items, total=len(rows), offset=page.offset, limit=page.limit)
