@@ -362,48 +362,39 @@ def _vertex(ym, y0, yp):
 @njit(cache=True, nogil=True)
 def _filter_miner(x, b0, b1, b2, a1, a2, n_extra, b, interp):
     """SDOF filter + online reversals + rainflow + Miner sum, in one pass, O(1) memory
-    beyond the rainflow stack."""
+    beyond the rainflow stack. `x` has at least 2 samples."""
     n = x.shape[0]
-    n_tot = n + n_extra
-    stack = np.empty(n_tot + 2, dtype=np.float64)
-    sp = 0
-    dmg = 0.0
-    x1 = 0.0
-    x2 = 0.0
-    y1 = 0.0
-    y2 = 0.0
-    xc = 0.0  # reversal candidate
-    xprev = 0.0  # sample before the candidate
-    dl = 0.0
-    for k in range(n_tot):
-        x0 = x[k] if k < n else 0.0
-        y0 = b0 * x0 + b1 * x1 + b2 * x2 - a1 * y1 - a2 * y2
+    stack = np.empty(n + n_extra + 2, dtype=np.float64)
+    # first two samples (zero initial state)
+    y0 = b0 * x[0]
+    y1 = b0 * x[1] + b1 * x[0] - a1 * y0
+    sp, dmg = _push(stack, 0, y0, b)
+    xprev = y0  # sample before the reversal candidate
+    xc = y1  # reversal candidate
+    dl = y1 - y0
+    x1 = x[1]
+    x2 = x[0]
+    yy1 = y1
+    yy2 = y0
+    for k in range(2, n + n_extra):
+        xin = x[k] if k < n else 0.0
+        y = b0 * xin + b1 * x1 + b2 * x2 - a1 * yy1 - a2 * yy2
         x2 = x1
-        x1 = x0
-        y2 = y1
-        y1 = y0
-        if k == 0:
-            sp, d = _push(stack, sp, y0, b)
-            dmg += d
-            xprev = y0
+        x1 = xin
+        yy2 = yy1
+        yy1 = y
+        if y == xc:
             continue
-        if k == 1:
-            xc = y0
-            dl = y0 - xprev
-            continue
-        if y0 == xc:
-            continue
-        dn = y0 - xc
+        dn = y - xc
         if dl * dn < 0.0:
-            val = _vertex(xprev, xc, y0) if interp else xc
+            val = _vertex(xprev, xc, y) if interp else xc
             sp, d = _push(stack, sp, val, b)
             dmg += d
         xprev = xc
-        xc = y0
+        xc = y
         dl = dn
-    if n_tot >= 2:
-        sp, d = _push(stack, sp, xc, b)
-        dmg += d
+    sp, d = _push(stack, sp, xc, b)
+    dmg += d
     for j in range(sp - 1):
         dmg += 0.5 * math.pow(0.5 * abs(stack[j + 1] - stack[j]), b)
     return dmg

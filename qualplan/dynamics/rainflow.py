@@ -19,7 +19,7 @@ import math
 import numpy as np
 from numba import njit
 
-from qualplan.dynamics._validate import as_1d_float
+from qualplan.dynamics._validate import as_1d_float, positive_scalar
 
 __all__ = ["count", "reversals", "damage"]
 
@@ -198,8 +198,6 @@ def damage(series, b: float) -> float:
     float
         D = sum over cycles of count * (range / 2)^b. [u^b]
     """
-    from qualplan.dynamics._validate import positive_scalar
-
     b = positive_scalar("b", b)
     x = as_1d_float("series", series)
     tp = np.empty(x.size, dtype=np.float64)
