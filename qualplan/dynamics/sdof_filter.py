@@ -160,7 +160,7 @@ def coefficients(fn_hz, q, dt_s, *, output: str = "abs_accel") -> tuple[np.ndarr
     dt_s : float
         Sample step of the input record [s].
     output : {"abs_accel", "rel_disp", "pseudo_vel"}
-        Response of the filter: absolute acceleration of the mass [g],
+        Name of the response [unitless]: absolute acceleration of the mass [g],
         relative displacement z [m] or pseudo-velocity wn z [m/s]; the input
         is always the base acceleration [g]. Sign convention in the module
         docstring.
@@ -431,7 +431,8 @@ def response(accel_g, dt_s, fn_hz, q=10.0, *, output: str = "abs_accel") -> np.n
     q : float, optional
         Amplification Q = 1/(2 zeta) [unitless], > 0.5. Default 10.
     output : {"abs_accel", "rel_disp", "pseudo_vel"}
-        Absolute acceleration of the mass [g], relative displacement z [m]
+        Name of the response [unitless]: absolute acceleration of the mass
+        [g], relative displacement z [m]
         (z = x - y, negative when a positive base acceleration compresses the
         spring; see the module docstring), or pseudo-velocity wn z [m/s].
 

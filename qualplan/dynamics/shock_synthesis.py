@@ -446,7 +446,7 @@ def synthesize_shock(
     max_delay_s : float, optional
         Largest wavelet start time [s]. Default ``duration_s / 10``.
     seed : int or numpy.random.Generator, optional
-        Seed of the random design (half-cycles, delays, signs). The result is
+        Seed of the random design (half-cycles, delays, signs) [unitless]. The result is
         deterministic for a given seed. Default 0.
     n_trials : int, optional
         Random designs tried in turn until one converges [unitless]. Default 4.

@@ -295,7 +295,8 @@ def shock_response_spectrum(
     q : float, optional
         Amplification Q = 1/(2 zeta) [unitless], > 0.5. Default 10.
     pseudo_velocity : bool, optional
-        Also compute the maximax pseudo-velocity SRS (doubles the work).
+        Also compute the maximax pseudo-velocity SRS [unitless flag] (doubles
+        the work).
 
     Returns
     -------
@@ -371,8 +372,8 @@ def srs(accel_g, dt_s, freq_hz, q=10.0, kind="maximax") -> np.ndarray:
     q : float, optional
         Amplification Q = 1/(2 zeta) [unitless], > 0.5. Default 10.
     kind : {"maximax", "positive", "negative", "primary", "residual"}
-        Which spectrum (see the module docstring); all are positive
-        magnitudes.
+        Which spectrum [unitless] (see the module docstring); all are
+        positive magnitudes.
 
     Returns
     -------
@@ -792,6 +793,44 @@ class SrsCheck:
     outer_upper_db: float | None
     min_share_within_band: float
     min_fraction_above: float | None
+
+    @property
+    def reason(self) -> str:
+        """One sentence: why it failed, or a summary of the pass."""
+        if self.reasons:
+            return "; ".join(self.reasons)
+        return (
+            f"within {self.lower_db:+g}/{self.upper_db:+g} dB at"
+            f" {self.share_within_band:.0%} of {self.freq_hz.size} points; worst"
+            f" {self.worst_deviation_db:+.2f} dB at {self.worst_freq_hz:g} Hz;"
+            f" {self.fraction_at_or_above_nominal:.0%} at or above nominal"
+        )
+
+    def as_dict(self) -> dict:
+        """Plain JSON-ready dict (lists and floats) with unit-suffixed keys."""
+        return {
+            "passed": bool(self.passed),
+            "reason": self.reason,
+            "reasons": list(self.reasons),
+            "lower_db": self.lower_db,
+            "upper_db": self.upper_db,
+            "outer_lower_db": self.outer_lower_db,
+            "outer_upper_db": self.outer_upper_db,
+            "min_share_within_band": self.min_share_within_band,
+            "min_fraction_above": self.min_fraction_above,
+            "share_within_band": self.share_within_band,
+            "fraction_at_or_above_nominal": self.fraction_at_or_above_nominal,
+            "worst": {
+                "freq_hz": self.worst_freq_hz,
+                "deviation_db": self.worst_deviation_db,
+                "margin_db": self.worst_margin_db,
+            },
+            "freq_hz": self.freq_hz.tolist(),
+            "measured_g": self.measured_g.tolist(),
+            "nominal_g": self.nominal_g.tolist(),
+            "deviation_db": self.deviation_db.tolist(),
+            "passed_per_freq": self.passed_per_freq.tolist(),
+        }
 
 
 def check_srs(

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import tracemalloc
 import warnings
 
@@ -346,6 +347,10 @@ def test_check_srs_every_point_rule():
     ok = S.check_srs(f, m, NOMINAL, lower_db=-6.0, upper_db=6.0, min_fraction_above=0.5)
     assert ok.passed and ok.reasons == ()
     assert ok.worst_margin_db == pytest.approx(1.0)
+    assert "at or above nominal" in ok.reason and "outside" in res.reason
+    d = ok.as_dict()
+    assert d["passed"] is True and d["worst"]["margin_db"] == pytest.approx(1.0)
+    json.dumps(d)  # plain types only
 
 
 def test_check_srs_share_rule_and_fraction_above():
