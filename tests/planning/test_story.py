@@ -9,6 +9,7 @@ from datetime import UTC, datetime, timedelta
 import numpy as np
 import pytest
 
+from qualplan.dynamics import psd
 from qualplan.planning import audit, environments, evidence, levels, policies, requirements
 from qualplan.planning import schemas as s
 from qualplan.planning.errors import PermissionDenied, ValidationFailed
@@ -17,6 +18,11 @@ from qualplan.store import models as m
 # Invented environments of the demo scenario (a survey drone's camera electronics).
 ROAD_Z = {"freq_hz": [10.0, 40.0, 500.0], "asd_g2_hz": [0.015, 0.015, 0.00015]}
 FLIGHT_Z = {"freq_hz": [20.0, 80.0, 350.0, 2000.0], "asd_g2_hz": [0.002, 0.01, 0.01, 0.001]}
+
+
+def _lines(result) -> np.ndarray:
+    f = result["freq_hz"]
+    return np.geomspace(f[0], f[-1], int(48 * np.log2(f[-1] / f[0])) + 1)
 
 
 def _env(session, actor, unit, phase, name, kind, data, axis=m.Axis.Z):
@@ -69,9 +75,11 @@ def test_requirement_verified_then_stale_after_new_revision(session, engineer, u
         product_id=unit.id, level_id=level.id, method=m.VerificationMethod.test))
     assert requirements.status_of(session, req).status == "open"
     r = level.result
-    # The achieved control spectrum equals the demand at every breakpoint.
+    # The achieved control spectrum equals the demand, on 1/48-octave controller lines.
+    lines = _lines(r)
     ev = evidence.add_test_record(session, engineer, req.id, s.TestEvidenceIn(
-        freq_hz=r["freq_hz"], values=r["asd_g2_hz"], duration_s=r["duration_s"]))
+        freq_hz=lines.tolist(), values=psd.asd_at(r["freq_hz"], r["asd_g2_hz"], lines).tolist(),
+        duration_s=r["duration_s"]))
     assert ev.verdict is m.Verdict.passed, ev.summary["reason"]
     report = audit.audit(session, unit.program_id)
     assert report.release_ready and report.counts["verified"] == 1
@@ -90,10 +98,12 @@ def test_failing_test_record_and_waiver(session, engineer, approver, unit, story
         program_id=unit.program_id, key="ENV-002", text="Random Z", product_id=unit.id,
         level_id=level.id, method=m.VerificationMethod.test))
     r = level.result
-    low = list(np.asarray(r["asd_g2_hz"]) * 10 ** (-4.0 / 10))  # 4 dB under: outside +/-3 dB
+    lines = _lines(r)
+    low = psd.asd_at(r["freq_hz"], r["asd_g2_hz"], lines) * 10 ** (-4.0 / 10)  # outside -3 dB
     ev = evidence.add_test_record(session, engineer, req.id, s.TestEvidenceIn(
-        freq_hz=r["freq_hz"], values=low, duration_s=r["duration_s"]))
+        freq_hz=lines.tolist(), values=low.tolist(), duration_s=r["duration_s"]))
     assert ev.verdict is m.Verdict.failed
+    assert "outside +/-3 dB" in ev.summary["reason"]
     assert requirements.status_of(session, req).status == "failed"
     with pytest.raises(PermissionDenied):
         requirements.waive(session, engineer, req.id, s.WaiverIn(
