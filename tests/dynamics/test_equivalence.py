@@ -35,12 +35,21 @@ def test_random_test_for_life_cycle_fds():
     np.testing.assert_allclose(res2.asd_g2_hz / res.asd_g2_hz, 2 ** 0.25, rtol=2e-3)
 
 
-@pytest.mark.skipif(not hasattr(psd, "simplify"), reason="psd.simplify (random core) not yet in")
 def test_random_test_simplified_is_conservative():
+    # the random core's simplification never goes below the equivalent PSD, so the
+    # simplified test's FDS covers the target (up to the 0.1 % FDS match, 0.004 dB)
     life = fatigue.fds_random(*GEVS_QUAL, 3600.0, FN, 10, 8)
     res = equivalence.random_test_for_fds(FN, life, 120.0, 10, 8, max_points=6)
     assert res.simplified_freq_hz.size <= 6
-    assert res.simplified_fds_margin_db >= -0.05  # within the 1 % FDS match (0.04 dB)
+    assert res.simplified_fds_margin_db >= -0.005
+    g_at = np.exp(np.interp(np.log(FN), np.log(res.simplified_freq_hz),
+                            np.log(res.simplified_asd_g2_hz)))
+    assert np.all(g_at >= res.asd_g2_hz * (1 - 1e-9))
+    # equal-shape check: 3600 s -> 120 s on GEVS qual raises it by 30^(1/4) (closed form),
+    # on the plateau away from the corners the fn grid does not hold
+    mid = (FN > 100) & (FN < 600)
+    np.testing.assert_allclose(res.asd_g2_hz[mid] / psd.asd_at(*GEVS_QUAL, FN[mid]),
+                               30 ** 0.25, rtol=2e-3)
 
 
 def test_coverage_ratios_pass_fail_and_worst_frequency():
