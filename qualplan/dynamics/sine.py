@@ -24,6 +24,7 @@ from typing import Literal
 
 import numpy as np
 
+from qualplan.dynamics import _loglog as _ll
 from qualplan.dynamics import _validate as v
 from qualplan.dynamics.errors import InputError
 from qualplan.dynamics.units import G0_M_S2
@@ -306,7 +307,10 @@ class SineTable:
     freq_hz : numpy.ndarray
         Strictly increasing frequencies. [Hz]
     accel_g_points : numpy.ndarray
-        Peak acceleration at those frequencies, >= 0. [g]
+        Peak acceleration at those frequencies, >= 0 (0 in a gap between
+        enveloped specifications; log-log interpolation, linear next to a 0). [g]
+    notes : tuple of str
+        How the table was made (e.g. the notch depth).
     """
 
     freq_hz: np.ndarray
@@ -325,14 +329,17 @@ class SineTable:
 
     @property
     def f_lo_hz(self) -> float:
+        """Lowest frequency. [Hz]"""
         return float(self.freq_hz[0])
 
     @property
     def f_hi_hz(self) -> float:
+        """Highest frequency. [Hz]"""
         return float(self.freq_hz[-1])
 
     @property
     def breaks_hz(self) -> np.ndarray:
+        """Table frequencies (integration breakpoints). [Hz]"""
         return self.freq_hz
 
     def accel_g(self, freq_hz) -> np.ndarray:
@@ -347,7 +354,7 @@ def _loglog(fx: np.ndarray, ax: np.ndarray, f: np.ndarray) -> np.ndarray:
         la = np.log(ax)
     pos = np.isfinite(la)
     if pos.all():
-        val = np.exp(np.interp(np.log(fc), np.log(fx), la))
+        return _ll._interp(fx, ax, f)
     else:  # zeros in the table: linear interpolation on those segments
         j = np.clip(np.searchsorted(fx, fc, side="right") - 1, 0, fx.size - 2)
         both = pos[j] & pos[j + 1]
@@ -527,6 +534,12 @@ def envelope(specs, freq_hz=None) -> SineTable:
     return SineTable(f, a)
 
 
+def _covers(field_name: str, table_f: np.ndarray, f: np.ndarray) -> None:
+    if table_f[0] > f[0] * (1 + 1e-12) or table_f[-1] < f[-1] * (1 - 1e-12):
+        raise InputError(field_name, (float(table_f[0]), float(table_f[-1])),
+                         f"table must cover the specification band [{f[0]:g}, {f[-1]:g}] Hz")
+
+
 def notch(spec: SineSpec | SineTable, limit_g, *, fn_hz: float | None = None,
           q: float | None = None, transmissibility=None, freq_hz=None) -> SineTable:
     """Notched input that keeps a response under its limit.
@@ -579,7 +592,8 @@ def notch(spec: SineSpec | SineTable, limit_g, *, fn_hz: float | None = None,
     f = (np.unique(np.concatenate(pts)) if freq_hz is None
          else v.as_1d_float("freq_hz", freq_hz, min_size=2))
     if transmissibility is not None:
-        t = np.exp(np.interp(np.log(f), np.log(tf), np.log(tv)))
+        _covers("transmissibility[0]", tf, f)
+        t = _ll._interp(tf, tv, f)
     else:
         t = sdof_t(f, fn, qq)
     if np.ndim(limit_g) == 0:
@@ -588,7 +602,9 @@ def notch(spec: SineSpec | SineTable, limit_g, *, fn_hz: float | None = None,
         lf = v.as_1d_float("limit_g[0]", limit_g[0], min_size=2)
         lv = v.as_1d_float("limit_g[1]", limit_g[1], min_size=2)
         v.all_positive("limit_g[1]", lv)
-        lim = np.exp(np.interp(np.log(f), np.log(lf), np.log(lv)))
+        v.strictly_increasing("limit_g[0]", lf)
+        _covers("limit_g[0]", lf, f)
+        lim = _ll._interp(lf, lv, f)
     a = spec.accel_g(f)
     notched = np.minimum(a, lim / t)
     depth = 20 * np.log10(np.max(np.where(notched > 0, a / np.maximum(notched, 1e-300), 1.0)))

@@ -129,6 +129,23 @@ def test_notch_measured_transmissibility():
     assert nt.accel_g(10.0) == pytest.approx(2.0)
 
 
+def test_notch_table_must_cover_the_band():
+    spec = sine.sine_spec(10, 1000, [("acceleration", 2.0)])
+    with pytest.raises(InputError, match="cover"):
+        sine.notch(spec, 10.0, transmissibility=([20, 100, 500], [1.0, 20.0, 1.0]))
+    with pytest.raises(InputError, match="either"):
+        sine.notch(spec, 10.0)
+
+
+def test_envelope_with_a_gap_is_zero_in_the_gap():
+    a = sine.sine_spec(5, 20, [("acceleration", 1.0)])
+    b = sine.sine_spec(50, 100, [("acceleration", 2.0)])
+    env = sine.envelope([a, b])
+    assert env.accel_g(10.0) == pytest.approx(1.0)
+    assert env.accel_g(30.0) == 0.0  # no specification covers 30 Hz
+    assert env.accel_g(75.0) == pytest.approx(2.0)
+
+
 def test_dwell():
     d = sine.SineDwell(100.0, 1.0, 60.0)
     assert d.cycles == 6000.0
