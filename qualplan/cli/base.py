@@ -156,7 +156,7 @@ KNOWN_ERRORS = (
 def main(argv: list[str] | None = None) -> None:
     """Console entry point: run the typer app, turn known errors into one line."""
     try:
-        app(args=argv, standalone_mode=False)
+        code = app(args=argv, standalone_mode=False)
     except KNOWN_ERRORS as exc:
         typer.echo(f"error: {exc}", err=True)
         sys.exit(2)
@@ -172,3 +172,5 @@ def main(argv: list[str] | None = None) -> None:
             exc.show()
             sys.exit(exc.exit_code)
         raise
+    if isinstance(code, int) and code != 0:
+        sys.exit(code)
