@@ -33,7 +33,9 @@ def test_story_from_csv_to_audit_gate(db, capsys, tmp_path):
     ok = lambda *a: run(capsys, *a, "--db", db)  # noqa: E731
     assert ok("program", "add", "Coastal survey drone")[0] == 0
     assert ok("product", "add", "Camera electronics", "--mass-kg", "2.4")[0] == 0
-    assert ok("phase", "add", "road transport", "--duration-s", "3600", "--occurrences", "2")[0] == 0
+    code, _, err = ok("phase", "add", "road transport", "--duration-s", "3600",
+                      "--occurrences", "2")
+    assert code == 0, err
     table = tmp_path / "road_z.csv"
     table.write_text("frequency,ASD\n10,0.015\n40,0.015\n500,0.00015\n")
     code, out, err = ok("env", "add", "road Z", "--product", "Camera electronics", "--kind",
