@@ -159,9 +159,10 @@ def _damage_from_moments(m0, m1, m2, m4, duration, b, method) -> np.ndarray:
     r = (gam - xm - d1**2) / (1.0 - gam - d1 + d1**2)
     d2 = (1.0 - gam - d1 + d1**2) / (1.0 - r)
     d3 = 1.0 - d1 - d2
-    qd = 1.25 * (gam - d3 - d2 * r) / d1
-    moment = (d1 * qd**b * gamma_fn(1 + b)
-              + 2.0 ** (b / 2) * gamma_fn(1 + b / 2) * (d2 * np.abs(r) ** b + d3))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        qd = 1.25 * (gam - d3 - d2 * r) / d1
+        expo = np.where(d1 > 1e-12, d1 * qd**b * gamma_fn(1 + b), 0.0)  # D1 -> 0: Rayleigh
+    moment = expo + 2.0 ** (b / 2) * gamma_fn(1 + b / 2) * (d2 * np.abs(r) ** b + d3)
     return npk * duration * m0 ** (b / 2) * moment
 
 
