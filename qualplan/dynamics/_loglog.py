@@ -21,6 +21,7 @@ unit-named public functions.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 
 import numpy as np
@@ -391,3 +392,399 @@ def _drop_collinear(f: np.ndarray, v: np.ndarray, tol: float = 1e-12):
     dev = np.abs(np.diff(s)) * np.minimum(dx[:-1], dx[1:])
     keep = np.concatenate(([True], dev > tol, [True]))
     return f[keep], v[keep]
+
+
+# ---------------------------------------------------------------------------------------------
+# Conservative simplification
+# ---------------------------------------------------------------------------------------------
+#
+# Problem: data (x_m, d_m) = (ln f_m, ln v_m), m = 0..M-1. Find breakpoints x_k (a subset of
+# the data frequencies, first and last included, K <= N) and values y_k such that the log-log
+# line through them is >= d_m at every data frequency, minimising the area int exp(y(x)) df.
+# Design (docs/methods/psd.md, "Simplification"):
+#   1. dynamic programming over (candidate frequency, candidate level) states; the transition
+#      (i, a) -> (j, b) is allowed when the segment is above all data between (its slope is at
+#      least the steepest slope from (x_i, y_a) to any data point in (x_i, x_j]); its cost is
+#      the exact segment area; one DP layer per segment count, so "at most N points" is exact.
+#   2. for the breakpoint frequencies found, the breakpoint values are re-optimised jointly and
+#      continuously: a convex program (exponential objective, linear constraints restricted to
+#      the upper convex hull of the data in each segment), solved by SLSQP with exact gradients.
+#   3. a second DP restricted to windows of data frequencies around each breakpoint, with
+#      levels around the optimised profile, followed by step 2 again; kept if better.
+#   4. a final lift by the largest residual violation (floating point) so that the profile is
+#      >= the data at every data frequency exactly as evaluated by `interp`.
+
+_DB = math.log(10.0) / 10.0  # ln units per dB (power)
+
+
+def _areas(x0, y0, x1, y1):
+    """Exact area of log-log segments (x, y = ln f, ln v), broadcasting."""
+    L = x1 - x0
+    return np.exp(y0 + x0) * L * exprel(((y1 - y0) / L + 1.0) * L)
+
+
+def _upper_hull(x: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """Indices of the upper convex hull of points sorted by x (monotone chain)."""
+    n = x.size
+    if n <= 2:
+        return np.arange(n)
+    hull: list[int] = []
+    for i in range(n):
+        while len(hull) >= 2:
+            a, b = hull[-2], hull[-1]
+            # keep b only if it lies strictly above the chord a -> i
+            if (y[b] - y[a]) * (x[i] - x[a]) - (y[i] - y[a]) * (x[b] - x[a]) <= 0:
+                hull.pop()
+            else:
+                break
+        hull.append(i)
+    return np.array(hull)
+
+
+def _dp(x, d, cand, levels, n_seg_max, windows=None):
+    """DP over (candidate, level) states; returns (cost, candidate indices, level values).
+
+    cand : sorted indices into the data, first 0, last M-1.
+    levels : (K, L) ln values at the candidates (>= data there; inf marks an unused slot).
+    windows : optional window number of each candidate; transitions only to the next window.
+    """
+    K, L = levels.shape
+    xc = x[cand]
+    # Steepest slope from state (i, a) to any data point in (x_i, x_j], for every j > i.
+    smax = np.full((K, L, K), np.inf)
+    for i in range(K - 1):
+        seg = slice(cand[i] + 1, None)
+        dx = x[seg] - xc[i]
+        sl = (d[seg][None, :] - levels[i][:, None]) / dx[None, :]
+        run = np.maximum.accumulate(sl, axis=1)
+        jj = np.arange(i + 1, K)
+        smax[i, :, i + 1:] = run[:, cand[jj] - cand[i] - 1]
+    area = [None] * K
+    for j in range(1, K):
+        ii = np.arange(j)
+        if windows is not None:
+            ii = ii[windows[ii] == windows[j] - 1]
+        if ii.size == 0:
+            continue
+        x0 = xc[ii][:, None, None]
+        y0 = levels[ii][:, :, None]
+        y1 = levels[j][None, None, :]
+        with np.errstate(over="ignore", invalid="ignore"):
+            slope = (y1 - y0) / (xc[j] - x0)
+            ok = (slope >= smax[ii, :, j][:, :, None] - 1e-12) & np.isfinite(y0) \
+                & np.isfinite(y1)
+            a = _areas(x0, y0, xc[j], y1)
+        area[j] = (ii, np.where(ok, a, np.inf))
+    best = np.full((n_seg_max + 1, K, L), np.inf)
+    arg_i = np.zeros((n_seg_max + 1, K, L), dtype=np.int64)
+    arg_a = np.zeros((n_seg_max + 1, K, L), dtype=np.int64)
+    best[0, 0, :] = np.where(np.isfinite(levels[0]), 0.0, np.inf)
+    for s in range(1, n_seg_max + 1):
+        for j in range(1, K):
+            if area[j] is None:
+                continue
+            ii, a = area[j]
+            tot = best[s - 1, ii][:, :, None] + a  # (len(ii), L, L)
+            flat = tot.reshape(-1, L)
+            k = np.argmin(flat, axis=0)
+            best[s, j] = flat[k, np.arange(L)]
+            arg_i[s, j] = ii[k // L]
+            arg_a[s, j] = k % L
+    end = best[1:, K - 1, :]
+    if not np.isfinite(end).any():
+        return np.inf, None, None
+    s_best, b = np.unravel_index(np.argmin(end), end.shape)
+    s = int(s_best) + 1
+    cost = float(end[s_best, b])
+    path_j, path_b = [K - 1], [int(b)]
+    j = K - 1
+    while s > 0:
+        i, a = int(arg_i[s, j, path_b[-1]]), int(arg_a[s, j, path_b[-1]])
+        path_j.append(i)
+        path_b.append(a)
+        j = i
+        s -= 1
+    path_j.reverse()
+    path_b.reverse()
+    idx = np.array([cand[j] for j in path_j])
+    vals = np.array([levels[j, b] for j, b in zip(path_j, path_b, strict=True)])
+    return cost, idx, vals
+
+
+def _exprel2(u: np.ndarray) -> np.ndarray:
+    """``int_0^1 t exp(u t) dt = (exp(u)(u - 1) + 1)/u^2``, accurate near u = 0."""
+    u = np.asarray(u, dtype=float)
+    out = np.empty_like(u)
+    small = np.abs(u) < 1e-3
+    us = u[small]
+    out[small] = 0.5 + us / 3.0 + us * us / 8.0 + us ** 3 / 30.0
+    ub = u[~small]
+    out[~small] = (np.exp(ub) * (ub - 1.0) + 1.0) / (ub * ub)
+    return out
+
+
+def _segment_hull(x, d, i: int, j: int, cache: dict | None) -> np.ndarray:
+    """Data indices of the upper convex hull of the points i..j (cached per (i, j))."""
+    if cache is not None and (i, j) in cache:
+        return cache[(i, j)]
+    m = np.arange(i, j + 1)
+    if m.size <= 3:
+        h = m
+    else:
+        from scipy.spatial import ConvexHull, QhullError
+
+        pts = np.column_stack((x[m] - x[i], d[m] - d[m].mean()))
+        try:
+            vert = ConvexHull(pts).vertices
+            # upper chain: vertices on or above the chord between the end points
+            chord = pts[0, 1] + (pts[-1, 1] - pts[0, 1]) * pts[vert, 0] / pts[-1, 0]
+            up = vert[pts[vert, 1] >= chord - 1e-12]
+            h = m[np.unique(np.concatenate(([0, m.size - 1], up)))]
+        except QhullError:
+            h = m  # degenerate (collinear) points: keep them all
+    if cache is not None:
+        cache[(i, j)] = h
+    return h
+
+
+def _optimise_values(x, d, idx, y_start, hull_cache: dict | None = None):
+    """Continuous optimal breakpoint values for fixed breakpoint indices (convex program)."""
+    from scipy.optimize import minimize
+
+    xk = x[idx]
+    Lk = np.diff(xk)
+    # Linear constraints: for each segment, the upper hull of the data in it.
+    rows, rhs = [], []
+    for k in range(idx.size - 1):
+        h = _segment_hull(x, d, int(idx[k]), int(idx[k + 1]), hull_cache)
+        t = (x[h] - xk[k]) / Lk[k]
+        for tt, dd in zip(t, d[h], strict=True):
+            r = np.zeros(idx.size)
+            r[k] = 1.0 - tt
+            r[k + 1] = tt
+            rows.append(r)
+            rhs.append(dd)
+    A = np.array(rows)
+    b = np.array(rhs)
+    # Scale the objective to ~1 at the start point.
+    scale = float(np.sum(_areas(xk[:-1], y_start[:-1], xk[1:], y_start[1:])))
+
+    def fun(y):
+        y0, y1 = y[:-1], y[1:]
+        u = y1 - y0 + Lk
+        base = np.exp(y0 + xk[:-1]) * Lk
+        e1 = exprel(u)
+        e2 = _exprel2(u)
+        f = float(np.sum(base * e1)) / scale
+        g = np.zeros_like(y)
+        # dA/dy0 = base * int (1-t) e^{ut} dt = base (e1 - e2); dA/dy1 = base e2
+        g[:-1] += base * (e1 - e2)
+        g[1:] += base * e2
+        return f, g / scale
+
+    cons = {"type": "ineq", "fun": lambda y: A @ y - b, "jac": lambda y: A}
+    res = minimize(fun, y_start, jac=True, method="SLSQP", constraints=[cons],
+                   options={"maxiter": 200, "ftol": 1e-12})
+    y = res.x if np.all(np.isfinite(res.x)) else y_start
+    # Repair any tiny violation from the solver tolerance by lifting the worst segments' ends.
+    viol = b - A @ y
+    if (viol > 0).any():
+        y = y + max(0.0, float(viol.max()))
+    # Never worse than the start point (which is feasible by construction).
+    if fun(y)[0] > fun(y_start)[0] or np.any(b - A @ y > 1e-12):
+        y = y_start
+    return y
+
+
+def _local_search(x, d, idx, y, max_sweeps: int = 60):
+    """Move single breakpoints along the data frequencies while the area decreases.
+
+    For breakpoint k between fixed neighbours (k-1, k+1) placed at data index p, the best
+    value is the smallest one keeping both segments above the data (the area grows with it):
+    y_k(p) = max(y_{k-1} + (x_p - x_{k-1}) max_{m<=p} s_m^-, y_{k+1} + (x_{k+1} - x_p)
+    max_{m>=p} s_m^+), with s^- the slopes from (x_{k-1}, y_{k-1}) to the data and s^+ the
+    slopes from the data to (x_{k+1}, y_{k+1}) (sign flipped): running maxima, O(M) per k.
+    """
+    idx = idx.copy()
+    y = y.copy()
+    nb = idx.size
+    for _ in range(max_sweeps):
+        moved = False
+        for k in range(1, nb - 1):
+            a, c = idx[k - 1], idx[k + 1]
+            if c - a < 2:
+                continue
+            p = np.arange(a + 1, c)
+            xa, ya, xc_, yc = x[a], y[k - 1], x[c], y[k + 1]
+            sl = np.maximum.accumulate((d[p] - ya) / (x[p] - xa))
+            sr = np.maximum.accumulate(((d[p] - yc) / (xc_ - x[p]))[::-1])[::-1]
+            yk = np.maximum(ya + (x[p] - xa) * sl, yc + (xc_ - x[p]) * sr)
+            with np.errstate(over="ignore"):
+                cost = _areas(xa, ya, x[p], yk) + _areas(x[p], yk, xc_, yc)
+            j = int(np.argmin(cost))
+            old = _areas(xa, ya, x[idx[k]], y[k]) + _areas(x[idx[k]], y[k], xc_, yc)
+            if cost[j] < old * (1.0 - 1e-12):
+                moved = moved or p[j] != idx[k]
+                idx[k], y[k] = p[j], yk[j]
+        y = _optimise_values(x, d, idx, y)
+        if not moved:
+            break
+    return idx, y
+
+
+def _min_value_at(x, d, a: int, ya: float, p: int, c: int, yc: float) -> float:
+    """Smallest value at data index p keeping the lines (a, ya)-(p, .) and (p, .)-(c, yc) above
+    the data between a and c."""
+    left = np.arange(a + 1, p + 1)
+    right = np.arange(p, c)
+    v = d[p]
+    if left.size:
+        v = max(v, ya + (x[p] - x[a]) * float(np.max((d[left] - ya) / (x[left] - x[a]))))
+    if right.size:
+        v = max(v, yc + (x[c] - x[p]) * float(np.max((d[right] - yc) / (x[c] - x[right]))))
+    return v
+
+
+def _joint_moves(x, d, idx, y, cache: dict, max_rounds: int = 4):
+    """Move one breakpoint by a few data lines and re-optimise all values jointly (SLSQP);
+    keep the first improvement, repeat for every breakpoint until a round brings none."""
+    idx, y = idx.copy(), y.copy()
+
+    def cost(ii, yy):
+        return float(np.sum(_areas(x[ii[:-1]], yy[:-1], x[ii[1:]], yy[1:])))
+
+    best = cost(idx, y)
+    for _ in range(max_rounds):
+        improved = False
+        for k in range(1, idx.size - 1):
+            gap = int(min(idx[k] - idx[k - 1], idx[k + 1] - idx[k]))
+            big = max(2, gap // 6)
+            for step in (-1, 1, -big, big):
+                p = int(idx[k]) + step
+                if not idx[k - 1] < p < idx[k + 1]:
+                    continue
+                i2 = idx.copy()
+                i2[k] = p
+                y2 = y.copy()
+                y2[k] = _min_value_at(x, d, int(idx[k - 1]), y[k - 1], p, int(idx[k + 1]),
+                                      y[k + 1])
+                y2 = _optimise_values(x, d, i2, y2, cache)
+                c2 = cost(i2, y2)
+                if c2 < best * (1.0 - 1e-9):
+                    idx, y, best, improved = i2, y2, c2, True
+                    break
+        if not improved:
+            break
+    return idx, y
+
+
+def _levels_for(d_c: np.ndarray, ceiling: float, n_levels: int) -> np.ndarray:
+    """Candidate levels [ln] at each candidate: its data value, then geometric offsets up to
+    15 dB above the highest data value (an end point or a tent apex may sit above every data
+    point)."""
+    span = np.maximum(ceiling - d_c, 0.0) + 15.0 * _DB
+    frac = np.concatenate(([0.0], np.geomspace(1e-3, 1.0, n_levels - 1)))
+    return d_c[:, None] + span[:, None] * frac[None, :]
+
+
+def simplify_above(freq, values, max_points: int, *, n_candidates: int = 120,
+                   n_levels: int = 28):
+    """Conservative log-log simplification (power-like values: the area is minimised).
+
+    Parameters
+    ----------
+    freq : array_like
+        Data frequencies [Hz] (a profile or a measured spectrum's lines).
+    values : array_like
+        Data values > 0 [U]; the objective is ``int v df`` [U Hz] (for an amplitude
+        quantity pass ``v**2`` and take the square root of the result).
+    max_points : int
+        Largest number of breakpoints of the result (>= 2).
+    n_candidates, n_levels : int
+        Size of the first DP grid (candidate frequencies and levels per frequency).
+
+    Returns
+    -------
+    freq, values : ndarray
+        At most `max_points` breakpoints at data frequencies, spanning the data band,
+        with ``interp(result, f_m) >= v_m`` for every data frequency ``f_m``.
+    """
+    f, v = check_profile(freq, values, "freq_hz", "values")
+    if isinstance(max_points, bool) or not isinstance(max_points, int | np.integer):
+        raise InputError("max_points", max_points, "must be an integer >= 2")
+    max_points = int(max_points)
+    if max_points < 2:
+        raise InputError("max_points", max_points, "must be >= 2")
+    f0, v0 = _drop_collinear(f, v)
+    if f0.size <= max_points:
+        return f0, v0
+    x, d = np.log(f), np.log(v)
+    M = x.size
+    n_seg = max_points - 1
+    ceiling = float(d.max())
+
+    # ---- pass 1: coarse DP -------------------------------------------------------------
+    K = min(M, max(n_candidates, 3 * max_points))
+    logspaced = np.unique(np.searchsorted(x, np.linspace(x[0], x[-1], K // 2), side="left"))
+    # local maxima (peaks and shoulders) by height, up to K/2 of them
+    inner = np.arange(1, M - 1)
+    is_peak = inner[(d[inner] >= d[inner - 1]) & (d[inner] >= d[inner + 1])]
+    peaks = is_peak[np.argsort(d[is_peak])[::-1][: K - logspaced.size]]
+    # upper-hull vertices of the whole data are natural corner candidates
+    hull = _upper_hull(x, d)
+    cand = np.unique(np.concatenate(([0, M - 1], logspaced, peaks, hull)))
+    cand = np.clip(cand, 0, M - 1)
+    levels = _levels_for(d[cand], ceiling, n_levels)
+    hull_cache: dict = {}
+    cost, idx, y = _dp(x, d, cand, levels, n_seg)
+    if idx is None:  # cannot happen: a single line through the highest corner is feasible
+        raise InputError("values", "no feasible profile", "internal error in simplification")
+    y = _optimise_values(x, d, idx, y, hull_cache)
+    best_cost = float(np.sum(_areas(x[idx[:-1]], y[:-1], x[idx[1:]], y[1:])))
+    best = (idx, y)
+
+    # ---- pass 2: refine around the breakpoints found ------------------------------------
+    for _ in range(2):
+        idx_b, y_b = best
+        nb = idx_b.size
+        yfun = np.interp(x, x[idx_b], y_b)
+        win_c, win_n = [], []
+        for k in range(nb):
+            if k == 0 or k == nb - 1:
+                c = np.array([idx_b[k]])
+            else:
+                lo_i = (idx_b[k - 1] + idx_b[k]) // 2 + 1
+                hi_i = (idx_b[k] + idx_b[k + 1]) // 2
+                c = np.arange(lo_i, hi_i + 1)
+                if c.size > 24:
+                    near = np.argsort(np.abs(c - idx_b[k]))[:16]
+                    rest = np.linspace(0, c.size - 1, 8).astype(int)
+                    c = np.unique(np.concatenate((c[near], c[rest])))
+            win_c.append(c)
+            win_n.append(np.full(c.size, k))
+        cand2 = np.concatenate(win_c)
+        wins = np.concatenate(win_n)
+        offs2 = np.linspace(-1.5, 1.5, 21) * _DB
+        lev2 = yfun[cand2][:, None] + offs2[None, :]
+        lev2 = np.where(lev2 > d[cand2][:, None], lev2, np.inf)
+        lev2 = np.column_stack((d[cand2], lev2))
+        c2, idx2, y2 = _dp(x, d, cand2, lev2, nb - 1, windows=wins)
+        if idx2 is None:
+            break
+        y2 = _optimise_values(x, d, idx2, y2, hull_cache)
+        c2 = float(np.sum(_areas(x[idx2[:-1]], y2[:-1], x[idx2[1:]], y2[1:])))
+        if c2 < best_cost * (1 - 1e-9):
+            best_cost, best = c2, (idx2, y2)
+        else:
+            break
+
+    idx, y = _local_search(x, d, *best)
+    idx, y = _joint_moves(x, d, idx, y, hull_cache)
+    fo, vo = f[idx].copy(), np.exp(y)
+    # ---- final guarantee at every data frequency, as `interp` evaluates it -------------------
+    for _ in range(5):
+        ratio = float(np.max(v / _interp(fo, vo, f)))
+        if ratio <= 1.0:
+            break
+        vo = vo * ratio * (1.0 + 4e-16)
+    return _drop_collinear(fo, vo)

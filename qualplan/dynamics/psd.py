@@ -50,6 +50,11 @@ __all__ = [
     "from_plateau",
     "resample",
     "envelope",
+    "simplify",
+    "simplify_report",
+    "SimplifyResult",
+    "check_against",
+    "ToleranceCheck",
 ]
 
 
@@ -512,3 +517,283 @@ class PsdProfile:
         """rms displacement [m]."""
         return displacement_rms_m(self.freq_hz, self.asd_g2_hz)
 
+
+
+# ---------------------------------------------------------------------------------------------
+# Conservative simplification
+# ---------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, eq=False)
+class SimplifyResult:
+    """A conservative simplification and what it costs.
+
+    Attributes
+    ----------
+    freq_hz, asd_g2_hz : ndarray
+        Breakpoints of the simplified profile [Hz], [g^2/Hz].
+    grms_input : float
+        g rms of the input (log-log interpolated between its lines) [g].
+    grms_result : float
+        g rms of the simplified profile [g].
+    excess_db : float
+        ``20 log10(grms_result / grms_input)`` [dB] (>= 0).
+    max_points : int
+        Breakpoint budget asked for.
+    min_margin_db : float
+        Smallest ``10 log10(result / input)`` over the input frequencies [dB] (>= 0:
+        the result is never below the input).
+    """
+
+    freq_hz: np.ndarray
+    asd_g2_hz: np.ndarray
+    grms_input: float
+    grms_result: float
+    excess_db: float
+    max_points: int
+    min_margin_db: float
+
+
+def simplify_report(freq_hz, asd_g2_hz, max_points: int) -> SimplifyResult:
+    """Conservative simplification to at most `max_points` breakpoints, with its g rms excess.
+
+    Parameters
+    ----------
+    freq_hz : array_like
+        Input frequencies [Hz] (breakpoints, or the lines of a measured PSD/envelope).
+    asd_g2_hz : array_like
+        Input ASD [g^2/Hz], > 0.
+    max_points : int
+        Largest number of breakpoints of the result, >= 2.
+
+    Returns
+    -------
+    SimplifyResult
+        Breakpoints at input frequencies, spanning the input band, never below the
+        input at any input frequency, with a small g rms excess.
+
+    Notes
+    -----
+    Minimises the area ``int G(f) df`` of a log-log profile constrained above the
+    data: dynamic programming over (candidate frequency, candidate level) states with
+    exact segment areas, joint convex re-optimisation of the breakpoint values (SLSQP
+    on the upper convex hull constraints), then local moves of single breakpoints.
+    A heuristic search of an exact model, not a proof of global optimality; see
+    docs/methods/psd.md, "Simplification", for the design and measured optimality gaps.
+    """
+    fp, ap = check_psd(freq_hz, asd_g2_hz)
+    fo, ao = _loglog.simplify_above(fp, ap, max_points)
+    g_in = grms(fp, ap)
+    g_out = grms(fo, ao)
+    margin = float(np.min(_loglog._interp(fo, ao, fp) / ap))
+    return SimplifyResult(
+        freq_hz=fo, asd_g2_hz=ao, grms_input=g_in, grms_result=g_out,
+        excess_db=20.0 * math.log10(g_out / g_in), max_points=int(max_points),
+        min_margin_db=10.0 * math.log10(margin),
+    )
+
+
+def simplify(freq_hz, asd_g2_hz, max_points: int) -> tuple[np.ndarray, np.ndarray]:
+    """Conservative simplification of a PSD (or an envelope) to at most `max_points` breakpoints.
+
+    Parameters
+    ----------
+    freq_hz : array_like
+        Input frequencies [Hz].
+    asd_g2_hz : array_like
+        Input ASD [g^2/Hz].
+    max_points : int
+        Largest number of breakpoints, >= 2.
+
+    Returns
+    -------
+    freq_hz, asd_g2_hz : ndarray
+        Never below the input at any input frequency; see :func:`simplify_report` for the
+        g rms excess and the method.
+    """
+    r = simplify_report(freq_hz, asd_g2_hz, max_points)
+    return r.freq_hz, r.asd_g2_hz
+
+
+# ---------------------------------------------------------------------------------------------
+# Achieved PSD against a specified profile
+# ---------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, eq=False)
+class ToleranceCheck:
+    """Result of :func:`check_against`.
+
+    Attributes
+    ----------
+    freq_hz : ndarray
+        Lines judged (achieved lines inside the specification band) [Hz].
+    achieved_asd_g2_hz, spec_asd_g2_hz : ndarray
+        Achieved and specified ASD on those lines [g^2/Hz].
+    deviation_db : ndarray
+        ``10 log10(achieved / spec)`` [dB].
+    lower_db, upper_db : ndarray
+        Tolerance band on each line [dB] (e.g. -3 and +3).
+    line_pass : ndarray of bool
+        ``lower_db <= deviation_db <= upper_db``.
+    worst_freq_hz : float
+        Line with the largest violation (or, if all pass, the smallest margin) [Hz].
+    worst_deviation_db : float
+        Deviation on that line [dB].
+    worst_excess_db : float
+        How far outside its band that line is [dB] (<= 0 when it is inside).
+    grms_achieved, grms_spec : float
+        Overall rms over the judged band [g] (achieved: trapezoid over the lines;
+        specification: exact closed form over the same band).
+    grms_deviation_db : float
+        ``20 log10(grms_achieved / grms_spec)`` [dB].
+    grms_pass : bool
+        g rms within ``+/- grms_tol_pct`` percent.
+    fraction_in_tolerance : float
+        Share of judged lines inside their band [unitless].
+    passed : bool
+        Every line inside its band and the g rms inside its tolerance.
+    n_outside_band : int
+        Achieved lines outside the specification band (not judged).
+    """
+
+    freq_hz: np.ndarray
+    achieved_asd_g2_hz: np.ndarray
+    spec_asd_g2_hz: np.ndarray
+    deviation_db: np.ndarray
+    lower_db: np.ndarray
+    upper_db: np.ndarray
+    line_pass: np.ndarray
+    worst_freq_hz: float
+    worst_deviation_db: float
+    worst_excess_db: float
+    grms_achieved: float
+    grms_spec: float
+    grms_deviation_db: float
+    grms_pass: bool
+    fraction_in_tolerance: float
+    passed: bool
+    n_outside_band: int
+
+
+def _tolerance_bands(tol_db, f: np.ndarray):
+    """Lower/upper band in dB per line from a scalar, a pair or a list of bands."""
+    if isinstance(tol_db, int | float) and not isinstance(tol_db, bool):
+        t = _finite("tol_db", tol_db)
+        if t <= 0:
+            raise InputError("tol_db", tol_db, "must be > 0 (a symmetric +/- band in dB)")
+        return np.full(f.size, -t), np.full(f.size, t)
+    try:
+        items = list(tol_db)
+    except TypeError as exc:
+        raise InputError("tol_db", tol_db, "must be a number, (lower, upper) or bands") from exc
+    if len(items) == 2 and all(isinstance(v, int | float) for v in items):
+        lo, hi = _finite("tol_db[0]", items[0]), _finite("tol_db[1]", items[1])
+        if not lo < 0 < hi:
+            raise InputError("tol_db", tol_db, "needs lower < 0 < upper, e.g. (-3, 3)")
+        return np.full(f.size, lo), np.full(f.size, hi)
+    lower = np.full(f.size, np.nan)
+    upper = np.full(f.size, np.nan)
+    for i, band in enumerate(items):
+        try:
+            f1, f2, lo, hi = (float(v) for v in band)
+        except (TypeError, ValueError) as exc:
+            raise InputError(f"tol_db[{i}]", band,
+                             "must be (f_low_hz, f_high_hz, lower_db, upper_db)") from exc
+        if not (0 <= f1 < f2 and lo < 0 < hi):
+            raise InputError(f"tol_db[{i}]", band, "needs f_low < f_high and lower < 0 < upper")
+        m = (f >= f1) & (f <= f2)
+        lower[m] = lo  # later bands override earlier ones on shared lines
+        upper[m] = hi
+    if np.isnan(lower).any():
+        i = int(np.argmax(np.isnan(lower)))
+        raise InputError("tol_db", f"no band covers {f[i]:g} Hz",
+                         "the bands must cover the whole specification band")
+    return lower, upper
+
+
+def check_against(freq_hz, asd_g2_hz, spec_freq_hz, spec_asd_g2_hz, *, tol_db=3.0,
+                  grms_tol_pct: float = 10.0) -> ToleranceCheck:
+    """Judge an achieved PSD (e.g. a controller's lines) against a specified profile.
+
+    Parameters
+    ----------
+    freq_hz : array_like
+        Achieved lines [Hz], strictly increasing.
+    asd_g2_hz : array_like
+        Achieved ASD [g^2/Hz], >= 0 (a zero line is -inf dB: a failure).
+    spec_freq_hz, spec_asd_g2_hz : array_like
+        Specified profile breakpoints [Hz], [g^2/Hz].
+    tol_db : float, (float, float) or list of (f_low_hz, f_high_hz, lower_db, upper_db)
+        Tolerance on every line [dB]: ``3`` means +/-3 dB; ``(-1.5, 3)`` an asymmetric
+        band; a list gives bands per frequency range (later entries win where they
+        overlap), e.g. ``[(20, 500, -3, 3), (500, 2000, -6, 6)]``.
+    grms_tol_pct : float
+        Allowed deviation of the overall g rms [percent of the specified g rms].
+
+    Returns
+    -------
+    ToleranceCheck
+
+    Notes
+    -----
+    Only lines inside ``[spec_freq_hz[0], spec_freq_hz[-1]]`` are judged. The achieved
+    g rms integrates the judged lines with the trapezoid rule; the specified g rms is
+    the exact area of the profile between the first and last judged line.
+
+    References
+    ----------
+    Tolerances as in GSFC-STD-7000 / NASA-STD-7001 / IEC 60068-2-64 practice
+    (+/-3 dB on ASD, +/-10 % on g rms); the defaults are common practice, not a rule.
+    """
+    from qualplan.dynamics._validate import as_1d_float, strictly_increasing
+
+    fa = as_1d_float("freq_hz", freq_hz, min_size=2)
+    aa = as_1d_float("asd_g2_hz", asd_g2_hz, min_size=2)
+    if fa.shape != aa.shape:
+        raise InputError("asd_g2_hz", f"{aa.size} values", f"must match freq_hz ({fa.size})")
+    strictly_increasing("freq_hz", fa)
+    if (aa < 0).any():
+        i = int(np.argmax(aa < 0))
+        raise InputError(f"asd_g2_hz[{i}]", float(aa[i]), "must be >= 0")
+    fs_, as_ = check_psd(spec_freq_hz, spec_asd_g2_hz)
+    pct = _finite("grms_tol_pct", grms_tol_pct)
+    if pct <= 0:
+        raise InputError("grms_tol_pct", grms_tol_pct, "must be > 0")
+    inside = (fa >= fs_[0]) & (fa <= fs_[-1])
+    if inside.sum() < 2:
+        raise InputError("freq_hz", f"{int(inside.sum())} lines in the specification band",
+                         f"needs at least 2 lines within {fs_[0]:g}-{fs_[-1]:g} Hz")
+    f = fa[inside]
+    a = aa[inside]
+    spec = _loglog._interp(fs_, as_, f)
+    with np.errstate(divide="ignore"):
+        dev = 10.0 * np.log10(a / spec)
+    lower, upper = _tolerance_bands(tol_db, f)
+    ok = (dev >= lower) & (dev <= upper)
+    excess = np.maximum(lower - dev, dev - upper)  # > 0 outside, <= 0 inside
+    w = int(np.argmax(excess))
+    g_ach = math.sqrt(float(np.trapezoid(a, f)))
+    band_f, band_a = _clip_profile(fs_, as_, f[0], f[-1])
+    g_spec = grms(band_f, band_a)
+    g_dev = 20.0 * math.log10(g_ach / g_spec) if g_ach > 0 else -math.inf
+    g_ok = abs(g_ach / g_spec - 1.0) <= pct / 100.0
+    return ToleranceCheck(
+        freq_hz=f, achieved_asd_g2_hz=a, spec_asd_g2_hz=spec, deviation_db=dev,
+        lower_db=lower, upper_db=upper, line_pass=ok,
+        worst_freq_hz=float(f[w]), worst_deviation_db=float(dev[w]),
+        worst_excess_db=float(excess[w]),
+        grms_achieved=g_ach, grms_spec=g_spec, grms_deviation_db=g_dev, grms_pass=bool(g_ok),
+        fraction_in_tolerance=float(ok.mean()), passed=bool(ok.all() and g_ok),
+        n_outside_band=int((~inside).sum()),
+    )
+
+
+def _clip_profile(f: np.ndarray, a: np.ndarray, f_lo: float, f_hi: float):
+    """The part of a validated profile between f_lo and f_hi (inside its band)."""
+    keep = (f > f_lo) & (f < f_hi)
+    ff = np.concatenate(([f_lo], f[keep], [f_hi]))
+    aa = _loglog._interp(f, a, ff)
+    if ff.size >= 2 and ff[0] < ff[-1]:
+        return ff, aa
+    raise InputError("freq_hz", (f_lo, f_hi), "band of zero width")

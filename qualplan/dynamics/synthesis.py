@@ -20,7 +20,7 @@ __all__ = ["gaussian_from_psd"]
 
 
 def gaussian_from_psd(freq_hz, asd_g2_hz, duration_s: float, fs_hz: float, *,
-                      rng: np.random.Generator) -> np.ndarray:
+                      rng: np.random.Generator, random_amplitude: bool = False) -> np.ndarray:
     """Stationary random acceleration record with a given PSD.
 
     Parameters
@@ -33,6 +33,12 @@ def gaussian_from_psd(freq_hz, asd_g2_hz, duration_s: float, fs_hz: float, *,
         Sample rate [Hz]; must exceed twice the highest breakpoint frequency.
     rng : numpy.random.Generator
         Source of the random phases (pass ``np.random.default_rng(seed)``).
+    random_amplitude : bool
+        False (default): random phases, fixed line amplitudes; the record's rms equals
+        the PSD's on the FFT grid exactly. True: complex normal line coefficients
+        (Rayleigh amplitudes): a sample of a stationary Gaussian process, whose
+        estimated PSD scatters as Gaussian-noise theory predicts (chi-square, random
+        error 1/sqrt(n_d)) and whose rms varies from record to record.
 
     Returns
     -------
@@ -47,9 +53,10 @@ def gaussian_from_psd(freq_hz, asd_g2_hz, duration_s: float, fs_hz: float, *,
     ``sum_k G(f_k) df``, the rectangle-rule area of the profile on the FFT grid
     (within ``O(df/f_min)`` of the exact area). The record is periodic with
     period ``duration_s``; its amplitude distribution is Gaussian to a close
-    approximation (sum of many independent cosines, central limit theorem) and
-    its narrow-band PSD estimates scatter as those of a Gaussian process with a
-    flat (non-Rayleigh) line amplitude.
+    approximation (sum of many independent cosines, central limit theorem). With
+    fixed line amplitudes the PSD estimated from it scatters far less than that of
+    Gaussian noise (every FFT line has exactly its mean power); use
+    ``random_amplitude=True`` to test estimators' statistics.
 
     References
     ----------
@@ -75,8 +82,12 @@ def gaussian_from_psd(freq_hz, asd_g2_hz, duration_s: float, fs_hz: float, *,
     if n % 2 == 0:
         g[-1] = 0.0  # the Nyquist line has no phase freedom; PSD is below fs/2 anyway
     amp = np.sqrt(2.0 * g * df)  # cosine amplitude per line [g]
-    phase = rng.uniform(0.0, 2.0 * math.pi, size=nf)
-    spec = (0.5 * n) * amp * np.exp(1j * phase)
+    if random_amplitude:
+        # E|c|^2 = 1 with c = (a + ib)/sqrt(2), a, b ~ N(0, 1): same mean power per line
+        c = (rng.standard_normal(nf) + 1j * rng.standard_normal(nf)) / math.sqrt(2.0)
+    else:
+        c = np.exp(1j * rng.uniform(0.0, 2.0 * math.pi, size=nf))
+    spec = (0.5 * n) * amp * c
     spec[0] = 0.0
     x = np.fft.irfft(spec, n=n)
     return x
