@@ -1,0 +1,94 @@
+"""Audit of a program with 2,000 requirements and 500 environments on SQLite.
+
+Builds the data through the planning use cases (10 products x 50 environments,
+20 levels, 2,000 requirements each with one piece of evidence), then times
+``planning.audit.audit`` over the whole program. Run:
+
+    .venv/bin/python benchmarks/bench_audit.py [--requirements 2000] [--environments 500]
+"""
+
+from __future__ import annotations
+
+import argparse
+import tempfile
+import time
+from pathlib import Path
+
+from qualplan.planning import audit, catalog, environments, evidence, levels, policies
+from qualplan.planning import requirements as reqs
+from qualplan.planning import schemas as s
+from qualplan.planning.access import Actor
+from qualplan.store import migrate
+from qualplan.store import models as m
+from qualplan.store.session import make_engine, make_sessionmaker, unit_of_work
+
+
+def build(url: str, n_req: int, n_env: int, n_products: int = 10, n_levels: int = 20) -> int:
+    actor = Actor("bench", m.Role.admin)
+    factory = make_sessionmaker(make_engine(url))
+    with unit_of_work(factory) as session:
+        prog = catalog.create_program(session, actor, s.ProgramCreate(name="bench program"))
+        policies.ensure_default_policies(session, actor)
+        gevs = policies.policy_ref(session, "spaceflight-gevs")
+        phase = catalog.create_phase(session, actor, s.PhaseCreate(
+            program_id=prog.id, name="flight", duration_s=600.0))
+        products = [catalog.create_product(session, actor, s.ProductCreate(
+            program_id=prog.id, name=f"unit {i}")) for i in range(n_products)]
+        env_revs: dict[int, list[int]] = {p.id: [] for p in products}
+        for j in range(n_env):
+            p = products[j % n_products]
+            lvl = 0.01 * (1 + (j % 7) / 10)
+            e = environments.create_environment(session, actor, s.EnvironmentCreate(
+                product_id=p.id, phase_id=phase.id, name=f"env {j}", kind="random",
+                axis=["X", "Y", "Z"][j % 3],
+                data={"freq_hz": [20.0, 100.0, 1000.0, 2000.0],
+                      "asd_g2_hz": [lvl / 4, lvl, lvl, lvl / 2]}))
+            env_revs[p.id].append((e.axis, e.revisions[-1].id))
+        made = []
+        for k in range(n_levels):
+            p = products[k % n_products]
+            axis = ["X", "Y", "Z"][k % 3]
+            ids = [rid for ax, rid in env_revs[p.id] if ax.value == axis][:3]
+            made.append(levels.derive_level(session, actor, s.LevelRecipe(
+                product_id=p.id, name=f"random {axis}", kind="random", axis=axis,
+                revision_ids=ids, policy_id=gevs.id)))
+        for i in range(n_req):
+            lv = made[i % n_levels]
+            r = reqs.create_requirement(session, actor, s.RequirementCreate(
+                program_id=prog.id, key=f"REQ-{i:05d}", text="bench", product_id=lv.product_id,
+                level_id=lv.id if i % 2 == 0 else None,
+                method="inspection" if i % 2 == 0 else "analysis"))
+            if i % 2 == 0:
+                evidence.add_inspection(session, actor, r.id, s.InspectionEvidenceIn(
+                    passed=i % 10 != 0, note="looked"))
+            else:
+                evidence.add_analysis(session, actor, r.id, s.AnalysisEvidenceIn(
+                    applied=100.0, allowable=150.0, units="MPa"))
+        return prog.id
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--requirements", type=int, default=2000)
+    ap.add_argument("--environments", type=int, default=500)
+    args = ap.parse_args()
+    with tempfile.TemporaryDirectory() as tmp:
+        url = f"sqlite:///{Path(tmp) / 'bench.db'}"
+        migrate.upgrade(url)
+        t0 = time.perf_counter()
+        pid = build(url, args.requirements, args.environments)
+        print(f"built {args.requirements} requirements, {args.environments} environments "
+              f"in {time.perf_counter() - t0:.1f} s")
+        factory = make_sessionmaker(make_engine(url))
+        times = []
+        for _ in range(5):
+            with factory() as session:
+                t0 = time.perf_counter()
+                report = audit.audit(session, pid)
+                times.append(time.perf_counter() - t0)
+        print(f"audit of {len(report.items)} requirements: best {min(times):.3f} s, "
+              f"median {sorted(times)[2]:.3f} s; counts {report.counts}")
+
+
+if __name__ == "__main__":
+    main()
