@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from contextlib import asynccontextmanager
 
+import anyio
 from fastapi import FastAPI, Request
 
 from qualplan import __version__
@@ -49,6 +50,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         app.state.engine = engine
         app.state.sessionmaker = make_sessionmaker(engine)
         app.state.settings = settings
+        app.state.write_lock = anyio.Lock() if engine.dialect.name == "sqlite" else None
         yield
         engine.dispose()
 

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import re
-from collections.abc import Iterator
+from collections.abc import AsyncIterator, Iterator
 from typing import Annotated
 
 from fastapi import Depends, Header, Query, Request
@@ -19,7 +19,29 @@ MAX_LIMIT = 500
 DEFAULT_LIMIT = 50
 
 
-def get_session(request: Request) -> Iterator[Session]:
+SAFE_METHODS = frozenset({"GET", "HEAD", "OPTIONS"})
+
+
+async def sqlite_writer_turn(request: Request) -> AsyncIterator[None]:
+    """On SQLite, let one writing request at a time hold a transaction.
+
+    SQLite has one writer; a deferred transaction that has read (the token check) and
+    then writes after another writer committed fails with "database is locked"
+    (SQLITE_BUSY_SNAPSHOT) instead of waiting. Writers of this process therefore take
+    turns (an event-loop lock: waiting costs no worker thread). Readers never wait
+    (WAL). PostgreSQL needs no turn.
+    """
+    lock = getattr(request.app.state, "write_lock", None)
+    if lock is None or request.method in SAFE_METHODS:
+        yield
+        return
+    async with lock:
+        yield
+
+
+def get_session(
+    request: Request, _turn: Annotated[None, Depends(sqlite_writer_turn, scope="function")]
+) -> Iterator[Session]:
     """One transaction per request: commit once at the end, roll back on any error.
 
     Used with ``scope="function"`` so the commit happens before the response is sent:

@@ -237,6 +237,15 @@ async def http_error(_request: Request, exc: StarletteHTTPException) -> JSONResp
     )
 
 
+async def unexpected(_request: Request, exc: Exception) -> JSONResponse:
+    return problem_response(
+        500,
+        "internal-error",
+        "Internal server error",
+        f"an unexpected {type(exc).__name__}; nothing was saved (the request was rolled back)",
+    )
+
+
 def install(app: FastAPI) -> None:
     """Register the handlers on `app`."""
     app.add_exception_handler(pe.PlanningError, planning_error)
@@ -246,3 +255,4 @@ def install(app: FastAPI) -> None:
     app.add_exception_handler(IntegrityError, integrity)
     app.add_exception_handler(OperationalError, operational)
     app.add_exception_handler(StarletteHTTPException, http_error)
+    app.add_exception_handler(Exception, unexpected)

@@ -37,27 +37,34 @@ class BodySizeLimit:
                 await self._refuse(send, declared)
                 return
         received = 0
-        started = False
+        exceeded = False
+        refused = False
 
         async def counted() -> Message:
-            nonlocal received
+            nonlocal received, exceeded
             message = await receive()
             if message["type"] == "http.request":
                 received += len(message.get("body", b""))
                 if received > self.max_bytes:
+                    exceeded = True
                     raise BodyTooLarge
             return message
 
-        async def tracked_send(message: Message) -> None:
-            nonlocal started
-            if message["type"] == "http.response.start":
-                started = True
+        async def guarded_send(message: Message) -> None:
+            # The app may turn the aborted read into its own error (FastAPI answers 400
+            # for a body it could not read): answer 413 instead, once.
+            nonlocal refused
+            if exceeded:
+                if not refused:
+                    refused = True
+                    await self._refuse(send, received)
+                return
             await send(message)
 
         try:
-            await self.app(scope, counted, tracked_send)
+            await self.app(scope, counted, guarded_send)
         except BodyTooLarge:
-            if not started:
+            if not refused:
                 await self._refuse(send, received)
 
     async def _refuse(self, send: Send, size: int) -> None:
