@@ -221,7 +221,8 @@ def _check_fn(fn_hz) -> np.ndarray:
 
 
 def warn_outside_band(fn: np.ndarray, f: np.ndarray, stacklevel: int = 3) -> None:
-    """Warn (AccuracyWarning) when natural frequencies lie outside the PSD band."""
+    """Warn (AccuracyWarning) when natural frequencies `fn` [Hz] lie outside the band of
+    the PSD frequencies `f` [Hz]; `stacklevel` points the warning at the caller's caller."""
     out = (fn < f[0]) | (fn > f[-1])
     if out.any():
         warnings.warn(
@@ -238,12 +239,33 @@ def quadrature_nodes(f_lo: float, f_hi: float, fn: np.ndarray, q: float, *, fixe
                      n_res: int = _N_RES, n_per_oct: int = _N_PER_OCT) -> np.ndarray:
     """Integration nodes per natural frequency, shape (n_fn, n_nodes), sorted per row.
 
-    The nodes are the union of: `fixed` frequencies (PSD breakpoints, band edges),
-    a log grid of `n_per_oct` points per octave across the band, and `n_res`
-    points f = fn (1 + tan(theta) / (2 Q)) with theta uniform in (-pi/2, pi/2),
-    which map the resonance peak (a Lorentzian in f) to a flat integrand in theta.
-    Nodes falling outside [f_lo, f_hi] are clipped to the edges (zero-width
-    intervals, harmless).
+    Parameters
+    ----------
+    f_lo, f_hi : float
+        Integration band. [Hz]
+    fn : numpy.ndarray
+        Natural frequencies. [Hz]
+    q : float
+        Amplification factor. [unitless]
+    fixed : array_like, optional
+        Frequencies that must be nodes (PSD breakpoints, band edges). [Hz]
+    n_res : int
+        Resonance nodes per fn.
+    n_per_oct : int
+        Background log-spaced nodes per octave.
+
+    Returns
+    -------
+    numpy.ndarray, shape (n_fn, n_nodes)
+        Nodes. [Hz]
+
+    Notes
+    -----
+    The nodes are the union of `fixed`, a log grid of `n_per_oct` points per
+    octave across the band, and `n_res` points f = fn (1 + tan(theta) / (2 Q)) with
+    theta uniform in (-pi/2, pi/2), which map the resonance peak (a Lorentzian in
+    f) to a flat integrand in theta. Nodes falling outside [f_lo, f_hi] are
+    clipped to the edges (zero-width intervals, harmless).
     """
     n_oct = max(math.log2(f_hi / f_lo), 1e-12)
     bg = np.geomspace(f_lo, f_hi, max(int(math.ceil(n_oct * n_per_oct)) + 1, 2))
@@ -254,12 +276,6 @@ def quadrature_nodes(f_lo: float, f_hi: float, fn: np.ndarray, q: float, *, fixe
     nodes = np.concatenate([np.broadcast_to(common, (fn.size, common.size)), res], axis=1)
     nodes.sort(axis=1)
     return nodes
-
-
-def simpson_rows(x: np.ndarray, fx: np.ndarray, fm: np.ndarray) -> np.ndarray:
-    """Composite Simpson rule per row on arbitrary nodes: fm = integrand at midpoints."""
-    h = np.diff(x, axis=1)
-    return np.sum(h * (fx[:, :-1] + 4.0 * fm + fx[:, 1:]), axis=1) / 6.0
 
 
 def response_moments(freq_hz, asd_g2_hz, fn_hz, q: float, *, output: Output = "pseudo_accel",
