@@ -1,0 +1,141 @@
+"""Plot data for the pages: series of (x, y) with names, units and line styles.
+
+The browser draws them (``static/plot.js``); here we only choose what to show. Values
+come from planning (envdata.curve and the stored level results); nothing is computed
+twice.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+
+from qualplan.planning import envdata
+from qualplan.store.models import EnvironmentKind
+
+K = EnvironmentKind
+QUANTITY = {
+    K.random: ("ASD", "g²/Hz"),
+    K.shock: ("SRS", "g"),
+    K.sine: ("acceleration", "g peak"),
+}
+
+
+def _series(name: str, x, y, style: str = "solid", role: str = "main") -> dict[str, Any]:
+    xs = [float(v) for v in x]
+    ys = [None if v is None or not np.isfinite(v) else float(v) for v in y]
+    return {"name": name, "x": xs, "y": ys, "style": style, "role": role}
+
+
+def plot(title: str, series: list, *, xlabel: str, xunit: str, ylabel: str, yunit: str,
+         ylog: bool = True, note: str = "") -> dict[str, Any]:
+    return {"title": title, "series": series, "xlabel": xlabel, "xunit": xunit,
+            "ylabel": ylabel, "yunit": yunit, "ylog": ylog, "note": note}
+
+
+def revision_xy(kind: K, spec: dict, data) -> tuple[list[float], list[float]] | None:
+    """The curve of a revision: breakpoints (PSD, SRS are straight in log-log), or a grid
+    (sine bands of constant displacement are curved in acceleration)."""
+    if kind is K.random:
+        return spec["freq_hz"], spec["asd_g2_hz"]
+    if kind is K.shock:
+        return spec["freq_hz"], spec["accel_g"]
+    if kind is K.sine:
+        lo, hi = spec["bands"][0]["f_lo_hz"], spec["bands"][-1]["f_hi_hz"]
+        f = np.unique(np.concatenate(
+            [np.geomspace(lo, hi, 160), [b["f_lo_hz"] for b in spec["bands"]], [hi]]))
+        return f.tolist(), np.asarray(envdata.curve(kind, spec, data, f)).tolist()
+    return None
+
+
+def environment_plot(env, revs: list) -> dict[str, Any] | None:
+    """The latest revision (solid) and up to two earlier ones (dashed)."""
+    if env.kind not in QUANTITY:
+        return None
+    qty, unit = QUANTITY[env.kind]
+    series = []
+    for i, rev in enumerate(reversed(revs[-3:])):
+        xy = revision_xy(env.kind, rev.spec, getattr(rev, "data", None))
+        series.append(_series(f"revision {rev.number}", *xy,
+                              style="solid" if i == 0 else "dotted",
+                              role="main" if i == 0 else "other"))
+    return plot(f"{env.name}: {qty}", series, xlabel="frequency", xunit="Hz",
+                ylabel=qty, yunit=unit)
+
+
+def level_plot(level) -> dict[str, Any]:
+    """The level with its tolerance band (dashed) and the limit level it came from."""
+    r = level.result
+    kind = level.kind
+    qty, unit = QUANTITY[kind]
+    key = "asd_g2_hz" if kind is K.random else "accel_g"
+    f, v = np.asarray(r["freq_hz"]), np.asarray(r[key])
+    series = [_series(f"{level.name} #{level.number}", f, v)]
+    band = None
+    if kind is K.random and "tolerance_db" in r:
+        tol = r["tolerance_db"]
+        band = (10 ** (-tol / 10), 10 ** (tol / 10), f"±{tol:g} dB")
+    elif kind is K.shock and "lower_db" in r:
+        band = (10 ** (r["lower_db"] / 20), 10 ** (r["upper_db"] / 20),
+                f"{r['lower_db']:+g}/{r['upper_db']:+g} dB")
+    elif kind is K.sine and "tolerance_pct" in r:
+        p = r["tolerance_pct"] / 100
+        band = (1 - p, 1 + p, f"±{r['tolerance_pct']:g} %")
+    if band is not None:
+        series.append(_series(f"tolerance {band[2]} (upper)", f, v * band[1], "dashed", "band"))
+        series.append(_series(f"tolerance {band[2]} (lower)", f, v * band[0], "dashed", "band"))
+    lim = r.get("limit") or {}
+    if key in lim:
+        series.append(_series("limit level (before margin)", lim["freq_hz"], lim[key],
+                              "dotted", "other"))
+    return plot(f"{level.name} #{level.number}: {qty}", series, xlabel="frequency",
+                xunit="Hz", ylabel=qty, yunit=unit)
+
+
+def coverage_plots(level) -> list[dict[str, Any]]:
+    """FDS ratio test/life per b [dB], ERS of test and life [g], from result["coverage"]."""
+    cov = (level.result or {}).get("coverage") or {}
+    fn = cov.get("fn_hz") or []
+    if not fn:
+        return []
+    out = []
+    series = [
+        _series(f"b = {b}", fn, d["fds_ratio_db"], role="main" if i == 0 else "alt")
+        for i, (b, d) in enumerate(cov.get("by_b", {}).items())
+    ]
+    req = next(iter(cov.get("by_b", {}).values()), {}).get("required_db", 0.0)
+    series.append(_series(f"required {req:+g} dB", [fn[0], fn[-1]], [req, req], "dashed", "band"))
+    out.append(plot("FDS coverage: test / life", series, xlabel="natural frequency",
+                    xunit="Hz", ylabel="FDS ratio", yunit="dB", ylog=False,
+                    note="damage is relative: the material constant cancels in the ratio"))
+    ers = cov.get("ers")
+    if ers:
+        out.append(plot("ERS coverage: test and life", [
+            _series("test ERS", fn, ers["test_ers"]),
+            _series("life ERS", fn, ers["life_ers"], "dashed", "alt"),
+        ], xlabel="natural frequency", xunit="Hz", ylabel="ERS", yunit="g",
+            note=f"Q = {cov.get('q', 10):g}"))
+        out.append(plot("ERS ratio: test / life", [
+            _series("ERS ratio", fn, ers["ers_ratio_db"]),
+            _series(f"required {ers['required_db']:+g} dB", [fn[0], fn[-1]],
+                    [ers["required_db"]] * 2, "dashed", "band"),
+            _series(f"over-test limit {ers['overtest_limit_db']:+g} dB", [fn[0], fn[-1]],
+                    [ers["overtest_limit_db"]] * 2, "dotted", "band"),
+        ], xlabel="natural frequency", xunit="Hz", ylabel="ERS ratio", yunit="dB", ylog=False))
+    return out
+
+
+def worst_margins(level) -> list[dict[str, Any]]:
+    cov = (level.result or {}).get("coverage") or {}
+    rows = []
+    for b, d in (cov.get("by_b") or {}).items():
+        rows.append({"what": f"FDS, b = {b}", "fn_hz": d.get("worst_fn_hz"),
+                     "margin_db": d.get("worst_db"), "required_db": d.get("required_db"),
+                     "passed": d.get("passed")})
+    ers = cov.get("ers")
+    if ers:
+        rows.append({"what": "ERS", "fn_hz": ers.get("worst_fn_hz"),
+                     "margin_db": ers.get("worst_db"), "required_db": ers.get("required_db"),
+                     "passed": ers.get("passed")})
+    return rows

@@ -1,0 +1,289 @@
+"""The pages through a TestClient: sessions, CSRF, roles, bad input, downloads."""
+
+from __future__ import annotations
+
+import json
+import re
+import time
+
+import pytest
+
+from qualplan.planning import access, environments, levels, policies, requirements
+from qualplan.planning import schemas as s
+from qualplan.store import models as m
+from qualplan.store.session import unit_of_work
+from qualplan.web import auth
+from tests.web.conftest import SETUP, unique
+
+# NASA-STD-7001B minimum workmanship random vibration: 20-80 Hz +3 dB/oct, 80-500 Hz
+# 0.04 g^2/Hz, 500-2000 Hz -3 dB/oct; 6.8 g rms printed (domain.md section 1).
+WORKMANSHIP_CSV = b"frequency [Hz],ASD [g^2/Hz]\n20,0.01\n80,0.04\n500,0.04\n2000,0.01\n"
+ALERT = re.compile(r'role="alert"[^>]*>(.*?)</div>', re.S)
+
+
+def alert(html: str) -> str:
+    found = ALERT.findall(html)
+    return re.sub(r"<[^>]+>", "", found[0]).strip() if found else ""
+
+
+def env_count(factory, product_id: int) -> int:
+    with unit_of_work(factory) as session:
+        return len(environments.list_environments(session, product_id=product_id))
+
+
+def upload(b, world, content=WORKMANSHIP_CSV, units="g^2/Hz", name=None, **extra):
+    data = {"name": name or unique("flight Z"), "kind": "random", "axis": "Z",
+            "phase_id": str(world.phase_id), "value_units": units, "freq_units": "Hz", **extra}
+    b.get(f"/products/{world.product_id}")
+    return b.post(f"/products/{world.product_id}/environments", data,
+                  files={"file": ("flight.csv", content, "text/csv")})
+
+
+# --- sessions ---------------------------------------------------------------------------------
+
+
+def test_pages_need_a_sign_in(browserless, world):
+    b = browserless()
+    r = b.client.get(f"/products/{world.product_id}", follow_redirects=False)
+    assert r.status_code == 303
+    assert r.headers["location"] == f"/signin?next=%2Fproducts%2F{world.product_id}"
+
+
+def test_session_cookie_flags_and_no_token_inside(browserless, users):
+    b = browserless()
+    b.get("/signin")
+    r = b.client.post("/signin", data={"csrf": b.csrf, "token": users["engineer"].token,
+                                       "next": "/programs"}, follow_redirects=False)
+    assert r.status_code == 303 and r.headers["location"] == "/programs"
+    cookie = r.headers["set-cookie"]
+    assert "HttpOnly" in cookie and "samesite=strict" in cookie.lower()
+    assert "Secure" not in cookie  # plain http in the test
+    value = r.cookies[auth.COOKIE]
+    assert users["engineer"].token not in value
+    assert users["engineer"].token[3:20] not in value
+
+
+def test_secure_flag_behind_tls(settings, users):
+    from fastapi.testclient import TestClient
+
+    from qualplan.service import create_service
+
+    app = create_service(settings.model_copy(update={"behind_tls": True}))
+    with TestClient(app) as client:
+        r = client.get("/signin")
+        assert "Secure" in r.headers["set-cookie"]
+
+
+def test_wrong_token_gives_a_message(browserless):
+    b = browserless()
+    b.get("/signin")
+    r = b.post("/signin", {"token": "qp_not-a-token"})
+    assert r.status_code == 401 and "unknown or revoked" in r.text
+
+
+def test_tampered_cookie_is_signed_out(browserless, users):
+    b = browserless(users["engineer"])
+    value = b.client.cookies[auth.COOKIE]
+    payload, mac = value.split(".")
+    b.client.cookies.set(auth.COOKIE, payload + "." + mac[::-1])
+    r = b.client.get("/programs", follow_redirects=False)
+    assert r.status_code == 303 and r.headers["location"].startswith("/signin")
+
+
+def test_revoked_token_ends_the_session(browserless, factory):
+    name = unique("eng")
+    with unit_of_work(factory) as session:
+        access.create_user(session, SETUP, name, m.Role.engineer)
+        token = access.create_token(session, SETUP, name, "web")
+    b = browserless()
+    b.sign_in(token)
+    assert b.client.get("/programs").status_code == 200
+    with unit_of_work(factory) as session:
+        access.revoke_token(session, SETUP, token[:10])
+    r = b.client.get("/programs", follow_redirects=False)
+    assert r.status_code == 303 and r.headers["location"].startswith("/signin")
+
+
+def test_sign_out_clears_the_session(browserless, users):
+    b = browserless(users["viewer"])
+    b.get("/programs")
+    r = b.post("/signout", {})
+    assert "/signin" in str(r.url)
+    r = b.client.get("/programs", follow_redirects=False)
+    assert r.status_code == 303
+
+
+def test_signer_refuses_forgery_and_expiry():
+    signer = auth.Signer(b"k1")
+    ws = auth.WebSession.new("ab" * 32)
+    assert signer.load(signer.dump(ws)) == ws
+    assert auth.Signer(b"k2").load(signer.dump(ws)) is None
+    old = auth.WebSession(ws.nonce, ws.token_hash, int(time.time()) - 1)
+    assert signer.load(signer.dump(old)) is None
+    assert signer.csrf_ok(ws, signer.csrf(ws))
+    assert not signer.csrf_ok(ws, signer.csrf(auth.WebSession.new()))
+    assert not signer.csrf_ok(ws, None)
+
+
+# --- CSRF and roles ---------------------------------------------------------------------------
+
+
+def test_post_without_csrf_is_refused_and_stores_nothing(browserless, users, world, factory):
+    b = browserless(users["engineer"])
+    r = b.post(f"/products/{world.product_id}/environments", {"name": "x", "kind": "random",
+               "axis": "Z", "value_units": "g^2/Hz"}, csrf=False,
+               files={"file": ("f.csv", WORKMANSHIP_CSV, "text/csv")})
+    assert r.status_code == 403 and "CSRF" in r.text
+    r = b.post("/programs", {"name": unique("p"), "csrf": "forged"})
+    assert r.status_code == 403
+    assert env_count(factory, world.product_id) == 0
+
+
+def test_viewer_sees_no_edit_forms(browserless, users, world):
+    b = browserless(users["viewer"])
+    for path in ("/programs", f"/programs/{world.program_id}", f"/products/{world.product_id}",
+                 f"/programs/{world.program_id}/requirements"):
+        html = b.get(path).text
+        actions = re.findall(r'<form method="post" action="([^"]+)"', html)
+        assert actions == ["/signout"], path  # the sign-out button only
+
+
+def test_viewer_forged_post_is_refused(browserless, users, world, factory):
+    b = browserless(users["viewer"])
+    r = upload(b, world)  # valid CSRF token of the viewer's own session
+    assert r.status_code == 403
+    assert "needs the role engineer" in alert(r.text)
+    assert env_count(factory, world.product_id) == 0
+
+
+def test_waive_form_only_for_approvers(browserless, users, world, factory):
+    with unit_of_work(factory) as session:
+        req = requirements.create_requirement(session, SETUP, s.RequirementCreate(
+            program_id=world.program_id, key=unique("STR"), text="Bracket stress",
+            product_id=world.product_id, method=m.VerificationMethod.analysis))
+        req_id = req.id
+    eng = browserless(users["engineer"])
+    html = eng.get(f"/requirements/{req_id}").text
+    assert "/analyses" in html and "/waivers" not in html
+    r = eng.post(f"/requirements/{req_id}/waivers", {"rationale": "accepted by the board",
+                                                    "expires_on": "2999-01-01"})
+    assert r.status_code == 403 and "waiving a requirement needs the role approver" in r.text
+    appr = browserless(users["approver"])
+    assert "/waivers" in appr.get(f"/requirements/{req_id}").text
+    r = appr.post(f"/requirements/{req_id}/waivers", {"rationale": "accepted by the board",
+                                                     "expires_on": "2999-01-01"})
+    assert r.status_code == 200 and "waived" in r.text
+
+
+# --- bad input --------------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(("content", "units", "says"), [
+    (WORKMANSHIP_CSV, "", "say the units of the values"),
+    (WORKMANSHIP_CSV, "g", "not a unit for random data"),
+    (b"20,0.01\n80,-0.04\n500,0.04\n", "g^2/Hz", "asd_g2_hz[1]"),
+    (b"20,0.01\n10,0.04\n500,0.04\n", "g^2/Hz", "freq_hz"),
+    (b"20,0.01\n80,abc\n", "g^2/Hz", "row 2 column 2"),
+    (b"", "g^2/Hz", "is empty"),
+])
+def test_bad_environment_file_message_and_nothing_stored(browserless, users, world, factory,
+                                                         content, units, says):
+    b = browserless(users["engineer"])
+    r = upload(b, world, content=content, units=units)
+    assert r.status_code == 400
+    assert says in alert(r.text), alert(r.text)
+    assert "Not saved." in alert(r.text)
+    assert env_count(factory, world.product_id) == 0
+
+
+def test_bad_numbers_in_forms(browserless, users, world, factory):
+    b = browserless(users["engineer"])
+    b.get(f"/programs/{world.program_id}")
+    r = b.post(f"/programs/{world.program_id}/phases", {"name": "road", "duration_s": "ten"})
+    assert r.status_code == 400 and "duration_s = &#39;ten&#39;: is not a number" in r.text
+    r = b.post(f"/programs/{world.program_id}/phases", {"name": "road", "duration_s": "-5"})
+    assert r.status_code == 400 and "duration_s" in alert(r.text)
+    r = b.post("/programs", {"name": ""})
+    assert r.status_code == 400 and "name" in alert(r.text)
+    r = b.post(f"/products/{world.product_id}/levels", {"name": "lvl", "kind": "random",
+               "axis": "Z", "policy_id": "1"})
+    assert r.status_code == 400 and "revision_ids" in alert(r.text)
+
+
+def test_upload_plot_summary_and_downloads(browserless, users, world):
+    b = browserless(users["engineer"])
+    r = upload(b, world, name="flight Z")
+    assert r.status_code == 200 and "/environments/" in str(r.url)
+    # NASA-STD-7001B workmanship: 6.8 g rms printed; 6.784 g rms exact (domain.md section 1)
+    assert "6.784 g rms" in r.text
+    assert 'type="application/json"' in r.text and "g²/Hz" in r.text
+    env_id = int(str(r.url).rstrip("/").split("/")[-1])
+    csv = b.get(f"/environments/{env_id}/revisions/1.csv")
+    assert csv.headers["content-type"].startswith("text/csv")
+    assert csv.text.splitlines()[1:] == ["20.0,0.01", "80.0,0.04", "500.0,0.04", "2000.0,0.01"]
+    # kHz and (m/s^2)^2/Hz are converted at the edge: 0.04 g^2/Hz = 0.04 * 9.80665^2
+    r = b.post(f"/environments/{env_id}/revisions", {
+        "value_units": "(m/s^2)^2/Hz", "freq_units": "kHz", "note": "same in SI",
+        "expected_revision": "1"}, files={"file": ("si.csv",
+            b"0.02,0.9617\n0.08,3.8468\n0.5,3.8468\n2,0.9617\n", "text/csv")})
+    assert r.status_code == 200 and "Revision 2" in r.text
+    r = b.get(f"/environments/{env_id}?a=1&b=2")
+    assert "Largest difference" in r.text
+
+
+def test_matrix_filters_sorting_and_audit(browserless, users, world, factory):
+    with unit_of_work(factory) as session:
+        for key, method in (("B-2", m.VerificationMethod.analysis),
+                            ("A-1", m.VerificationMethod.inspection)):
+            requirements.create_requirement(session, SETUP, s.RequirementCreate(
+                program_id=world.program_id, key=key, text=f"req {key}",
+                product_id=world.product_id, method=method))
+    b = browserless(users["viewer"])
+    base = f"/programs/{world.program_id}/requirements"
+    html = b.get(base).text
+    assert html.index(">A-1<") < html.index(">B-2<")
+    html = b.get(base + "?sort=key&dir=desc").text
+    assert html.index(">B-2<") < html.index(">A-1<")
+    html = b.get(base + "?method=analysis").text
+    assert ">B-2<" in html and ">A-1<" not in html
+    csv = b.get(base + ".csv?method=inspection").text.splitlines()
+    assert len(csv) == 2 and csv[1].startswith("A-1,")
+    audit = b.get(f"/programs/{world.program_id}/audit").text
+    assert "NOT READY: 2 of 2 requirements block release" in audit
+    assert "open" in b.get(f"/programs/{world.program_id}/audit.csv").text
+
+
+def test_level_page_shows_coverage(browserless, users, world, factory):
+    b = browserless(users["engineer"])
+    r = upload(b, world, name="flight Z")
+    with unit_of_work(factory) as session:
+        rev = environments.list_environments(session, product_id=world.product_id)[0]
+        rev_id = rev.revisions[-1].id
+        gevs = policies.policy_ref(session, "spaceflight-gevs")
+        level = levels.derive_level(session, SETUP, s.LevelRecipe(
+            product_id=world.product_id, name="qual Z", kind="random", axis=m.Axis.Z,
+            revision_ids=[rev_id], policy_id=gevs.id))
+        level_id = level.id
+    r = b.get(f"/levels/{level_id}")
+    assert r.status_code == 200
+    assert "FDS coverage: test / life" in r.text and "ERS coverage" in r.text
+    assert "worst natural frequency [Hz]" in r.text
+    blobs = [json.loads(x) for x in re.findall(
+        r'<script type="application/json" id="data-[^"]+">(.*?)</script>', r.text, re.S)]
+    assert [p["title"] for p in blobs][1:] == [
+        "FDS coverage: test / life", "ERS coverage: test and life", "ERS ratio: test / life"]
+    level_plot = blobs[0]
+    assert level_plot["yunit"] == "g²/Hz" and level_plot["ylog"]
+    names = [x["name"] for x in level_plot["series"]]
+    assert "tolerance ±3 dB (upper)" in names and "tolerance ±3 dB (lower)" in names
+    main, upper = level_plot["series"][0], level_plot["series"][1]
+    # +3 dB on a PSD: x 10^(3/10) (power ratio, closed form)
+    assert upper["y"][0] == pytest.approx(main["y"][0] * 10 ** 0.3)
+    rows = b.get(f"/levels/{level_id}/breakpoints.csv").text.splitlines()
+    assert rows[0] == "frequency [Hz],ASD [g²/Hz]" and len(rows) >= 3
+
+
+def test_not_found_page(browserless, users):
+    b = browserless(users["viewer"])
+    r = b.get("/levels/999999")
+    assert r.status_code == 404 and "level 999999 not found" in r.text
