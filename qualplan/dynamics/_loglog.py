@@ -420,7 +420,10 @@ _DB = math.log(10.0) / 10.0  # ln units per dB (power)
 def _areas(x0, y0, x1, y1):
     """Exact area of log-log segments (x, y = ln f, ln v), broadcasting."""
     L = x1 - x0
-    return np.exp(y0 + x0) * L * exprel(((y1 - y0) / L + 1.0) * L)
+    u = (y1 - y0) + L  # = (n + 1) L
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        rel = np.where(np.abs(u) < 1e-8, 1.0 + 0.5 * u, np.expm1(u) / u)
+    return np.exp(y0 + x0) * L * rel
 
 
 def _upper_hull(x: np.ndarray, y: np.ndarray) -> np.ndarray:
@@ -441,31 +444,28 @@ def _upper_hull(x: np.ndarray, y: np.ndarray) -> np.ndarray:
     return np.array(hull)
 
 
-def _dp(x, d, cand, levels, n_seg_max, windows=None):
+def _dp(x, d, cand, levels, n_seg_max):
     """DP over (candidate, level) states; returns (cost, candidate indices, level values).
 
     cand : sorted indices into the data, first 0, last M-1.
     levels : (K, L) ln values at the candidates (>= data there; inf marks an unused slot).
-    windows : optional window number of each candidate; transitions only to the next window.
     """
     K, L = levels.shape
     xc = x[cand]
     # Steepest slope from state (i, a) to any data point in (x_i, x_j], for every j > i.
     smax = np.full((K, L, K), np.inf)
     for i in range(K - 1):
-        seg = slice(cand[i] + 1, None)
+        j_last = K - 1
+        seg = slice(cand[i] + 1, cand[j_last] + 1)
         dx = x[seg] - xc[i]
-        sl = (d[seg][None, :] - levels[i][:, None]) / dx[None, :]
+        with np.errstate(invalid="ignore"):
+            sl = (d[seg][None, :] - levels[i][:, None]) / dx[None, :]
         run = np.maximum.accumulate(sl, axis=1)
-        jj = np.arange(i + 1, K)
-        smax[i, :, i + 1:] = run[:, cand[jj] - cand[i] - 1]
+        jj = np.arange(i + 1, j_last + 1)
+        smax[i, :, i + 1:j_last + 1] = run[:, cand[jj] - cand[i] - 1]
     area = [None] * K
     for j in range(1, K):
         ii = np.arange(j)
-        if windows is not None:
-            ii = ii[windows[ii] == windows[j] - 1]
-        if ii.size == 0:
-            continue
         x0 = xc[ii][:, None, None]
         y0 = levels[ii][:, :, None]
         y1 = levels[j][None, None, :]
@@ -474,8 +474,8 @@ def _dp(x, d, cand, levels, n_seg_max, windows=None):
             ok = (slope >= smax[ii, :, j][:, :, None] - 1e-12) & np.isfinite(y0) \
                 & np.isfinite(y1)
             a = _areas(x0, y0, xc[j], y1)
-        area[j] = (ii, np.where(ok, a, np.inf))
-    best = np.full((n_seg_max + 1, K, L), np.inf)
+        area[j] = (ii, np.where(ok, a, np.inf).astype(np.float32))
+    best = np.full((n_seg_max + 1, K, L), np.inf, dtype=np.float32)
     arg_i = np.zeros((n_seg_max + 1, K, L), dtype=np.int64)
     arg_a = np.zeros((n_seg_max + 1, K, L), dtype=np.int64)
     best[0, 0, :] = np.where(np.isfinite(levels[0]), 0.0, np.inf)
@@ -508,6 +508,56 @@ def _dp(x, d, cand, levels, n_seg_max, windows=None):
     path_b.reverse()
     idx = np.array([cand[j] for j in path_j])
     vals = np.array([levels[j, b] for j, b in zip(path_j, path_b, strict=True)])
+    return cost, idx, vals
+
+
+def _dp_windows(x, d, wins: list, levels: list):
+    """DP choosing one (frequency, level) state in each window, windows in order.
+
+    wins : list of arrays of data indices (window 0 and the last hold one index each).
+    levels : list of (n_w, L) arrays of ln levels (inf = unused).
+    Returns (cost, indices, values) or (inf, None, None).
+    """
+    nw = len(wins)
+    best = np.where(np.isfinite(levels[0]), 0.0, np.inf)  # (n_0, L)
+    back = []
+    for w in range(1, nw):
+        ci, cj = wins[w - 1], wins[w]
+        yi, yj = levels[w - 1], levels[w]
+        # steepest slope from each state of window w-1 to the data up to each candidate of w
+        lo = int(ci[0]) + 1
+        hi = int(cj[-1]) + 1
+        xs, ds = x[lo:hi], d[lo:hi]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            dx = xs[None, :] - x[ci][:, None]                       # (n_i, m)
+            sl = (ds[None, None, :] - yi[:, :, None]) / dx[:, None, :]
+        sl = np.where(dx[:, None, :] > 0, sl, -np.inf)               # only points right of i
+        run = np.maximum.accumulate(sl, axis=2)
+        smax = run[:, :, cj - lo]                                    # (n_i, L, n_j)
+        x0 = x[ci][:, None, None, None]
+        x1 = x[cj][None, None, :, None]
+        y0 = yi[:, :, None, None]
+        y1 = yj[None, None, :, :]
+        with np.errstate(invalid="ignore", over="ignore"):
+            slope = (y1 - y0) / (x1 - x0)
+            ok = (slope >= smax[:, :, :, None] - 1e-12) & np.isfinite(y0) & np.isfinite(y1)
+            a = _areas(x0, y0, x1, y1)
+        tot = np.where(ok, a, np.inf) + best[:, :, None, None]      # (n_i, L, n_j, L)
+        flat = tot.reshape(-1, cj.size * yj.shape[1])
+        k = np.argmin(flat, axis=0)
+        best = flat[k, np.arange(flat.shape[1])].reshape(cj.size, yj.shape[1])
+        back.append(k.reshape(cj.size, yj.shape[1]))
+    if not np.isfinite(best).any():
+        return np.inf, None, None
+    j, b = np.unravel_index(np.argmin(best), best.shape)
+    cost = float(best[j, b])
+    path = [(int(j), int(b))]
+    for w in range(nw - 1, 0, -1):
+        k = int(back[w - 1][path[-1]])
+        path.append(divmod(k, levels[w - 1].shape[1]))
+    path.reverse()
+    idx = np.array([wins[w][j] for w, (j, _) in enumerate(path)])
+    vals = np.array([levels[w][j, b] for w, (j, b) in enumerate(path)])
     return cost, idx, vals
 
 
@@ -748,7 +798,7 @@ def simplify_above(freq, values, max_points: int, *, n_candidates: int = 120,
         idx_b, y_b = best
         nb = idx_b.size
         yfun = np.interp(x, x[idx_b], y_b)
-        win_c, win_n = [], []
+        win_c = []
         for k in range(nb):
             if k == 0 or k == nb - 1:
                 c = np.array([idx_b[k]])
@@ -761,14 +811,13 @@ def simplify_above(freq, values, max_points: int, *, n_candidates: int = 120,
                     rest = np.linspace(0, c.size - 1, 8).astype(int)
                     c = np.unique(np.concatenate((c[near], c[rest])))
             win_c.append(c)
-            win_n.append(np.full(c.size, k))
-        cand2 = np.concatenate(win_c)
-        wins = np.concatenate(win_n)
         offs2 = np.linspace(-1.5, 1.5, 21) * _DB
-        lev2 = yfun[cand2][:, None] + offs2[None, :]
-        lev2 = np.where(lev2 > d[cand2][:, None], lev2, np.inf)
-        lev2 = np.column_stack((d[cand2], lev2))
-        c2, idx2, y2 = _dp(x, d, cand2, lev2, nb - 1, windows=wins)
+        lev_w = []
+        for c in win_c:
+            lv = yfun[c][:, None] + offs2[None, :]
+            lv = np.where(lv > d[c][:, None], lv, np.inf)
+            lev_w.append(np.column_stack((d[c], lv)))
+        c2, idx2, y2 = _dp_windows(x, d, win_c, lev_w)
         if idx2 is None:
             break
         y2 = _optimise_values(x, d, idx2, y2, hull_cache)
