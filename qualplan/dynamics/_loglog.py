@@ -140,8 +140,13 @@ def _interp(fp: np.ndarray, vp: np.ndarray, x: np.ndarray) -> np.ndarray:
     out = np.zeros(x.shape)
     inside = (x >= fp[0]) & (x <= fp[-1])
     if inside.any():
-        lx = np.log(x[inside])
-        out[inside] = np.exp(np.interp(lx, np.log(fp), np.log(vp)))
+        xi = x[inside]
+        vals = np.exp(np.interp(np.log(xi), np.log(fp), np.log(vp)))
+        # exactly at a breakpoint: the breakpoint value itself (exp(log v) may differ by 1 ulp)
+        k = np.minimum(np.searchsorted(fp, xi), fp.size - 1)
+        hit = fp[k] == xi
+        vals[hit] = vp[k[hit]]
+        out[inside] = vals
     return out
 
 

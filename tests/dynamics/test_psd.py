@@ -362,3 +362,48 @@ def test_compression_bad_input(bad):
         compression.severity_ratio(bad, 10.0)
     with pytest.raises(InputError):
         compression.duration_for_level(10.0, 1.0, 2.0, m=bad)
+
+
+@st.composite
+def rough_spectra(draw):
+    m = draw(st.integers(3, 200))
+    seed = draw(st.integers(0, 2 ** 32 - 1))
+    rng = np.random.default_rng(seed)
+    f = np.sort(rng.uniform(1.0, 4.0, m))
+    f = 10.0 ** f
+    if np.any(np.diff(f) <= 1e-9 * f[1:]):
+        f = np.geomspace(10.0, 10_000.0, m)
+    g = 10.0 ** (rng.normal(-2.0, draw(st.floats(0.01, 1.0)), m))
+    return f, g, draw(st.integers(2, 10))
+
+
+@settings(max_examples=25, deadline=None)
+@given(rough_spectra())
+def test_simplify_property_conservative(case):
+    # property (closed form contract): <= N breakpoints at input frequencies, first/last kept,
+    # never below the input at any input frequency, excess >= 0 and reported consistently
+    f, g, n = case
+    r = psd.simplify_report(f, g, n)
+    assert 2 <= r.freq_hz.size <= n
+    assert r.freq_hz[0] == f[0] and r.freq_hz[-1] == f[-1]
+    assert np.all(np.isin(r.freq_hz, f))
+    assert np.all(psd.asd_at(r.freq_hz, r.asd_g2_hz, f) >= g)
+    assert r.excess_db >= -1e-9
+    assert r.excess_db == pytest.approx(
+        20 * math.log10(psd.grms(r.freq_hz, r.asd_g2_hz) / psd.grms(f, g)), abs=1e-12)
+
+
+@pytest.mark.parametrize(
+    ("profiles", "match"),
+    [
+        ([([20, 10], [0.01, 0.01])], "strictly increasing"),
+        ([([20, 50], [0.01, float("nan")])], "finite"),
+        ([([20, 50], [0.01, 0.01]), ([30, 60], [0.01, -0.01])], r"profiles\[1\].values\[1\]"),
+        ([([20], [0.01])], "at least 2"),
+        ([], "at least one"),
+    ],
+)
+def test_envelope_bad_input(profiles, match):
+    # common practice: a clear error naming the profile and element
+    with pytest.raises(InputError, match=match):
+        psd.envelope(profiles)

@@ -57,3 +57,18 @@ def test_bad_input(args, match):
         gaussian_from_psd(*args, rng=np.random.default_rng(0))
     with pytest.raises(InputError, match="Generator"):
         gaussian_from_psd(*GEVS_QUAL, 1.0, 8192.0, rng=1)
+
+
+def test_random_amplitude_record_is_gaussian_process():
+    # closed form: complex normal line coefficients -> line powers exponential (chi-square 2 dof):
+    # the periodogram of the whole record (one line per FFT bin) has mean G and std G
+    fs, dur = 2048.0, 64.0
+    x = gaussian_from_psd([20, 800], [0.04, 0.04], dur, fs, rng=np.random.default_rng(9),
+                          random_amplitude=True)
+    spec = np.fft.rfft(x)
+    p = 2 * np.abs(spec) ** 2 / (fs * x.size)
+    f = np.fft.rfftfreq(x.size, 1 / fs)
+    band = (f > 30) & (f < 790)
+    assert np.mean(p[band]) == pytest.approx(0.04, rel=0.03)
+    assert np.std(p[band]) / np.mean(p[band]) == pytest.approx(1.0, abs=0.05)
+    assert sps.kurtosis(x, fisher=False) == pytest.approx(3.0, abs=0.1)
