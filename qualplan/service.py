@@ -18,5 +18,14 @@ def create_service(settings: Settings | None = None) -> FastAPI:
     """The API app (``/api/v1``) with the web pages at ``/``."""
     settings = settings or Settings()
     app = create_app(settings)
-    mount(app, settings)
+    mount(app, settings, pdf=_pdf_renderer())
     return app
+
+
+def _pdf_renderer():
+    """The reports interface's PDF renderer, or None when it cannot be loaded here."""
+    try:
+        from qualplan.reports import pdf_bytes
+    except ImportError:  # the reports interface (or WeasyPrint) is not installed
+        return None
+    return pdf_bytes

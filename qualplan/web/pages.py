@@ -72,15 +72,35 @@ def _fmt(value: Any, digits: int = 4) -> str:
     return str(value)
 
 
+def _unit(text: str) -> str:
+    """A unit as printed: g^2/Hz -> g²/Hz."""
+    return str(text).replace("^2", "²").replace("^3", "³")
+
+
+#: Names of the overall measures of planning.envdata.summarise, as shown on the pages.
+LABELS = {
+    "grms": "overall", "peak_asd": "peak ASD", "peak_srs": "peak SRS", "q": "Q",
+    "peak_accel": "peak acceleration", "sweep_time": "sweep time", "band": "band",
+    "sample_rate": "sample rate", "rms": "rms", "peak": "peak", "duration": "duration",
+}
+
 templates.env.filters["num"] = _fmt
+templates.env.filters["unit"] = _unit
+templates.env.filters["label"] = lambda key: LABELS.get(key, str(key).replace("_", " "))
 templates.env.globals["STATIC"] = STATIC
 templates.env.globals["version"] = __version__
+
+
+#: Renders a planning document content (specification or audit) as PDF bytes. Given to
+#: :func:`mount` by the composition module, so the web never imports the reports interface.
+PdfRenderer = Callable[[Any], bytes]
 
 
 @dataclass
 class WebState:
     signer: auth.Signer
     secure: bool
+    pdf: PdfRenderer | None = None
 
 
 @dataclass
@@ -139,6 +159,7 @@ def _cookie(ctx: Ctx, response: Response) -> Response:
 
 def render(ctx: Ctx, name: str, status: int = 200, **values) -> Response:
     values.update(
+        pdf_available=ctx.web.pdf is not None,
         actor=ctx.actor,
         csrf=ctx.csrf,
         can_edit=ctx.can(Role.engineer),
@@ -770,15 +791,60 @@ def audit_csv(program_id: int, ctx: Ctx = CtxDep) -> Response:
     return page(ctx, build)
 
 
+# --- PDF documents (rendered by the renderer the composition module gives) -----------------
+
+
+def pdf_response(ctx: Ctx, make_content: Callable[[], Any]) -> Response:
+    if ctx.web.pdf is None:
+        return problem_page(ctx, 404, "No PDF here",
+                            "this service was started without the PDF renderer")
+    content = make_content()
+    name = f"{content.number}-r{content.revision}.pdf"
+    return Response(ctx.web.pdf(content), media_type="application/pdf",
+                    headers={"Content-Disposition": f'attachment; filename="{name}"',
+                             "Cache-Control": "no-store"})
+
+
+@router.get("/products/{product_id}/specification.pdf")
+def specification_pdf(product_id: int, ctx: Ctx = CtxDep, grade: str = "qualification"):
+    """The test-level specification of the product for one grade (a preview: issuing it
+    is done with ``qualplan`` or the API, which record the revision)."""
+    from qualplan.planning import documents
+
+    if grade not in {g.value for g in m.Grade}:
+        return page(ctx, lambda: problem_page(ctx, 400, "No such grade", f"grade {grade!r}"))
+    return page(ctx, lambda: pdf_response(
+        ctx, lambda: documents.specification_content(ctx.db, product_id, grade)))
+
+
+@router.get("/programs/{program_id}/audit.pdf")
+def audit_pdf(program_id: int, ctx: Ctx = CtxDep):
+    from qualplan.planning import documents
+
+    return page(ctx, lambda: pdf_response(
+        ctx, lambda: documents.audit_content(ctx.db, program_id)))
+
+
 # --- mounting -----------------------------------------------------------------------------------
 
 
-def mount(app: FastAPI, settings: Settings | None = None, *, secret: bytes | None = None) -> None:
-    """Add the pages and their static files to `app` (its lifespan makes the sessionmaker)."""
+def mount(
+    app: FastAPI,
+    settings: Settings | None = None,
+    *,
+    secret: bytes | None = None,
+    pdf: PdfRenderer | None = None,
+) -> None:
+    """Add the pages and their static files to `app` (its lifespan makes the sessionmaker).
+
+    `secret` signs the session cookies (default ``QUALPLAN_WEB_SECRET`` or random per
+    process); `pdf` renders document contents as PDF (without it the PDF links are hidden).
+    """
     settings = settings or Settings()
     app.state.web = WebState(
         signer=auth.Signer(secret or auth.secret_from_env()),
         secure=bool(getattr(settings, "behind_tls", False)),
+        pdf=pdf,
     )
     app.include_router(router)
     app.mount(STATIC, StaticFiles(directory=str(data_dir("templates") / "web" / "static")),

@@ -287,3 +287,29 @@ def test_not_found_page(browserless, users):
     b = browserless(users["viewer"])
     r = b.get("/levels/999999")
     assert r.status_code == 404 and "level 999999 not found" in r.text
+
+
+def test_pdf_downloads(browserless, users, world, factory):
+    pytest.importorskip("weasyprint")
+    pytest.importorskip("qualplan.planning.documents")
+    pytest.importorskip("qualplan.reports")
+    with unit_of_work(factory) as session:
+        requirements.create_requirement(session, SETUP, s.RequirementCreate(
+            program_id=world.program_id, key="INS-1", text="Label present",
+            product_id=world.product_id, method=m.VerificationMethod.inspection))
+    b = browserless(users["engineer"])
+    html = b.get(f"/programs/{world.program_id}/audit").text
+    assert f"/programs/{world.program_id}/audit.pdf" in html
+    r = b.get(f"/programs/{world.program_id}/audit.pdf")
+    assert r.status_code == 200 and r.content.startswith(b"%PDF")
+    r = upload(b, world, name="flight Z")
+    with unit_of_work(factory) as session:
+        rev = environments.list_environments(session, product_id=world.product_id)[0]
+        gevs = policies.policy_ref(session, "spaceflight-gevs")
+        levels.derive_level(session, SETUP, s.LevelRecipe(
+            product_id=world.product_id, name="qual Z", kind="random", axis=m.Axis.Z,
+            revision_ids=[rev.revisions[-1].id], policy_id=gevs.id))
+    r = b.get(f"/products/{world.product_id}/specification.pdf?grade=qualification")
+    assert r.status_code == 200 and r.content.startswith(b"%PDF")
+    r = b.get(f"/products/{world.product_id}/specification.pdf?grade=acceptance")
+    assert r.status_code == 400 and "no acceptance test level" in r.text

@@ -87,6 +87,9 @@
       if (hi - lo < 1e-9) { lo -= 1; hi += 1; }
       var st = niceStep(hi - lo);
       y0 = Math.floor(lo / st) * st; y1 = Math.ceil(hi / st) * st;
+      /* keep reference lines (0 dB, limits) off the frame */
+      if (lo - y0 < st * 0.05) { y0 -= st; }
+      if (y1 - hi < st * 0.05) { y1 += st; }
       for (var v = y0; v <= y1 + st / 2; v += st) { yticks.push(v); }
     }
     function px(f) { return L + (Math.log10(f) - x0) / (x1 - x0) * pw; }
@@ -113,6 +116,11 @@
         for (var m = 2; m < 10; m++) {
           el("line", { x1: px(m * Math.pow(10, k)), x2: px(m * Math.pow(10, k)), y1: T,
                        y2: T + ph, "class": "minor" }, grid);
+          if (x1 - x0 <= 2 && (m === 2 || m === 5)) {
+            var tm = el("text", { x: px(m * Math.pow(10, k)), y: T + ph + 18,
+                                  "class": "tick minor-tick", "text-anchor": "middle" }, svg);
+            tm.textContent = fmt(m * Math.pow(10, k));
+          }
         }
       }
     }
@@ -126,6 +134,11 @@
           for (m = 2; m < 10; m++) {
             var ym = py(m * Math.pow(10, k));
             el("line", { x1: L, x2: L + pw, y1: ym, y2: ym, "class": "minor" }, grid);
+            if (y1 - y0 <= 2 && (m === 2 || m === 5)) {
+              var tym = el("text", { x: L - 8, y: ym + 4, "class": "tick minor-tick",
+                                     "text-anchor": "end" }, svg);
+              tym.textContent = fmt(m * Math.pow(10, k));
+            }
           }
         }
       }
