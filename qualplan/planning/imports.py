@@ -12,11 +12,15 @@ import csv
 import io
 import json
 import math
+import tempfile
+from pathlib import Path
 from typing import Any
 
 import numpy as np
 
+from qualplan import io as qio
 from qualplan.dynamics.units import G0_M_S2
+from qualplan.planning.envdata import core_errors
 from qualplan.planning.errors import ValidationFailed
 from qualplan.store.models import EnvironmentKind
 
@@ -89,65 +93,94 @@ def data_from_json(content: bytes) -> dict[str, Any]:
     return value
 
 
-def environment_data_from_file(
-    kind: EnvironmentKind,
-    filename: str,
-    content: bytes,
-    *,
-    value_units: str | None = None,
-    freq_units: str = "Hz",
-    sample_rate_hz: float | None = None,
-    calibration: float | None = None,
-) -> tuple[dict[str, Any], np.ndarray | None]:
-    """Turn an uploaded file into (data, array) for a revision of `kind`."""
+def environment_data_from_file(kind: EnvironmentKind, filename: str, content: bytes, *,
+                               value_units: str | None = None, freq_units: str = "Hz",
+                               sample_rate_hz: float | None = None,
+                               calibration: float | None = None,
+                               variable: str | None = None
+                               ) -> tuple[dict[str, Any], np.ndarray | None]:
+    """Turn an uploaded file into (data, array) for a revision of `kind`.
+
+    Breakpoint tables (.json, .csv) for random, shock and sine data; records
+    (.csv with a time column or one column plus `sample_rate_hz`, .npy, .wav with a
+    `calibration`, .mat with a `variable`, .uff/.unv dataset 58) for time histories;
+    a dataset 58 spectrum is also accepted as random data.
+    """
     if not content:
         raise ValidationFailed("file", filename, "is empty")
     name = filename.lower()
     kind = EnvironmentKind(kind)
     if name.endswith(".json"):
         return data_from_json(content), None
-    if kind is not EnvironmentKind.time_history:
-        if name.endswith((".csv", ".txt")):
-            return breakpoints_from_csv(
-                kind, content, value_units=value_units, freq_units=freq_units
-            ), None
-        raise ValidationFailed(
-            "file", filename, f"{kind.value} data are read from .json or .csv tables"
-        )
-    return _time_history(
-        filename,
-        content,
-        value_units=value_units,
-        sample_rate_hz=sample_rate_hz,
-        calibration=calibration,
-    )
+    if kind is EnvironmentKind.time_history:
+        return _time_history(filename, content, value_units=value_units,
+                             sample_rate_hz=sample_rate_hz, calibration=calibration,
+                             variable=variable)
+    if name.endswith((".csv", ".txt")):
+        return breakpoints_from_csv(kind, content, value_units=value_units,
+                                    freq_units=freq_units), None
+    if kind is EnvironmentKind.random and name.endswith((".uff", ".unv")):
+        spectrum = _read_record(filename, content, value_units=value_units)
+        if not isinstance(spectrum, qio.Spectrum):
+            raise ValidationFailed("file", filename, "holds a time record, not a spectrum")
+        return {"freq_hz": spectrum.freq_hz.tolist(),
+                "asd_g2_hz": spectrum.asd_g2_hz.tolist()}, None
+    raise ValidationFailed("file", filename,
+                           f"{kind.value} data are read from .json or .csv tables")
 
 
-def _time_history(
-    filename: str,
-    content: bytes,
-    *,
-    value_units: str | None,
-    sample_rate_hz: float | None,
-    calibration: float | None,
-):
-    from qualplan import io as qio
+RECORD_SUFFIXES = (".csv", ".txt", ".npy", ".wav", ".mat", ".uff", ".unv")
 
-    factor = _factor(EnvironmentKind.time_history, value_units)
-    from qualplan.planning.envdata import core_errors
 
-    with core_errors(""):
-        rec = qio.read_time_history_bytes(
-            filename,
-            content,
-            units=value_units,
-            sample_rate_hz=sample_rate_hz,
-            calibration=calibration,
-        )
-    samples = np.asarray(rec.accel_g, float)
-    if not math.isclose(factor, 1.0) and not getattr(rec, "converted", True):
-        samples = samples * factor
-    return {"dt_s": 1.0 / rec.sample_rate_hz}, samples
+def _read_record(filename: str, content: bytes, *, value_units: str | None,
+                 sample_rate_hz: float | None = None, calibration: float | None = None,
+                 variable: str | None = None):
+    """Read a record with qualplan.io (which reads paths) through a private temp file."""
+    suffix = Path(filename).suffix.lower()
+    if suffix not in RECORD_SUFFIXES:
+        raise ValidationFailed("file", filename,
+                               f"unknown record format; use one of {', '.join(RECORD_SUFFIXES)}")
+    if value_units is None:
+        raise ValidationFailed("value_units", None,
+                               "say the units of the record's values (g, m/s^2, ...)")
+    cal = 1.0 if calibration is None else calibration
+    with tempfile.TemporaryDirectory() as tmp:
+        path = Path(tmp) / f"upload{suffix}"
+        path.write_bytes(content)
+        with core_errors(""):
+            if suffix in (".csv", ".txt"):
+                if sample_rate_hz is not None:
+                    return qio.read_csv_time_history(path, unit=value_units, time_column=None,
+                                                     value_column=0, fs_hz=sample_rate_hz,
+                                                     calibration=cal)
+                return qio.read_csv_time_history(path, unit=value_units, calibration=cal)
+            if suffix == ".npy":
+                if sample_rate_hz is None:
+                    raise ValidationFailed("sample_rate_hz", None, "is required for .npy")
+                return qio.read_npy_time_history(path, fs_hz=sample_rate_hz, unit=value_units,
+                                                 calibration=cal)
+            if suffix == ".wav":
+                if calibration is None:
+                    raise ValidationFailed("calibration", None,
+                                           "is required for .wav (units per full-scale count)")
+                return qio.read_wav_time_history(path, calibration=cal, unit=value_units)
+            if suffix == ".mat":
+                if variable is None:
+                    raise ValidationFailed("variable", None, "name the variable of the .mat file")
+                return qio.read_mat_time_history(path, variable=variable, unit=value_units,
+                                                 fs_hz=sample_rate_hz, calibration=cal)
+            return qio.read_uff58(path, unit=value_units)
+
+
+def _time_history(filename: str, content: bytes, *, value_units: str | None,
+                  sample_rate_hz: float | None, calibration: float | None,
+                  variable: str | None) -> tuple[dict[str, Any], np.ndarray]:
+    rec = _read_record(filename, content, value_units=value_units,
+                       sample_rate_hz=sample_rate_hz, calibration=calibration,
+                       variable=variable)
+    if not isinstance(rec, qio.TimeHistory):
+        raise ValidationFailed("file", filename, "holds a spectrum, not a time record")
+    return {"dt_s": 1.0 / rec.fs_hz}, np.asarray(rec.accel_g, float)
 
 
 def _text(content: bytes) -> str:

@@ -16,6 +16,7 @@ from sqlalchemy.orm import Session
 
 from qualplan.dynamics import psd as core_psd
 from qualplan.dynamics import sdof as core_sdof
+from qualplan.dynamics import signal as core_signal
 from qualplan.dynamics import sine as core_sine
 from qualplan.dynamics import srs as core_srs
 from qualplan.dynamics import stats as core_stats
@@ -96,8 +97,6 @@ def _random_curves(inputs: list[Input]) -> list[tuple[np.ndarray, np.ndarray]]:
                 )
             )
         else:
-            from qualplan.dynamics import signal as core_signal
-
             x, dt = np.asarray(item.revision.data), item.revision.spec["dt_s"]
             est = core_signal.maximax_psd(x, 1.0 / dt)
             keep = (est.freq_hz > 0) & (est.asd_g2_hz > 0)
