@@ -9,6 +9,7 @@ from fastapi import FastAPI, Request
 
 from qualplan import __version__
 from qualplan.api import errors
+from qualplan.api.deps import READ_SLOTS
 from qualplan.api.limits import BodySizeLimit
 from qualplan.api.routers import (
     audit,
@@ -51,6 +52,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         app.state.sessionmaker = make_sessionmaker(engine)
         app.state.settings = settings
         app.state.write_lock = anyio.Lock() if engine.dialect.name == "sqlite" else None
+        app.state.read_slots = anyio.Semaphore(READ_SLOTS)
         yield
         engine.dispose()
 

@@ -20,19 +20,31 @@ DEFAULT_LIMIT = 50
 
 
 SAFE_METHODS = frozenset({"GET", "HEAD", "OPTIONS"})
+#: Reading requests served at once; the rest of the worker threads stay free for writers.
+READ_SLOTS = 30
 
 
-async def sqlite_writer_turn(request: Request) -> AsyncIterator[None]:
-    """On SQLite, let one writing request at a time hold a transaction.
+async def admission(request: Request) -> AsyncIterator[None]:
+    """Take a turn before the request's transaction starts (waiting costs no thread).
 
-    SQLite has one writer; a deferred transaction that has read (the token check) and
-    then writes after another writer committed fails with "database is locked"
-    (SQLITE_BUSY_SNAPSHOT) instead of waiting. Writers of this process therefore take
-    turns (an event-loop lock: waiting costs no worker thread). Readers never wait
-    (WAL). PostgreSQL needs no turn.
+    - Reads hold one of READ_SLOTS, so that readers never occupy every worker thread
+      and a writer's steps (session, route, commit) never queue behind fifty reads.
+    - On SQLite, writers take turns: SQLite has one writer, and a deferred transaction
+      that has read (the token check) and then writes after another writer committed
+      fails with "database is locked" (SQLITE_BUSY_SNAPSHOT) instead of waiting.
+      PostgreSQL needs no turn.
     """
-    lock = getattr(request.app.state, "write_lock", None)
-    if lock is None or request.method in SAFE_METHODS:
+    state = request.app.state
+    if request.method in SAFE_METHODS:
+        slots = getattr(state, "read_slots", None)
+        if slots is None:
+            yield
+            return
+        async with slots:
+            yield
+        return
+    lock = getattr(state, "write_lock", None)
+    if lock is None:
         yield
         return
     async with lock:
@@ -40,7 +52,7 @@ async def sqlite_writer_turn(request: Request) -> AsyncIterator[None]:
 
 
 def get_session(
-    request: Request, _turn: Annotated[None, Depends(sqlite_writer_turn, scope="function")]
+    request: Request, _turn: Annotated[None, Depends(admission, scope="function")]
 ) -> Iterator[Session]:
     """One transaction per request: commit once at the end, roll back on any error.
 
@@ -77,7 +89,7 @@ def current_actor(
 ActorDep = Annotated[Actor, Depends(current_actor)]
 
 
-def reader(actor: ActorDep) -> Actor:
+async def reader(actor: ActorDep) -> Actor:
     """A caller allowed to read (viewer or higher)."""
     access.require(actor, Role.viewer, "reading")
     return actor
