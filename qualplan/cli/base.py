@@ -131,17 +131,18 @@ def serve(
     port: Annotated[int, typer.Option(help="TCP port.")] = 8000,
     db: DbOption = None,
 ) -> None:
-    """Serve the HTTP API (and web pages) with uvicorn."""
+    """Serve the HTTP API (/api/v1) and the web pages (/) with uvicorn."""
     import os
 
     import uvicorn
 
     url = database_url(db)
     checked_engine(db).dispose()
-    # The app factory reads its Settings from the environment; the CLI and the API stay
-    # independent interfaces (no import between them).
+    # The service (API + web pages) reads its Settings from the environment; the CLI and
+    # the other interfaces stay independent (no import between them).
     os.environ["QUALPLAN_DATABASE_URL"] = url
-    uvicorn.run("qualplan.api.app:create_app", factory=True, host=host, port=port, log_level="info")
+    uvicorn.run("qualplan.service:create_service", factory=True, host=host, port=port,
+                log_level="info")
 
 
 KNOWN_ERRORS = (
