@@ -23,13 +23,17 @@ class Page(BaseModel, Generic[T]):
 
 
 class RequirementPatch(Command):
-    """Fields to change; the version edited comes in If-Match."""
+    """Fields to change; the version edited comes in If-Match.
 
-    text: str | None = Field(default=None, min_length=1)
+    Only ``level_id`` may be set to null (the requirement then points at no level);
+    the other fields are left alone when absent and refused when null.
+    """
+
+    text: str = Field(default=None, min_length=1)  # type: ignore[assignment]
     level_id: int | None = None
-    method: VerificationMethod | None = None
-    acceptance_criterion: str | None = None
-    required_margin: float | None = None
+    method: VerificationMethod = None  # type: ignore[assignment]
+    acceptance_criterion: str = None  # type: ignore[assignment]
+    required_margin: float = None  # type: ignore[assignment]
 
 
 class RequirementStatus(BaseModel):

@@ -193,5 +193,8 @@ def test_requirement_edit_refused_leaves_it_unchanged(eng, world, unchanged):
     eng.patch(path, {"version": 7}, headers={"If-Match": '"1"'}, expect=422)
     eng.patch(path, {"level_id": 999999}, headers={"If-Match": '"1"'}, expect=404)
     eng.patch(path, {"method": "guesswork"}, headers={"If-Match": '"1"'}, expect=422)
+    for field in ("text", "method", "acceptance_criterion", "required_margin"):
+        r = eng.patch(path, {field: None}, headers={"If-Match": '"1"'}, expect=422).json()
+        assert r["field"] == field
     check()
     assert eng.get(path).json()["version"] == 1
