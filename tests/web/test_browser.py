@@ -126,6 +126,18 @@ def test_engineer_story(new_page, users, world, shots):
     page.goto(f"/programs/{world.program_id}/audit")
     assert "/signin" in page.url
 
+    # an approver waives the failed requirement: the audit verdict turns to release
+    sign_in(page, users["approver"].token)
+    page.goto(req_url)
+    waive = page.locator("#waive")
+    waive.get_by_label("Rationale").fill("Shortfall accepted by the customer review board")
+    waive.get_by_label("Expires on").fill("2999-12-31")
+    waive.get_by_role("button", name="Waive").click()
+    page.wait_for_load_state()
+    assert "waived" in page.locator("dl.summary .status").text_content()
+    assert verdict(page, world.program_id).startswith("READY FOR RELEASE")
+    shots(page, "09-audit-waived")
+
 
 def test_viewer_sees_no_forms_and_forged_post_is_refused(new_page, users, world, factory,
                                                          shots):
