@@ -158,6 +158,8 @@ def _cookie(ctx: Ctx, response: Response) -> Response:
 
 
 def render(ctx: Ctx, name: str, status: int = 200, **values) -> Response:
+    if ctx.extra.get("error_on_top"):
+        values["where"] = None
     values.update(
         pdf_available=ctx.web.pdf is not None,
         actor=ctx.actor,
@@ -242,6 +244,8 @@ def action(
         code = status_of_error(exc) if isinstance(exc, PlanningError) else 400
         if code == 404:
             return problem_page(ctx, 404, "Not found", message_of(exc))
+        if code == 403:  # the form may be hidden from this role: say it at the top
+            ctx.extra["error_on_top"] = True
         return again(message_of(exc), code)
     return redirect(ctx, target)
 
