@@ -1,0 +1,712 @@
+"""Issued documents: the content of a test-level specification and of a margin-closure
+audit report, built from the database, and the use case that issues them.
+
+The content types are plain, frozen data (pydantic models): the reports layer renders
+them (PDF, CSV, JSON) without touching the database, so nothing is typed twice and the
+same database state always gives the same content. Dates come from the database (the
+levels' and documents' own timestamps), never from the wall clock.
+
+A document has a number (e.g. ``TLS-TRN-PEU-200-Q``) and revisions. Issuing content
+whose hash equals the latest revision's re-renders that revision; any change of the
+content makes the next revision, and the revision history lists them all.
+"""
+
+from __future__ import annotations
+
+import re
+from datetime import UTC, datetime
+from pathlib import Path
+from typing import Any, Literal, Protocol
+
+from pydantic import BaseModel, ConfigDict
+from sqlalchemy import func, select
+from sqlalchemy.orm import Session
+
+from qualplan.planning import schemas as s
+from qualplan.planning.access import Actor, record, require
+from qualplan.planning.audit import audit
+from qualplan.planning.catalog import get
+from qualplan.planning.errors import Conflict, ValidationFailed
+from qualplan.planning.levels import read_level
+from qualplan.store import models as m
+from qualplan.store.hashing import json_hash
+from qualplan.store.repositories import LevelRepository, RevisionRepository
+
+AXIS_ORDER = {"X": 0, "Y": 1, "Z": 2, "all": 3}
+KIND_ORDER = {"random": 0, "sine": 1, "shock": 2}
+GRADE_CODE = {"qualification": "Q", "acceptance": "A", "protoflight": "P"}
+
+
+class Content(BaseModel):
+    model_config = ConfigDict(frozen=True)
+
+
+# --- specification ----------------------------------------------------------------------
+
+
+class RandomRow(Content):
+    freq_hz: float
+    asd_g2_hz: float
+    #: Slope of the segment from this breakpoint to the next [dB/oct]; None on the last.
+    slope_db_per_oct: float | None
+
+
+class RandomTable(Content):
+    rows: list[RandomRow]
+    grms: float
+    duration_s: float
+    tolerance_db: float
+    grms_tolerance_pct: float
+    duration_tolerance_pct: float
+    velocity_rms_m_s: float | None = None
+    displacement_pk_pk_m: float | None = None
+
+
+class SineBandRow(Content):
+    f_lo_hz: float
+    f_hi_hz: float
+    quantity: str
+    #: Amplitude in `unit` (displacement in mm, velocity in m/s, acceleration in g).
+    amplitude: float
+    unit: str
+
+
+class SineCrossover(Content):
+    between: str
+    freq_hz: float
+
+
+class SinePoint(Content):
+    freq_hz: float
+    accel_g: float
+
+
+class SineTable(Content):
+    bands: list[SineBandRow]
+    crossovers: list[SineCrossover]
+    points: list[SinePoint]
+    peak_accel_g: float
+    sweep_rate_oct_per_min: float
+    direction: str
+    sweeps: int
+    sweep_time_s: float
+    tolerance_pct: float
+
+
+class ShockRow(Content):
+    freq_hz: float
+    accel_g: float
+    slope_db_per_oct: float | None
+
+
+class ShockTable(Content):
+    rows: list[ShockRow]
+    q: float
+    lower_db: float
+    upper_db: float
+    min_fraction_above_nominal: float
+    shocks_per_direction: int
+    directions: str
+    shocks_per_axis: int
+
+
+class InputRow(Content):
+    environment: str
+    kind: str
+    axis: str
+    phase: str
+    source: str
+    revision: int
+    latest_revision: int
+    content_hash: str
+
+
+class StepRow(Content):
+    step: str
+    detail: str
+
+
+class FdsCoverage(Content):
+    b: str
+    ratio_db: list[float | None]
+    required_db: float
+    worst_fn_hz: float | None
+    worst_db: float | None
+    passed: bool
+
+
+class ErsCoverage(Content):
+    ratio_db: list[float | None]
+    required_db: float
+    worst_fn_hz: float | None
+    worst_db: float | None
+    passed: bool
+    overtest_limit_db: float
+    max_overtest_db: float | None
+    max_overtest_fn_hz: float | None
+
+
+class CoverageData(Content):
+    fn_hz: list[float]
+    q: float | None
+    life: list[str]
+    fds: list[FdsCoverage]
+    ers: ErsCoverage | None
+    passed: bool
+    notes: list[str]
+
+
+class Curve(Content):
+    freq_hz: list[float]
+    values: list[float]
+
+
+class Derivation(Content):
+    inputs: list[InputRow]
+    combination: str
+    steps: list[StepRow]
+    #: The limit level (envelope or P95/50 before margins), for the envelope plot.
+    limit: Curve | None
+    coverage: CoverageData | None
+
+
+class LevelSection(Content):
+    level_id: int
+    name: str
+    number: int
+    kind: Literal["random", "sine", "shock"]
+    axis: str
+    level_hash: str
+    derived_at: datetime
+    author: str
+    policy: str
+    stale_reasons: list[str]
+    random: RandomTable | None = None
+    sine: SineTable | None = None
+    shock: ShockTable | None = None
+    derivation: Derivation
+
+
+class HistoryRow(Content):
+    revision: int
+    date: datetime
+    content_hash: str
+    note: str
+
+
+class ProductInfo(Content):
+    id: int
+    name: str
+    part_number: str
+    mass_kg: float | None
+    parents: list[str]
+
+
+class PolicyInfo(Content):
+    name: str
+    basis: str
+
+
+class SpecificationContent(Content):
+    kind: Literal["specification"] = "specification"
+    number: str
+    revision: int
+    title: str
+    date: datetime
+    program: str
+    product: ProductInfo
+    grade: str
+    policies: list[PolicyInfo]
+    prepared_by: list[str]
+    sections: list[LevelSection]
+    warnings: list[str]
+    history: list[HistoryRow]
+    input_hashes: dict[str, Any]
+
+    @property
+    def product_id(self) -> int:
+        return self.product.id
+
+    def content_hash(self) -> str:
+        return content_hash(self)
+
+
+# --- audit ------------------------------------------------------------------------------
+
+
+class AuditRow(Content):
+    key: str
+    product: str
+    level: str | None
+    method: str
+    required_margin: float
+    achieved_margin: float | None
+    #: Unit of both margins: "MS" (analysis margin of safety), "dB" (test) or "".
+    margin_unit: str
+    status: str
+    evidence: str
+    reason: str
+
+
+class AuditContent(Content):
+    kind: Literal["audit"] = "audit"
+    number: str
+    revision: int
+    title: str
+    date: datetime
+    program: str
+    scope: str
+    product_id: int
+    counts: dict[str, int]
+    items: list[AuditRow]
+    blocking: list[AuditRow]
+    release_ready: bool
+    verdict: str
+    history: list[HistoryRow]
+    input_hashes: dict[str, Any]
+
+    def content_hash(self) -> str:
+        return content_hash(self)
+
+
+DocumentContent = SpecificationContent | AuditContent
+
+
+def content_hash(content: DocumentContent) -> str:
+    """SHA-256 of what the document shows, without its revision and history."""
+    return json_hash(content.model_dump(mode="json", exclude={"revision", "history"}))
+
+
+class DocumentRenderer(Protocol):
+    """Turns content into files (PDF, CSV, JSON) in a folder; returns their paths."""
+
+    def render(self, content: DocumentContent, out_dir: Path) -> list[Path]: ...
+
+
+class IssuedDocument(BaseModel):
+    document_id: int
+    number: str
+    revision: int
+    content_hash: str
+    new_revision: bool
+    files: list[Path]
+
+
+# --- helpers ----------------------------------------------------------------------------
+
+
+def _slug(text: str) -> str:
+    return re.sub(r"[^A-Z0-9]+", "-", text.upper()).strip("-") or "X"
+
+
+def _fmt(value: Any) -> str:
+    if isinstance(value, float):
+        return f"{value:.4g}"
+    if isinstance(value, list):
+        return ", ".join(_fmt(v) for v in value)
+    return str(value)
+
+
+def _step(item: dict[str, Any]) -> StepRow:
+    name = str(item.get("step", ""))
+    detail = "; ".join(f"{k.replace('_', ' ')} {_fmt(v)}" for k, v in item.items() if k != "step")
+    return StepRow(step=name, detail=detail)
+
+
+def _slopes(values: list[float] | None, n: int) -> list[float | None]:
+    vals = list(values or [])
+    return [float(vals[i]) if i < len(vals) and vals[i] is not None else None for i in range(n - 1)]
+
+
+def _history(session: Session, number: str) -> list[m.Document]:
+    return list(
+        session.scalars(
+            select(m.Document).where(m.Document.number == number).order_by(m.Document.revision)
+        )
+    )
+
+
+def _with_revision(session: Session, number: str, body: dict[str, Any], cls, note: str):
+    """Set revision and history: the latest revision if its hash matches, else the next."""
+    rows = _history(session, number)
+    draft = cls(**body, revision=0, history=[])
+    h = content_hash(draft)
+    history = [HistoryRow(revision=r.revision, date=r.created_at, content_hash=r.content_hash,
+                          note=r.note) for r in rows]
+    if rows and rows[-1].content_hash == h:
+        return cls(**body, revision=rows[-1].revision, history=history)
+    revision = rows[-1].revision + 1 if rows else 1
+    history.append(
+        HistoryRow(revision=revision, date=body["date"], content_hash=h,
+                   note=note or ("first issue" if revision == 1 else "re-issue"))
+    )
+    return cls(**body, revision=revision, history=history)
+
+
+# --- specification content --------------------------------------------------------------
+
+
+def _random_table(r: dict[str, Any]) -> RandomTable:
+    f, a = r["freq_hz"], r["asd_g2_hz"]
+    slopes = _slopes(r.get("slopes_db_per_oct"), len(f))
+    shaker = r.get("shaker") or {}
+    return RandomTable(
+        rows=[RandomRow(freq_hz=f[i], asd_g2_hz=a[i],
+                        slope_db_per_oct=slopes[i] if i < len(slopes) else None)
+              for i in range(len(f))],
+        grms=r["grms"],
+        duration_s=r["duration_s"],
+        tolerance_db=r["tolerance_db"],
+        grms_tolerance_pct=r["grms_tolerance_pct"],
+        duration_tolerance_pct=r["duration_tolerance_pct"],
+        velocity_rms_m_s=shaker.get("velocity_rms_m_s"),
+        displacement_pk_pk_m=shaker.get("displacement_pk_pk_m"),
+    )
+
+
+_SINE_UNITS = {"displacement": "mm", "velocity": "m/s", "acceleration": "g"}
+
+
+def _sine_table(r: dict[str, Any]) -> SineTable:
+    from qualplan.dynamics.sine import crossover_hz
+
+    bands, crossovers = [], []
+    raw = r.get("bands") or []
+    for b in raw:
+        amp = float(b["amplitude"])
+        quantity = b["quantity"]
+        label = quantity
+        if quantity == "displacement":
+            amp *= 1000.0
+            label = "displacement " + ("peak-to-peak" if b.get("measure") == "peak_to_peak"
+                                       else "peak")
+        bands.append(SineBandRow(f_lo_hz=b["f_lo_hz"], f_hi_hz=b["f_hi_hz"], quantity=label,
+                                 amplitude=amp, unit=_SINE_UNITS[quantity]))
+    for a, b in zip(raw, raw[1:], strict=False):
+        if a["quantity"] == b["quantity"]:
+            continue
+
+        def peak(band):
+            x = float(band["amplitude"])
+            return x / 2 if band.get("measure") == "peak_to_peak" else x
+
+        crossovers.append(SineCrossover(
+            between=f"{a['quantity']} / {b['quantity']}",
+            freq_hz=crossover_hz(a["quantity"], peak(a), b["quantity"], peak(b))))
+    return SineTable(
+        bands=bands,
+        crossovers=crossovers,
+        points=[SinePoint(freq_hz=f, accel_g=g)
+                for f, g in zip(r["freq_hz"], r["accel_g"], strict=True)],
+        peak_accel_g=r["peak_accel_g"],
+        sweep_rate_oct_per_min=r["sweep_rate_oct_per_min"],
+        direction=r["direction"],
+        sweeps=r["sweeps"],
+        sweep_time_s=r["sweep_time_s"],
+        tolerance_pct=r["tolerance_pct"],
+    )
+
+
+def _shock_table(r: dict[str, Any]) -> ShockTable:
+    f, a = r["freq_hz"], r["accel_g"]
+    slopes = _slopes(r.get("slopes_db_per_oct"), len(f))
+    return ShockTable(
+        rows=[ShockRow(freq_hz=f[i], accel_g=a[i],
+                       slope_db_per_oct=slopes[i] if i < len(slopes) else None)
+              for i in range(len(f))],
+        q=r["q"],
+        lower_db=r["lower_db"],
+        upper_db=r["upper_db"],
+        min_fraction_above_nominal=r["min_fraction_above_nominal"],
+        shocks_per_direction=r["shocks_per_direction"],
+        directions=r["directions"],
+        shocks_per_axis=r["shocks_per_axis"],
+    )
+
+
+def _coverage(cov: dict[str, Any] | None) -> CoverageData | None:
+    if not cov:
+        return None
+    fds = [
+        FdsCoverage(b=b, ratio_db=item["fds_ratio_db"], required_db=item["required_db"],
+                    worst_fn_hz=item["worst_fn_hz"], worst_db=item["worst_db"],
+                    passed=item["passed"])
+        for b, item in (cov.get("by_b") or {}).items()
+    ]
+    e = cov.get("ers")
+    ers = None
+    if e:
+        ers = ErsCoverage(ratio_db=e["ers_ratio_db"], required_db=e["required_db"],
+                          worst_fn_hz=e["worst_fn_hz"], worst_db=e["worst_db"],
+                          passed=e["passed"], overtest_limit_db=e["overtest_limit_db"],
+                          max_overtest_db=e.get("max_overtest_db"),
+                          max_overtest_fn_hz=e.get("max_overtest_fn_hz"))
+    return CoverageData(fn_hz=cov.get("fn_hz", []), q=cov.get("q"), life=cov.get("life", []),
+                        fds=fds, ers=ers, passed=bool(cov.get("passed")),
+                        notes=cov.get("notes", []))
+
+
+def _inputs(session: Session, level: m.Level) -> list[InputRow]:
+    revs = RevisionRepository(session)
+    out = []
+    for rid in level.recipe.get("revision_ids", []):
+        rev = revs.get(int(rid))
+        if rev is None:
+            continue
+        env = rev.environment
+        latest = revs.latest(env.id)
+        out.append(InputRow(
+            environment=env.name, kind=env.kind.value, axis=env.axis.value,
+            phase=env.phase.name if env.phase else "-", source=env.source or "-",
+            revision=rev.number, latest_revision=latest.number if latest else rev.number,
+            content_hash=rev.content_hash))
+    return out
+
+
+def _section(session: Session, level: m.Level) -> LevelSection:
+    read = read_level(session, level)
+    r = level.result
+    kind = level.kind.value
+    limit = r.get("limit") or {}
+    values = limit.get("asd_g2_hz") or limit.get("accel_g")
+    derivation = Derivation(
+        inputs=_inputs(session, level),
+        combination=level.recipe.get("combination", "envelope"),
+        steps=[_step(x) for x in r.get("steps", [])],
+        limit=Curve(freq_hz=limit["freq_hz"], values=values) if values else None,
+        coverage=_coverage(r.get("coverage")),
+    )
+    tables: dict[str, Any] = {}
+    if kind == "random":
+        tables["random"] = _random_table(r)
+    elif kind == "sine":
+        tables["sine"] = _sine_table(r)
+    else:
+        tables["shock"] = _shock_table(r)
+    return LevelSection(
+        level_id=level.id, name=level.name, number=level.number, kind=kind,
+        axis=level.axis.value, level_hash=level.level_hash, derived_at=level.created_at,
+        author=level.author, policy=level.policy.name if level.policy else "-",
+        stale_reasons=read.stale_reasons, derivation=derivation, **tables,
+    )
+
+
+def current_test_levels(session: Session, product_id: int, grade: m.Grade) -> list[m.Level]:
+    """The newest number of every test level of a product for a grade."""
+    newest: dict[str, m.Level] = {}
+    for lvl in LevelRepository(session).list(product_id=product_id):
+        if lvl.purpose is not m.LevelPurpose.test or lvl.grade is not m.Grade(grade):
+            continue
+        if lvl.name not in newest or lvl.number > newest[lvl.name].number:
+            newest[lvl.name] = lvl
+    return list(newest.values())
+
+
+def specification_content(
+    session: Session,
+    product_id: int,
+    grade: m.Grade | str,
+    *,
+    level_ids: list[int] | None = None,
+    number: str | None = None,
+    note: str = "",
+) -> SpecificationContent:
+    """Content of the test-level specification of a product for one grade.
+
+    The levels are the newest test levels of that grade (or `level_ids`), ordered by
+    axis (X, Y, Z, all) and kind (random, sine, shock). The date is that of the newest
+    level shown; stale levels are listed in the warnings.
+    """
+    grade = m.Grade(grade)
+    product = get(session, m.Product, product_id, "product")
+    if level_ids:
+        chosen = [get(session, m.Level, i, "level") for i in level_ids]
+        for i, lvl in zip(level_ids, chosen, strict=True):
+            if lvl.product_id != product.id:
+                raise ValidationFailed("level_ids", i, f"is a level of another product than "
+                                       f"{product.name!r}")
+            if lvl.purpose is not m.LevelPurpose.test:
+                raise ValidationFailed("level_ids", i, "is an analysis level, not a test level")
+    else:
+        chosen = current_test_levels(session, product.id, grade)
+    if not chosen:
+        raise ValidationFailed("grade", grade.value,
+                               f"product {product.name!r} has no {grade.value} test level")
+    chosen.sort(key=lambda x: (AXIS_ORDER[x.axis.value], KIND_ORDER[x.kind.value], x.name))
+    sections = [_section(session, lvl) for lvl in chosen]
+    parents, p = [], product
+    while p.parent_id is not None:
+        p = session.get(m.Product, p.parent_id)
+        parents.append(p.name)
+    policies = {}
+    for lvl in chosen:
+        if lvl.policy is not None:
+            policies[lvl.policy.name] = PolicyInfo(name=lvl.policy.name,
+                                                   basis=lvl.policy.basis or "-")
+    warnings = [f"{sec.name} #{sec.number} is STALE: {r}" for sec in sections
+                for r in sec.stale_reasons]
+    number = number or f"TLS-{_slug(product.part_number or product.name)}-{GRADE_CODE[grade]}"
+    body = {
+        "number": number,
+        "title": f"{grade.value.capitalize()} test levels: {product.name}",
+        "date": max(lvl.created_at for lvl in chosen),
+        "program": product.program.name,
+        "product": ProductInfo(id=product.id, name=product.name,
+                               part_number=product.part_number, mass_kg=product.mass_kg,
+                               parents=parents),
+        "grade": grade.value,
+        "policies": list(policies.values()),
+        "prepared_by": sorted({lvl.author for lvl in chosen}),
+        "sections": sections,
+        "warnings": warnings,
+        "input_hashes": {
+            "levels": {str(lvl.id): lvl.level_hash for lvl in chosen},
+            "revisions": {k: v for lvl in chosen
+                          for k, v in lvl.input_hashes.get("revisions", {}).items()},
+        },
+    }
+    return _with_revision(session, number, body, SpecificationContent, note)
+
+
+# --- audit content ----------------------------------------------------------------------
+
+
+def _database_date(session: Session) -> datetime:
+    """Time of the newest recorded change other than issuing a document."""
+    at = session.scalar(select(func.max(m.Event.at)).where(m.Event.entity != "document"))
+    if at is None:
+        return datetime(1970, 1, 1, tzinfo=UTC)
+    return at if at.tzinfo else at.replace(tzinfo=UTC)
+
+
+def _margin_unit(method: str) -> str:
+    return {"analysis": "MS", "test": "dB"}.get(method, "")
+
+
+def audit_content(
+    session: Session,
+    program_id: int,
+    product_id: int | None = None,
+    *,
+    number: str | None = None,
+    note: str = "",
+    now: datetime | None = None,
+) -> AuditContent:
+    """Content of the margin-closure audit report of a program (or a product subtree).
+
+    Statuses come from :func:`qualplan.planning.audit.audit`; waivers are judged at
+    `now` (default: the current time, since an expired waiver no longer counts). The
+    report's date is that of the newest recorded change in the database.
+    """
+    report: s.AuditReport = audit(session, program_id, product_id, now=now)
+    program = get(session, m.Program, program_id, "program")
+    if product_id is not None:
+        anchor = get(session, m.Product, product_id, "product")
+    else:
+        anchor = session.scalar(
+            select(m.Product)
+            .where(m.Product.program_id == program.id, m.Product.parent_id.is_(None))
+            .order_by(m.Product.id)
+            .limit(1)
+        )
+        if anchor is None:
+            raise ValidationFailed("program_id", program_id, "the program has no product")
+    reqs = {r.id: r for r in session.scalars(
+        select(m.Requirement).where(m.Requirement.program_id == program.id))}
+    rows = []
+    for item in report.items:
+        ev = session.get(m.Evidence, item.evidence_id) if item.evidence_id else None
+        evidence = "-"
+        if ev is not None:
+            evidence = f"#{ev.id} {ev.kind.value} ({ev.verdict.value}, {ev.created_at:%Y-%m-%d})"
+        rows.append(AuditRow(
+            key=item.key, product=item.product, level=item.level, method=item.method.value,
+            required_margin=item.required_margin, achieved_margin=item.achieved_margin,
+            margin_unit=_margin_unit(item.method.value), status=item.status,
+            evidence=evidence, reason=item.reason))
+    hashes = {}
+    for item in report.items:
+        req = reqs[item.requirement_id]
+        hashes[item.key] = {
+            "version": req.version,
+            "level_hash": req.level.level_hash if req.level else None,
+            "evidence": [e.id for e in req.evidence],
+            "waivers": [w.id for w in req.waivers],
+        }
+    slug = _slug(program.name if product_id is None else (anchor.part_number or anchor.name))
+    number = number or f"MCA-{slug}"
+    body = {
+        "number": number,
+        "title": f"Margin-closure audit: {report.scope}",
+        "date": _database_date(session),
+        "program": program.name,
+        "scope": report.scope,
+        "product_id": anchor.id,
+        "counts": report.counts,
+        "items": rows,
+        "blocking": [r for r in rows if r.status in ("failed", "stale", "open")],
+        "release_ready": report.release_ready,
+        "verdict": report.verdict,
+        "input_hashes": {"requirements": hashes},
+    }
+    return _with_revision(session, number, body, AuditContent, note)
+
+
+# --- issuing ----------------------------------------------------------------------------
+
+
+def issue_document(
+    session: Session,
+    actor: Actor,
+    content: DocumentContent,
+    renderer: DocumentRenderer,
+    out_dir: Path,
+) -> IssuedDocument:
+    """Render `content` into `out_dir` and record the issued revision (with an Event).
+
+    Content identical to the latest revision re-renders that revision and records
+    nothing new. Content built for another revision than the next (someone issued in
+    between) is refused with Conflict.
+    """
+    require(actor, m.Role.engineer, "issuing a document")
+    rows = _history(session, content.number)
+    h = content_hash(content)
+    latest = rows[-1] if rows else None
+    same = latest is not None and latest.content_hash == h and latest.revision == content.revision
+    expected = (latest.revision + 1) if latest else 1
+    if not same and content.revision != expected:
+        raise Conflict(f"document {content.number} was prepared as revision "
+                       f"{content.revision}, but the next revision is {expected}; prepare it again")
+    out_dir = Path(out_dir)
+    out_dir.mkdir(parents=True, exist_ok=True)
+    files = list(renderer.render(content, out_dir))
+    if same:
+        doc = latest
+    else:
+        doc = m.Document(
+            product_id=content.product_id,
+            kind=m.DocumentKind(content.kind),
+            number=content.number,
+            revision=content.revision,
+            title=content.title,
+            content_hash=h,
+            input_hashes=content.input_hashes,
+            note=content.history[-1].note if content.history else "",
+            author=actor.name,
+            # The document's date is its content's (from the database), so a re-render
+            # of this revision shows the same date; the Event keeps the issue time.
+            created_at=content.date,
+        )
+        session.add(doc)
+        session.flush()
+        record(session, actor, "issue", "document", doc.id, number=doc.number,
+               revision=doc.revision, content_hash=h, kind=content.kind)
+    return IssuedDocument(document_id=doc.id, number=doc.number, revision=doc.revision,
+                          content_hash=h, new_revision=not same, files=files)
+
+
+def list_documents(session: Session, product_id: int | None = None) -> list[m.Document]:
+    stmt = select(m.Document).order_by(m.Document.number, m.Document.revision)
+    if product_id is not None:
+        stmt = stmt.where(m.Document.product_id == product_id)
+    return list(session.scalars(stmt))

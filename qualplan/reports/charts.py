@@ -1,0 +1,185 @@
+"""Vector charts (SVG) of test levels and coverage, with matplotlib's object API.
+
+No pyplot state: each chart is its own ``Figure`` saved as SVG with text kept as text
+(small files, selectable in the PDF) and fixed ids and no date, so the same content
+gives byte-identical SVG.
+"""
+
+from __future__ import annotations
+
+import io
+
+import matplotlib
+
+matplotlib.use("Agg")
+
+import numpy as np  # noqa: E402
+from matplotlib import rc_context  # noqa: E402
+from matplotlib.figure import Figure  # noqa: E402
+from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter  # noqa: E402
+
+from qualplan.planning.documents import CoverageData, Curve, LevelSection  # noqa: E402
+
+WIDTH_IN, HEIGHT_IN = 6.4, 3.5
+NOMINAL = "#1f3b73"
+BAND = "#b03a2e"
+LIMIT = "#7f7f7f"
+RC = {
+    "svg.fonttype": "none",
+    "svg.hashsalt": "qualplan",
+    "font.family": "DejaVu Sans",
+    "font.size": 8.5,
+    "axes.grid": True,
+    "axes.grid.which": "both",
+    "grid.color": "#d0d0d0",
+    "grid.linewidth": 0.5,
+    "axes.linewidth": 0.7,
+    "lines.linewidth": 1.4,
+    "legend.fontsize": 7.5,
+    "legend.frameon": False,
+}
+
+
+def _plain(x, _pos=None) -> str:
+    return f"{x:g}"
+
+
+def _decades(ax, *, y: bool = True) -> None:
+    """Log axes labelled at every decade (plain numbers on x, e.g. 10, 100, 1000)."""
+    ax.xaxis.set_major_locator(LogLocator(base=10.0))
+    ax.xaxis.set_major_formatter(FuncFormatter(_plain))
+    ax.xaxis.set_minor_locator(LogLocator(base=10.0, subs=np.arange(2, 10) * 0.1))
+    ax.xaxis.set_minor_formatter(NullFormatter())
+    if y:
+        ax.yaxis.set_major_locator(LogLocator(base=10.0))
+        ax.yaxis.set_minor_locator(LogLocator(base=10.0, subs=np.arange(2, 10) * 0.1))
+        ax.yaxis.set_minor_formatter(NullFormatter())
+
+
+def _narrow_y(ax) -> None:
+    """Label 2x and 5x ticks as well when the y range spans less than ~1.5 decades."""
+    lo, hi = ax.get_ylim()
+    if lo > 0 and hi / lo < 30:
+        ax.yaxis.set_minor_locator(LogLocator(base=10.0, subs=(0.2, 0.3, 0.5)))
+        ax.yaxis.set_minor_formatter(FuncFormatter(_plain))
+    if lo > 0 and hi / lo < 3000:
+        ax.yaxis.set_major_formatter(FuncFormatter(_plain))
+
+
+def _legend_below(ax, n: int) -> None:
+    ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.17), ncol=2 if n > 2 else n)
+
+
+def _figure() -> Figure:
+    """A figure with fixed margins (room for the legend below the axes)."""
+    fig = Figure(figsize=(WIDTH_IN, HEIGHT_IN))
+    fig.subplots_adjust(left=0.11, right=0.98, top=0.91, bottom=0.33)
+    return fig
+
+
+def _svg(fig: Figure) -> str:
+    buf = io.StringIO()
+    fig.savefig(buf, format="svg", metadata={"Date": None, "Creator": "qualplan"})
+    return buf.getvalue()
+
+
+def _loglog_interp(f: np.ndarray, v: np.ndarray, grid: np.ndarray) -> np.ndarray:
+    return np.exp(np.interp(np.log(grid), np.log(f), np.log(v)))
+
+
+def _dense(freq, values, n: int = 400):
+    f = np.asarray(freq, float)
+    v = np.asarray(values, float)
+    grid = np.unique(np.concatenate([f, np.geomspace(f[0], f[-1], n)]))
+    return grid, _loglog_interp(f, v, grid)
+
+
+def level_chart(section: LevelSection) -> str:
+    """Nominal level with its tolerance band (dashed) and the limit level before margins."""
+    with rc_context(RC):
+        fig = _figure()
+        ax = fig.add_subplot()
+        ax.set_xscale("log")
+        ax.set_yscale("log")
+        limit: Curve | None = section.derivation.limit
+        if section.kind == "random":
+            t = section.random
+            f = [r.freq_hz for r in t.rows]
+            a = [r.asd_g2_hz for r in t.rows]
+            up, lo = 10 ** (t.tolerance_db / 10), 10 ** (-t.tolerance_db / 10)
+            ax.plot(f, a, color=NOMINAL, marker="o", ms=3,
+                    label=f"test level, {t.grms:.3g} g rms")
+            ax.plot(f, np.multiply(a, up), color=BAND, ls="--", lw=1,
+                    label=f"tolerance +/-{t.tolerance_db:g} dB")
+            ax.plot(f, np.multiply(a, lo), color=BAND, ls="--", lw=1)
+            ax.set_ylabel("ASD [g²/Hz]")
+        elif section.kind == "shock":
+            t = section.shock
+            f = [r.freq_hz for r in t.rows]
+            a = [r.accel_g for r in t.rows]
+            ax.plot(f, a, color=NOMINAL, marker="o", ms=3, label=f"test SRS, Q = {t.q:g}")
+            ax.plot(f, np.multiply(a, 10 ** (t.upper_db / 20)), color=BAND, ls="--", lw=1,
+                    label=f"tolerance {t.lower_db:+g} / {t.upper_db:+g} dB")
+            ax.plot(f, np.multiply(a, 10 ** (t.lower_db / 20)), color=BAND, ls="--", lw=1)
+            ax.set_ylabel("SRS peak acceleration [g]")
+        else:
+            t = section.sine
+            f = [p.freq_hz for p in t.points]
+            a = [p.accel_g for p in t.points]
+            tol = t.tolerance_pct / 100
+            ax.plot(f, a, color=NOMINAL, label=f"test level, peak {t.peak_accel_g:.3g} g")
+            ax.plot(f, np.multiply(a, 1 + tol), color=BAND, ls="--", lw=1,
+                    label=f"tolerance +/-{t.tolerance_pct:g} %")
+            ax.plot(f, np.multiply(a, 1 - tol), color=BAND, ls="--", lw=1)
+            ax.set_ylabel("acceleration [g peak]")
+        if limit is not None and limit.freq_hz:
+            lf, lv = limit.freq_hz, limit.values
+            if section.kind != "sine" and len(lf) > 60:
+                lf, lv = _thin(lf, lv)
+            ax.plot(lf, lv, color=LIMIT, ls=":", lw=1.2, label="limit level (before margins)")
+        ax.set_xlabel("frequency [Hz]")
+        _decades(ax)
+        ax.set_title(f"{section.name} #{section.number}, axis {section.axis}", fontsize=9)
+        _narrow_y(ax)
+        _legend_below(ax, len(ax.get_lines()))
+        return _svg(fig)
+
+
+def _thin(f, v, n: int = 300):
+    f = np.asarray(f, float)
+    v = np.asarray(v, float)
+    idx = np.unique(np.linspace(0, f.size - 1, n).round().astype(int))
+    return f[idx], v[idx]
+
+
+def coverage_chart(coverage: CoverageData, title: str) -> str | None:
+    """Test/life FDS ratio per b and ERS ratio [dB] against natural frequency."""
+    if coverage is None or not coverage.fn_hz:
+        return None
+    fn = np.asarray(coverage.fn_hz, float)
+    with rc_context(RC):
+        fig = _figure()
+        ax = fig.add_subplot()
+        ax.set_xscale("log")
+        styles = ["-", "-.", (0, (5, 1)), (0, (1, 1)), (0, (3, 1, 1, 1))]
+        for i, item in enumerate(coverage.fds):
+            y = np.array([np.nan if v is None else v for v in item.ratio_db], float)
+            worst = (f", worst {item.worst_db:+.1f} dB at {item.worst_fn_hz:.3g} Hz"
+                     if item.worst_db is not None else "")
+            ax.plot(fn, y, ls=styles[i % len(styles)], lw=1.2, label=f"FDS b = {item.b}{worst}")
+        if coverage.ers is not None:
+            e = coverage.ers
+            y = np.array([np.nan if v is None else v for v in e.ratio_db], float)
+            worst = (f", worst {e.worst_db:+.1f} dB at {e.worst_fn_hz:.3g} Hz"
+                     if e.worst_db is not None else "")
+            ax.plot(fn, y, color="black", lw=1.6, label=f"ERS{worst}")
+            ax.axhline(e.overtest_limit_db, color=BAND, ls=":", lw=1,
+                       label=f"over-test flag {e.overtest_limit_db:+g} dB")
+        ax.axhline(0.0, color=BAND, ls="--", lw=1.1, label="0 dB: test = life")
+        ax.set_xlabel("natural frequency [Hz]")
+        ax.set_ylabel("test / life [dB]")
+        q = f", Q = {coverage.q:g}" if coverage.q else ""
+        ax.set_title(f"{title}{q}", fontsize=9)
+        _decades(ax, y=False)
+        _legend_below(ax, 4)
+        return _svg(fig)

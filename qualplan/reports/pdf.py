@@ -1,0 +1,167 @@
+"""PDF documents from Jinja2 templates (templates/reports/) with WeasyPrint.
+
+The Jinja2 environment autoescapes and uses StrictUndefined, so a missing field is an
+error, never an empty cell. WeasyPrint may read only the template folder and ``data:``
+URLs (the charts), nothing from the network.
+"""
+
+from __future__ import annotations
+
+import base64
+import math
+from pathlib import Path
+
+from jinja2 import Environment, FileSystemLoader, StrictUndefined, select_autoescape
+
+from qualplan import __version__
+from qualplan.planning.documents import DocumentContent, SpecificationContent
+from qualplan.reports import charts, tables
+from qualplan.resources import data_dir
+
+
+def _templates() -> Path:
+    return data_dir("templates")
+
+
+def _num(x, digits: int = 4) -> str:
+    """A number in a table cell: 4 significant digits, no exponent for usual values."""
+    if x is None:
+        return "-"
+    x = float(x)
+    if not math.isfinite(x):
+        return "-"
+    if x == 0:
+        return "0"
+    if 1e-3 <= abs(x) < 1e5:
+        text = f"{x:.{digits}g}"
+        return text
+    mantissa, exp = f"{x:.{digits - 1}e}".split("e")
+    return f"{mantissa}e{int(exp)}"
+
+
+def _signed(x, digits: int = 3) -> str:
+    if x is None:
+        return "-"
+    return f"{float(x):+.{digits}g}"
+
+
+def _date(d) -> str:
+    return f"{d:%Y-%m-%d}"
+
+
+def _datetime(d) -> str:
+    return f"{d:%Y-%m-%d %H:%M} UTC"
+
+
+def _svg_uri(svg: str | None) -> str | None:
+    if svg is None:
+        return None
+    return "data:image/svg+xml;base64," + base64.b64encode(svg.encode()).decode()
+
+
+def environment() -> Environment:
+    env = Environment(
+        loader=FileSystemLoader(str(_templates())),
+        autoescape=select_autoescape(["html", "xml"]),
+        undefined=StrictUndefined,
+        trim_blocks=True,
+        lstrip_blocks=True,
+    )
+    env.filters.update(num=_num, signed=_signed, date=_date, datetime=_datetime)
+    env.globals["qualplan_version"] = __version__
+    return env
+
+
+def _fetcher():
+    """A URL fetcher that reads data: URLs and files under templates/ only."""
+    from weasyprint.urls import URLFetcher
+
+    root = _templates().resolve().as_uri()
+
+    class TemplateOnlyFetcher(URLFetcher):
+        def fetch(self, url, headers=None):
+            if not (url.startswith("data:") or url.startswith(root)):
+                raise ValueError(f"refused to fetch {url!r} while rendering a document")
+            return super().fetch(url, headers)
+
+    return TemplateOnlyFetcher(allowed_protocols=("data", "file"), fail_on_errors=True)
+
+
+def figures(content: SpecificationContent) -> dict[int, dict[str, str | None]]:
+    """Every chart of a specification as SVG text, by level id."""
+    out = {}
+    for sec in content.sections:
+        out[sec.level_id] = {
+            "level": charts.level_chart(sec),
+            "coverage": charts.coverage_chart(sec.derivation.coverage,
+                                              f"Coverage of {sec.name} #{sec.number}"),
+        }
+    return out
+
+
+def html(content: DocumentContent, svgs: dict | None = None) -> str:
+    """The document as HTML (print CSS), charts embedded as SVG data URLs."""
+    env = environment()
+    if isinstance(content, SpecificationContent):
+        svgs = svgs if svgs is not None else figures(content)
+        uris = {k: {name: _svg_uri(svg) for name, svg in v.items()} for k, v in svgs.items()}
+        template = env.get_template("reports/specification.html")
+        return template.render(doc=content, figures=uris, content_hash=content.content_hash(),
+                               file_stem=lambda s: tables.section_file_stem(content, s))
+    template = env.get_template("reports/audit.html")
+    return template.render(doc=content, content_hash=content.content_hash())
+
+
+def pdf_bytes(content: DocumentContent, svgs: dict | None = None) -> bytes:
+    """The document as PDF bytes (for the API route that serves it)."""
+    from weasyprint import HTML
+
+    document = HTML(string=html(content, svgs), base_url=str(_templates() / "reports") + "/",
+                    url_fetcher=_fetcher())
+    return document.write_pdf(metadata=None, pdf_identifier=content.number.encode(),
+                              uncompressed_pdf=False)
+
+
+def _stem(content: DocumentContent) -> str:
+    return f"{content.number}-r{content.revision}"
+
+
+class PdfRenderer:
+    """Implements planning's DocumentRenderer: PDF + JSON + CSV tables in a folder.
+
+    ``figures=True`` also writes every chart as an SVG file (``<stem>-figures/``).
+    """
+
+    def __init__(self, *, figures: bool = False) -> None:
+        self.figures = figures
+
+    def render(self, content: DocumentContent, out_dir: Path) -> list[Path]:
+        out_dir = Path(out_dir)
+        out_dir.mkdir(parents=True, exist_ok=True)
+        svgs = figures(content) if isinstance(content, SpecificationContent) else None
+        pdf = out_dir / f"{_stem(content)}.pdf"
+        pdf.write_bytes(pdf_bytes(content, svgs))
+        paths = [pdf, *tables.write_tables(content, out_dir)]
+        if self.figures and svgs is not None:
+            paths.extend(write_figures(content, out_dir / f"{_stem(content)}-figures", svgs))
+        return paths
+
+
+def write_figures(content: SpecificationContent, folder: Path, svgs: dict | None = None
+                  ) -> list[Path]:
+    """Write every chart of a specification as an SVG file into `folder`."""
+    svgs = svgs if svgs is not None else figures(content)
+    folder.mkdir(parents=True, exist_ok=True)
+    out = []
+    for sec in content.sections:
+        stem = tables.section_file_stem(content, sec)
+        for name, svg in svgs[sec.level_id].items():
+            if svg is None:
+                continue
+            p = folder / (f"{stem}.svg" if name == "level" else f"{stem}-{name}.svg")
+            p.write_text(svg, encoding="utf-8")
+            out.append(p)
+    return out
+
+
+__all__ = ["PdfRenderer", "environment", "figures", "html", "pdf_bytes", "write_figures"]

@@ -1,0 +1,104 @@
+"""CSV and JSON of the same content the PDF shows.
+
+CSV breakpoint tables are two columns (frequency, value) a test lab's controller can
+load, with ``#`` comment lines carrying the document, level, units and tolerances;
+numbers are written in Python's shortest round-trip form, so reading a table back
+gives the stored floats exactly. ``qualplan env add --file T.csv --units g^2/Hz``
+reads them too.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+from pathlib import Path
+
+from qualplan.planning.documents import AuditContent, LevelSection, SpecificationContent
+
+
+def _num(x: float | None) -> str:
+    return "" if x is None else repr(float(x))
+
+
+def section_csv(content: SpecificationContent, section: LevelSection) -> str:
+    """Breakpoint table of one level: (Hz, g^2/Hz), (Hz, g SRS) or (Hz, g peak)."""
+    buf = io.StringIO()
+    head = [
+        f"# {content.number} revision {content.revision}: {content.title}",
+        f"# level {section.name} #{section.number}, axis {section.axis}, {section.kind}, "
+        f"hash {section.level_hash}",
+    ]
+    w = csv.writer(buf, lineterminator="\n")
+    if section.kind == "random":
+        t = section.random
+        head.append(f"# overall {t.grms:.4g} g rms; duration {t.duration_s:g} s per axis "
+                    f"(-{t.duration_tolerance_pct:g} %); tolerance +/-{t.tolerance_db:g} dB "
+                    f"on ASD, +/-{t.grms_tolerance_pct:g} % on g rms")
+        buf.write("\n".join(head) + "\n")
+        w.writerow(["freq_hz", "asd_g2_hz"])
+        for r in t.rows:
+            w.writerow([_num(r.freq_hz), _num(r.asd_g2_hz)])
+    elif section.kind == "shock":
+        t = section.shock
+        head.append(f"# SRS maximax, Q = {t.q:g}; tolerance {t.lower_db:+g}/{t.upper_db:+g} dB; "
+                    f"{t.shocks_per_direction} shocks per direction, directions {t.directions}, "
+                    f"{t.shocks_per_axis} per axis")
+        buf.write("\n".join(head) + "\n")
+        w.writerow(["freq_hz", "accel_g"])
+        for r in t.rows:
+            w.writerow([_num(r.freq_hz), _num(r.accel_g)])
+    else:
+        t = section.sine
+        head.append(f"# sine sweep {t.sweep_rate_oct_per_min:g} oct/min {t.direction}, "
+                    f"{t.sweeps} sweep(s), {t.sweep_time_s:.1f} s; tolerance "
+                    f"+/-{t.tolerance_pct:g} %; amplitude in g peak")
+        buf.write("\n".join(head) + "\n")
+        w.writerow(["freq_hz", "accel_g"])
+        for p in t.points:
+            w.writerow([_num(p.freq_hz), _num(p.accel_g)])
+    return buf.getvalue()
+
+
+def audit_csv(content: AuditContent) -> str:
+    buf = io.StringIO()
+    buf.write(f"# {content.number} revision {content.revision}: {content.title}\n")
+    buf.write(f"# {content.verdict}\n")
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(["key", "product", "level", "method", "required_margin", "achieved_margin",
+                "margin_unit", "status", "evidence", "reason"])
+    for r in content.items:
+        w.writerow([r.key, r.product, r.level or "", r.method, _num(r.required_margin),
+                    _num(r.achieved_margin), r.margin_unit, r.status, r.evidence, r.reason])
+    return buf.getvalue()
+
+
+def content_json(content: SpecificationContent | AuditContent) -> str:
+    data = content.model_dump(mode="json")
+    data["content_hash"] = content.content_hash()
+    return json.dumps(data, indent=2, sort_keys=True) + "\n"
+
+
+def section_file_stem(content: SpecificationContent, section: LevelSection) -> str:
+    name = "".join(c if c.isalnum() else "-" for c in section.name).strip("-").lower()
+    return f"{content.number}-r{content.revision}-{section.axis}-{section.kind}-{name}"
+
+
+def write_tables(content: SpecificationContent | AuditContent, out_dir: Path) -> list[Path]:
+    """Write the JSON and the CSV tables of `content` into `out_dir`; return the paths."""
+    out_dir = Path(out_dir)
+    stem = f"{content.number}-r{content.revision}"
+    paths = []
+    p = out_dir / f"{stem}.json"
+    p.write_text(content_json(content), encoding="utf-8")
+    paths.append(p)
+    if isinstance(content, SpecificationContent):
+        for section in content.sections:
+            p = out_dir / f"{section_file_stem(content, section)}.csv"
+            p.write_text(section_csv(content, section), encoding="utf-8")
+            paths.append(p)
+    else:
+        p = out_dir / f"{stem}.csv"
+        p.write_text(audit_csv(content), encoding="utf-8")
+        paths.append(p)
+    return paths
