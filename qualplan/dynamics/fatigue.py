@@ -361,23 +361,34 @@ def _vertex(ym, y0, yp):
 
 
 @njit(cache=True, nogil=True)
-def _filter_miner(x, b0, b1, b2, a1, a2, n_extra, b, interp):
+def _filter_miner(x, b0, b1, b2, a1, a2, n_extra, b, interp, n_skip):
     """SDOF filter + online reversals + rainflow + Miner sum, in one pass, O(1) memory
-    beyond the rainflow stack. `x` has at least 2 samples."""
+    beyond the rainflow stack. Counting starts at sample `n_skip` (the filter runs from
+    sample 0); `x` has at least n_skip + 2 samples."""
     n = x.shape[0]
     stack = np.empty(n + n_extra + 2, dtype=np.float64)
-    # first two samples (zero initial state)
-    y0 = b0 * x[0]
-    y1 = b0 * x[1] + b1 * x[0] - a1 * y0
+    x1 = 0.0
+    x2 = 0.0
+    yy1 = 0.0
+    yy2 = 0.0
+    for k in range(n_skip):  # settling: filter only
+        y = b0 * x[k] + b1 * x1 + b2 * x2 - a1 * yy1 - a2 * yy2
+        x2 = x1
+        x1 = x[k]
+        yy2 = yy1
+        yy1 = y
+    # first two counted samples
+    y0 = b0 * x[n_skip] + b1 * x1 + b2 * x2 - a1 * yy1 - a2 * yy2
+    y1 = b0 * x[n_skip + 1] + b1 * x[n_skip] + b2 * x1 - a1 * y0 - a2 * yy1
+    x2 = x[n_skip]
+    x1 = x[n_skip + 1]
+    yy2 = y0
+    yy1 = y1
     sp, dmg = _push(stack, 0, y0, b)
     xprev = y0  # sample before the reversal candidate
     xc = y1  # reversal candidate
     dl = y1 - y0
-    x1 = x[1]
-    x2 = x[0]
-    yy1 = y1
-    yy2 = y0
-    for k in range(2, n + n_extra):
+    for k in range(n_skip + 2, n + n_extra):
         xin = x[k] if k < n else 0.0
         y = b0 * xin + b1 * x1 + b2 * x2 - a1 * yy1 - a2 * yy2
         x2 = x1
@@ -402,7 +413,8 @@ def _filter_miner(x, b0, b1, b2, a1, a2, n_extra, b, interp):
 
 
 def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: bool = False,
-             interpolate_peaks: bool = True, workers: int | None = None) -> np.ndarray:
+             interpolate_peaks: bool = True, skip_s: float = 0.0,
+             workers: int | None = None) -> np.ndarray:
     """Fatigue damage spectrum of any time history (shock, measured record, synthesis).
 
     Parameters
@@ -426,6 +438,12 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: boo
         two neighbouring samples (default True). This removes the peak
         clipping of sampling (up to 1 - cos(pi fn / fs) in amplitude, amplified
         b times in damage); set False to count the raw samples.
+    skip_s : float
+        Count cycles only after this time (the oscillators still start at rest at
+        t = 0). For a stationary record that starts abruptly: the start acts as a
+        step that rings at fn for about Q / (pi fn) s, and below the record's band
+        this ringing can dominate the damage (b = 8, fn a quarter of the lowest
+        PSD frequency: x24). Default 0 (count everything, e.g. a shock). [s]
     workers : int, optional
         Threads over natural frequencies (default: all cores). The compiled
         kernel releases the GIL.
@@ -482,9 +500,16 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: boo
     else:
         n_extra = np.zeros(fn.size, dtype=np.int64)
 
+    skip = float(skip_s)
+    if not np.isfinite(skip) or skip < 0:
+        raise InputError("skip_s", skip_s, "must be a finite time >= 0")
+    n_skip = int(round(skip / dt))
+    if n_skip > x.size - 2:
+        raise InputError("skip_s", skip_s, f"leaves fewer than 2 samples of the {x.size}")
+
     def one(i: int) -> float:
         return _filter_miner(x, bp[i, 0], bp[i, 1], bp[i, 2], az[i, 1], az[i, 2],
-                             int(n_extra[i]), b, interpolate_peaks)
+                             int(n_extra[i]), b, interpolate_peaks, n_skip)
 
     nw = workers or os.cpu_count() or 1
     order = np.argsort(-(x.size + n_extra))  # longest first balances the threads

@@ -88,6 +88,28 @@ def test_spectral_versus_time_domain_on_gaussian_record():
     assert np.mean(r_nb) < 1.0  # narrow band is conservative
 
 
+def test_broad_band_response_below_the_band_dirlik_and_skip():
+    # Dirlik 1985 (broad-band range distribution) vs rainflow for fn below the PSD band,
+    # where the response is quasi-static and broad-band: mean of 3 records within 10 %.
+    # The records start abruptly: without skip_s the start-up ringing at fn adds damage.
+    psd = ([20.0, 500.0], [0.04, 0.04])
+    fn = np.array([5.0, 10.0])
+    fs, dur, skip = 5000.0, 600.0, 2.0
+    d_skip = np.zeros(2)
+    d_all = np.zeros(2)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", AccuracyWarning)  # fn outside the band, by design
+        for seed in (0, 1, 2):
+            a = synthesis.gaussian_from_psd(*psd, dur, fs, rng=np.random.default_rng(seed))
+            d_skip += fatigue.fds_time(a, 1 / fs, fn, 10, 8, skip_s=skip)
+            d_all += fatigue.fds_time(a, 1 / fs, fn, 10, 8)
+        dk = fatigue.fds_random(*psd, 3 * (dur - skip), fn, 10, 8, method="dirlik")
+    ratio = d_skip / dk
+    print("time (after skip) / Dirlik:", np.round(ratio, 3))
+    assert np.all(np.abs(ratio - 1) < 0.10)
+    assert np.all(d_all > d_skip)
+
+
 def test_fds_time_equals_reference_rainflow_on_filtered_response():
     # reference library rainflow 3.2 counting the response of sdof_filter.response (raw
     # samples, no peak interpolation): identical Miner sum
@@ -268,6 +290,8 @@ def test_bad_input():
                           10, 8)
     with pytest.raises(InputError, match="fds"):
         fatigue.equivalent_psd([50.0, 100.0], [1.0, 0.0], 60, 10, 8)
+    with pytest.raises(InputError, match="skip_s"):
+        fatigue.fds_time(np.zeros(100), 1e-4, fn, 10, 8, skip_s=1.0)
     with pytest.raises(InputError, match="Nyquist"):
         fatigue.fds_time(np.zeros(100), 1e-3, [600.0], 10, 8)
     # fn outside the PSD band: documented AccuracyWarning, result still computed
