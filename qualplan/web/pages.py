@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import csv
 import io
-from collections.abc import Callable, Iterator
+from collections.abc import AsyncIterator, Callable, Iterator
 from dataclasses import dataclass, field
 from datetime import UTC, datetime, time
 from typing import Any
@@ -123,7 +123,19 @@ class Ctx:
         return self.actor is not None and self.actor.can(role)
 
 
-def ctx_dep(request: Request) -> Iterator[Ctx]:
+async def writer_turn(request: Request) -> AsyncIterator[None]:
+    """On SQLite, a POST waits for its turn on the app's write lock (the API's, when the
+    app has one): SQLite has one writer, and a transaction that read (the session check)
+    and then writes after another writer committed fails instead of waiting."""
+    lock = getattr(request.app.state, "write_lock", None)
+    if request.method in ("GET", "HEAD") or lock is None:
+        yield
+        return
+    async with lock:
+        yield
+
+
+def ctx_dep(request: Request, _turn: None = Depends(writer_turn)) -> Iterator[Ctx]:
     web: WebState = request.app.state.web
     db = request.app.state.sessionmaker()
     try:

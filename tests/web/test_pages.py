@@ -313,3 +313,42 @@ def test_pdf_downloads(browserless, users, world, factory):
     assert r.status_code == 200 and r.content.startswith(b"%PDF")
     r = b.get(f"/products/{world.product_id}/specification.pdf?grade=acceptance")
     assert r.status_code == 400 and "no acceptance test level" in r.text
+
+
+def _plot_data(html: str) -> list[dict]:
+    return [json.loads(x) for x in re.findall(
+        r'<script type="application/json" id="data-[^"]+">(.*?)</script>', html, re.S)]
+
+
+def _upload_json(b, world, kind, data, name):
+    b.get(f"/products/{world.product_id}")
+    return b.post(f"/products/{world.product_id}/environments",
+                  {"name": name, "kind": kind, "axis": "X"},
+                  files={"file": ("env.json", json.dumps(data).encode(), "application/json")})
+
+
+def test_shock_and_sine_plots(browserless, users, world):
+    b = browserless(users["engineer"])
+    r = _upload_json(b, world, "shock", {"freq_hz": [100.0, 1000.0, 2000.0],
+                                         "accel_g": [10.0, 100.0, 100.0], "q": 10}, "pyro")
+    assert r.status_code == 200, alert(r.text)
+    (shock,) = _plot_data(r.text)
+    assert (shock["ylabel"], shock["yunit"]) == ("SRS", "g")
+    assert shock["series"][0]["y"] == [10.0, 100.0, 100.0]
+    # 5-15 Hz at constant displacement, 15-100 Hz at 1.5 g: the displacement is chosen so
+    # that the crossover is continuous, X = A g0 / (2 pi f)^2 (closed form).
+    x_pk_pk = 2 * 1.5 * 9.80665 / (2 * 3.141592653589793 * 15.0) ** 2
+    r = _upload_json(b, world, "sine", {
+        "bands": [{"f_lo_hz": 5.0, "f_hi_hz": 15.0, "quantity": "displacement",
+                   "amplitude": x_pk_pk, "measure": "peak_to_peak"},
+                  {"f_lo_hz": 15.0, "f_hi_hz": 100.0, "quantity": "acceleration",
+                   "amplitude": 1.5}],
+        "sweep": {"rate_oct_per_min": 2.0}}, "engine sine")
+    assert r.status_code == 200, alert(r.text)
+    (sine,) = _plot_data(r.text)
+    assert sine["yunit"] == "g peak"
+    f, a = sine["series"][0]["x"], sine["series"][0]["y"]
+    assert f[0] == 5.0 and f[-1] == 100.0 and len(f) > 100
+    # peak acceleration at constant displacement grows with f^2: 1.5 (5/15)^2 g at 5 Hz
+    assert a[0] == pytest.approx(1.5 * (5 / 15) ** 2, rel=1e-9)
+    assert a[-1] == pytest.approx(1.5, rel=1e-9)
