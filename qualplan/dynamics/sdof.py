@@ -262,14 +262,25 @@ def quadrature_nodes(f_lo: float, f_hi: float, fn: np.ndarray, q: float, *, fixe
     Notes
     -----
     The nodes are the union of `fixed`, a log grid of `n_per_oct` points per
-    octave across the band, and `n_res` points f = fn (1 + tan(theta) / (2 Q)) with
-    theta uniform in (-pi/2, pi/2), which map the resonance peak (a Lorentzian in
-    f) to a flat integrand in theta. Nodes falling outside [f_lo, f_hi] are
-    clipped to the edges (zero-width intervals, harmless).
+    octave across the band (kept only where `fixed` is sparser), and `n_res`
+    points f = fn (1 + tan(theta) / (2 Q)) with theta uniform in (-pi/2, pi/2),
+    which map the resonance peak (a Lorentzian in f) to a flat integrand in theta.
+    Nodes falling outside [f_lo, f_hi] are clipped to the edges (zero-width
+    intervals, harmless).
     """
     n_oct = max(math.log2(f_hi / f_lo), 1e-12)
     bg = np.geomspace(f_lo, f_hi, max(int(math.ceil(n_oct * n_per_oct)) + 1, 2))
-    common = bg if fixed is None else np.union1d(bg, fixed)
+    if fixed is None:
+        common = bg
+    else:
+        fx = np.unique(np.asarray(fixed, float))
+        if fx.size >= 2:
+            # background nodes are only needed inside fixed intervals wider than their step
+            j = np.clip(np.searchsorted(fx, bg, side="right") - 1, 0, fx.size - 2)
+            wide = fx[j + 1] / fx[j] > 2.0 ** (1.0 / n_per_oct)
+            outside = (bg < fx[0]) | (bg > fx[-1])
+            bg = bg[wide | outside]
+        common = np.union1d(bg, fx)
     theta = np.linspace(-0.5 * np.pi, 0.5 * np.pi, n_res + 2)[1:-1]
     res = fn[:, None] * (1.0 + np.tan(theta)[None, :] / (2.0 * q))
     res = np.clip(res, f_lo, f_hi)
