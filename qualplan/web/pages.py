@@ -313,7 +313,9 @@ def home(ctx: Ctx = CtxDep) -> Response:
 
 
 def _safe_next(value: str) -> str:
-    return value if value.startswith("/") and not value.startswith("//") else "/programs"
+    # Only a path of this site: "//host", or a backslash (browsers read it as "/"), leave it.
+    ok = value.startswith("/") and not value.startswith("//") and "\\" not in value
+    return value if ok and "\n" not in value and "\r" not in value else "/programs"
 
 
 @router.get("/signin")

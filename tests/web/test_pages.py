@@ -352,3 +352,12 @@ def test_shock_and_sine_plots(browserless, users, world):
     # peak acceleration at constant displacement grows with f^2: 1.5 (5/15)^2 g at 5 Hz
     assert a[0] == pytest.approx(1.5 * (5 / 15) ** 2, rel=1e-9)
     assert a[-1] == pytest.approx(1.5, rel=1e-9)
+
+
+@pytest.mark.parametrize("target", ["//evil.example/x", "/\\evil.example", "https://evil.example"])
+def test_sign_in_never_redirects_off_site(browserless, users, target):
+    b = browserless()
+    b.get("/signin")
+    r = b.client.post("/signin", data={"csrf": b.csrf, "token": users["viewer"].token,
+                                       "next": target}, follow_redirects=False)
+    assert r.status_code == 303 and r.headers["location"] == "/programs"
