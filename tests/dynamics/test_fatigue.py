@@ -215,6 +215,26 @@ def test_shock_fds_free_decay_counts_residual():
     assert fatigue.fds_time(longer, 1 / fs, fn, 10, 8)[0] == pytest.approx(d1[0], rel=1e-3)
 
 
+def test_impulse_free_decay_closed_form():
+    # closed form: a short pulse of area A dt gives y(t) = -(wn^2 A dt / wd) e^(-zeta wn t)
+    # sin(wd t); extremes P1 r^k, r = exp(-zeta wn pi / wd); rainflow (ASTM E1049) counts the
+    # rise 0 -> P1 as a half cycle and every decreasing range P1 (1 + r) r^k as a half cycle:
+    # D = 0.5 (P1/2)^b + 0.5 (P1 (1 + r)/2)^b / (1 - r^b)
+    fn, q, b = 100.0, 10.0, 8.0
+    fs, a = 100000.0, 1000.0
+    x = np.zeros(2000)
+    x[1] = a
+    zeta = 1 / (2 * q)
+    wn = 2 * math.pi * fn
+    wd = wn * math.sqrt(1 - zeta**2)
+    t1 = math.atan(wd / (zeta * wn)) / wd
+    p1 = wn**2 * a / fs / wd * math.exp(-zeta * wn * t1) * math.sqrt(1 - zeta**2)
+    r = math.exp(-zeta * wn * math.pi / wd)
+    expected = 0.5 * (p1 / 2) ** b + 0.5 * (p1 * (1 + r) / 2) ** b / (1 - r**b)
+    d = fatigue.fds_time(x, 1 / fs, [fn], q, b, free_decay=True)[0]
+    assert d == pytest.approx(expected, rel=1e-4)
+
+
 def test_life_cycle_sum():
     fn = np.array([50.0, 100.0])
     rate = fatigue.fds_random(*FLAT, 1.0, fn, 10, 8)
