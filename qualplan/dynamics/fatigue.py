@@ -500,7 +500,10 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: boo
     else:
         n_extra = np.zeros(fn.size, dtype=np.int64)
 
-    skip = float(skip_s)
+    try:
+        skip = float(skip_s)
+    except (TypeError, ValueError) as exc:
+        raise InputError("skip_s", skip_s, "must be a number") from exc
     if not np.isfinite(skip) or skip < 0:
         raise InputError("skip_s", skip_s, "must be a finite time >= 0")
     n_skip = int(round(skip / dt))
