@@ -101,6 +101,15 @@ _ETAG = re.compile(r'^\s*(?:W/)?"?(\d+)"?\s*$')
 
 
 def parse_version(value: str) -> int:
+    if value.strip() == "*":
+        raise Problem(
+            428,
+            "precondition-required",
+            "Precondition required",
+            'If-Match: * would overwrite whatever is stored; give the ETag you edited, e.g. "3"',
+            field="If-Match",
+            value=value,
+        )
     match = _ETAG.match(value)
     if match is None:
         raise Problem(

@@ -54,7 +54,9 @@ def test_program_etag_and_if_match(eng):
     r = eng.patch(path, {"description": "lost?"}, headers={"If-Match": '"1"'}, expect=412)
     assert r.json()["current_version"] == 2
     eng.patch(path, {"description": "x"}, headers={"If-Match": "nonsense"}, expect=412)
-    assert eng.get(path).json()["description"] == "first"
+    eng.patch(path, {"description": "x"}, headers={"If-Match": "*"}, expect=428)
+    eng.patch(path, {"description": "weak"}, headers={"If-Match": 'W/"2"'})
+    assert eng.get(path).json()["description"] == "weak"
 
 
 def test_unknown_ids_are_404_problems(viewer):

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Annotated
 
-from fastapi import APIRouter, File, Form, Query, Response, UploadFile
+from fastapi import APIRouter, Depends, File, Form, Query, Response, UploadFile
 
 from qualplan.api.deps import (
     ActorDep,
@@ -127,14 +127,42 @@ UnitsIn = Annotated[
 ]
 
 
-def _file_data(kind, file: UploadFile, value_units, freq_units, sample_rate_hz):
+class RecordForm:
+    """How to read an uploaded file (multipart fields beside `file`)."""
+
+    def __init__(
+        self,
+        value_units: UnitsIn = None,
+        freq_units: Annotated[str, Form(description="Hz or kHz (tables)")] = "Hz",
+        sample_rate_hz: Annotated[
+            float | None, Form(gt=0, description="Of a one-column or .npy record [Hz]")
+        ] = None,
+        calibration: Annotated[
+            float | None, Form(gt=0, description="Of a .wav record: units per full scale")
+        ] = None,
+        variable: Annotated[str | None, Form(description="Of a .mat file")] = None,
+    ) -> None:
+        self.value_units, self.freq_units = value_units, freq_units
+        self.sample_rate_hz, self.calibration, self.variable = (
+            sample_rate_hz,
+            calibration,
+            variable,
+        )
+
+
+RecordFormDep = Annotated[RecordForm, Depends()]
+
+
+def _file_data(kind, file: UploadFile, how: RecordForm):
     return imports.environment_data_from_file(
         kind,
         file.filename or "upload",
         file.file.read(),
-        value_units=value_units,
-        freq_units=freq_units,
-        sample_rate_hz=sample_rate_hz,
+        value_units=how.value_units,
+        freq_units=how.freq_units,
+        sample_rate_hz=how.sample_rate_hz,
+        calibration=how.calibration,
+        variable=how.variable,
     )
 
 
@@ -152,12 +180,10 @@ def upload_environment(
     source: Annotated[str, Form()] = "",
     provenance: Annotated[str, Form()] = "",
     note: Annotated[str, Form()] = "",
-    value_units: UnitsIn = None,
-    freq_units: Annotated[str, Form()] = "Hz",
-    sample_rate_hz: Annotated[float | None, Form(gt=0)] = None,
+    how: RecordFormDep = None,  # type: ignore[assignment]
 ):
     """Create an environment from an uploaded file (multipart), within the upload limit."""
-    data, array = _file_data(kind, file, value_units, freq_units, sample_rate_hz)
+    data, array = _file_data(kind, file, how)
     cmd = s.EnvironmentCreate(
         product_id=product_id,
         phase_id=phase_id,
@@ -186,13 +212,11 @@ def upload_revision(
     file: FileIn,
     note: Annotated[str, Form()] = "",
     expected_revision: Annotated[int | None, Form()] = None,
-    value_units: UnitsIn = None,
-    freq_units: Annotated[str, Form()] = "Hz",
-    sample_rate_hz: Annotated[float | None, Form(gt=0)] = None,
+    how: RecordFormDep = None,  # type: ignore[assignment]
 ):
     """Add a revision from an uploaded file; If-Match or `expected_revision` as for JSON."""
     env = _environment(session, environment_id)
-    data, array = _file_data(env.kind, file, value_units, freq_units, sample_rate_hz)
+    data, array = _file_data(env.kind, file, how)
     cmd = s.RevisionIn(data=data, note=note, expected_revision=expected_revision)
     if version is not None:
         cmd = cmd.model_copy(update={"expected_revision": version})
