@@ -609,18 +609,16 @@ def _optimise_values(x, d, idx, y_start, hull_cache: dict | None = None):
     xk = x[idx]
     Lk = np.diff(xk)
     # Linear constraints: for each segment, the upper hull of the data in it.
-    rows, rhs = [], []
-    for k in range(idx.size - 1):
-        h = _segment_hull(x, d, int(idx[k]), int(idx[k + 1]), hull_cache)
-        t = (x[h] - xk[k]) / Lk[k]
-        for tt, dd in zip(t, d[h], strict=True):
-            r = np.zeros(idx.size)
-            r[k] = 1.0 - tt
-            r[k + 1] = tt
-            rows.append(r)
-            rhs.append(dd)
-    A = np.array(rows)
-    b = np.array(rhs)
+    hs = [_segment_hull(x, d, int(idx[k]), int(idx[k + 1]), hull_cache)
+          for k in range(idx.size - 1)]
+    seg = np.concatenate([np.full(h.size, k) for k, h in enumerate(hs)])
+    pts = np.concatenate(hs)
+    t = (x[pts] - xk[seg]) / Lk[seg]
+    A = np.zeros((pts.size, idx.size))
+    rows = np.arange(pts.size)
+    A[rows, seg] = 1.0 - t
+    A[rows, seg + 1] = t
+    b = d[pts]
     # Scale the objective to ~1 at the start point.
     scale = float(np.sum(_areas(xk[:-1], y_start[:-1], xk[1:], y_start[1:])))
 
@@ -637,10 +635,26 @@ def _optimise_values(x, d, idx, y_start, hull_cache: dict | None = None):
         g[1:] += base * e2
         return f, g / scale
 
-    cons = {"type": "ineq", "fun": lambda y: A @ y - b, "jac": lambda y: A}
-    res = minimize(fun, y_start, jac=True, method="SLSQP", constraints=[cons],
-                   options={"maxiter": 200, "ftol": 1e-12})
-    y = res.x if np.all(np.isfinite(res.x)) else y_start
+    # Active-set loop: solve with the constraints that are nearly binding, add any that the
+    # solution violates, repeat (SLSQP's cost grows with the number of constraints).
+    # bounds: a breakpoint is at a data line (y_k >= d_k) and never absurdly high (keeps the
+    # line search of SLSQP away from overflow)
+    top = max(float(d.max()), float(y_start.max())) + 10.0
+    bounds = [(float(d[i]), top) for i in idx]
+    active = (A @ y_start - b) < 0.25
+    y = y_start
+    for _ in range(8):
+        Aa, ba = A[active], b[active]
+        cons = {"type": "ineq", "fun": lambda y, Aa=Aa, ba=ba: Aa @ y - ba,
+                "jac": lambda y, Aa=Aa: Aa}
+        res = minimize(fun, y_start, jac=True, method="SLSQP", constraints=[cons],
+                       bounds=bounds, options={"maxiter": 200, "ftol": 1e-12})
+        y = res.x if np.all(np.isfinite(res.x)) else y_start
+        slack = A @ y - b
+        new = (slack < -1e-10) & ~active
+        if not new.any():
+            break
+        active |= slack < 0.05
     # Repair any tiny violation from the solver tolerance by lifting the worst segments' ends.
     viol = b - A @ y
     if (viol > 0).any():
@@ -651,7 +665,7 @@ def _optimise_values(x, d, idx, y_start, hull_cache: dict | None = None):
     return y
 
 
-def _local_search(x, d, idx, y, max_sweeps: int = 60):
+def _local_search(x, d, idx, y, hull_cache: dict | None = None, max_sweeps: int = 60):
     """Move single breakpoints along the data frequencies while the area decreases.
 
     For breakpoint k between fixed neighbours (k-1, k+1) placed at data index p, the best
@@ -681,7 +695,7 @@ def _local_search(x, d, idx, y, max_sweeps: int = 60):
             if cost[j] < old * (1.0 - 1e-12):
                 moved = moved or p[j] != idx[k]
                 idx[k], y[k] = p[j], yk[j]
-        y = _optimise_values(x, d, idx, y)
+        y = _optimise_values(x, d, idx, y, hull_cache)
         if not moved:
             break
     return idx, y
@@ -832,8 +846,8 @@ def simplify_above(freq, values, max_points: int, *, n_candidates: int = 120,
         else:
             break
 
-    idx, y = _local_search(x, d, *best)
-    idx, y = _joint_moves(x, d, idx, y, hull_cache)
+    idx, y = _local_search(x, d, *best, hull_cache)
+    idx, y = _joint_moves(x, d, idx, y, hull_cache, max_rounds=4 if n_seg <= 16 else 2)
     fo, vo = f[idx].copy(), np.exp(y)
     # ---- final guarantee at every data frequency, as `interp` evaluates it -------------------
     for _ in range(5):
