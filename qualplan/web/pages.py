@@ -66,6 +66,8 @@ def _fmt(value: Any, digits: int = 4) -> str:
     if isinstance(value, bool):
         return "yes" if value else "no"
     if isinstance(value, int | float):
+        if 1e4 <= abs(value) < 1e9:  # 10000 Hz, not 1e+04 Hz
+            return f"{float(f'{value:.{digits}g}'):.0f}"
         return f"{value:.{digits}g}"
     if isinstance(value, list | tuple):
         return "–".join(_fmt(v, digits) for v in value)

@@ -361,3 +361,11 @@ def test_sign_in_never_redirects_off_site(browserless, users, target):
     r = b.client.post("/signin", data={"csrf": b.csrf, "token": users["viewer"].token,
                                        "next": target}, follow_redirects=False)
     assert r.status_code == 303 and r.headers["location"] == "/programs"
+
+
+def test_numbers_for_people():
+    from qualplan.web.pages import _fmt, _unit
+
+    assert [_fmt(10000.0), _fmt(12345.6), _fmt(6.78416), _fmt([20.0, 2000.0])] == [
+        "10000", "12350", "6.784", "20–2000"]
+    assert _unit("g^2/Hz") == "g²/Hz" and _unit("(m/s^2)^2/Hz") == "(m/s²)²/Hz"
