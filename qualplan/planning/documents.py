@@ -618,7 +618,7 @@ def audit_content(
         ev = session.get(m.Evidence, item.evidence_id) if item.evidence_id else None
         evidence = "-"
         if ev is not None:
-            evidence = f"#{ev.id} {ev.kind.value} ({ev.verdict.value}, {ev.created_at:%Y-%m-%d})"
+            evidence = f"#{ev.id} {ev.kind.value}, {ev.verdict.value}, {ev.created_at:%Y-%m-%d}"
         rows.append(AuditRow(
             key=item.key, product=item.product, level=item.level, method=item.method.value,
             required_margin=item.required_margin, achieved_margin=item.achieved_margin,

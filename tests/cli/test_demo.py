@@ -1,0 +1,49 @@
+"""`qualplan demo --out DIR` on a fresh folder, as a newcomer runs it."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+
+from pypdf import PdfReader
+
+from qualplan.dynamics import psd as core_psd
+from qualplan.planning import imports
+from qualplan.store.models import EnvironmentKind
+
+
+def run_cli(*args: str) -> subprocess.CompletedProcess:
+    return subprocess.run([sys.executable, "-m", "qualplan.cli", *args],
+                          capture_output=True, text=True, timeout=600)
+
+
+def test_demo_builds_everything_in_its_folder(tmp_path):
+    out_dir = tmp_path / "demo"
+    out = run_cli("demo", "--out", str(out_dir))
+    assert out.returncode == 0, out.stderr[-3000:]
+    assert (out_dir / "qualplan.db").is_file()
+    docs = out_dir / "documents"
+    pdfs = sorted(p.name for p in docs.glob("*.pdf"))
+    assert len(pdfs) == 3, pdfs
+    assert any(p.startswith("TLS-") and "-Q-" in p for p in pdfs)
+    assert any(p.startswith("TLS-") and "-A-" in p for p in pdfs)
+    assert any(p.startswith("MCA-") for p in pdfs)
+    for name in pdfs:
+        assert len(PdfReader(str(docs / name)).pages) >= 1
+    assert len(list(docs.glob("*.csv"))) >= 10 and len(list(docs.glob("*.json"))) == 3
+    # The summary: paths, the audit verdict with its blocking items, the sign-in token.
+    assert str(out_dir / "qualplan.db") in out.stdout
+    assert "NOT READY" in out.stdout and "failed" in out.stdout and "stale" in out.stdout
+    assert "qualplan serve --db" in out.stdout and "token qp_" in out.stdout
+    # A random breakpoint table loads back into the core.
+    table = next(docs.glob("TLS-*-Q-r1-X-random-*.csv"))
+    data = imports.breakpoints_from_csv(EnvironmentKind.random, table.read_bytes(),
+                                        value_units="g^2/Hz")
+    assert core_psd.grms(data["freq_hz"], data["asd_g2_hz"]) > 0
+    # The database is a working qualplan database: the audit command agrees (exit 1).
+    audit = run_cli("audit", "--db", f"sqlite:///{out_dir / 'qualplan.db'}")
+    assert audit.returncode == 1 and "NOT READY" in audit.stdout
+    # Running again into the same folder is refused in one line, without --replace.
+    again = run_cli("demo", "--out", str(out_dir))
+    assert again.returncode == 2
+    assert again.stderr.strip().startswith("error:") and "--replace" in again.stderr
