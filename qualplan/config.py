@@ -34,3 +34,6 @@ class Settings(BaseSettings):
     max_upload_bytes: int = 50 * 1024 * 1024
     #: Treat the service as served over TLS (sets the Secure flag on cookies).
     behind_tls: bool = False
+    #: Secret that signs the web pages' session cookies; random per process when unset
+    #: (a restart then signs everyone out). Set it for a deployment.
+    web_secret: str | None = None

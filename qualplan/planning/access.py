@@ -95,7 +95,18 @@ def authenticate(session: Session, token: str | None) -> Actor:
     """The Actor holding `token`, or NotAuthenticated (unknown, revoked, inactive user)."""
     if not token:
         raise NotAuthenticated("a bearer token is required")
-    row = TokenRepository(session).by_hash(hash_token(token))
+    return authenticate_hash(session, hash_token(token))
+
+
+def authenticate_hash(session: Session, token_hash: str) -> Actor:
+    """Like :func:`authenticate`, from the token's SHA-256 (what a web session keeps)."""
+    row = TokenRepository(session).by_hash(token_hash)
     if row is None or row.revoked_at is not None or not row.user.active:
         raise NotAuthenticated("the token is unknown or revoked")
     return Actor(name=row.user.name, role=row.user.role)
+
+
+def list_events(session: Session, *, entity: str | None = None, entity_id: int | None = None,
+                limit: int = 200) -> list[m.Event]:
+    """The newest events first (who did what, when)."""
+    return list(EventRepository(session).list(entity=entity, entity_id=entity_id, limit=limit))

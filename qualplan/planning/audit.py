@@ -17,6 +17,8 @@ from qualplan.store import models as m
 from qualplan.store.repositories import ProductRepository
 
 STATUSES = ("verified", "waived", "failed", "stale", "open")
+#: Unit of required and achieved margins by verification method.
+MARGIN_UNITS = {"analysis": "MS", "test": "dB"}
 
 
 def audit(

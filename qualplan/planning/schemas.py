@@ -422,6 +422,8 @@ class AuditItem(BaseModel):
     reason: str
     required_margin: float
     achieved_margin: float | None
+    #: Unit of the margins: "MS" (margin of safety) for analysis, "dB" for tests.
+    margin_unit: str = ""
     shortfall: float | None
     evidence_id: int | None
 

@@ -31,13 +31,13 @@ MAX_AGE_S = 12 * 3600
 SECRET_ENV = "QUALPLAN_WEB_SECRET"
 
 
-def secret_from_env() -> bytes:
-    """The signing secret: ``QUALPLAN_WEB_SECRET``, else random per process.
+def secret_from_settings(settings) -> bytes:
+    """The signing secret: ``Settings.web_secret`` (``QUALPLAN_WEB_SECRET``), else random.
 
     A random secret signs everybody out when the service restarts and does not work
     with several worker processes; set the variable in a deployment.
     """
-    value = os.environ.get(SECRET_ENV)
+    value = getattr(settings, "web_secret", None) or os.environ.get(SECRET_ENV)
     return value.encode() if value else secrets.token_bytes(32)
 
 
@@ -92,24 +92,10 @@ def actor_of(session: Session, ws: WebSession | None) -> Actor | None:
     """The Actor behind a session cookie (None when signed out, revoked or inactive)."""
     if ws is None or not ws.token_hash:
         return None
-    by_hash = getattr(access, "authenticate_hash", None)
     try:
-        if by_hash is not None:
-            return by_hash(session, ws.token_hash)
-        return _authenticate_hash(session, ws.token_hash)
+        return access.authenticate_hash(session, ws.token_hash)
     except NotAuthenticated:
         return None
-
-
-def _authenticate_hash(session: Session, token_hash: str) -> Actor:
-    # Same rule as planning.access.authenticate, from the stored hash (until planning
-    # offers authenticate_hash; see docs/web.md).
-    from qualplan.store.repositories import TokenRepository
-
-    row = TokenRepository(session).by_hash(token_hash)
-    if row is None or row.revoked_at is not None or not row.user.active:
-        raise NotAuthenticated("the token is unknown or revoked")
-    return Actor(name=row.user.name, role=row.user.role)
 
 
 def sign_in(session: Session, token: str) -> tuple[Actor, WebSession]:

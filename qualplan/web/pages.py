@@ -862,7 +862,7 @@ def mount(
     """
     settings = settings or Settings()
     app.state.web = WebState(
-        signer=auth.Signer(secret or auth.secret_from_env()),
+        signer=auth.Signer(secret or auth.secret_from_settings(settings)),
         secure=bool(getattr(settings, "behind_tls", False)),
         pdf=pdf,
     )
