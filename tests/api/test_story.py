@@ -223,3 +223,16 @@ def test_policy_copy_and_rule_edit_turns_levels_stale(eng, viewer, drone):
     r = eng.put(f"/policies/{copy['id']}/rules", {"rules": rules}, headers={"If-Match": '"2"'},
                 expect=422)
     assert r.json()["field"] == "rules.random.qualification.margin_db"
+
+
+def test_event_log_records_who_did_what(eng, viewer, world):
+    env = world["env"]
+    eng.post(f"/environments/{env['id']}/revisions", {"data": GEVS_QUAL, "note": "raised"})
+    page = viewer.get("/events", params={"entity": "environment", "entity_id": env["id"]}).json()
+    actions = [e["action"] for e in page["items"]]
+    assert actions[0] == "revise" and "create" in actions  # newest first
+    assert page["items"][0]["actor"] == eng.caller.name
+    assert page["items"][0]["detail"]["revision"] == 2
+    one = viewer.get("/events", params={"entity": "environment", "entity_id": env["id"],
+                                        "offset": 1, "limit": 1}).json()
+    assert one["total"] == page["total"] and one["items"][0]["id"] == page["items"][1]["id"]

@@ -5,7 +5,6 @@ from __future__ import annotations
 from fastapi import APIRouter
 
 from qualplan.api.deps import PageDep, ReaderDep, SessionDep
-from qualplan.api.errors import Problem
 from qualplan.api.models import EventRead, Page
 from qualplan.planning import access
 
@@ -20,12 +19,8 @@ def list_events(
     entity: str | None = None,
     entity_id: int | None = None,
 ):
-    """Newest first."""
-    use_case = getattr(access, "list_events", None)
-    if use_case is None:
-        raise Problem(
-            501, "not-implemented", "Not implemented", "listing events has no use case yet"
-        )
-    rows = use_case(session, entity=entity, entity_id=entity_id)
+    """Newest first; filters `entity` (e.g. requirement) and `entity_id`."""
+    # list_events has no offset or count yet: all matching rows, then the window.
+    rows = access.list_events(session, entity=entity, entity_id=entity_id, limit=None)
     items = [EventRead.model_validate(r) for r in page.window(rows)]
     return Page(items=items, total=len(rows), offset=page.offset, limit=page.limit)

@@ -5,7 +5,6 @@ from __future__ import annotations
 from fastapi import APIRouter
 
 from qualplan.api.deps import ActorDep, PageDep, SessionDep
-from qualplan.api.errors import Problem
 from qualplan.api.models import Page, TokenCreate, TokenCreated, TokenRevoked
 from qualplan.planning import access
 from qualplan.planning import schemas as s
@@ -22,12 +21,7 @@ def create_user(cmd: s.UserCreate, session: SessionDep, actor: ActorDep):
 @router.get("/users", response_model=Page[s.UserRead])
 def list_users(session: SessionDep, actor: ActorDep, page: PageDep):
     access.require(actor, Role.admin, "listing users")
-    use_case = getattr(access, "list_users", None)
-    if use_case is None:
-        raise Problem(
-            501, "not-implemented", "Not implemented", "listing users has no use case yet"
-        )
-    rows = use_case(session)
+    rows = access.list_users(session)
     items = [s.UserRead.model_validate(r) for r in page.window(rows)]
     return Page(items=items, total=len(rows), offset=page.offset, limit=page.limit)
 
