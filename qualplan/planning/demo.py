@@ -47,7 +47,7 @@ Q, A = m.Grade.qualification, m.Grade.acceptance
 #: Invented road-transport spectra of the aircraft in its transport case [Hz], [g^2/Hz].
 ROAD = {
     "X": ([5.0, 15.0, 60.0, 200.0, 500.0], [0.004, 0.008, 0.004, 0.001, 0.0002]),
-    "Y": ([5.0, 15.0, 60.0, 200.0, 500.0], [0.003, 0.006, 0.003, 0.0008, 0.00015]),
+    "Y": ([5.0, 15.0, 60.0, 200.0, 500.0], [0.004, 0.008, 0.004, 0.0009, 0.00018]),
     "Z": ([5.0, 15.0, 60.0, 200.0, 500.0], [0.012, 0.02, 0.01, 0.002, 0.0004]),
 }
 #: Invented flight vibration of the pod's mounting (platform specification), X and Y.
@@ -56,15 +56,15 @@ FLIGHT = {
     "Y": ([20.0, 80.0, 400.0, 2000.0], [0.0008, 0.003, 0.003, 0.0004]),
 }
 #: The spectrum behind the synthesised Z flight records, and each record's scale.
-FLIGHT_Z_TRUE = ([20.0, 100.0, 350.0, 2000.0], [0.002, 0.008, 0.008, 0.0008])
+FLIGHT_Z_TRUE = ([20.0, 100.0, 350.0, 2000.0], [0.006, 0.008, 0.008, 0.0008])
 FLIGHT_Z_SCALES = (0.8, 1.0, 1.25)
 RECORD_S, RECORD_FS_HZ = 6.0, 5120.0
 #: Landing and catapult records: sums of decaying sines (peak [g] per mode), seeded.
-LANDING_PEAK_G, LANDING_SCALES = 30.0, (0.85, 1.0, 1.15)
+LANDING_PEAK_G, LANDING_SCALES = 15.0, (0.85, 1.0, 1.15)
 CATAPULT_PEAK_G = 20.0
 SHOCK_FS_HZ, SHOCK_S = 20480.0, 0.25
 #: Handling drop given as SRS breakpoints (Q = 10) [Hz], [g].
-DROP_SRS = ([10.0, 200.0, 2000.0], [4.0, 80.0, 80.0])
+DROP_SRS = ([10.0, 300.0, 2000.0], [3.0, 40.0, 40.0])
 CAMERA_Z = ([20.0, 100.0, 500.0, 2000.0], [0.001, 0.005, 0.005, 0.0006])
 
 
@@ -104,8 +104,10 @@ def _policy_rules() -> s.PolicyRules:
                         basis=f"{plan}: limit SRS + 3 dB, 3 shocks in each direction")
     rules.shock = {Q: shock, m.Grade.protoflight: shock, A: shock}
     rules.equivalence = s.EquivalenceRule(
-        q=10.0, b=[6.4, 7.5], f_lo_hz=10.0, f_hi_hz=2000.0, points_per_octave=4,
-        basis=f"{plan}: Basquin b = 6.4 (electronics, Steinberg) and 7.5 (810H)")
+        q=10.0, b=[6.4, 7.5], f_lo_hz=20.0, f_hi_hz=2000.0, points_per_octave=4,
+        basis=f"{plan}: Basquin b = 6.4 (electronics, Steinberg) and 7.5 (810H); judged "
+        "over 20-2000 Hz, the band of the shaker tests (transport below 20 Hz is covered "
+        "by the transport-case test)")
     return rules
 
 
@@ -219,10 +221,10 @@ def build_demo(session: Session, *, seed: int = 2026) -> DemoSummary:
         "sum of decaying sines", x)
     made["drop"] = env(
         unit, handling, "handling drop", K.shock, "Y",
-        {"freq_hz": DROP_SRS[0], "accel_g": DROP_SRS[1], "q": 10.0, "count": 2},
+        {"freq_hz": DROP_SRS[0], "accel_g": DROP_SRS[1], "q": 10.0, "count": 1},
         "ground-handling analysis (invented)", "SRS breakpoints")
     for i, scale in enumerate(LANDING_SCALES, start=1):
-        x = scale * _shock_record(np.random.default_rng(seed + 20 + i), LANDING_PEAK_G, 10.0)
+        x = scale * _shock_record(np.random.default_rng(seed + 20 + i), LANDING_PEAK_G, 40.0)
         made[f"landing {i}"] = env(
             unit, landing, f"parachute landing record {i}", K.time_history, "Z",
             {"dt_s": 1.0 / SHOCK_FS_HZ, "duration_s": SHOCK_S},
