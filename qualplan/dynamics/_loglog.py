@@ -728,7 +728,12 @@ def _joint_moves(x, d, idx, y, cache: dict, max_rounds: int = 4):
         for k in range(1, idx.size - 1):
             gap = int(min(idx[k] - idx[k - 1], idx[k + 1] - idx[k]))
             big = max(2, gap // 6)
-            for step in (-1, 1, -big, big):
+            if idx[k + 1] - idx[k - 1] <= 14:  # few lines between the neighbours: try them all
+                steps = [int(q) - int(idx[k]) for q in range(idx[k - 1] + 1, idx[k + 1])
+                         if q != idx[k]]
+            else:
+                steps = [-1, 1, -big, big]
+            for step in dict.fromkeys(steps):
                 p = int(idx[k]) + step
                 if not idx[k - 1] < p < idx[k + 1]:
                     continue
