@@ -12,4 +12,8 @@ Modules by topic (units inside the core: g, g^2/Hz, Hz, s, m, m/s):
 - ``rainflow``: ASTM E1049-85 cycle counting
 - ``fatigue``: fatigue damage spectra (FDS) and equivalence
 - ``extreme``: extreme response spectra (ERS)
+- ``equivalence``: coverage of a life by a test (FDS/ERS ratios), equivalent random
+  tests, duration equivalence, time compression
+- ``shock_synthesis``: wavelet shocks matching an SRS (shaker-realisable)
+- ``sdof_filter``: ramp-invariant recursive filters of the SDOF oscillator
 """

@@ -63,6 +63,35 @@ def list_users(session: Session) -> list[m.User]:
     return list(UserRepository(session).list())
 
 
+def set_user(session: Session, actor: Actor, name: str, *, role: m.Role | None = None,
+             active: bool | None = None) -> m.User:
+    """Change a user's role or (de)activate the user; a deactivated user's tokens stop."""
+    require(actor, m.Role.admin, "managing users")
+    user = UserRepository(session).by_name(name)
+    if user is None:
+        raise NotFound("user", name)
+    changes = {}
+    if role is not None and user.role != m.Role(role):
+        changes["role"] = [user.role.value, m.Role(role).value]
+        user.role = m.Role(role)
+    if active is not None and user.active != active:
+        changes["active"] = [user.active, active]
+        user.active = active
+    session.flush()
+    record(session, actor, "update", "user", user.id, name=name, **changes)
+    return user
+
+
+def list_tokens(session: Session, actor: Actor, user_name: str) -> list[m.ApiToken]:
+    """A user's tokens (prefix, label, dates; never the token)."""
+    user = UserRepository(session).by_name(user_name)
+    if user is None:
+        raise NotFound("user", user_name)
+    if actor.name != user.name:
+        require(actor, m.Role.admin, "listing another user's tokens")
+    return list(user.tokens)
+
+
 def create_token(session: Session, actor: Actor, user_name: str, label: str = "") -> str:
     """Create a token for `user_name`; return it in clear (shown once, stored hashed)."""
     user = UserRepository(session).by_name(user_name)
@@ -79,12 +108,16 @@ def create_token(session: Session, actor: Actor, user_name: str, label: str = ""
 
 
 def revoke_token(session: Session, actor: Actor, prefix: str) -> m.ApiToken:
-    """Revoke the token whose first characters are `prefix` (as listed)."""
+    """Revoke the token whose first characters are `prefix` (as listed); idempotent."""
     require(actor, m.Role.admin, "revoking a token")
     rows = TokenRepository(session).by_prefix(prefix)
-    if len(rows) != 1:
+    if not rows:
         raise NotFound("token", prefix)
+    if len(rows) > 1:
+        raise Conflict(f"{len(rows)} tokens start with {prefix!r}; revoke by a longer prefix")
     (row,) = rows
+    if row.revoked_at is not None:
+        return row  # revoking again changes nothing: the first time is kept
     row.revoked_at = utcnow()
     session.flush()
     record(session, actor, "revoke", "token", row.id)
@@ -107,6 +140,8 @@ def authenticate_hash(session: Session, token_hash: str) -> Actor:
 
 
 def list_events(session: Session, *, entity: str | None = None, entity_id: int | None = None,
-                limit: int = 200) -> list[m.Event]:
-    """The newest events first (who did what, when)."""
-    return list(EventRepository(session).list(entity=entity, entity_id=entity_id, limit=limit))
+                offset: int = 0, limit: int | None = 200) -> tuple[list[m.Event], int]:
+    """A page of events, newest first (who did what, when), and the total count."""
+    repo = EventRepository(session)
+    rows = repo.list(entity=entity, entity_id=entity_id, offset=offset, limit=limit)
+    return list(rows), repo.count(entity=entity, entity_id=entity_id)

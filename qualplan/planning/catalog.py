@@ -118,6 +118,12 @@ def product_tree(session: Session, program_id: int) -> list[s.ProductNode]:
     return [node(p) for p in sorted(by_parent.get(None, []), key=lambda c: c.name)]
 
 
+def product_subtree_ids(session: Session, product_id: int) -> list[int]:
+    """The product and all its descendants."""
+    get(session, m.Product, product_id, "product")
+    return ProductRepository(session).subtree_ids(product_id)
+
+
 def product_ref(session: Session, program: m.Program | None, ref: str | int) -> m.Product:
     """A product by id, or by name within `program`."""
     if isinstance(ref, int) or str(ref).isdigit():

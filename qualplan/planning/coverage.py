@@ -124,7 +124,8 @@ def _record(label, x, dt, times, fn, q, bs) -> Spectra:
     ers = np.zeros_like(fn)
     if keep.any():
         for b in bs:
-            fds[b][keep] = times * core_fds.fds_time(x, dt, fn[keep], q, b)
+            # free decay after the record: a shock's residual response does damage too
+            fds[b][keep] = times * core_fds.fds_time(x, dt, fn[keep], q, b, free_decay=True)
         ers[keep] = core_ers.ers_shock(x, dt, fn[keep], q)
     return Spectra(label, fds, ers)
 

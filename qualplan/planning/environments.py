@@ -113,6 +113,10 @@ def _append_revision(
     return rev
 
 
+def environment_by_id(session: Session, environment_id: int) -> m.Environment:
+    return get(session, m.Environment, environment_id, "environment")
+
+
 def read_environment(session: Session, env: m.Environment) -> s.EnvironmentRead:
     latest = RevisionRepository(session).latest(env.id)
     out = s.EnvironmentRead.model_validate(env)

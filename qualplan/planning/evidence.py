@@ -150,6 +150,7 @@ def add_test_record_file(
     note: str = "",
 ) -> m.Evidence:
     """A test record uploaded as a file: CSV (Hz, value) in declared units, or JSON."""
+    require(actor, m.Role.engineer, "adding evidence")
     req = get(session, m.Requirement, requirement_id, "requirement")
     if req.level is None:
         raise ValidationFailed("requirement", req.key, "points at no level to test against")

@@ -478,6 +478,10 @@ def read_level(session: Session, level: m.Level) -> s.LevelRead:
     return out
 
 
+def level_by_id(session: Session, level_id: int) -> m.Level:
+    return get(session, m.Level, level_id, "level")
+
+
 def list_levels(session: Session, product_id: int | None = None) -> list[m.Level]:
     return list(
         LevelRepository(session).list(

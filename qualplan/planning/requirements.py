@@ -11,9 +11,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 from datetime import UTC, datetime
 
-from sqlalchemy import select
+from sqlalchemy import func, select
 from sqlalchemy.exc import IntegrityError
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, selectinload
 
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require
@@ -68,6 +68,9 @@ def update_requirement(
     if req.version != cmd.expected_version:
         raise VersionMismatch("requirement", req.key, cmd.expected_version, req.version)
     changes = cmd.model_dump(exclude_unset=True, exclude={"expected_version"})
+    for key, value in changes.items():
+        if value is None and key != "level_id":
+            raise ValidationFailed(key, None, "cannot be null (only level_id may be cleared)")
     if "level_id" in changes and changes["level_id"] is not None:
         _check_level(session, changes["level_id"], req.product)
     for key, value in changes.items():
@@ -118,6 +121,27 @@ def list_requirements(
     if limit is not None:
         stmt = stmt.limit(limit)
     return list(session.scalars(stmt))
+
+
+def requirement_page(session: Session, *, program_id: int | None = None,
+                     product_ids: list[int] | None = None, offset: int = 0,
+                     limit: int | None = None) -> tuple[list[s.RequirementRead], int]:
+    """A page of requirements with their status, and the total count (eager loading)."""
+    base = select(m.Requirement)
+    if program_id is not None:
+        base = base.where(m.Requirement.program_id == program_id)
+    if product_ids is not None:
+        base = base.where(m.Requirement.product_id.in_(product_ids))
+    total = int(session.scalar(select(func.count()).select_from(base.subquery())) or 0)
+    stmt = (base.options(selectinload(m.Requirement.evidence),
+                         selectinload(m.Requirement.waivers),
+                         selectinload(m.Requirement.level))
+            .order_by(m.Requirement.key, m.Requirement.id).offset(offset))
+    if limit is not None:
+        stmt = stmt.limit(limit)
+    cache: dict[int, list[str]] = {}
+    rows = [read_requirement(session, r, level_stale=cache) for r in session.scalars(stmt)]
+    return rows, total
 
 
 def active_waiver(req: m.Requirement, now: datetime | None = None) -> m.Waiver | None:

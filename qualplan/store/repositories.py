@@ -226,12 +226,27 @@ class EventRepository:
         self.session.flush()
         return ev
 
-    def list(
-        self, *, entity: str | None = None, entity_id: int | None = None, limit: int = 200
-    ) -> Sequence[m.Event]:
-        stmt = select(m.Event)
+    def _filtered(self, stmt, entity: str | None, entity_id: int | None):
         if entity is not None:
             stmt = stmt.where(m.Event.entity == entity)
         if entity_id is not None:
             stmt = stmt.where(m.Event.entity_id == entity_id)
-        return self.session.scalars(stmt.order_by(m.Event.id.desc()).limit(limit)).all()
+        return stmt
+
+    def list(
+        self,
+        *,
+        entity: str | None = None,
+        entity_id: int | None = None,
+        offset: int = 0,
+        limit: int | None = 200,
+    ) -> Sequence[m.Event]:
+        stmt = self._filtered(select(m.Event), entity, entity_id)
+        stmt = stmt.order_by(m.Event.id.desc()).offset(offset)
+        if limit is not None:
+            stmt = stmt.limit(limit)
+        return self.session.scalars(stmt).all()
+
+    def count(self, *, entity: str | None = None, entity_id: int | None = None) -> int:
+        stmt = self._filtered(select(func.count()).select_from(m.Event), entity, entity_id)
+        return int(self.session.scalar(stmt) or 0)

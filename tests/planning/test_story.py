@@ -177,3 +177,28 @@ def test_sine_and_shock_levels(session, engineer, unit, road):
     assert lvl.result["accel_g"][-1] == pytest.approx(100 * 10 ** (3 / 20))
     assert lvl.result["shocks_per_axis"] == 2
     assert "ers" in lvl.result["coverage"]
+
+
+def test_requirement_update_refuses_null_for_a_required_field(session, engineer, unit):
+    req = requirements.create_requirement(session, engineer, s.RequirementCreate(
+        program_id=unit.program_id, key="GAP-1", text="t", product_id=unit.id,
+        method=m.VerificationMethod.test))
+    with pytest.raises(ValidationFailed) as exc:
+        requirements.update_requirement(session, engineer, req.id, s.RequirementUpdate(
+            method=None, expected_version=req.version))
+    assert exc.value.field == "method"
+
+
+def test_requirement_page_counts_and_subtree(session, engineer, unit):
+    from qualplan.planning import catalog
+
+    child = catalog.create_product(session, engineer, s.ProductCreate(
+        program_id=unit.program_id, parent_id=unit.id, name="power board"))
+    for i, prod in enumerate([unit, child, child]):
+        requirements.create_requirement(session, engineer, s.RequirementCreate(
+            program_id=unit.program_id, key=f"PG-{i}", text="t", product_id=prod.id,
+            method=m.VerificationMethod.inspection))
+    ids = catalog.product_subtree_ids(session, unit.id)
+    assert ids == [unit.id, child.id]
+    items, total = requirements.requirement_page(session, product_ids=ids, offset=1, limit=1)
+    assert total == 3 and [r.key for r in items] == ["PG-1"] and items[0].status == "open"

@@ -19,18 +19,12 @@ from qualplan.api.models import Page
 from qualplan.planning import environments as envs
 from qualplan.planning import imports
 from qualplan.planning import schemas as s
-from qualplan.planning.errors import NotFound
 
 router = APIRouter(tags=["environments"])
 
 
 def _environment(session, environment_id: int):
-    # planning has no "environment by id" use case yet (see the API report); the list
-    # filtered here gives the same row and the same NotFound.
-    for env in envs.list_environments(session):
-        if env.id == environment_id:
-            return env
-    raise NotFound("environment", environment_id)
+    return envs.environment_by_id(session, environment_id)
 
 
 def _read(session, env, response: Response | None = None) -> s.EnvironmentRead:

@@ -20,7 +20,7 @@ def list_events(
     entity_id: int | None = None,
 ):
     """Newest first; filters `entity` (e.g. requirement) and `entity_id`."""
-    # list_events has no offset or count yet: all matching rows, then the window.
-    rows = access.list_events(session, entity=entity, entity_id=entity_id, limit=None)
-    items = [EventRead.model_validate(r) for r in page.window(rows)]
-    return Page(items=items, total=len(rows), offset=page.offset, limit=page.limit)
+    rows, total = access.list_events(session, entity=entity, entity_id=entity_id,
+                                     offset=page.offset, limit=page.limit)
+    items = [EventRead.model_validate(r) for r in rows]
+    return Page(items=items, total=total, offset=page.offset, limit=page.limit)

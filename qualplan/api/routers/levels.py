@@ -8,17 +8,12 @@ from qualplan.api.deps import ActorDep, PageDep, ReaderDep, SessionDep
 from qualplan.api.models import Page
 from qualplan.planning import levels
 from qualplan.planning import schemas as s
-from qualplan.planning.errors import NotFound
 
 router = APIRouter(tags=["levels"])
 
 
 def _level(session, level_id: int):
-    # planning has no "level by id" use case yet (see the API report).
-    for row in levels.list_levels(session):
-        if row.id == level_id:
-            return row
-    raise NotFound("level", level_id)
+    return levels.level_by_id(session, level_id)
 
 
 @router.post("/levels", status_code=201, response_model=s.LevelRead)

@@ -23,10 +23,11 @@ def list_requirements(
     """Requirements by key, with their computed status (of one program or product)."""
     scope = None
     if product_id is not None:
-        scope = [catalog.product_ref(session, None, product_id).id]
-    rows = requirements.list_requirements(session, program_id=program_id, product_ids=scope)
-    items = [requirements.read_requirement(session, r) for r in page.window(rows)]
-    return Page(items=items, total=len(rows), offset=page.offset, limit=page.limit)
+        scope = catalog.product_subtree_ids(session, product_id)
+    items, total = requirements.requirement_page(session, program_id=program_id,
+                                                 product_ids=scope, offset=page.offset,
+                                                 limit=page.limit)
+    return Page(items=items, total=total, offset=page.offset, limit=page.limit)
 
 
 @router.post("/requirements", status_code=201, response_model=s.RequirementRead)
