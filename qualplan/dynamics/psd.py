@@ -28,6 +28,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from qualplan.dynamics import _loglog
+from qualplan.dynamics._validate import as_1d_float, strictly_increasing
 from qualplan.dynamics.errors import InputError
 from qualplan.dynamics.units import G0_M_S2
 
@@ -416,8 +417,6 @@ def resample(freq_hz, asd_g2_hz, freq_grid_hz) -> np.ndarray:
     ndarray
         ASD on the grid [g^2/Hz].
     """
-    from qualplan.dynamics._validate import as_1d_float
-
     grid = as_1d_float("freq_grid_hz", freq_grid_hz)
     fp, ap = check_psd(freq_hz, asd_g2_hz)
     return _loglog._interp(fp, ap, grid)
@@ -746,8 +745,6 @@ def check_against(freq_hz, asd_g2_hz, spec_freq_hz, spec_asd_g2_hz, *, tol_db=3.
     Tolerances as in GSFC-STD-7000 / NASA-STD-7001 / IEC 60068-2-64 practice
     (+/-3 dB on ASD, +/-10 % on g rms); the defaults are common practice, not a rule.
     """
-    from qualplan.dynamics._validate import as_1d_float, strictly_increasing
-
     fa = as_1d_float("freq_hz", freq_hz, min_size=2)
     aa = as_1d_float("asd_g2_hz", asd_g2_hz, min_size=2)
     if fa.shape != aa.shape:
