@@ -135,6 +135,29 @@ def user_list(db: DbOption = None, as_json: JsonOption = False) -> None:
         table(["name", "role", "active"], [(u.name, u.role.value, u.active) for u in users])
 
 
+@user_app.command("set")
+def user_set(name: str,
+             role: Annotated[Role | None, typer.Option(help="New role.")] = None,
+             active: Annotated[bool | None, typer.Option("--active/--inactive",
+                               help="Allow or stop the user (and all their tokens).")] = None,
+             db: DbOption = None) -> None:
+    """Change a user's role, or deactivate / reactivate the user."""
+    with work(db) as session:
+        user = access.set_user(session, local_actor(), name, role=role, active=active)
+        state = "active" if user.active else "inactive"
+        typer.echo(f"user {user.name}: {user.role.value}, {state}")
+
+
+@token_app.command("list")
+def token_list(user: str, db: DbOption = None) -> None:
+    """List a user's tokens (prefix and dates only; tokens are stored hashed)."""
+    with work(db) as session:
+        rows = access.list_tokens(session, local_actor(), user)
+        table(["prefix", "label", "created (UTC)", "revoked (UTC)"],
+              [(t.prefix, t.label, f"{t.created_at:%Y-%m-%d %H:%M}",
+                f"{t.revoked_at:%Y-%m-%d %H:%M}" if t.revoked_at else None) for t in rows])
+
+
 @token_app.command("create")
 def token_create(
     user: str, label: Annotated[str, typer.Option(help="What it is for.")] = "", db: DbOption = None
