@@ -69,6 +69,10 @@ def check_profile(freq, values, field_freq: str = "freq_hz", field_values: str =
     ------
     InputError
         Naming the field, the offending value and the rule.
+
+    References
+    ----------
+    Harris' Shock and Vibration Handbook, 6th ed. (Piersol & Paez, 2010), random vibration.
     """
     f = as_1d_float(field_freq, freq, min_size=2)
     v = as_1d_float(field_values, values, min_size=2)
@@ -94,6 +98,10 @@ def exponents(freq_hz, values) -> np.ndarray:
     -------
     ndarray
         ``n_i = ln(v_{i+1}/v_i) / ln(f_{i+1}/f_i)`` [unitless], length ``len(freq_hz) - 1``.
+
+    References
+    ----------
+    Harris' Shock and Vibration Handbook, 6th ed. (Piersol & Paez, 2010), random vibration.
     """
     f, v = check_profile(freq_hz, values)
     return _exponents(f, v)
@@ -124,6 +132,10 @@ def interp(freq_hz, values, f):
     Notes
     -----
     ``v(f) = v_i (f/f_i)^n_i`` for ``f_i <= f <= f_{i+1}``.
+
+    References
+    ----------
+    Harris' Shock and Vibration Handbook, 6th ed. (Piersol & Paez, 2010), random vibration.
     """
     fp, vp = check_profile(freq_hz, values)
     x = np.asarray(f, dtype=float)
@@ -167,6 +179,10 @@ def slopes_db_per_oct(freq, values, *, power: bool) -> np.ndarray:
     ndarray
         ``s_i = c log10(v_{i+1}/v_i) / log2(f_{i+1}/f_i)`` [dB/oct], c = 10 or 20.
         Equals ``n_i * 3.0103`` (power) or ``n_i * 6.0206`` (amplitude).
+
+    References
+    ----------
+    Harris' Shock and Vibration Handbook, 6th ed. (Piersol & Paez, 2010), random vibration.
     """
     f, v = check_profile(freq, values)
     return _exponents(f, v) * (DB_PER_OCT_UNIT if power else 2.0 * DB_PER_OCT_UNIT)
@@ -196,6 +212,10 @@ def from_slopes(freq_edges_hz, start_value, slopes_db_oct, *, power: bool):
     A slope taken literally from a print rarely reproduces the printed
     breakpoints exactly (e.g. GEVS 0.026 g^2/Hz at 20 Hz, +6 dB/oct gives
     0.1615 at 50 Hz, not 0.16); store printed breakpoints when you have them.
+
+    References
+    ----------
+    Harris' Shock and Vibration Handbook, 6th ed. (Piersol & Paez, 2010), random vibration.
     """
     f = as_1d_float("freq_edges_hz", freq_edges_hz, min_size=2)
     all_positive("freq_edges_hz", f)
@@ -220,7 +240,22 @@ def from_slopes(freq_edges_hz, start_value, slopes_db_oct, *, power: bool):
 
 
 def exprel(x: np.ndarray) -> np.ndarray:
-    """``(exp(x) - 1) / x``, accurate near and at ``x = 0`` (where it is 1)."""
+    """``(exp(x) - 1) / x``, accurate near and at ``x = 0`` (where it is 1).
+
+    Parameters
+    ----------
+    x : array_like
+        Argument [unitless].
+
+    Returns
+    -------
+    ndarray
+        ``expm1(x)/x``; series ``1 + x/2 + x^2/6`` for ``|x| < 1e-8`` [unitless].
+
+    References
+    ----------
+    Same function as ``scipy.special.exprel``; written out to keep a single code path.
+    """
     x = np.asarray(x, dtype=float)
     out = np.ones_like(x)
     small = np.abs(x) < 1e-8
@@ -255,6 +290,10 @@ def segment_integrals(freq_hz, values, k: float = 0.0) -> np.ndarray:
     ``I_i = v_i f_i^(k+1) ((f_{i+1}/f_i)^(m+1) - 1)/(m+1) = v_i f_i^(k+1) L exprel((m+1) L)``,
     which is the power-law formula for ``m != -1`` and tends continuously to the
     log form ``v_i f_i^(k+1) L`` at ``m = -1`` (no switch, no division by zero).
+
+    References
+    ----------
+    Harris' Shock and Vibration Handbook, 6th ed. (Piersol & Paez, 2010), random vibration.
     """
     f, v = check_profile(freq_hz, values)
     return _segment_integrals(f, v, k)
@@ -296,6 +335,10 @@ def envelope(profiles: Sequence) -> tuple[np.ndarray, np.ndarray]:
     has a vertical step; it is drawn as a breakpoint pair ``f`` and
     ``f (1 -/+ STEP_REL)`` on the side outside that profile's band, so the
     envelope stays at or above every input at every frequency.
+
+    References
+    ----------
+    Own method (exact log-log crossings), docs/methods/psd.md "Envelope".
     """
     if profiles is None or len(profiles) == 0:
         raise InputError("profiles", profiles, "needs at least one (freq, values) profile")
@@ -782,6 +825,10 @@ def simplify_above(freq, values, max_points: int, *, n_candidates: int = 120,
     freq, values : ndarray
         At most `max_points` breakpoints at data frequencies, spanning the data band,
         with ``interp(result, f_m) >= v_m`` for every data frequency ``f_m``.
+
+    References
+    ----------
+    Own method, docs/methods/psd.md "Simplification".
     """
     f, v = check_profile(freq, values, "freq_hz", "values")
     if isinstance(max_points, bool) or not isinstance(max_points, int | np.integer):

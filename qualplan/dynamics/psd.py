@@ -77,6 +77,10 @@ def check_psd(freq_hz, asd_g2_hz):
     ------
     InputError
         Naming the field (``freq_hz[i]`` / ``asd_g2_hz[i]``), the value and the rule.
+
+    References
+    ----------
+    Harris' Shock and Vibration Handbook, 6th ed. (Piersol & Paez, 2010), random vibration.
     """
     return _loglog.check_profile(freq_hz, asd_g2_hz, "freq_hz", "asd_g2_hz")
 
@@ -111,13 +115,48 @@ def asd_at(freq_hz, asd_g2_hz, f):
 
 
 def exponents(freq_hz, asd_g2_hz) -> np.ndarray:
-    """Log-log exponent n of every segment [unitless] (``G ~ f^n``)."""
+    """Log-log exponent n of every segment (``G ~ f^n``).
+
+    Parameters
+    ----------
+    freq_hz : array_like
+        Breakpoint frequencies [Hz].
+    asd_g2_hz : array_like
+        Breakpoint ASD [g^2/Hz].
+
+    Returns
+    -------
+    ndarray
+        ``n_i = ln(G_{i+1}/G_i) / ln(f_{i+1}/f_i)`` [unitless], one per segment.
+
+    References
+    ----------
+    Harris' Shock and Vibration Handbook, 6th ed. (Piersol & Paez, 2010), random vibration.
+    """
     fp, ap = check_psd(freq_hz, asd_g2_hz)
     return _loglog._exponents(fp, ap)
 
 
 def slopes_db_per_oct(freq_hz, asd_g2_hz) -> np.ndarray:
-    """Slope of every segment [dB/oct]: ``10 log10(G2/G1) / log2(f2/f1)`` (= 3.0103 n)."""
+    """Slope of every segment in dB per octave.
+
+    Parameters
+    ----------
+    freq_hz : array_like
+        Breakpoint frequencies [Hz].
+    asd_g2_hz : array_like
+        Breakpoint ASD [g^2/Hz].
+
+    Returns
+    -------
+    ndarray
+        ``10 log10(G2/G1) / log2(f2/f1)`` [dB/oct] (= 3.0103 n, exact 10 log10 2 per unit
+        exponent).
+
+    References
+    ----------
+    Harris' Shock and Vibration Handbook, 6th ed. (Piersol & Paez, 2010), random vibration.
+    """
     fp, ap = check_psd(freq_hz, asd_g2_hz)
     return _loglog.slopes_db_per_oct(fp, ap, power=True)
 
@@ -153,7 +192,24 @@ def segment_mean_square_g2(freq_hz, asd_g2_hz) -> np.ndarray:
 
 
 def segment_grms(freq_hz, asd_g2_hz) -> np.ndarray:
-    """g rms of every segment on its own [g]: ``sqrt(A_i)``."""
+    """g rms of every segment on its own.
+
+    Parameters
+    ----------
+    freq_hz : array_like
+        Breakpoint frequencies [Hz].
+    asd_g2_hz : array_like
+        Breakpoint ASD [g^2/Hz].
+
+    Returns
+    -------
+    ndarray
+        ``sqrt(A_i)`` [g], A_i from :func:`segment_mean_square_g2`.
+
+    References
+    ----------
+    Harris' Shock and Vibration Handbook, 6th ed. (Piersol & Paez, 2010), random vibration.
+    """
     return np.sqrt(segment_mean_square_g2(freq_hz, asd_g2_hz))
 
 
@@ -187,12 +243,28 @@ def grms(freq_hz, asd_g2_hz) -> float:
 
 
 def velocity_rms_m_s(freq_hz, asd_g2_hz) -> float:
-    """rms velocity of an acceleration PSD [m/s].
+    """rms velocity of an acceleration PSD.
+
+    Parameters
+    ----------
+    freq_hz : array_like
+        Breakpoint frequencies [Hz].
+    asd_g2_hz : array_like
+        Breakpoint ASD [g^2/Hz].
+
+    Returns
+    -------
+    float
+        Velocity rms [m/s].
 
     Notes
     -----
     ``v_rms^2 = g0^2 int G(f) / (2 pi f)^2 df``, exact per segment (moment k = -2;
     a +3.0103 dB/oct segment is the log case there). g0 = 9.80665 m/s^2.
+
+    References
+    ----------
+    Harris' Shock and Vibration Handbook, 6th ed. (Piersol & Paez, 2010), random vibration.
     """
     fp, ap = check_psd(freq_hz, asd_g2_hz)
     m = float(np.sum(_loglog._segment_integrals(fp, ap, -2.0)))
@@ -200,11 +272,28 @@ def velocity_rms_m_s(freq_hz, asd_g2_hz) -> float:
 
 
 def displacement_rms_m(freq_hz, asd_g2_hz) -> float:
-    """rms displacement of an acceleration PSD [m].
+    """rms displacement of an acceleration PSD.
+
+    Parameters
+    ----------
+    freq_hz : array_like
+        Breakpoint frequencies [Hz].
+    asd_g2_hz : array_like
+        Breakpoint ASD [g^2/Hz].
+
+    Returns
+    -------
+    float
+        Displacement rms [m]; 3 x and 6 x this are the 3-sigma peak and the
+        peak-to-peak stroke (:func:`shaker_demand`).
 
     Notes
     -----
     ``d_rms^2 = g0^2 int G(f) / (2 pi f)^4 df``, exact per segment (moment k = -4).
+
+    References
+    ----------
+    Harris' Shock and Vibration Handbook, 6th ed. (Piersol & Paez, 2010), random vibration.
     """
     fp, ap = check_psd(freq_hz, asd_g2_hz)
     m = float(np.sum(_loglog._segment_integrals(fp, ap, -4.0)))
@@ -294,6 +383,10 @@ def scale_db(freq_hz, asd_g2_hz, db: float):
     Returns
     -------
     freq_hz, asd_g2_hz : ndarray
+
+    References
+    ----------
+    Harris' Shock and Vibration Handbook, 6th ed. (Piersol & Paez, 2010), random vibration.
     """
     fp, ap = check_psd(freq_hz, asd_g2_hz)
     return fp, ap * 10.0 ** (_finite("db", db) / 10.0)
@@ -313,6 +406,10 @@ def scale_to_grms(freq_hz, asd_g2_hz, target_grms: float):
     -------
     freq_hz, asd_g2_hz : ndarray
         ASD x (target/grms)^2.
+
+    References
+    ----------
+    Harris' Shock and Vibration Handbook, 6th ed. (Piersol & Paez, 2010), random vibration.
     """
     t = _finite("target_grms", target_grms)
     if t <= 0:
@@ -336,6 +433,10 @@ def from_slopes(freq_edges_hz, start_asd_g2_hz: float, slopes_db_oct):
     Returns
     -------
     freq_hz, asd_g2_hz : ndarray
+
+    References
+    ----------
+    Harris' Shock and Vibration Handbook, 6th ed. (Piersol & Paez, 2010), random vibration.
     """
     return _loglog.from_slopes(freq_edges_hz, start_asd_g2_hz, slopes_db_oct, power=True)
 
@@ -366,6 +467,10 @@ def from_plateau(plateau_asd_g2_hz: float, plateau_hz, *, low_hz=None, low_slope
     freq_hz, asd_g2_hz : ndarray
         The levels at the skirt ends are ``G_p 10^(-s log2(f_a/f_lo)/10)`` and
         ``G_p 10^(s log2(f_hi/f_b)/10)``.
+
+    References
+    ----------
+    GSFC-STD-7000A/B (GEVS), Table 2.4-3 (the way component levels are printed).
     """
     p = _finite("plateau_asd_g2_hz", plateau_asd_g2_hz)
     if p <= 0:
@@ -416,6 +521,10 @@ def resample(freq_hz, asd_g2_hz, freq_grid_hz) -> np.ndarray:
     -------
     ndarray
         ASD on the grid [g^2/Hz].
+
+    References
+    ----------
+    Harris' Shock and Vibration Handbook, 6th ed. (Piersol & Paez, 2010), random vibration.
     """
     grid = as_1d_float("freq_grid_hz", freq_grid_hz)
     fp, ap = check_psd(freq_hz, asd_g2_hz)
@@ -440,6 +549,10 @@ def envelope(profiles: Sequence) -> tuple[np.ndarray, np.ndarray]:
     Notes
     -----
     Exact, not sampled: see ``docs/methods/psd.md``, "Envelope".
+
+    References
+    ----------
+    Own method (exact log-log crossings), docs/methods/psd.md "Envelope".
     """
     if isinstance(profiles, PsdProfile):
         profiles = [profiles]
@@ -579,6 +692,11 @@ def simplify_report(freq_hz, asd_g2_hz, max_points: int) -> SimplifyResult:
     on the upper convex hull constraints), then local moves of single breakpoints.
     A heuristic search of an exact model, not a proof of global optimality; see
     docs/methods/psd.md, "Simplification", for the design and measured optimality gaps.
+
+    References
+    ----------
+    Own method, docs/methods/psd.md "Simplification"; envelope practice of
+    NASA-HDBK-7005 (straight-line log-log enveloping that stays above the data).
     """
     fp, ap = check_psd(freq_hz, asd_g2_hz)
     fo, ao = _loglog.simplify_above(fp, ap, max_points)
@@ -609,6 +727,10 @@ def simplify(freq_hz, asd_g2_hz, max_points: int) -> tuple[np.ndarray, np.ndarra
     freq_hz, asd_g2_hz : ndarray
         Never below the input at any input frequency; see :func:`simplify_report` for the
         g rms excess and the method.
+
+    References
+    ----------
+    Own method, docs/methods/psd.md "Simplification".
     """
     r = simplify_report(freq_hz, asd_g2_hz, max_points)
     return r.freq_hz, r.asd_g2_hz

@@ -275,6 +275,10 @@ def read_csv_time_history(path, *, unit: str, value_column=1, time_column=0,
     InputError
         Empty file, non-numeric or NaN cells (naming column and row), a time column
         that is not strictly increasing, has a gap or is irregular, an undeclared unit.
+
+    References
+    ----------
+    RFC 4180 (CSV); Python csv module dialect sniffing.
     """
     p = _path(path)
     header, rows, delim = _read_table(p, delimiter)
@@ -320,6 +324,10 @@ def read_csv_spectrum(path, *, unit: str, freq_column=0, value_column=1,
     -------
     Spectrum
         Frequencies strictly increasing and > 0, ASD finite and >= 0.
+
+    References
+    ----------
+    RFC 4180 (CSV).
     """
     p = _path(path)
     factor = asd_factor(unit)
@@ -374,6 +382,10 @@ def read_npy_time_history(path, *, fs_hz: float, unit: str,
     Returns
     -------
     TimeHistory
+
+    References
+    ----------
+    NumPy .npy format (numpy.lib.format), read with allow_pickle=False.
     """
     p = _path(path)
     try:
@@ -409,6 +421,10 @@ def read_wav_time_history(path, *, calibration: float, unit: str,
     -------
     TimeHistory
         Metadata holds the WAV dtype, channel count and channel read.
+
+    References
+    ----------
+    Microsoft RIFF WAVE format, read by scipy.io.wavfile.
     """
     from scipy.io import wavfile
 
@@ -454,6 +470,10 @@ def read_mat_time_history(path, *, variable: str, unit: str, fs_hz: float | None
     Returns
     -------
     TimeHistory
+
+    References
+    ----------
+    MATLAB MAT-file format v4-v7.2, read by scipy.io.loadmat.
     """
     from scipy.io import loadmat
 
@@ -523,6 +543,11 @@ def read_uff58(path, *, unit: str, record: int = 0,
         By the record's function type. Metadata holds the response node/direction,
         ids and the file's unit labels. A file unit label naming a different known
         acceleration unit than `unit` is an error (units are never chosen silently).
+
+    References
+    ----------
+    Universal file format, dataset 58 (function at nodal DOF), I-DEAS/SDRC
+    definition as implemented by pyuff (ladisk/pyuff).
     """
     import pyuff
 
