@@ -173,80 +173,80 @@ def spectra_of_level(kind: str, result: dict[str, Any], fn, q: float, bs) -> Spe
     )
 
 
-def coverage_of_level(
-    kind: str, result: dict[str, Any], life: list[LifeItem], rules: s.PolicyRules
-) -> dict[str, Any]:
-    """FDS and ERS coverage of a test level against the life cycle, as plain data."""
+def coverage_of_level(kind: str, result: dict[str, Any], life: list[LifeItem],
+                      rules: s.PolicyRules) -> dict[str, Any]:
+    """FDS and ERS coverage of one test level against the life cycle, as plain data."""
+    return _coverage([("test level", kind, result)], life, rules)
+
+
+def program_coverage(session: Session, product: m.Product, axis: m.Axis, grade: m.Grade,
+                     rules: s.PolicyRules) -> dict[str, Any]:
+    """Coverage of the life of one axis by the whole test sequence of that axis and grade.
+
+    The sequence is the newest number of every test level of the product on `axis`
+    (random, sine and shock together): their FDS add (Miner), their ERS envelope.
+    """
+    from qualplan.planning.levels import list_levels
+
+    newest: dict[str, m.Level] = {}
+    for level in list_levels(session, product.id):
+        if level.purpose is m.LevelPurpose.test and level.axis is axis and level.grade is grade:
+            if level.name not in newest or level.number > newest[level.name].number:
+                newest[level.name] = level
+    tests = [(f"{lv.name} #{lv.number}", lv.kind.value, lv.result)
+             for lv in sorted(newest.values(), key=lambda x: x.name)]
+    if not tests:
+        return {"fn_hz": [], "passed": False, "tests": [], "life": [],
+                "notes": [f"no {grade.value} test level on axis {axis.value}"]}
+    return _coverage(tests, life_cycle(session, product, axis), rules)
+
+
+def _coverage(tests: list[tuple[str, str, dict[str, Any]]], life: list[LifeItem],
+              rules: s.PolicyRules) -> dict[str, Any]:
     eq = rules.equivalence
     notes: list[str] = []
     if not life:
-        return {
-            "fn_hz": [],
-            "passed": False,
-            "notes": ["no environment in the life cycle of this axis"],
-            "life": [],
-        }
+        return {"fn_hz": [], "passed": False, "tests": [t[0] for t in tests], "life": [],
+                "notes": ["no environment in the life cycle of this axis"]}
     fn = core_srs.octave_grid(eq.f_lo_hz, eq.f_hi_hz, eq.points_per_octave)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", AccuracyWarning)
-        test = spectra_of_level(kind, result, fn, eq.q, eq.b)
+        test_parts = [spectra_of_level(kind, result, fn, eq.q, eq.b)
+                      for _, kind, result in tests]
         parts = [spectra_of_environment(x, fn, eq.q, eq.b) for x in life]
     notes.extend(sorted({str(w.message) for w in caught}))
+    test_ers = np.max([p.ers for p in test_parts], axis=0)
+    test_fds = {b: np.sum([p.fds[b] for p in test_parts], axis=0) for b in eq.b}
     life_ers = np.max([p.ers for p in parts], axis=0)
     life_fds = {b: np.sum([p.fds[b] for p in parts], axis=0) for b in eq.b}
     keep = (life_ers > 0) & np.all([life_fds[b] > 0 for b in eq.b], axis=0)
+    keep &= (test_ers > 0) & np.all([test_fds[b] > 0 for b in eq.b], axis=0)
     if not keep.all():
-        notes.append(
-            f"{int((~keep).sum())} natural frequencies have no life response "
-            "(outside every environment's reach) and are left out"
-        )
+        notes.append(f"{int((~keep).sum())} natural frequencies have no response of the test "
+                     "or of the life (outside every spectrum's reach) and are left out")
     fk = fn[keep]
-    out: dict[str, Any] = {
-        "fn_hz": fk.tolist(),
-        "q": eq.q,
-        "b": list(eq.b),
-        "life": [x.label for x in life],
-        "by_b": {},
-        "notes": notes,
-    }
+    out: dict[str, Any] = {"fn_hz": fk.tolist(), "q": eq.q, "b": list(eq.b),
+                           "tests": [t[0] for t in tests], "life": [x.label for x in life],
+                           "by_b": {}, "notes": notes}
     passed = True
     for b in eq.b:
-        c = core_eq.coverage(
-            fk,
-            test_fds=test.fds[b][keep],
-            life_fds=life_fds[b][keep],
-            b=b,
-            fds_margin_db=eq.fds_margin_db,
-        )
+        c = core_eq.coverage(fk, test_fds=test_fds[b][keep], life_fds=life_fds[b][keep], b=b,
+                             fds_margin_db=eq.fds_margin_db)
         out["by_b"][f"{b:g}"] = {
-            "test_fds": test.fds[b][keep].tolist(),
-            "life_fds": life_fds[b][keep].tolist(),
-            "fds_ratio_db": c.fds_ratio_db.tolist(),
-            "fds_level_db": c.fds_level_db.tolist(),
-            "required_db": eq.fds_margin_db,
-            "worst_fn_hz": c.worst_fds_fn_hz,
-            "worst_db": c.worst_fds_margin_db,
-            "passed": c.passed,
+            "test_fds": test_fds[b][keep].tolist(), "life_fds": life_fds[b][keep].tolist(),
+            "fds_ratio_db": c.fds_ratio_db.tolist(), "fds_level_db": c.fds_level_db.tolist(),
+            "required_db": eq.fds_margin_db, "worst_fn_hz": c.worst_fds_fn_hz,
+            "worst_db": c.worst_fds_margin_db, "passed": c.passed,
         }
         passed &= c.passed
-    e = core_eq.coverage(
-        fk,
-        test_ers=test.ers[keep],
-        life_ers=life_ers[keep],
-        ers_margin_db=eq.ers_margin_db,
-        overtest_db=eq.overtest_limit_db,
-    )
+    e = core_eq.coverage(fk, test_ers=test_ers[keep], life_ers=life_ers[keep],
+                         ers_margin_db=eq.ers_margin_db, overtest_db=eq.overtest_limit_db)
     out["ers"] = {
-        "test_ers": test.ers[keep].tolist(),
-        "life_ers": life_ers[keep].tolist(),
-        "ers_ratio_db": e.ers_ratio_db.tolist(),
-        "required_db": eq.ers_margin_db,
-        "worst_fn_hz": e.worst_ers_fn_hz,
-        "worst_db": e.worst_ers_margin_db,
-        "passed": e.passed,
-        "overtest_limit_db": eq.overtest_limit_db,
-        "overtest_fn_hz": fk[e.overtest].tolist(),
-        "max_overtest_db": e.max_overtest_db,
+        "test_ers": test_ers[keep].tolist(), "life_ers": life_ers[keep].tolist(),
+        "ers_ratio_db": e.ers_ratio_db.tolist(), "required_db": eq.ers_margin_db,
+        "worst_fn_hz": e.worst_ers_fn_hz, "worst_db": e.worst_ers_margin_db,
+        "passed": e.passed, "overtest_limit_db": eq.overtest_limit_db,
+        "overtest_fn_hz": fk[e.overtest].tolist(), "max_overtest_db": e.max_overtest_db,
         "max_overtest_fn_hz": e.max_overtest_fn_hz,
     }
     out["passed"] = bool(passed and e.passed)

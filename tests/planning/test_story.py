@@ -202,3 +202,29 @@ def test_requirement_page_counts_and_subtree(session, engineer, unit):
     assert ids == [unit.id, child.id]
     items, total = requirements.requirement_page(session, product_ids=ids, offset=1, limit=1)
     assert total == 3 and [r.key for r in items] == ["PG-1"] and items[0].status == "open"
+
+
+def test_program_coverage_adds_the_levels_of_an_axis(session, engineer, unit, story, road):
+    """The whole Z sequence (random + sine) covers at least what each level covers alone:
+    FDS add (Miner's rule) and ERS envelope, so no ratio can fall (closed form)."""
+    from qualplan.planning import coverage
+
+    sine = _env(session, engineer, unit, road, "rotor sine", m.EnvironmentKind.sine, {
+        "bands": [{"f_lo_hz": 20.0, "f_hi_hz": 200.0, "quantity": "acceleration",
+                   "amplitude": 2.0}],
+        "sweep": {"rate_oct_per_min": 1.0, "direction": "up", "sweeps": 2}})
+    gevs = policies.policy_ref(session, "spaceflight-gevs")
+    rnd = _random_level(session, engineer, unit, [story["flight_env"].revisions[-1]])
+    sin = levels.derive_level(session, engineer, s.LevelRecipe(
+        product_id=unit.id, name="sine Z", kind="sine", axis=m.Axis.Z,
+        revision_ids=[sine.revisions[-1].id], policy_id=gevs.id))
+    rules = policies.rules_of(gevs)
+    both = coverage.program_coverage(session, unit, m.Axis.Z, m.Grade.qualification, rules)
+    assert both["tests"] == ["random Z #1", "sine Z #1"]
+    for alone in (rnd.result["coverage"], sin.result["coverage"]):
+        assert alone["fn_hz"] == both["fn_hz"]
+        for b in both["by_b"]:
+            assert np.all(np.asarray(both["by_b"][b]["fds_ratio_db"]) >=
+                          np.asarray(alone["by_b"][b]["fds_ratio_db"]) - 1e-9)
+        assert np.all(np.asarray(both["ers"]["ers_ratio_db"]) >=
+                      np.asarray(alone["ers"]["ers_ratio_db"]) - 1e-9)
