@@ -458,7 +458,8 @@ def synthesize_shock(
     n_trials : int, optional
         Random designs tried in turn until one converges [unitless]. Default 4.
     max_iterations : int, optional
-        Amplitude iterations per trial [unitless]. Default 60.
+        Amplitude iterations per trial [unitless]. Default 60. A trial also
+        stops when its best error has not improved for 15 iterations.
 
     Returns
     -------
@@ -547,6 +548,10 @@ def synthesize_shock(
     return _result(best, fn, tgt, qv, dt, tol, seed_out)
 
 
+#: A trial stops when its best error has not improved for this many iterations.
+_PATIENCE = 15
+
+
 def _largest_eigenvalue(m: np.ndarray, iterations: int = 30) -> float:
     """Largest eigenvalue of a symmetric positive semi-definite matrix (power iteration).
 
@@ -601,7 +606,7 @@ def _iterate(fn, tgt, dt, dur, max_delay, n_lo, n_hi, rng, b, a, n_extra, tol, i
         err = np.max(np.abs(20.0 * np.log10(np.abs(val) / tgt)))
         if best is None or err < best["max_err"]:
             best = dict(max_err=err, amp=amp.copy(), it=it)
-        if err <= tol:
+        if err <= tol or it - best["it"] >= _PATIENCE:
             break
         jacobian(b, a, idx, span, k0, ln, off, w, jac)
         # Tikhonov-regularised least squares via the normal equations (a small
