@@ -135,3 +135,12 @@ def test_a_grade_without_levels_is_refused(db):
     session, data = db
     with pytest.raises(ValidationFailed, match="no protoflight test level"):
         documents.specification_content(session, data["unit"].id, "protoflight")
+
+
+def test_pdf_bytes_are_reproducible(db):
+    from qualplan.reports import pdf_bytes
+
+    session, data = db
+    content = documents.audit_content(session, data["program"].id)
+    first = pdf_bytes(content)
+    assert first.startswith(b"%PDF-") and pdf_bytes(content) == first
