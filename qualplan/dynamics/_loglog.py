@@ -469,9 +469,10 @@ def _areas(x0, y0, x1, y1):
     """Exact area of log-log segments (x, y = ln f, ln v), broadcasting."""
     L = x1 - x0
     u = (y1 - y0) + L  # = (n + 1) L
+    # unused DP levels are +inf: their areas are +inf (or nan, masked by the caller)
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         rel = np.where(np.abs(u) < 1e-8, 1.0 + 0.5 * u, np.expm1(u) / u)
-    return np.exp(y0 + x0) * L * rel
+        return np.exp(y0 + x0) * L * rel
 
 
 def _upper_hull(x: np.ndarray, y: np.ndarray) -> np.ndarray:
@@ -665,7 +666,15 @@ def _optimise_values(x, d, idx, y_start, hull_cache: dict | None = None):
     # Scale the objective to ~1 at the start point.
     scale = float(np.sum(_areas(xk[:-1], y_start[:-1], xk[1:], y_start[1:])))
 
+    # bounds: a breakpoint is at a data line (y_k >= d_k) and never absurdly high (keeps the
+    # line search of SLSQP away from overflow)
+    top = max(float(d.max()), float(y_start.max())) + 10.0
+    bounds = [(float(d[i]), top) for i in idx]
+    lo_b = d[idx]
+
     def fun(y):
+        # SLSQP may probe slightly outside the bounds; evaluate at the clipped point
+        y = np.clip(y, lo_b, top)
         y0, y1 = y[:-1], y[1:]
         u = y1 - y0 + Lk
         base = np.exp(y0 + xk[:-1]) * Lk
@@ -680,10 +689,6 @@ def _optimise_values(x, d, idx, y_start, hull_cache: dict | None = None):
 
     # Active-set loop: solve with the constraints that are nearly binding, add any that the
     # solution violates, repeat (SLSQP's cost grows with the number of constraints).
-    # bounds: a breakpoint is at a data line (y_k >= d_k) and never absurdly high (keeps the
-    # line search of SLSQP away from overflow)
-    top = max(float(d.max()), float(y_start.max())) + 10.0
-    bounds = [(float(d[i]), top) for i in idx]
     active = (A @ y_start - b) < 0.25
     y = y_start
     for _ in range(8):
