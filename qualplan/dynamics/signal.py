@@ -89,6 +89,14 @@ class WelchPsd:
     grms: float
     duration_s: float
 
+    def band(self, f_lo_hz: float, f_hi_hz: float) -> tuple[np.ndarray, np.ndarray]:
+        """Lines with ``f_lo_hz <= f <= f_hi_hz`` [Hz] as ``(freq_hz, asd_g2_hz)``.
+
+        Use it before :func:`qualplan.dynamics.psd.simplify` or ``check_against``, which
+        need frequencies > 0 (the DC line is dropped by any ``f_lo_hz > 0``).
+        """
+        return _band(self.freq_hz, self.asd_g2_hz, f_lo_hz, f_hi_hz)
+
 
 @dataclass(frozen=True, eq=False)
 class MaximaxPsd:
@@ -136,6 +144,24 @@ class MaximaxPsd:
     random_error: float
     grms_max: float
     fs_hz: float
+
+    def band(self, f_lo_hz: float, f_hi_hz: float) -> tuple[np.ndarray, np.ndarray]:
+        """Lines with ``f_lo_hz <= f <= f_hi_hz`` [Hz] as ``(freq_hz, asd_g2_hz)``.
+
+        Use it before :func:`qualplan.dynamics.psd.simplify` or ``check_against``, which
+        need frequencies > 0 (the DC line is dropped by any ``f_lo_hz > 0``).
+        """
+        return _band(self.freq_hz, self.asd_g2_hz, f_lo_hz, f_hi_hz)
+
+
+def _band(f, a, f_lo_hz, f_hi_hz):
+    lo = positive_scalar("f_lo_hz", f_lo_hz)
+    hi = positive_scalar("f_hi_hz", f_hi_hz)
+    m = (f >= lo) & (f <= hi)
+    if m.sum() < 2:
+        raise InputError("f_hi_hz", f_hi_hz, f"leaves {int(m.sum())} lines above {lo:g} Hz "
+                         "(needs at least 2)")
+    return f[m].copy(), a[m].copy()
 
 
 def default_nperseg(n_samples: int, overlap: float = 0.5) -> int:

@@ -120,3 +120,15 @@ def test_maximax_finds_the_burst():
     assert m.random_error == pytest.approx(1 / math.sqrt(m.n_averages))
     with pytest.raises(InputError, match="shorter than one maximax window"):
         signal.maximax_psd(x[:4000], FS, window_s=1.0)
+
+
+def test_band_feeds_simplify_and_check():
+    # closed form: band() keeps the lines in [f_lo, f_hi] (no DC line), ready for psd functions
+    x = _white(8.0, 3)
+    r = signal.welch_psd(x, FS, resolution_hz=8.0)
+    f, a = r.band(20.0, 2000.0)
+    assert f[0] == 24.0 and f[-1] == 2000.0 and np.all(a > 0)
+    s = psd.simplify_report(f, a, 6)
+    assert np.all(psd.asd_at(s.freq_hz, s.asd_g2_hz, f) >= a)
+    with pytest.raises(InputError, match="at least 2"):
+        r.band(3000.0, 3001.0)
