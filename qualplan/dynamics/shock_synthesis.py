@@ -459,7 +459,7 @@ def synthesize_shock(
         Random designs tried in turn until one converges [unitless]. Default 4.
     max_iterations : int, optional
         Amplitude iterations per trial [unitless]. Default 60. A trial also
-        stops when its best error has not improved for 15 iterations.
+        stops when its best error has not improved for 30 iterations.
 
     Returns
     -------
@@ -549,7 +549,7 @@ def synthesize_shock(
 
 
 #: A trial stops when its best error has not improved for this many iterations.
-_PATIENCE = 15
+_PATIENCE = 30
 
 
 def _largest_eigenvalue(m: np.ndarray, iterations: int = 30) -> float:
