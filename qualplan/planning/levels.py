@@ -146,13 +146,18 @@ def _statistical(curves, power: bool) -> tuple[np.ndarray, np.ndarray, dict[str,
 
 
 def _simplified(freq, values, max_points: int, *, power: bool):
-    """Conservative simplification; amplitudes (SRS) are simplified as their squares."""
+    """Conservative simplification (never below the input at any input frequency).
+
+    Returns the breakpoints and the excess in dB: on the g rms for a PSD; for an SRS
+    (simplified as its square, then the root taken) on the rms of the SRS over frequency.
+    """
     if len(freq) <= max_points:
         return np.asarray(freq), np.asarray(values), 0.0
     work = values if power else np.asarray(values) ** 2
-    f2, v2 = core_psd.simplify(freq, work, max_points)
-    excess_db = 10 * np.log10(core_psd.grms(f2, v2) ** 2 / core_psd.grms(freq, work) ** 2)
-    return f2, (v2 if power else np.sqrt(v2)), float(excess_db * (1 if power else 0.5))
+    res = core_psd.simplify_report(freq, work, max_points)
+    if power:
+        return res.freq_hz, res.asd_g2_hz, res.excess_db
+    return res.freq_hz, np.sqrt(res.asd_g2_hz), res.excess_db / 2
 
 
 def derive_random(
