@@ -86,20 +86,24 @@ def _inputs(session: Session, recipe: s.LevelRecipe, product: m.Product) -> list
 # --- combination ----------------------------------------------------------------------
 
 
-def _random_curves(inputs: list[Input]) -> list[tuple[np.ndarray, np.ndarray]]:
+def _random_curves(inputs: list[Input], band_hz: tuple[float, float]
+                   ) -> list[tuple[np.ndarray, np.ndarray]]:
+    """PSD curves of the inputs; a record's maximax PSD is kept inside `band_hz` and
+    below 0.4 of its sample rate (the anti-alias roll-off is not a level to test at)."""
     curves = []
     for item in inputs:
         if item.environment.kind is K.random:
-            curves.append(
-                (
-                    np.asarray(item.revision.spec["freq_hz"]),
-                    np.asarray(item.revision.spec["asd_g2_hz"]),
-                )
-            )
+            curves.append((np.asarray(item.revision.spec["freq_hz"]),
+                           np.asarray(item.revision.spec["asd_g2_hz"])))
         else:
             x, dt = np.asarray(item.revision.data), item.revision.spec["dt_s"]
             est = core_signal.maximax_psd(x, 1.0 / dt)
-            keep = (est.freq_hz > 0) & (est.asd_g2_hz > 0)
+            hi = min(band_hz[1], 0.4 / dt)
+            keep = (est.freq_hz >= band_hz[0]) & (est.freq_hz <= hi) & (est.asd_g2_hz > 0)
+            if keep.sum() < 2:
+                raise ValidationFailed("revision_ids", item.revision.id,
+                                       f"record {item.label} has no PSD line in "
+                                       f"{band_hz[0]:g}-{hi:g} Hz")
             curves.append((est.freq_hz[keep], est.asd_g2_hz[keep]))
     return curves
 
@@ -163,7 +167,8 @@ def _simplified(freq, values, max_points: int, *, power: bool):
 def derive_random(
     recipe: s.LevelRecipe, rules: s.PolicyRules, inputs: list[Input], life_s: float
 ) -> dict[str, Any]:
-    curves = _random_curves(inputs)
+    eq = rules.equivalence
+    curves = _random_curves(inputs, (eq.f_lo_hz, eq.f_hi_hz))
     steps: list[dict[str, Any]] = []
     if recipe.combination == "envelope":
         f, a = core_psd.envelope(curves) if len(curves) > 1 else curves[0]

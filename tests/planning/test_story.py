@@ -228,3 +228,37 @@ def test_program_coverage_adds_the_levels_of_an_axis(session, engineer, unit, st
                           np.asarray(alone["by_b"][b]["fds_ratio_db"]) - 1e-9)
         assert np.all(np.asarray(both["ers"]["ers_ratio_db"]) >=
                       np.asarray(alone["ers"]["ers_ratio_db"]) - 1e-9)
+
+
+def test_random_level_from_a_record_stays_in_the_band(session, engineer, unit, road):
+    """A measured record becomes a random level through its maximax PSD, limited to the
+    policy's band; its g rms is close to the PSD the record was made from."""
+    from qualplan.dynamics.synthesis import gaussian_from_psd
+
+    rng = np.random.default_rng(11)
+    f, a = [20.0, 2000.0], [0.01, 0.01]  # flat: 0.01 x 1980 Hz -> 4.45 g rms (closed form)
+    x = gaussian_from_psd(f, a, 60.0, 8192.0, rng=rng)
+    rec = environments.create_environment(session, engineer, s.EnvironmentCreate(
+        product_id=unit.id, phase_id=road.id, name="road record Z",
+        kind=m.EnvironmentKind.time_history, axis=m.Axis.Z,
+        data={"dt_s": 1 / 8192.0, "accel_g": x.tolist()}))
+    gevs = policies.policy_ref(session, "spaceflight-gevs")
+    level = levels.derive_level(session, engineer, s.LevelRecipe(
+        product_id=unit.id, name="from record", kind="random", axis=m.Axis.Z,
+        purpose=m.LevelPurpose.analysis, revision_ids=[rec.revisions[-1].id],
+        policy_id=gevs.id))
+    limit = level.result["limit"]
+    assert limit["freq_hz"][0] >= 20.0 and limit["freq_hz"][-1] <= 2000.0
+    # Conservative: the level is never below the record's maximax PSD at any line, so
+    # (with overwhelming probability) above the true 4.45 g rms; and no worse than the
+    # flat line at the highest maximax line, which a 2-point profile achieves (the
+    # simplification minimises the area among profiles above the data).
+    from qualplan.dynamics.signal import maximax_psd
+
+    est = maximax_psd(x, 8192.0)
+    band = (est.freq_hz >= limit["freq_hz"][0]) & (est.freq_hz <= limit["freq_hz"][-1])
+    on_lines = psd.asd_at(limit["freq_hz"], limit["asd_g2_hz"], est.freq_hz[band])
+    assert np.all(on_lines >= est.asd_g2_hz[band] * (1 - 1e-9))
+    width = limit["freq_hz"][-1] - limit["freq_hz"][0]
+    assert math.sqrt(0.01 * 1980) < limit["grms"]
+    assert limit["grms"] <= math.sqrt(est.asd_g2_hz[band].max() * width) * (1 + 1e-9)
