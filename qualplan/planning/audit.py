@@ -19,6 +19,8 @@ from qualplan.store.repositories import ProductRepository
 STATUSES = ("verified", "waived", "failed", "stale", "open")
 #: Unit of required and achieved margins by verification method.
 MARGIN_UNITS = {"analysis": "MS", "test": "dB"}
+#: Unit of required and achieved margins by verification method.
+MARGIN_UNITS = {"analysis": "MS", "test": "dB"}
 
 
 def audit(
@@ -63,6 +65,7 @@ def audit(
                 reason=st.reason,
                 required_margin=req.required_margin,
                 achieved_margin=achieved,
+                margin_unit=MARGIN_UNITS.get(req.method.value, ""),
                 shortfall=shortfall,
                 evidence_id=st.evidence.id if st.evidence is not None else None,
             )

@@ -184,21 +184,72 @@ def program_coverage(session: Session, product: m.Product, axis: m.Axis, grade: 
     """Coverage of the life of one axis by the whole test sequence of that axis and grade.
 
     The sequence is the newest number of every test level of the product on `axis`
-    (random, sine and shock together): their FDS add (Miner), their ERS envelope.
+    (random, sine and shock together): their FDS add (Miner), their ERS envelope. When
+    every level was checked against the same life on the same grid, their stored
+    spectra are combined; otherwise the spectra are computed afresh.
     """
-    from qualplan.planning.levels import list_levels
+    from qualplan.planning.levels import current_test_levels
 
-    newest: dict[str, m.Level] = {}
-    for level in list_levels(session, product.id):
-        if level.purpose is m.LevelPurpose.test and level.axis is axis and level.grade is grade:
-            if level.name not in newest or level.number > newest[level.name].number:
-                newest[level.name] = level
+    chosen = [lv for lv in current_test_levels(session, product.id, grade) if lv.axis is axis]
     tests = [(f"{lv.name} #{lv.number}", lv.kind.value, lv.result)
-             for lv in sorted(newest.values(), key=lambda x: x.name)]
+             for lv in sorted(chosen, key=lambda x: x.name)]
     if not tests:
         return {"fn_hz": [], "passed": False, "tests": [], "life": [],
                 "notes": [f"no {grade.value} test level on axis {axis.value}"]}
+    stored = combine_stored(tests, rules)
+    if stored is not None:
+        return stored
     return _coverage(tests, life_cycle(session, product, axis), rules)
+
+
+def combine_stored(tests: list[tuple[str, str, dict[str, Any]]], rules: s.PolicyRules
+                   ) -> dict[str, Any] | None:
+    """Combine the coverage stored with each level (FDS summed, ERS enveloped), or None
+    when the levels were not checked on the same grid, b values and life cycle."""
+    covs = [t[2].get("coverage") or {} for t in tests]
+    first = covs[0]
+    if not first.get("fn_hz") or "ers" not in first:
+        return None
+    same = all(c.get("fn_hz") == first["fn_hz"] and c.get("life") == first["life"]
+               and set(c.get("by_b", {})) == set(first["by_b"]) and "ers" in c for c in covs)
+    if not same:
+        return None
+    eq = rules.equivalence
+    fn = np.asarray(first["fn_hz"])
+    out: dict[str, Any] = {"fn_hz": first["fn_hz"], "q": first.get("q"), "b": first.get("b"),
+                           "tests": [t[0] for t in tests], "life": first["life"], "by_b": {},
+                           "notes": sorted({n for c in covs for n in c.get("notes", [])})}
+    passed = True
+    for b in first["by_b"]:
+        test_fds = np.sum([c["by_b"][b]["test_fds"] for c in covs], axis=0)
+        life_fds = np.asarray(first["by_b"][b]["life_fds"])
+        c = core_eq.coverage(fn, test_fds=test_fds, life_fds=life_fds, b=float(b),
+                             fds_margin_db=eq.fds_margin_db)
+        out["by_b"][b] = {
+            "test_fds": test_fds.tolist(), "life_fds": life_fds.tolist(),
+            "fds_ratio_db": c.fds_ratio_db.tolist(), "fds_level_db": c.fds_level_db.tolist(),
+            "required_db": eq.fds_margin_db, "worst_fn_hz": c.worst_fds_fn_hz,
+            "worst_db": c.worst_fds_margin_db, "passed": c.passed,
+        }
+        passed &= c.passed
+    test_ers = np.max([c["ers"]["test_ers"] for c in covs], axis=0)
+    out["ers"] = _ers_block(fn, test_ers, np.asarray(first["ers"]["life_ers"]), eq)
+    out["passed"] = bool(passed and out["ers"]["passed"])
+    return out
+
+
+def _ers_block(fn: np.ndarray, test_ers: np.ndarray, life_ers: np.ndarray,
+               eq: s.EquivalenceRule) -> dict[str, Any]:
+    e = core_eq.coverage(fn, test_ers=test_ers, life_ers=life_ers,
+                         ers_margin_db=eq.ers_margin_db, overtest_db=eq.overtest_limit_db)
+    return {
+        "test_ers": test_ers.tolist(), "life_ers": life_ers.tolist(),
+        "ers_ratio_db": e.ers_ratio_db.tolist(), "required_db": eq.ers_margin_db,
+        "worst_fn_hz": e.worst_ers_fn_hz, "worst_db": e.worst_ers_margin_db,
+        "passed": e.passed, "overtest_limit_db": eq.overtest_limit_db,
+        "overtest_fn_hz": fn[e.overtest].tolist(), "max_overtest_db": e.max_overtest_db,
+        "max_overtest_fn_hz": e.max_overtest_fn_hz,
+    }
 
 
 def _coverage(tests: list[tuple[str, str, dict[str, Any]]], life: list[LifeItem],
@@ -239,15 +290,6 @@ def _coverage(tests: list[tuple[str, str, dict[str, Any]]], life: list[LifeItem]
             "worst_db": c.worst_fds_margin_db, "passed": c.passed,
         }
         passed &= c.passed
-    e = core_eq.coverage(fk, test_ers=test_ers[keep], life_ers=life_ers[keep],
-                         ers_margin_db=eq.ers_margin_db, overtest_db=eq.overtest_limit_db)
-    out["ers"] = {
-        "test_ers": test_ers[keep].tolist(), "life_ers": life_ers[keep].tolist(),
-        "ers_ratio_db": e.ers_ratio_db.tolist(), "required_db": eq.ers_margin_db,
-        "worst_fn_hz": e.worst_ers_fn_hz, "worst_db": e.worst_ers_margin_db,
-        "passed": e.passed, "overtest_limit_db": eq.overtest_limit_db,
-        "overtest_fn_hz": fk[e.overtest].tolist(), "max_overtest_db": e.max_overtest_db,
-        "max_overtest_fn_hz": e.max_overtest_fn_hz,
-    }
-    out["passed"] = bool(passed and e.passed)
+    out["ers"] = _ers_block(fk, test_ers[keep], life_ers[keep], eq)
+    out["passed"] = bool(passed and out["ers"]["passed"])
     return out

@@ -22,15 +22,17 @@ from pydantic import BaseModel, ConfigDict
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
+from qualplan.planning import coverage
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require
 from qualplan.planning.audit import audit
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import Conflict, ValidationFailed
-from qualplan.planning.levels import read_level
+from qualplan.planning.levels import current_test_levels, read_level
+from qualplan.planning.policies import rules_of
 from qualplan.store import models as m
 from qualplan.store.hashing import json_hash
-from qualplan.store.repositories import LevelRepository, RevisionRepository
+from qualplan.store.repositories import RevisionRepository
 
 AXIS_ORDER = {"X": 0, "Y": 1, "Z": 2, "all": 3}
 KIND_ORDER = {"random": 0, "sine": 1, "shock": 2}
@@ -207,6 +209,14 @@ class PolicyInfo(Content):
     basis: str
 
 
+class AxisCoverage(Content):
+    """Coverage of one axis's life by all the test levels of the document on that axis."""
+
+    axis: str
+    tests: list[str]
+    coverage: CoverageData | None
+
+
 class SpecificationContent(Content):
     kind: Literal["specification"] = "specification"
     number: str
@@ -219,6 +229,7 @@ class SpecificationContent(Content):
     policies: list[PolicyInfo]
     prepared_by: list[str]
     sections: list[LevelSection]
+    axes: list[AxisCoverage] = []
     warnings: list[str]
     history: list[HistoryRow]
     input_hashes: dict[str, Any]
@@ -491,17 +502,6 @@ def _section(session: Session, level: m.Level) -> LevelSection:
     )
 
 
-def current_test_levels(session: Session, product_id: int, grade: m.Grade) -> list[m.Level]:
-    """The newest number of every test level of a product for a grade."""
-    newest: dict[str, m.Level] = {}
-    for lvl in LevelRepository(session).list(product_id=product_id):
-        if lvl.purpose is not m.LevelPurpose.test or lvl.grade is not m.Grade(grade):
-            continue
-        if lvl.name not in newest or lvl.number > newest[lvl.name].number:
-            newest[lvl.name] = lvl
-    return list(newest.values())
-
-
 def specification_content(
     session: Session,
     product_id: int,
@@ -545,6 +545,15 @@ def specification_content(
                                                    basis=lvl.policy.basis or "-")
     warnings = [f"{sec.name} #{sec.number} is STALE: {r}" for sec in sections
                 for r in sec.stale_reasons]
+    axes = []
+    for axis in sorted({lvl.axis for lvl in chosen}, key=lambda a: AXIS_ORDER[a.value]):
+        on_axis = [lvl for lvl in chosen if lvl.axis is axis]
+        tests = [(f"{lv.name} #{lv.number}", lv.kind.value, lv.result) for lv in on_axis]
+        policy = on_axis[0].policy
+        combined = (coverage.combine_stored(tests, rules_of(policy))
+                    if policy is not None else None)
+        axes.append(AxisCoverage(axis=axis.value, tests=[t[0] for t in tests],
+                                 coverage=_coverage(combined)))
     number = number or f"TLS-{_slug(product.part_number or product.name)}-{GRADE_CODE[grade]}"
     body = {
         "number": number,
@@ -558,6 +567,7 @@ def specification_content(
         "policies": list(policies.values()),
         "prepared_by": sorted({lvl.author for lvl in chosen}),
         "sections": sections,
+        "axes": axes,
         "warnings": warnings,
         "input_hashes": {
             "levels": {str(lvl.id): lvl.level_hash for lvl in chosen},
@@ -577,10 +587,6 @@ def _database_date(session: Session) -> datetime:
     if at is None:
         return datetime(1970, 1, 1, tzinfo=UTC)
     return at if at.tzinfo else at.replace(tzinfo=UTC)
-
-
-def _margin_unit(method: str) -> str:
-    return {"analysis": "MS", "test": "dB"}.get(method, "")
 
 
 def audit_content(
@@ -622,7 +628,7 @@ def audit_content(
         rows.append(AuditRow(
             key=item.key, product=item.product, level=item.level, method=item.method.value,
             required_margin=item.required_margin, achieved_margin=item.achieved_margin,
-            margin_unit=_margin_unit(item.method.value), status=item.status,
+            margin_unit=item.margin_unit, status=item.status,
             evidence=evidence, reason=item.reason))
     hashes = {}
     for item in report.items:

@@ -311,6 +311,9 @@ def derive_shock(
         "slopes_db_per_oct": core_srs.SrsProfile(f, v).slopes_db_per_oct().tolist(),
         "lower_db": rule.lower_db,
         "upper_db": rule.upper_db,
+        "outer_lower_db": rule.outer_lower_db,
+        "outer_upper_db": rule.outer_upper_db,
+        "min_share_within_band": rule.min_share_within_band,
         "min_fraction_above_nominal": rule.min_fraction_above_nominal,
         "shocks_per_direction": rule.shocks_per_direction,
         "directions": rule.directions,
@@ -486,6 +489,17 @@ def read_level(session: Session, level: m.Level) -> s.LevelRead:
     out.stale_reasons = staleness(session, level)
     out.stale = bool(out.stale_reasons)
     return out
+
+
+def current_test_levels(session: Session, product_id: int, grade: m.Grade) -> list[m.Level]:
+    """The newest number of every test level of a product for a grade."""
+    newest: dict[str, m.Level] = {}
+    for lvl in LevelRepository(session).list(product_id=product_id):
+        if lvl.purpose is not m.LevelPurpose.test or lvl.grade is not m.Grade(grade):
+            continue
+        if lvl.name not in newest or lvl.number > newest[lvl.name].number:
+            newest[lvl.name] = lvl
+    return list(newest.values())
 
 
 def level_by_id(session: Session, level_id: int) -> m.Level:

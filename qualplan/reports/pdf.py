@@ -96,6 +96,11 @@ def figures(content: SpecificationContent) -> dict[int, dict[str, str | None]]:
             "coverage": charts.coverage_chart(sec.derivation.coverage,
                                               f"Coverage of {sec.name} #{sec.number}"),
         }
+    for ax in content.axes:
+        out[f"axis-{ax.axis}"] = {
+            "coverage": charts.coverage_chart(ax.coverage,
+                                              f"Coverage of axis {ax.axis}: all its tests"),
+        }
     return out
 
 
@@ -159,6 +164,12 @@ def write_figures(content: SpecificationContent, folder: Path, svgs: dict | None
             if svg is None:
                 continue
             p = folder / (f"{stem}.svg" if name == "level" else f"{stem}-{name}.svg")
+            p.write_text(svg, encoding="utf-8")
+            out.append(p)
+    for ax in content.axes:
+        svg = svgs.get(f"axis-{ax.axis}", {}).get("coverage")
+        if svg is not None:
+            p = folder / f"{content.number}-{ax.axis}-axis-coverage.svg"
             p.write_text(svg, encoding="utf-8")
             out.append(p)
     return out

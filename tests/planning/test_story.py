@@ -262,3 +262,27 @@ def test_random_level_from_a_record_stays_in_the_band(session, engineer, unit, r
     width = limit["freq_hz"][-1] - limit["freq_hz"][0]
     assert math.sqrt(0.01 * 1980) < limit["grms"]
     assert limit["grms"] <= math.sqrt(est.asd_g2_hz[band].max() * width) * (1 + 1e-9)
+
+
+def test_shock_test_record_outside_points_are_not_judged(session, engineer, unit, road):
+    """Points of an achieved SRS outside the level's band are left out (the tolerance
+    applies inside the specified band only); inside, +1 dB passes a -6/+6 dB band."""
+    gevs = policies.policy_ref(session, "spaceflight-gevs")
+    shock = _env(session, engineer, unit, road, "drop", m.EnvironmentKind.shock,
+                 {"freq_hz": [100.0, 1000.0, 2000.0], "accel_g": [10.0, 100.0, 100.0]})
+    lvl = levels.derive_level(session, engineer, s.LevelRecipe(
+        product_id=unit.id, name="shock Z", kind="shock", axis=m.Axis.Z,
+        revision_ids=[shock.revisions[-1].id], policy_id=gevs.id))
+    req = requirements.create_requirement(session, engineer, s.RequirementCreate(
+        program_id=unit.program_id, key="SHK-1", text="drop", product_id=unit.id,
+        level_id=lvl.id, method=m.VerificationMethod.test))
+    f = np.geomspace(50.0, 4000.0, 60)
+    from qualplan.dynamics.srs import SrsProfile
+
+    nominal = SrsProfile(lvl.result["freq_hz"], lvl.result["accel_g"])
+    inside = (f >= 100.0) & (f <= 2000.0)
+    values = np.where(inside, nominal.value_at(np.clip(f, 100, 2000)) * 10 ** (1 / 20), 1.0)
+    ev = evidence.add_test_record(session, engineer, req.id, s.TestEvidenceIn(
+        freq_hz=f.tolist(), values=values.tolist(), shocks=2))
+    assert ev.verdict is m.Verdict.passed, ev.summary["reason"]
+    assert ev.summary["worst_deviation_db"] == pytest.approx(1.0, abs=1e-6)
