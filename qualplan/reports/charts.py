@@ -192,6 +192,11 @@ def _thin(f, v, n: int = 300):
     return f[idx], v[idx]
 
 
+def _hz(value: float) -> str:
+    """A frequency for a legend: 26.3, 885, 2000 (never 2e+03)."""
+    return f"{value:.3g}" if value < 1000 else f"{value:.0f}"
+
+
 def coverage_chart(coverage: CoverageData, title: str) -> str | None:
     """Test/life FDS ratio per b and ERS ratio [dB] against natural frequency."""
     if coverage is None or not coverage.fn_hz:
@@ -204,13 +209,13 @@ def coverage_chart(coverage: CoverageData, title: str) -> str | None:
         styles = ["-", "-.", (0, (5, 1)), (0, (1, 1)), (0, (3, 1, 1, 1))]
         for i, item in enumerate(coverage.fds):
             y = np.array([np.nan if v is None else v for v in item.ratio_db], float)
-            worst = (f", worst {item.worst_db:+.1f} dB at {item.worst_fn_hz:.3g} Hz"
+            worst = (f", worst {item.worst_db:+.1f} dB at {_hz(item.worst_fn_hz)} Hz"
                      if item.worst_db is not None else "")
             ax.plot(fn, y, ls=styles[i % len(styles)], lw=1.2, label=f"FDS b = {item.b}{worst}")
         if coverage.ers is not None:
             e = coverage.ers
             y = np.array([np.nan if v is None else v for v in e.ratio_db], float)
-            worst = (f", worst {e.worst_db:+.1f} dB at {e.worst_fn_hz:.3g} Hz"
+            worst = (f", worst {e.worst_db:+.1f} dB at {_hz(e.worst_fn_hz)} Hz"
                      if e.worst_db is not None else "")
             ax.plot(fn, y, color="black", lw=1.6, label=f"ERS{worst}")
             ax.axhline(e.overtest_limit_db, color=BAND, ls=":", lw=1,
