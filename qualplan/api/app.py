@@ -14,6 +14,7 @@ from qualplan.api.limits import BodySizeLimit
 from qualplan.api.routers import (
     audit,
     catalog,
+    documents,
     environments,
     events,
     evidence,
@@ -35,6 +36,7 @@ ROUTERS = (
     requirements.router,
     evidence.router,
     audit.router,
+    documents.router,
     users.router,
     events.router,
 )

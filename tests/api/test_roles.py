@@ -234,6 +234,12 @@ CASES = {
     "token create": Case("POST", "/users/{user_name}/tokens", "admin", _other_user, 201),
     "token revoke": Case("POST", "/tokens/{prefix}/revoke", "admin", _new_token),
     "events list": Case("GET", "/events", "viewer", lambda b: ("/events", {})),
+    "specification pdf": Case("GET", "/documents/specification.pdf", "viewer", lambda b: (
+        "/documents/specification.pdf",
+        {"params": {"product_id": U(b), "grade": b["test_level"]["grade"]}})),
+    "audit pdf": Case("GET", "/documents/audit.pdf", "viewer", lambda b: (
+        "/documents/audit.pdf", {"params": {"program_id": P(b)}})),
+    "documents list": Case("GET", "/documents", "viewer", lambda b: ("/documents", {})),
 }
 
 
@@ -285,7 +291,8 @@ def test_nothing_readable_without_a_token(client, callers, base):
             continue
         concrete = re.sub(r"\{(\w+)\}", lambda mt: str(fill[mt.group(1)]), path)
         for who in ("none", "revoked", "garbage"):
-            r = client.get(concrete, params={"program_id": P(base), "a": 1, "b": 1},
+            r = client.get(concrete, params={"program_id": P(base), "product_id": U(base),
+                                             "a": 1, "b": 1},
                            headers=callers[who].headers)
             assert r.status_code == 401, (path, who, r.text[:300])
 
@@ -315,3 +322,26 @@ def test_revoked_token_stops_working_at_once(client, callers):
     assert r.json()["status"] == 409
     users = admin.get("/users", params={"limit": 500}).json()
     assert name in [u["name"] for u in users["items"]]
+
+
+def test_pdf_documents_are_served_with_their_content_hash(client, callers, base, factory):
+    """The API serves the specification and the audit as PDF, made from the same content
+    as `qualplan report` (planning.documents), with that content's hash in a header."""
+    from qualplan.planning import documents
+
+    viewer = callers["viewer"].headers
+    grade = base["test_level"]["grade"]
+    r = client.get("/api/v1/documents/specification.pdf",
+                   params={"product_id": base["unit"]["id"], "grade": grade}, headers=viewer)
+    assert r.status_code == 200 and r.headers["content-type"] == "application/pdf"
+    assert r.content.startswith(b"%PDF")
+    with factory() as session:
+        content = documents.specification_content(session, base["unit"]["id"], grade)
+    assert r.headers["x-content-hash"] == content.content_hash()
+    a = client.get("/api/v1/documents/audit.pdf", params={"program_id": base["program"]["id"]},
+                   headers=viewer)
+    assert a.status_code == 200 and a.content.startswith(b"%PDF")
+    missing = client.get("/api/v1/documents/specification.pdf",
+                         params={"product_id": base["unit"]["id"], "grade": "acceptance"},
+                         headers=viewer)
+    assert missing.status_code == 422 and missing.json()["field"] == "grade"

@@ -236,3 +236,4 @@ def test_event_log_records_who_did_what(eng, viewer, world):
     one = viewer.get("/events", params={"entity": "environment", "entity_id": env["id"],
                                         "offset": 1, "limit": 1}).json()
     assert one["total"] == page["total"] and one["items"][0]["id"] == page["items"][1]["id"]
+
