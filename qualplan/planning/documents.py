@@ -224,6 +224,7 @@ class SpecificationContent(Content):
     title: str
     date: datetime
     program: str
+    program_id: int
     product: ProductInfo
     grade: str
     policies: list[PolicyInfo]
@@ -267,7 +268,9 @@ class AuditContent(Content):
     date: datetime
     program: str
     scope: str
-    product_id: int
+    program_id: int
+    #: The audited product (with its children); None for the whole program.
+    product_id: int | None
     counts: dict[str, int]
     items: list[AuditRow]
     blocking: list[AuditRow]
@@ -560,6 +563,7 @@ def specification_content(
         "title": f"{grade.value.capitalize()} test levels: {product.name}",
         "date": max(lvl.created_at for lvl in chosen),
         "program": product.program.name,
+        "program_id": product.program_id,
         "product": ProductInfo(id=product.id, name=product.name,
                                part_number=product.part_number, mass_kg=product.mass_kg,
                                parents=parents),
@@ -606,17 +610,7 @@ def audit_content(
     """
     report: s.AuditReport = audit(session, program_id, product_id, now=now)
     program = get(session, m.Program, program_id, "program")
-    if product_id is not None:
-        anchor = get(session, m.Product, product_id, "product")
-    else:
-        anchor = session.scalar(
-            select(m.Product)
-            .where(m.Product.program_id == program.id, m.Product.parent_id.is_(None))
-            .order_by(m.Product.id)
-            .limit(1)
-        )
-        if anchor is None:
-            raise ValidationFailed("program_id", program_id, "the program has no product")
+    anchor = get(session, m.Product, product_id, "product") if product_id is not None else None
     reqs = {r.id: r for r in session.scalars(
         select(m.Requirement).where(m.Requirement.program_id == program.id))}
     rows = []
@@ -639,7 +633,7 @@ def audit_content(
             "evidence": [e.id for e in req.evidence],
             "waivers": [w.id for w in req.waivers],
         }
-    slug = _slug(program.name if product_id is None else (anchor.part_number or anchor.name))
+    slug = _slug(program.name if anchor is None else (anchor.part_number or anchor.name))
     number = number or f"MCA-{slug}"
     body = {
         "number": number,
@@ -647,7 +641,8 @@ def audit_content(
         "date": _database_date(session),
         "program": program.name,
         "scope": report.scope,
-        "product_id": anchor.id,
+        "program_id": program.id,
+        "product_id": anchor.id if anchor is not None else None,
         "counts": report.counts,
         "items": rows,
         "blocking": [r for r in rows if r.status in ("failed", "stale", "open")],
@@ -690,6 +685,7 @@ def issue_document(
         doc = latest
     else:
         doc = m.Document(
+            program_id=content.program_id,
             product_id=content.product_id,
             kind=m.DocumentKind(content.kind),
             number=content.number,

@@ -406,7 +406,9 @@ class Document(Base):
     __table_args__ = (UniqueConstraint("number", "revision"),)
 
     id: Mapped[int] = mapped_column(primary_key=True)
-    product_id: Mapped[int] = mapped_column(ForeignKey("products.id"), index=True)
+    program_id: Mapped[int] = mapped_column(ForeignKey("programs.id"), index=True)
+    #: The product the document is about; None for a program-wide audit.
+    product_id: Mapped[int | None] = mapped_column(ForeignKey("products.id"), index=True)
     kind: Mapped[DocumentKind] = mapped_column(_enum(DocumentKind, "document_kind"))
     number: Mapped[str] = mapped_column(String(80))
     revision: Mapped[int] = mapped_column(Integer, default=1)

@@ -6,6 +6,7 @@ import pytest
 from alembic.autogenerate import compare_metadata
 from alembic.runtime.migration import MigrationContext
 from sqlalchemy import inspect, text
+from sqlalchemy.exc import DBAPIError
 
 from qualplan.store import migrate
 from qualplan.store.base import Base
@@ -35,6 +36,44 @@ def test_upgrade_downgrade_upgrade_keeps_data(fresh_db_url):
         rows = conn.execute(text("SELECT p.name, r.name FROM programs p "
                                  "JOIN products r ON r.program_id = p.id")).all()
     assert rows == [("Survey drone", "Camera unit")]
+    engine.dispose()
+
+
+def test_documents_gain_their_program_and_keep_their_rows(fresh_db_url):
+    """0002 -> 0003 moves each document's program in from its product; downgrading puts
+    a program-wide document back on the program's first root product."""
+    migrate.upgrade(fresh_db_url, "0002")
+    engine = make_engine(fresh_db_url)
+    with engine.begin() as conn:
+        conn.execute(text("INSERT INTO programs (name, description, created_at, version) "
+                          "VALUES ('P', '', CURRENT_TIMESTAMP, 1)"))
+        pid = conn.execute(text("SELECT id FROM programs")).scalar_one()
+        conn.execute(text("INSERT INTO products (program_id, name, part_number, description, "
+                          "created_at, version) VALUES (:p, 'U', '', '', CURRENT_TIMESTAMP, 1)"),
+                     {"p": pid})
+        uid = conn.execute(text("SELECT id FROM products")).scalar_one()
+        conn.execute(text("INSERT INTO documents (product_id, kind, number, revision, title, "
+                          "content_hash, input_hashes, note, author, created_at) VALUES "
+                          "(:u, 'audit', 'MCA-P', 1, 't', 'h', '{}', '', 'a', "
+                          "CURRENT_TIMESTAMP)"), {"u": uid})
+    migrate.upgrade(fresh_db_url, "0003")
+    engine.dispose()
+    with engine.begin() as conn:
+        assert conn.execute(text("SELECT program_id, product_id FROM documents")).one() == \
+            (pid, uid)
+        conn.execute(text("INSERT INTO documents (program_id, product_id, kind, number, "
+                          "revision, title, content_hash, input_hashes, note, author, "
+                          "created_at) VALUES (:p, NULL, 'audit', 'MCA-P', 2, 't', 'h', '{}', "
+                          "'', 'a', CURRENT_TIMESTAMP)"), {"p": pid})
+    with pytest.raises(DBAPIError, match="immutable"):
+        with engine.begin() as conn:
+            conn.execute(text("UPDATE documents SET note = 'edited'"))
+    migrate.downgrade(fresh_db_url, "0002")
+    engine.dispose()
+    with engine.connect() as conn:
+        rows = conn.execute(text("SELECT revision, product_id FROM documents "
+                                 "ORDER BY revision")).all()
+    assert rows == [(1, uid), (2, uid)]
     engine.dispose()
 
 
