@@ -21,7 +21,8 @@ class DocumentRead(BaseModel):
     model_config = ConfigDict(from_attributes=True)
 
     id: int
-    product_id: int
+    program_id: int
+    product_id: int | None
     kind: str
     number: str
     revision: int
