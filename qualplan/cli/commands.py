@@ -383,12 +383,17 @@ def env_add(
     typer.echo(f"environment {name} added (id {env.id}, revision 1): " + _summary_text(summary))
 
 
+SUMMARY_LABELS = {"grms": "overall", "peak_asd": "peak", "peak_srs": "peak SRS",
+                  "peak_accel": "peak", "sweep_time": "sweep time", "sample_rate": "sample rate"}
+
+
 def _summary_text(summary: dict[str, Any]) -> str:
     parts = []
     for key, item in summary.items():
         value = item["value"]
         text = "-".join(f"{v:.4g}" for v in value) if isinstance(value, list) else f"{value:.4g}"
-        parts.append(f"{key.replace('_', ' ')} {text} {item['unit']}".rstrip())
+        label = SUMMARY_LABELS.get(key, key.replace("_", " "))
+        parts.append(f"{label} {text} {item['unit']}".rstrip())
     return ", ".join(parts)
 
 
