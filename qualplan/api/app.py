@@ -52,6 +52,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         app.state.schema_revision = check_schema(engine)
         app.state.engine = engine
         app.state.sessionmaker = make_sessionmaker(engine)
+        app.state.write_sessionmaker = make_sessionmaker(engine, write=True)
         app.state.settings = settings
         app.state.write_lock = anyio.Lock() if engine.dialect.name == "sqlite" else None
         app.state.read_slots = anyio.Semaphore(READ_SLOTS)

@@ -59,7 +59,9 @@ def get_session(
     Used with ``scope="function"`` so the commit happens before the response is sent:
     a failed commit (a concurrent edit, a constraint) becomes the response.
     """
-    session = request.app.state.sessionmaker()
+    state = request.app.state
+    maker = state.sessionmaker if request.method in SAFE_METHODS else state.write_sessionmaker
+    session = maker()
     try:
         yield session
         session.commit()

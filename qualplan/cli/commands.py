@@ -89,7 +89,7 @@ def work(db: str | None):
     """One unit of work on a database whose schema matches the code."""
     engine = checked_engine(db)
     try:
-        with unit_of_work(make_sessionmaker(engine)) as session:
+        with unit_of_work(make_sessionmaker(engine, write=True)) as session:
             yield session
     finally:
         engine.dispose()

@@ -19,6 +19,8 @@ from sqlalchemy.orm import Session, sessionmaker
 import qualplan.store.guards  # noqa: F401  (registers the immutability guard)
 
 SQLITE_BUSY_TIMEOUT_MS = 5000
+#: Execution option naming the SQLite BEGIN mode of a transaction ("" or "IMMEDIATE").
+BEGIN_OPTION = "qualplan_sqlite_begin"
 
 
 class DatabaseUrlError(ValueError):
@@ -76,11 +78,21 @@ def _configure_sqlite(engine: Engine) -> None:
 
     @event.listens_for(engine, "begin")
     def _on_begin(conn) -> None:
-        conn.exec_driver_sql("BEGIN")
+        # "IMMEDIATE" for writing units (make_sessionmaker(write=True)): the write lock is
+        # taken at BEGIN, so a second writer waits (busy timeout) instead of failing with
+        # SQLITE_BUSY_SNAPSHOT after it has read.
+        mode = conn.get_execution_options().get(BEGIN_OPTION, "")
+        conn.exec_driver_sql(f"BEGIN {mode}".rstrip())
 
 
-def make_sessionmaker(engine: Engine) -> sessionmaker[Session]:
-    return sessionmaker(bind=engine, expire_on_commit=False)
+def make_sessionmaker(engine: Engine, *, write: bool = False) -> sessionmaker[Session]:
+    """Sessions on `engine`. ``write=True`` is for units of work that change data: on
+    SQLite their transactions begin IMMEDIATE (one writer at a time, the others wait up
+    to the busy timeout); on PostgreSQL it changes nothing."""
+    bind = engine
+    if write and engine.dialect.name == "sqlite":
+        bind = engine.execution_options(**{BEGIN_OPTION: "IMMEDIATE"})
+    return sessionmaker(bind=bind, expire_on_commit=False)
 
 
 @contextmanager

@@ -139,7 +139,9 @@ async def writer_turn(request: Request) -> AsyncIterator[None]:
 
 def ctx_dep(request: Request, _turn: None = Depends(writer_turn)) -> Iterator[Ctx]:
     web: WebState = request.app.state.web
-    db = request.app.state.sessionmaker()
+    state = request.app.state
+    db = (state.sessionmaker if request.method in ("GET", "HEAD")
+          else state.write_sessionmaker)()
     try:
         ws = web.signer.load(request.cookies.get(auth.COOKIE))
         fresh = ws is None

@@ -169,3 +169,41 @@ def test_product_subtree(session):
     child = repo.add(m.Product(program_id=product.program_id, parent_id=product.id, name="board"))
     grandchild = repo.add(m.Product(program_id=product.program_id, parent_id=child.id, name="chip"))
     assert repo.subtree_ids(product.id) == [product.id, child.id, grandchild.id]
+
+
+def test_sqlite_writers_wait_for_each_other_instead_of_failing(engine):
+    """Two writing units that read, pause, then write: with IMMEDIATE transactions the
+    second waits for the first and reads its result (no SQLITE_BUSY_SNAPSHOT, nothing
+    lost); on PostgreSQL the row lock of the UPDATE does the same job."""
+    import threading
+    import time
+
+    from qualplan.store.session import make_sessionmaker, unit_of_work
+
+    writer = make_sessionmaker(engine, write=True)
+    with unit_of_work(writer) as s:
+        pid = ProgramRepository(s).add(m.Program(name="writers take turns")).id
+    errors: list[BaseException] = []
+
+    def append(text: str) -> None:
+        try:
+            with unit_of_work(writer) as s:
+                prog = s.get(m.Program, pid, with_for_update=True)
+                time.sleep(0.2)
+                prog.description += text
+        except BaseException as exc:  # noqa: BLE001 - reported by the assertion below
+            errors.append(exc)
+
+    threads = [threading.Thread(target=append, args=(t,)) for t in ("a", "b")]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join()
+    try:
+        assert errors == []
+        with writer() as s:
+            prog = s.get(m.Program, pid)
+            assert sorted(prog.description) == ["a", "b"] and prog.version == 3
+    finally:
+        with unit_of_work(writer) as s:
+            s.delete(s.get(m.Program, pid))
