@@ -7,6 +7,7 @@ nothing is stored.
 
 from __future__ import annotations
 
+import html
 import json
 
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
@@ -34,7 +35,7 @@ class BodySizeLimit:
             except ValueError:
                 declared = 0
             if declared > self.max_bytes:
-                await self._refuse(send, declared)
+                await self._refuse(send, declared, scope)
                 return
         received = 0
         exceeded = False
@@ -57,7 +58,7 @@ class BodySizeLimit:
             if exceeded:
                 if not refused:
                     refused = True
-                    await self._refuse(send, received)
+                    await self._refuse(send, received, scope)
                 return
             await send(message)
 
@@ -65,30 +66,51 @@ class BodySizeLimit:
             await self.app(scope, counted, guarded_send)
         except BodyTooLarge:
             if not refused:
-                await self._refuse(send, received)
+                await self._refuse(send, received, scope)
 
-    async def _refuse(self, send: Send, size: int) -> None:
+    async def _refuse(self, send: Send, size: int, scope: Scope) -> None:
+        detail = (f"the request body is larger than the limit of {self.max_bytes} bytes "
+                  "(QUALPLAN_MAX_UPLOAD_BYTES); nothing was stored")
+        headers = dict(scope.get("headers") or [])
+        if not scope.get("path", "").startswith("/api/") and \
+                b"text/html" in headers.get(b"accept", b""):
+            await self._send(send, "text/html; charset=utf-8", _page(detail))
+            return
         body = json.dumps(
             {
                 "type": problem_type("too-large"),
                 "title": "Content too large",
                 "status": 413,
-                "detail": f"the request body is larger than the limit of {self.max_bytes} "
-                "bytes (QUALPLAN_MAX_UPLOAD_BYTES); nothing was stored",
+                "detail": detail,
                 "field": "body",
                 "value": f"{size} bytes or more",
                 "limit_bytes": self.max_bytes,
             }
         ).encode()
+        await self._send(send, PROBLEM_JSON, body)
+
+    @staticmethod
+    async def _send(send: Send, content_type: str, body: bytes) -> None:
         await send(
             {
                 "type": "http.response.start",
                 "status": 413,
                 "headers": [
-                    (b"content-type", PROBLEM_JSON.encode()),
+                    (b"content-type", content_type.encode()),
                     (b"content-length", str(len(body)).encode()),
                     (b"connection", b"close"),
                 ],
             }
         )
         await send({"type": "http.response.body", "body": body})
+
+
+def _page(detail: str) -> bytes:
+    """A plain page for a browser's form post (the web pages' own look is not needed)."""
+    return (
+        "<!doctype html><html lang=\"en\"><head><meta charset=\"utf-8\">"
+        "<title>File too large - qualplan</title></head><body style=\"font-family:sans-serif;"
+        "max-width:40em;margin:2em auto\"><h1>File too large</h1>"
+        f"<p role=\"alert\">Not saved: {html.escape(detail)}.</p>"
+        "<p>Go back to the form and choose a smaller file.</p></body></html>"
+    ).encode()

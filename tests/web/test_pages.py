@@ -369,3 +369,19 @@ def test_numbers_for_people():
     assert [_fmt(10000.0), _fmt(12345.6), _fmt(6.78416), _fmt([20.0, 2000.0])] == [
         "10000", "12350", "6.784", "20–2000"]
     assert _unit("g^2/Hz") == "g²/Hz" and _unit("(m/s^2)^2/Hz") == "(m/s²)²/Hz"
+
+
+def test_oversize_upload_is_a_page_and_nothing_stored(browserless, users, world, factory):
+    """A browser posting a file over the upload limit gets a page that says so, not the
+    API's JSON problem (the limit is the settings' 256 KiB here)."""
+    b = browserless(users["engineer"])
+    big = b"freq,asd\n" + b"".join(f"{20 + i},0.01\n".encode() for i in range(40_000))
+    b.get(f"/products/{world.product_id}")
+    r = b.post(f"/products/{world.product_id}/environments",
+               {"name": unique("big"), "kind": "random", "axis": "Z", "value_units": "g^2/Hz",
+                "freq_units": "Hz"}, files={"file": ("big.csv", big, "text/csv")},
+               headers={"Accept": "text/html"})
+    assert r.status_code == 413
+    assert r.headers["content-type"].startswith("text/html")
+    assert "Not saved" in r.text and "262144 bytes" in r.text
+    assert env_count(factory, world.product_id) == 0
