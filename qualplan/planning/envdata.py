@@ -265,6 +265,36 @@ def summarise(kind: EnvironmentKind, spec: dict[str, Any], array: np.ndarray | N
     )
 
 
+@dataclass(frozen=True)
+class RecordSpectra:
+    """Spectral views of a time history: its maximax PSD and its maximax SRS."""
+
+    psd_freq_hz: np.ndarray
+    psd_g2_hz: np.ndarray
+    psd_note: str
+    srs_freq_hz: np.ndarray
+    srs_g: np.ndarray
+    q: float
+
+
+def record_spectra(spec: dict[str, Any], array: np.ndarray, *, q: float = 10.0
+                   ) -> RecordSpectra:
+    """Maximax PSD (1 s windows, qualplan.dynamics.signal) up to 0.4 fs, and the maximax
+    SRS at Q (1/6-octave grid from 10 Hz to min(10 kHz, fs/10)) of a record [g]."""
+    from qualplan.dynamics import signal as core_signal
+
+    x, dt = np.asarray(array, float), float(spec["dt_s"])
+    with core_errors():
+        window = min(1.0, 0.5 * x.size * dt)
+        est = core_signal.maximax_psd(x, 1.0 / dt, window_s=window)
+        keep = (est.freq_hz > 0) & (est.freq_hz <= 0.4 / dt) & (est.asd_g2_hz > 0)
+        fn = core_srs.octave_grid(10.0, min(10_000.0, 0.1 / dt), 6)
+        values = core_srs.srs(x, dt, fn, q=q, kind="maximax")
+    note = (f"maximax of {est.n_windows} windows of {est.window_s:g} s, "
+            f"{est.resolution_hz:.3g} Hz lines, {est.dof:.0f} degrees of freedom per window")
+    return RecordSpectra(est.freq_hz[keep], est.asd_g2_hz[keep], note, fn, values, q)
+
+
 def curve(
     kind: EnvironmentKind, spec: dict[str, Any], array: np.ndarray | None, freq_hz: np.ndarray
 ) -> np.ndarray | None:

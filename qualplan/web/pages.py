@@ -537,6 +537,7 @@ def environment_page(ctx: Ctx, env_id: int, error=None, status=200, form=None):
     return render(
         ctx, "web/environment.html", status, env=env, product=product, history=hist,
         latest=hist[-1] if hist else None, plot=plots.environment_plot(env, hist),
+        record_plots=plots.record_plots(env, env.revisions[-1] if env.revisions else None),
         comparison=comparison, compare_plot=compare_plot, compare_error=compare_error,
         value_units=sorted(imports.VALUE_UNITS[env.kind]), error=error, form=form or {},
     )

@@ -64,6 +64,21 @@ def environment_plot(env, revs: list) -> dict[str, Any] | None:
                 ylabel=qty, yunit=unit)
 
 
+def record_plots(env, rev) -> list[dict[str, Any]]:
+    """A time history seen as spectra: its maximax PSD and its maximax SRS (planning)."""
+    if env.kind is not K.time_history or rev is None or getattr(rev, "data", None) is None:
+        return []
+    sp = envdata.record_spectra(rev.spec, rev.data)
+    return [
+        plot(f"{env.name} r{rev.number}: maximax PSD", [_series(
+            f"revision {rev.number}", sp.psd_freq_hz, sp.psd_g2_hz)], xlabel="frequency",
+            xunit="Hz", ylabel="ASD", yunit="g²/Hz", note=sp.psd_note),
+        plot(f"{env.name} r{rev.number}: maximax SRS, Q = {sp.q:g}", [_series(
+            f"revision {rev.number}", sp.srs_freq_hz, sp.srs_g)], xlabel="natural frequency",
+            xunit="Hz", ylabel="SRS", yunit="g"),
+    ]
+
+
 def level_plot(level) -> dict[str, Any]:
     """The level with its tolerance band (dashed) and the limit level it came from."""
     r = level.result

@@ -385,3 +385,30 @@ def test_oversize_upload_is_a_page_and_nothing_stored(browserless, users, world,
     assert r.headers["content-type"].startswith("text/html")
     assert "Not saved" in r.text and "262144 bytes" in r.text
     assert env_count(factory, world.product_id) == 0
+
+
+def test_time_history_page_shows_its_psd_and_srs(browserless, users, world, factory):
+    """A record is plotted as spectra: its maximax PSD and its maximax SRS (Q = 10). A
+    half-sine of 50 g, 1 ms: the SRS tends to the peak input at high natural frequency
+    (domain.md check case 11: SRS(10 kHz) -> the input's peak)."""
+    import numpy as np
+
+    fs = 100_000.0
+    t = np.arange(int(0.05 * fs)) / fs
+    x = np.where(t < 1e-3, 50.0 * np.sin(np.pi * t / 1e-3), 0.0)
+    with unit_of_work(factory) as session:
+        env = environments.create_environment(session, SETUP, s.EnvironmentCreate(
+            product_id=world.product_id, phase_id=world.phase_id, name=unique("drop record"),
+            kind=m.EnvironmentKind.time_history, axis=m.Axis.Z,
+            data={"dt_s": 1 / fs, "accel_g": x.tolist()}))
+        env_id = env.id
+    b = browserless(users["viewer"])
+    r = b.get(f"/environments/{env_id}")
+    assert r.status_code == 200
+    data = [json.loads(m_.group(1)) for m_ in re.finditer(
+        r'<script type="application/json" id="data-record\d">(.*?)</script>', r.text, re.S)]
+    assert [d["ylabel"] for d in data] == ["ASD", "SRS"]
+    srs = data[1]["series"][0]
+    # the 1/6-octave grid (anchored at 1 kHz) ends below min(10 kHz, fs/10) at 8.98 kHz
+    assert 8000.0 < srs["x"][-1] <= 10_000.0
+    assert srs["y"][-1] == pytest.approx(50.0, rel=0.03)
