@@ -38,13 +38,21 @@ RECORD_FN_LIMIT = 0.1
 
 @dataclass(frozen=True)
 class LifeItem:
+    """One environment revision with its environment (a level's input or a life item)."""
+
     environment: m.Environment
     revision: m.EnvironmentRevision
 
     @property
     def label(self) -> str:
+        """Name and revision, e.g. ``road Z r2``."""
+        return f"{self.environment.name} r{self.revision.number}"
+
+    @property
+    def life_label(self) -> str:
+        """Name, revision and phase, as the life cycle lists it."""
         phase = self.environment.phase.name if self.environment.phase else "no phase"
-        return f"{self.environment.name} r{self.revision.number} ({phase})"
+        return f"{self.label} ({phase})"
 
 
 def lineage(session: Session, product: m.Product) -> list[int]:
@@ -139,13 +147,14 @@ def spectra_of_environment(item: LifeItem, fn, q: float, bs) -> Spectra:
     env, rev = item.environment, item.revision
     amount, _ = exposure(env, rev)
     spec = rev.spec
+    label = item.life_label
     if env.kind is K.random:
-        return _random(item.label, spec["freq_hz"], spec["asd_g2_hz"], amount, fn, q, bs)
+        return _random(label, spec["freq_hz"], spec["asd_g2_hz"], amount, fn, q, bs)
     if env.kind is K.sine:
-        return _sweep(item.label, envdata.sweep_of(spec), amount, fn, q, bs)
+        return _sweep(label, envdata.sweep_of(spec), amount, fn, q, bs)
     if env.kind is K.shock:
-        return _shock(item.label, spec["freq_hz"], spec["accel_g"], spec["q"], amount, fn, q, bs)
-    return _record(item.label, np.asarray(rev.data), spec["dt_s"], amount, fn, q, bs)
+        return _shock(label, spec["freq_hz"], spec["accel_g"], spec["q"], amount, fn, q, bs)
+    return _record(label, np.asarray(rev.data), spec["dt_s"], amount, fn, q, bs)
 
 
 def spectra_of_level(kind: str, result: dict[str, Any], fn, q: float, bs) -> Spectra:
@@ -277,7 +286,7 @@ def _coverage(tests: list[tuple[str, str, dict[str, Any]]], life: list[LifeItem]
                      "or of the life (outside every spectrum's reach) and are left out")
     fk = fn[keep]
     out: dict[str, Any] = {"fn_hz": fk.tolist(), "q": eq.q, "b": list(eq.b),
-                           "tests": [t[0] for t in tests], "life": [x.label for x in life],
+                           "tests": [t[0] for t in tests], "life": [x.life_label for x in life],
                            "by_b": {}, "notes": notes}
     passed = True
     for b in eq.b:

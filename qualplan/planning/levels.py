@@ -8,7 +8,6 @@ number. A level whose inputs have changed since is *stale*, never silently diffe
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
@@ -37,16 +36,8 @@ K = m.EnvironmentKind
 SRS_POINTS_PER_OCTAVE = 6
 
 
-@dataclass(frozen=True)
-class Input:
-    """One environment revision chosen for a level, with its environment."""
-
-    revision: m.EnvironmentRevision
-    environment: m.Environment
-
-    @property
-    def label(self) -> str:
-        return f"{self.environment.name} r{self.revision.number}"
+#: One environment revision chosen for a level, with its environment.
+Input = cov.LifeItem
 
 
 def _inputs(session: Session, recipe: s.LevelRecipe, product: m.Product) -> list[Input]:
@@ -79,7 +70,7 @@ def _inputs(session: Session, recipe: s.LevelRecipe, product: m.Product) -> list
             raise ValidationFailed(
                 field, rid, f"a {env.kind.value} environment cannot make a {recipe.kind} level"
             )
-        out.append(Input(rev, env))
+        out.append(Input(env, rev))
     return out
 
 
