@@ -575,7 +575,9 @@ def level_derive(
     policy: Annotated[str, typer.Option(help="Margin policy name or id.")] = "spaceflight-gevs",
     grade: Annotated[Grade, typer.Option(help="Test grade.")] = Grade.qualification,
     purpose: Annotated[LevelPurpose, typer.Option(help="test or analysis.")] = LevelPurpose.test,
-    combination: Annotated[str, typer.Option(help="envelope or p95_50.")] = "envelope",
+    combination: Annotated[str, typer.Option(
+        help="envelope, p95_50, or fds_equivalent (random tests: the PSD doing the "
+        "inputs' fatigue damage in the test duration).")] = "envelope",
     max_breakpoints: Annotated[int, typer.Option(help="Breakpoints at most.")] = 12,
     load_factor_fn_hz: Annotated[
         float | None,

@@ -8,17 +8,20 @@ number. A level whose inputs have changed since is *stale*, never silently diffe
 
 from __future__ import annotations
 
+import warnings
 from typing import Any
 
 import numpy as np
 from sqlalchemy.orm import Session
 
+from qualplan.dynamics import equivalence as core_eq
 from qualplan.dynamics import psd as core_psd
 from qualplan.dynamics import sdof as core_sdof
 from qualplan.dynamics import signal as core_signal
 from qualplan.dynamics import sine as core_sine
 from qualplan.dynamics import srs as core_srs
 from qualplan.dynamics import stats as core_stats
+from qualplan.dynamics.errors import AccuracyWarning
 from qualplan.dynamics.units import from_db_amplitude
 from qualplan.planning import coverage as cov
 from qualplan.planning import envdata
@@ -66,6 +69,8 @@ def _inputs(session: Session, recipe: s.LevelRecipe, product: m.Product) -> list
             "shock": (K.shock, K.time_history),
             "sine": (K.sine,),
         }[recipe.kind]
+        if recipe.combination == "fds_equivalent":
+            usable = tuple(K)  # the damage of any kind of environment can be matched
         if env.kind not in usable:
             raise ValidationFailed(
                 field, rid, f"a {env.kind.value} environment cannot make a {recipe.kind} level"
@@ -159,13 +164,22 @@ def derive_random(
     recipe: s.LevelRecipe, rules: s.PolicyRules, inputs: list[Input], life_s: float
 ) -> dict[str, Any]:
     eq = rules.equivalence
-    curves = _random_curves(inputs, (eq.f_lo_hz, eq.f_hi_hz))
     steps: list[dict[str, Any]] = []
-    if recipe.combination == "envelope":
+    equivalent = recipe.combination == "fds_equivalent"
+    if equivalent:
+        if recipe.purpose is m.LevelPurpose.analysis:
+            raise ValidationFailed("combination", recipe.combination,
+                                   "makes test levels (it needs a test duration)")
+        test_s = rules.random[recipe.grade].duration_s or life_s
+        f, a, info = _fds_equivalent(inputs, rules, test_s)
+        steps.append({"step": "FDS equivalence", **info})
+    elif recipe.combination == "envelope":
+        curves = _random_curves(inputs, (eq.f_lo_hz, eq.f_hi_hz))
         f, a = core_psd.envelope(curves) if len(curves) > 1 else curves[0]
         steps.append({"step": "maximum envelope", "inputs": [i.label for i in inputs]})
     else:
-        f, a, info = _statistical(curves, power=True)
+        f, a, info = _statistical(_random_curves(inputs, (eq.f_lo_hz, eq.f_hi_hz)),
+                                  power=True)
         steps.append({"step": "P95/50", **info})
     f, a, excess = _simplified(f, a, recipe.max_breakpoints, power=True)
     limit = {"freq_hz": f.tolist(), "asd_g2_hz": a.tolist(), "grms": core_psd.grms(f, a)}
@@ -205,6 +219,8 @@ def derive_random(
     f, a = core_psd.scale_db(f, a, rule.margin_db)
     steps.append({"step": "margin", "db": rule.margin_db, "basis": rule.basis})
     duration, compression = _random_duration(rule, life_s)
+    if equivalent:  # the FDS inversion already brought the life into the test duration
+        duration, compression = rule.duration_s or life_s, None
     if compression is not None:
         f, a = core_psd.scale_db(f, a, compression["db"])
         steps.append({"step": "time compression", **compression})
@@ -230,6 +246,37 @@ def derive_random(
         "steps": steps,
         "life_exposure_s": life_s,
     }
+
+
+def _fds_equivalent(inputs: list[Input], rules: s.PolicyRules, test_s: float):
+    """The PSD that does, in `test_s`, the damage of the inputs over their exposures.
+
+    Per Basquin exponent b of the policy: life FDS = Miner sum of the inputs' FDS, then
+    the closed-form narrow-band inversion iterated on the exact FDS
+    (equivalence.random_test_for_fds; Lalanne vol. 5, Henderson & Piersol 1995); the
+    PSDs of the several b are enveloped, so the test covers the damage for each of them.
+    """
+    eq = rules.equivalence
+    fn = core_srs.octave_grid(eq.f_lo_hz, eq.f_hi_hz, eq.points_per_octave)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", AccuracyWarning)
+        parts = [cov.spectra_of_environment(i, fn, eq.q, eq.b) for i in inputs]
+        life = {b: np.sum([p.fds[b] for p in parts], axis=0) for b in eq.b}
+        keep = np.all([life[b] > 0 for b in eq.b], axis=0)
+        if keep.sum() < 2:
+            raise ValidationFailed("revision_ids", [i.revision.id for i in inputs],
+                                   "the environments do no damage on the policy's "
+                                   "natural-frequency band")
+        g, errors = None, {}
+        for b in eq.b:
+            res = core_eq.random_test_for_fds(fn[keep], life[b][keep], test_s, eq.q, b)
+            g = res.asd_g2_hz if g is None else np.maximum(g, res.asd_g2_hz)
+            errors[f"{b:g}"] = res.max_error
+    info = {"inputs": [i.label for i in inputs], "test_duration_s": test_s, "q": eq.q,
+            "b": list(eq.b), "max_fds_error": errors,
+            "method": "PSD whose exact FDS in the test duration equals the inputs' FDS "
+                      "(narrow-band inversion iterated; envelope over b)"}
+    return fn[keep], g, info
 
 
 def _shaker(f, a) -> dict[str, Any]:

@@ -283,7 +283,10 @@ class LevelRecipe(Command):
     kind: Literal["random", "sine", "shock"]
     axis: Axis
     revision_ids: list[int] = Field(min_length=1)
-    combination: Literal["envelope", "p95_50"] = "envelope"
+    #: envelope: maximum envelope; p95_50: normal tolerance limit of measured spectra;
+    #: fds_equivalent (random test levels): the PSD that in the test duration does the
+    #: fatigue damage of the chosen environments (any kinds) over their exposures.
+    combination: Literal["envelope", "p95_50", "fds_equivalent"] = "envelope"
     max_breakpoints: int = Field(default=12, ge=2, le=200)
     policy_id: int
     #: Natural frequency and Q for the quick equivalent-static load factor (analysis).

@@ -286,3 +286,28 @@ def test_shock_test_record_outside_points_are_not_judged(session, engineer, unit
         freq_hz=f.tolist(), values=values.tolist(), shocks=2))
     assert ev.verdict is m.Verdict.passed, ev.summary["reason"]
     assert ev.summary["worst_deviation_db"] == pytest.approx(1.0, abs=1e-6)
+
+
+def test_fds_equivalent_random_level_compresses_the_life(session, engineer, unit, program):
+    """Flat 0.04 g^2/Hz for one hour, as an acceptance test of 60 s (GEVS policy):
+    under the narrow-band model G_test = G_env (T_env / T_test)^(2/b), independent of fn
+    (domain.md section 6: 0.04 x 60^(1/4) = 0.111326 for b = 8). The policy's smallest b
+    (4) governs: 0.04 x 60^(1/2) = 0.30984 g^2/Hz; the test covers the life's FDS."""
+    from qualplan.planning import catalog
+
+    hour = catalog.create_phase(session, engineer, s.PhaseCreate(
+        program_id=program.id, name="one hour", duration_s=3600.0))
+    flat = _env(session, engineer, unit, hour, "flat hour", m.EnvironmentKind.random,
+                {"freq_hz": [20.0, 2000.0], "asd_g2_hz": [0.04, 0.04]})
+    gevs = policies.policy_ref(session, "spaceflight-gevs")
+    level = levels.derive_level(session, engineer, s.LevelRecipe(
+        product_id=unit.id, name="equivalent Z", kind="random", axis=m.Axis.Z,
+        grade=m.Grade.acceptance, combination="fds_equivalent",
+        revision_ids=[flat.revisions[-1].id], policy_id=gevs.id))
+    r = level.result
+    assert r["duration_s"] == 60.0
+    mid = psd.asd_at(r["limit"]["freq_hz"], r["limit"]["asd_g2_hz"], [100.0, 500.0])
+    assert mid == pytest.approx([0.04 * 60 ** 0.5] * 2, rel=0.01)
+    assert "time compression" not in [st["step"] for st in r["steps"]]
+    for b, item in r["coverage"]["by_b"].items():
+        assert item["worst_db"] >= -0.05, (b, item["worst_db"])
