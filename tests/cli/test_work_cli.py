@@ -75,6 +75,10 @@ def test_story_from_csv_to_audit_gate(db, capsys, tmp_path):
     code, out, _ = ok("audit", "--json", "--product", "Camera electronics")
     assert code == 0
     assert json.loads(out)["release_ready"] is True
+    # every change left an event, newest first
+    code, out, _ = ok("events", "--entity", "requirement", "--json")
+    actions = [e["action"] for e in json.loads(out)["items"]]
+    assert actions == ["add-evidence", "create"]
 
 
 def test_bad_inputs_are_one_line_errors_and_store_nothing(db, capsys, tmp_path):
