@@ -43,6 +43,8 @@ from scipy.special import gamma as gamma_fn
 from qualplan.dynamics import _validate as v
 from qualplan.dynamics import sdof
 from qualplan.dynamics.errors import AccuracyWarning, InputError
+from qualplan.dynamics.rainflow import push_reversal as _push
+from qualplan.dynamics.rainflow import residue_damage
 from qualplan.dynamics.sine import Sweep
 from qualplan.dynamics.units import G0_M_S2
 
@@ -328,29 +330,6 @@ def fds_sweep(sweep: Sweep, fn_hz, q: float, b: float, *, n_res: int = 400) -> n
 
 
 @njit(cache=True, nogil=True)
-def _push(stack, sp, val, b):
-    """Push a reversal on the rainflow stack; return (new sp, damage counted)."""
-    stack[sp] = val
-    sp += 1
-    d = 0.0
-    while sp >= 3:
-        x_rng = abs(stack[sp - 1] - stack[sp - 2])
-        y_rng = abs(stack[sp - 2] - stack[sp - 3])
-        if x_rng < y_rng:
-            break
-        if sp == 3:
-            d += 0.5 * math.pow(0.5 * y_rng, b)
-            stack[0] = stack[1]
-            stack[1] = stack[2]
-            sp = 2
-        else:
-            d += math.pow(0.5 * y_rng, b)
-            stack[sp - 3] = stack[sp - 1]
-            sp -= 2
-    return sp, d
-
-
-@njit(cache=True, nogil=True)
 def _vertex(ym, y0, yp):
     """Parabolic peak through three equally spaced samples around a reversal."""
     den = ym - 2.0 * y0 + yp
@@ -406,10 +385,7 @@ def _filter_miner(x, b0, b1, b2, a1, a2, n_extra, b, interp, n_skip):
         xc = y
         dl = dn
     sp, d = _push(stack, sp, xc, b)
-    dmg += d
-    for j in range(sp - 1):
-        dmg += 0.5 * math.pow(0.5 * abs(stack[j + 1] - stack[j]), b)
-    return dmg
+    return dmg + d + residue_damage(stack, sp, b)
 
 
 def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: bool = False,

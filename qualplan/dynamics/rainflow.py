@@ -95,31 +95,50 @@ def _count(tp, out):
 
 
 @njit(cache=True, nogil=True)
-def _miner_sum(tp, b, stack):
-    """Sum of count * (range/2)^b over the rainflow cycles of reversals `tp`."""
-    n = tp.shape[0]
-    sp = 0
+def push_reversal(stack, sp, val, b):
+    """Push a reversal on the ASTM E1049-85 (5.4.4) rainflow stack and count what it closes.
+
+    Returns the new stack depth and the damage counted, sum of count x (range/2)^b
+    (a half cycle when the stack's starting point is involved).
+    """
+    stack[sp] = val
+    sp += 1
     d = 0.0
-    for i in range(n):
-        stack[sp] = tp[i]
-        sp += 1
-        while sp >= 3:
-            x_rng = abs(stack[sp - 1] - stack[sp - 2])
-            y_rng = abs(stack[sp - 2] - stack[sp - 3])
-            if x_rng < y_rng:
-                break
-            if sp == 3:
-                d += 0.5 * math.pow(0.5 * y_rng, b)
-                stack[0] = stack[1]
-                stack[1] = stack[2]
-                sp = 2
-            else:
-                d += math.pow(0.5 * y_rng, b)
-                stack[sp - 3] = stack[sp - 1]
-                sp -= 2
+    while sp >= 3:
+        x_rng = abs(stack[sp - 1] - stack[sp - 2])
+        y_rng = abs(stack[sp - 2] - stack[sp - 3])
+        if x_rng < y_rng:
+            break
+        if sp == 3:
+            d += 0.5 * math.pow(0.5 * y_rng, b)
+            stack[0] = stack[1]
+            stack[1] = stack[2]
+            sp = 2
+        else:
+            d += math.pow(0.5 * y_rng, b)
+            stack[sp - 3] = stack[sp - 1]
+            sp -= 2
+    return sp, d
+
+
+@njit(cache=True, nogil=True)
+def residue_damage(stack, sp, b):
+    """Damage of the half cycles left on the stack at the end of the history."""
+    d = 0.0
     for j in range(sp - 1):
         d += 0.5 * math.pow(0.5 * abs(stack[j + 1] - stack[j]), b)
     return d
+
+
+@njit(cache=True, nogil=True)
+def _miner_sum(tp, b, stack):
+    """Sum of count * (range/2)^b over the rainflow cycles of reversals `tp`."""
+    sp = 0
+    d = 0.0
+    for i in range(tp.shape[0]):
+        sp, di = push_reversal(stack, sp, tp[i], b)
+        d += di
+    return d + residue_damage(stack, sp, b)
 
 
 def reversals(series) -> np.ndarray:
