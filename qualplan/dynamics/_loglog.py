@@ -26,7 +26,12 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from qualplan.dynamics._validate import all_positive, as_1d_float, strictly_increasing
+from qualplan.dynamics._validate import (
+    all_positive,
+    as_1d_float,
+    positive_scalar,
+    strictly_increasing,
+)
 from qualplan.dynamics.errors import InputError
 from qualplan.dynamics.units import DB_PER_OCT_UNIT
 
@@ -225,12 +230,7 @@ def from_slopes(freq_edges_hz, start_value, slopes_db_oct, *, power: bool):
         raise InputError(
             "slopes_db_oct", f"{s.size} slopes", f"needs one per band ({f.size - 1})"
         )
-    try:
-        v0 = float(start_value)
-    except (TypeError, ValueError) as exc:
-        raise InputError("start_value", start_value, "must be a number") from exc
-    if not np.isfinite(v0) or v0 <= 0:
-        raise InputError("start_value", start_value, "must be a finite number > 0")
+    v0 = positive_scalar("start_value", start_value)
     c = 10.0 if power else 20.0
     steps_db = s * np.log2(f[1:] / f[:-1])
     v = v0 * 10.0 ** (np.concatenate(([0.0], np.cumsum(steps_db))) / c)

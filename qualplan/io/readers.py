@@ -23,6 +23,7 @@ from typing import Any
 
 import numpy as np
 
+from qualplan.dynamics._validate import positive_scalar
 from qualplan.dynamics.errors import InputError
 from qualplan.io._units import _norm, accel_factor, asd_factor, recognised_accel
 
@@ -152,16 +153,6 @@ def _check_uniform_time(name: str, t: np.ndarray, tolerance: float) -> tuple[flo
         )
     mean_dt = (t[-1] - t[0]) / (t.size - 1)
     return 1.0 / mean_dt, float(t[0])
-
-
-def _fs(fs_hz) -> float:
-    try:
-        fs = float(fs_hz)
-    except (TypeError, ValueError) as exc:
-        raise InputError("fs_hz", fs_hz, "must be a number > 0") from exc
-    if not math.isfinite(fs) or fs <= 0:
-        raise InputError("fs_hz", fs_hz, "must be a finite number > 0")
-    return fs
 
 
 def _calibration(calibration) -> float:
@@ -294,7 +285,7 @@ def read_csv_time_history(path, *, unit: str, value_column=1, time_column=0,
     if time_column is None:
         if fs_hz is None:
             raise InputError("fs_hz", None, "is required when the file has no time column")
-        fs, t0 = _fs(fs_hz), 0.0
+        fs, t0 = positive_scalar("fs_hz", fs_hz), 0.0
     else:
         if fs_hz is not None:
             raise InputError("fs_hz", fs_hz, "must be omitted when a time column is read")
@@ -396,7 +387,8 @@ def read_npy_time_history(path, *, fs_hz: float, unit: str,
         raise InputError("values", f"shape {arr.shape}", "must be a 1-D array")
     if not np.issubdtype(arr.dtype, np.number) or np.iscomplexobj(arr):
         raise InputError("values", str(arr.dtype), "must be real numbers")
-    return _time_history(arr, _fs(fs_hz), 0.0, unit, _calibration(calibration), p.name,
+    return _time_history(arr, positive_scalar("fs_hz", fs_hz), 0.0, unit,
+                         _calibration(calibration), p.name,
                          {"format": "npy", "dtype": str(arr.dtype)})
 
 
@@ -507,7 +499,7 @@ def read_mat_time_history(path, *, variable: str, unit: str, fs_hz: float | None
         fs, t0 = _check_uniform_time(time_variable, t, time_tolerance)
         meta["time_variable"] = time_variable
     else:
-        fs, t0 = _fs(fs_hz), 0.0
+        fs, t0 = positive_scalar("fs_hz", fs_hz), 0.0
     return _time_history(v, fs, t0, unit, _calibration(calibration), f"{p.name}:{variable}",
                          meta, variable)
 
