@@ -14,6 +14,7 @@ from qualplan.api.errors import Problem
 from qualplan.planning import access
 from qualplan.planning.access import Actor
 from qualplan.planning.schemas import Role
+from qualplan.store.session import unit_of_work
 
 MAX_LIMIT = 500
 DEFAULT_LIMIT = 50
@@ -61,15 +62,8 @@ def get_session(
     """
     state = request.app.state
     maker = state.sessionmaker if request.method in SAFE_METHODS else state.write_sessionmaker
-    session = maker()
-    try:
+    with unit_of_work(maker) as session:
         yield session
-        session.commit()
-    except BaseException:
-        session.rollback()
-        raise
-    finally:
-        session.close()
 
 
 SessionDep = Annotated[Session, Depends(get_session, scope="function")]
