@@ -618,6 +618,10 @@ def level_derive(
         _print_level(out)
 
 
+def _covers(ok: bool) -> str:
+    return "covers the life" if ok else "does NOT cover the life"
+
+
 def _print_level(level: s.LevelRead) -> None:
     r = level.result
     typer.echo(
@@ -625,43 +629,49 @@ def _print_level(level: s.LevelRead) -> None:
         f"{level.grade.value if level.grade else ''} {level.kind.value}, axis "
         f"{level.axis.value}, hash {level.level_hash[:12]}"
     )
-    if level.kind is EnvironmentKind.random:
-        table(["freq [Hz]", "ASD [g^2/Hz]"], zip(r["freq_hz"], r["asd_g2_hz"], strict=True))
+    if r.kind == "random":
+        table(["freq [Hz]", "ASD [g^2/Hz]"], zip(r.freq_hz, r.asd_g2_hz, strict=True))
         typer.echo(
-            f"overall {r['grms']:.3f} g rms"
-            + (f", {r['duration_s']:g} s per axis" if "duration_s" in r else "")
+            f"overall {r.grms:.3f} g rms"
+            + (f", {r.duration_s:g} s per axis" if r.duration_s is not None else "")
         )
-    elif level.kind is EnvironmentKind.shock:
-        table(["freq [Hz]", "SRS [g]"], zip(r["freq_hz"], r["accel_g"], strict=True))
+    elif r.kind == "shock":
+        table(["freq [Hz]", "SRS [g]"], zip(r.freq_hz, r.accel_g, strict=True))
         typer.echo(
-            f"Q {r['q']:g}, tolerance {r['lower_db']:+g}/{r['upper_db']:+g} dB, "
-            f"{r['shocks_per_axis']} shocks per axis"
+            f"Q {r.q:g}, tolerance {r.lower_db:+g}/{r.upper_db:+g} dB, "
+            f"{r.shocks_per_axis} shocks per axis"
         )
     else:
-        table(["freq [Hz]", "amplitude [g peak]"], zip(r["freq_hz"], r["accel_g"], strict=True))
+        table(["freq [Hz]", "amplitude [g peak]"], zip(r.freq_hz, r.accel_g, strict=True))
         typer.echo(
-            f"{r['sweep_rate_oct_per_min']:g} oct/min {r['direction']}, "
-            f"{r['sweeps']} sweep(s), {r['sweep_time_s']:.1f} s"
+            f"{r.sweep_rate_oct_per_min:g} oct/min {r.direction}, "
+            f"{r.sweeps} sweep(s), {r.sweep_time_s:.1f} s"
         )
-    cov = r.get("coverage")
-    if cov and cov.get("fn_hz"):
-        for b, item in cov.get("by_b", {}).items():
+    cov = r.coverage
+    if cov is not None and cov.fn_hz:
+        for b, item in cov.by_b.items():
             typer.echo(
-                f"FDS coverage b = {b}: worst {item['worst_db']:+.2f} dB at "
-                f"{item['worst_fn_hz']:.4g} Hz ({'pass' if item['passed'] else 'FAIL'})"
+                f"FDS coverage b = {b}: worst {item.worst_db:+.2f} dB at "
+                f"{item.worst_fn_hz:.4g} Hz ({_covers(item.passed)})"
             )
-        ers = cov.get("ers")
-        if ers:
+        if cov.ers is not None:
             typer.echo(
-                f"ERS coverage: worst {ers['worst_db']:+.2f} dB at "
-                f"{ers['worst_fn_hz']:.4g} Hz ({'pass' if ers['passed'] else 'FAIL'})"
+                f"ERS coverage: worst {cov.ers.worst_db:+.2f} dB at "
+                f"{cov.ers.worst_fn_hz:.4g} Hz ({_covers(cov.ers.passed)})"
             )
-    if "load_factor" in r:
-        lf = r["load_factor"]
+    if r.kind == "random" and r.load_factor is not None:
+        lf = r.load_factor
         typer.echo(
-            f"3-sigma load factor at {lf['fn_hz']:g} Hz, Q {lf['q']:g}: "
-            f"{lf['three_sigma_g']:.2f} g (Miles {lf['miles_grms']:.2f} g rms)"
+            f"3-sigma load factor at {lf.fn_hz:g} Hz, Q {lf.q:g}: "
+            f"{lf.three_sigma_g:.2f} g (Miles {lf.miles_grms:.2f} g rms)"
         )
+    v = r.verdicts
+    controllable = ("not applicable (analysis level)" if v.controllable is None
+                    else "controllable" if v.controllable else "NOT controllable")
+    typer.echo(f"numeric method: {'converged' if v.converged else 'NOT converged'}; "
+               f"controller: {controllable}")
+    for reason in v.reasons:
+        typer.echo(f"  {reason}")
     for reason in level.stale_reasons:
         typer.echo(f"STALE: {reason}")
 

@@ -55,6 +55,7 @@ __all__ = [
     "simplify_report",
     "SimplifyResult",
     "check_against",
+    "tolerance_band",
     "ToleranceCheck",
 ]
 
@@ -831,6 +832,36 @@ def _tolerance_bands(tol_db, f: np.ndarray):
         raise InputError("tol_db", f"no band covers {f[i]:g} Hz",
                          "the bands must cover the whole specification band")
     return lower, upper
+
+
+def tolerance_band(asd_g2_hz, tol_db: float) -> tuple[np.ndarray, np.ndarray]:
+    """Lower and upper tolerance limits of a specified ASD at its own lines.
+
+    Parameters
+    ----------
+    asd_g2_hz : array_like
+        Specified ASD at its breakpoints or lines [g^2/Hz], > 0.
+    tol_db : float
+        Symmetric band half-width, > 0 [dB, power: 10 log10 of an ASD ratio].
+
+    Returns
+    -------
+    lower, upper : numpy.ndarray
+        ``asd x 10^(-tol_db/10)`` and ``asd x 10^(tol_db/10)`` [g^2/Hz]. Straight lines
+        between breakpoints in log-log, as the profile itself.
+
+    References
+    ----------
+    ASD tolerances in dB as in MIL-STD-810H Method 514.8 (+/-3 dB typical) and
+    GSFC-STD-7000; the check of achieved lines is :func:`check_against`.
+    """
+    a = as_1d_float("asd_g2_hz", asd_g2_hz)
+    if not np.all(a > 0):
+        raise InputError("asd_g2_hz", a[~(a > 0)][0], "must be > 0 g^2/Hz")
+    t = _finite("tol_db", tol_db)
+    if t <= 0:
+        raise InputError("tol_db", tol_db, "must be > 0 (a symmetric +/- band in dB)")
+    return a * 10.0 ** (-t / 10.0), a * 10.0 ** (t / 10.0)
 
 
 def check_against(freq_hz, asd_g2_hz, spec_freq_hz, spec_asd_g2_hz, *, tol_db=3.0,

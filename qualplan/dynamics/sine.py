@@ -43,6 +43,7 @@ __all__ = [
     "sweep_cycles_linear",
     "envelope",
     "notch",
+    "tolerance_band",
 ]
 
 Quantity = Literal["displacement", "velocity", "acceleration"]
@@ -609,3 +610,35 @@ def notch(spec: SineSpec | SineTable, limit_g, *, fn_hz: float | None = None,
     notched = np.minimum(a, lim / t)
     depth = 20 * np.log10(np.max(np.where(notched > 0, a / np.maximum(notched, 1e-300), 1.0)))
     return SineTable(f, notched, notes=(f"maximum notch depth {depth:.2f} dB",))
+
+
+def tolerance_band(accel_g, tolerance_pct: float) -> tuple[np.ndarray, np.ndarray]:
+    """Lower and upper tolerance limits of a sine amplitude.
+
+    Parameters
+    ----------
+    accel_g : array_like
+        Specified peak acceleration [g], >= 0.
+    tolerance_pct : float
+        Amplitude tolerance, 0 < tolerance_pct < 100 [%].
+
+    Returns
+    -------
+    lower, upper : numpy.ndarray
+        ``accel x (1 - p)`` and ``accel x (1 + p)``, p = tolerance_pct / 100 [g].
+
+    References
+    ----------
+    Sine amplitude tolerance as a percentage of the specified amplitude (common
+    practice; +/-10 % from memory of MIL-STD-810H Method 514.8).
+    """
+    a = v.as_1d_float("accel_g", accel_g)
+    if not np.all(a >= 0):
+        raise InputError("accel_g", a[~(a >= 0)][0], "must be >= 0 g")
+    try:
+        p = float(tolerance_pct)
+    except (TypeError, ValueError) as exc:
+        raise InputError("tolerance_pct", tolerance_pct, "must be a number") from exc
+    if not 0 < p < 100:
+        raise InputError("tolerance_pct", tolerance_pct, "must be > 0 and < 100 %")
+    return a * (1 - p / 100), a * (1 + p / 100)

@@ -1,4 +1,6 @@
-"""The life cycle of a product and axis, and the coverage of a level against it.
+"""The coverage of a level (or a test sequence) against the life cycle of its axis.
+
+The life cycle itself (its environments and their exposures) is ``planning.lifecycle``.
 
 Each environment of the life is turned into FDS and ERS on the policy's
 natural-frequency grid by the numeric core (``fatigue``, ``extreme``): a PSD over
@@ -13,10 +15,8 @@ from __future__ import annotations
 
 import warnings
 from dataclasses import dataclass
-from typing import Any
 
 import numpy as np
-from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from qualplan.dynamics import equivalence as core_eq
@@ -27,78 +27,14 @@ from qualplan.dynamics import sine as core_sine
 from qualplan.dynamics import srs as core_srs
 from qualplan.dynamics.errors import AccuracyWarning
 from qualplan.planning import envdata
+from qualplan.planning import results as r
 from qualplan.planning import schemas as s
+from qualplan.planning.lifecycle import LifeItem, current_test_levels, exposure, life_cycle
 from qualplan.store import models as m
-from qualplan.store.repositories import RevisionRepository
 
 K = m.EnvironmentKind
 #: Natural frequencies kept for a sampled record: below this fraction of its sample rate.
 RECORD_FN_LIMIT = 0.1
-
-
-@dataclass(frozen=True)
-class LifeItem:
-    """One environment revision with its environment (a level's input or a life item)."""
-
-    environment: m.Environment
-    revision: m.EnvironmentRevision
-
-    @property
-    def label(self) -> str:
-        """Name and revision, e.g. ``road Z r2``."""
-        return f"{self.environment.name} r{self.revision.number}"
-
-    @property
-    def life_label(self) -> str:
-        """Name, revision and phase, as the life cycle lists it."""
-        phase = self.environment.phase.name if self.environment.phase else "no phase"
-        return f"{self.label} ({phase})"
-
-
-def lineage(session: Session, product: m.Product) -> list[int]:
-    """The product and its ancestors (an environment of a parent applies to its units)."""
-    ids, p = [], product
-    while p is not None:
-        ids.append(p.id)
-        p = session.get(m.Product, p.parent_id) if p.parent_id else None
-    return ids
-
-
-def life_cycle(session: Session, product: m.Product, axis: m.Axis) -> list[LifeItem]:
-    """Latest revision of every environment of the product (and its parents) on `axis`."""
-    stmt = select(m.Environment).where(m.Environment.product_id.in_(lineage(session, product)))
-    if axis is not m.Axis.all:
-        stmt = stmt.where(m.Environment.axis.in_([axis, m.Axis.all]))
-    revs = RevisionRepository(session)
-    out = []
-    for env in session.scalars(stmt.order_by(m.Environment.id)):
-        latest = revs.latest(env.id)
-        if latest is not None:
-            out.append(LifeItem(env, latest))
-    return out
-
-
-def exposure(env: m.Environment, rev: m.EnvironmentRevision) -> tuple[float, str]:
-    """How much of an environment the life holds: seconds (random), sweeps (sine),
-    shocks (shock) or passes of the record (time history)."""
-    phase = env.phase
-    occurrences = phase.occurrences if phase else 1
-    if env.kind is K.shock:
-        return float(rev.spec.get("count", 1) * occurrences), "shocks"
-    if env.kind is K.sine:
-        return float(occurrences), "sweep sequences"
-    if env.kind is K.time_history:
-        record_s = np.asarray(rev.data).size * rev.spec["dt_s"]
-        per = rev.spec.get("duration_s", phase.duration_s if phase else record_s)
-        return float(per * occurrences / record_s), "passes of the record"
-    per = rev.spec.get("duration_s", phase.duration_s if phase else None)
-    if per is None:
-        from qualplan.planning.errors import ValidationFailed
-
-        raise ValidationFailed(
-            "duration_s", None, f"environment {env.name!r} has neither a duration nor a phase"
-        )
-    return float(per * occurrences), "s"
 
 
 @dataclass(frozen=True)
@@ -157,39 +93,34 @@ def spectra_of_environment(item: LifeItem, fn, q: float, bs) -> Spectra:
     return _record(label, np.asarray(rev.data), spec["dt_s"], amount, fn, q, bs)
 
 
-def spectra_of_level(kind: str, result: dict[str, Any], fn, q: float, bs) -> Spectra:
-    if kind == "random":
-        return _random(
-            "test level", result["freq_hz"], result["asd_g2_hz"], result["duration_s"], fn, q, bs
-        )
-    if kind == "sine":
+def spectra_of_level(result: r.RandomResult | r.SineResult | r.ShockResult, fn, q: float,
+                     bs) -> Spectra:
+    if isinstance(result, r.RandomResult):
+        return _random("test level", result.freq_hz, result.asd_g2_hz, result.duration_s,
+                       fn, q, bs)
+    if isinstance(result, r.SineResult):
         sweep = core_sine.Sweep(
-            core_sine.SineTable(result["freq_hz"], result["accel_g"]),
-            result["sweep_rate_oct_per_min"],
-            direction=result["direction"],
-            n_sweeps=result["sweeps"],
+            core_sine.SineTable(result.freq_hz, result.accel_g),
+            result.sweep_rate_oct_per_min,
+            direction=result.direction,
+            n_sweeps=result.sweeps,
         )
         return _sweep("test level", sweep, 1.0, fn, q, bs)
-    return _shock(
-        "test level",
-        result["freq_hz"],
-        result["accel_g"],
-        result["q"],
-        float(result["shocks_per_axis"]),
-        fn,
-        q,
-        bs,
-    )
+    return _shock("test level", result.freq_hz, result.accel_g, result.q,
+                  float(result.shocks_per_axis), fn, q, bs)
 
 
-def coverage_of_level(kind: str, result: dict[str, Any], life: list[LifeItem],
-                      rules: s.PolicyRules) -> dict[str, Any]:
-    """FDS and ERS coverage of one test level against the life cycle, as plain data."""
-    return _coverage([("test level", kind, result)], life, rules)
+Tested = tuple[str, "r.RandomResult | r.SineResult | r.ShockResult"]
+
+
+def coverage_of_level(result: r.RandomResult | r.SineResult | r.ShockResult,
+                      life: list[LifeItem], rules: s.PolicyRules) -> r.Coverage:
+    """FDS and ERS coverage of one test level against the life cycle."""
+    return _coverage([("test level", result)], life, rules)
 
 
 def program_coverage(session: Session, product: m.Product, axis: m.Axis, grade: m.Grade,
-                     rules: s.PolicyRules) -> dict[str, Any]:
+                     rules: s.PolicyRules) -> r.Coverage:
     """Coverage of the life of one axis by the whole test sequence of that axis and grade.
 
     The sequence is the newest number of every test level of the product on `axis`
@@ -197,82 +128,79 @@ def program_coverage(session: Session, product: m.Product, axis: m.Axis, grade: 
     every level was checked against the same life on the same grid, their stored
     spectra are combined; otherwise the spectra are computed afresh.
     """
-    from qualplan.planning.levels import current_test_levels
-
     chosen = [lv for lv in current_test_levels(session, product.id, grade) if lv.axis is axis]
-    tests = [(f"{lv.name} #{lv.number}", lv.kind.value, lv.result)
+    tests = [(f"{lv.name} #{lv.number}", r.load(lv.kind.value, lv.result))
              for lv in sorted(chosen, key=lambda x: x.name)]
     if not tests:
-        return {"fn_hz": [], "passed": False, "tests": [], "life": [],
-                "notes": [f"no {grade.value} test level on axis {axis.value}"]}
+        return r.Coverage(notes=[f"no {grade.value} test level on axis {axis.value}"])
     stored = combine_stored(tests, rules)
     if stored is not None:
         return stored
     return _coverage(tests, life_cycle(session, product, axis), rules)
 
 
-def combine_stored(tests: list[tuple[str, str, dict[str, Any]]], rules: s.PolicyRules
-                   ) -> dict[str, Any] | None:
+def combine_stored(tests: list[Tested], rules: s.PolicyRules) -> r.Coverage | None:
     """Combine the coverage stored with each level (FDS summed, ERS enveloped), or None
     when the levels were not checked on the same grid, b values and life cycle."""
-    covs = [t[2].get("coverage") or {} for t in tests]
+    covs = [t[1].coverage or r.Coverage() for t in tests]
     first = covs[0]
-    if not first.get("fn_hz") or "ers" not in first:
+    if not first.fn_hz or first.ers is None:
         return None
-    same = all(c.get("fn_hz") == first["fn_hz"] and c.get("life") == first["life"]
-               and set(c.get("by_b", {})) == set(first["by_b"]) and "ers" in c for c in covs)
+    same = all(c.fn_hz == first.fn_hz and c.life == first.life
+               and set(c.by_b) == set(first.by_b) and c.ers is not None for c in covs)
     if not same:
         return None
     eq = rules.equivalence
-    fn = np.asarray(first["fn_hz"])
-    out: dict[str, Any] = {"fn_hz": first["fn_hz"], "q": first.get("q"), "b": first.get("b"),
-                           "tests": [t[0] for t in tests], "life": first["life"], "by_b": {},
-                           "notes": sorted({n for c in covs for n in c.get("notes", [])})}
+    fn = np.asarray(first.fn_hz)
+    by_b = {}
     passed = True
-    for b in first["by_b"]:
-        test_fds = np.sum([c["by_b"][b]["test_fds"] for c in covs], axis=0)
-        life_fds = np.asarray(first["by_b"][b]["life_fds"])
-        c = core_eq.coverage(fn, test_fds=test_fds, life_fds=life_fds, b=float(b),
-                             fds_margin_db=eq.fds_margin_db)
-        out["by_b"][b] = {
-            "test_fds": test_fds.tolist(), "life_fds": life_fds.tolist(),
-            "fds_ratio_db": c.fds_ratio_db.tolist(), "fds_level_db": c.fds_level_db.tolist(),
-            "required_db": eq.fds_margin_db, "worst_fn_hz": c.worst_fds_fn_hz,
-            "worst_db": c.worst_fds_margin_db, "passed": c.passed,
-        }
-        passed &= c.passed
-    test_ers = np.max([c["ers"]["test_ers"] for c in covs], axis=0)
-    out["ers"] = _ers_block(fn, test_ers, np.asarray(first["ers"]["life_ers"]), eq)
-    out["passed"] = bool(passed and out["ers"]["passed"])
-    return out
+    for b in first.by_b:
+        test_fds = np.sum([c.by_b[b].test_fds for c in covs], axis=0)
+        block = _fds_block(fn, test_fds, np.asarray(first.by_b[b].life_fds), float(b), eq)
+        by_b[b] = block
+        passed &= block.passed
+    test_ers = np.max([c.ers.test_ers for c in covs], axis=0)
+    ers = _ers_block(fn, test_ers, np.asarray(first.ers.life_ers), eq)
+    return r.Coverage(fn_hz=first.fn_hz, q=first.q, b=first.b, tests=[t[0] for t in tests],
+                      life=first.life, by_b=by_b, ers=ers,
+                      passed=bool(passed and ers.passed),
+                      notes=sorted({n for c in covs for n in c.notes}))
+
+
+def _fds_block(fn: np.ndarray, test_fds: np.ndarray, life_fds: np.ndarray, b: float,
+               eq: s.EquivalenceRule) -> r.FdsCoverage:
+    c = core_eq.coverage(fn, test_fds=test_fds, life_fds=life_fds, b=b,
+                         fds_margin_db=eq.fds_margin_db)
+    return r.FdsCoverage(
+        test_fds=test_fds.tolist(), life_fds=life_fds.tolist(),
+        fds_ratio_db=c.fds_ratio_db.tolist(), fds_level_db=c.fds_level_db.tolist(),
+        required_db=eq.fds_margin_db, worst_fn_hz=c.worst_fds_fn_hz,
+        worst_db=c.worst_fds_margin_db, passed=c.passed)
 
 
 def _ers_block(fn: np.ndarray, test_ers: np.ndarray, life_ers: np.ndarray,
-               eq: s.EquivalenceRule) -> dict[str, Any]:
+               eq: s.EquivalenceRule) -> r.ErsCoverage:
     e = core_eq.coverage(fn, test_ers=test_ers, life_ers=life_ers,
                          ers_margin_db=eq.ers_margin_db, overtest_db=eq.overtest_limit_db)
-    return {
-        "test_ers": test_ers.tolist(), "life_ers": life_ers.tolist(),
-        "ers_ratio_db": e.ers_ratio_db.tolist(), "required_db": eq.ers_margin_db,
-        "worst_fn_hz": e.worst_ers_fn_hz, "worst_db": e.worst_ers_margin_db,
-        "passed": e.passed, "overtest_limit_db": eq.overtest_limit_db,
-        "overtest_fn_hz": fn[e.overtest].tolist(), "max_overtest_db": e.max_overtest_db,
-        "max_overtest_fn_hz": e.max_overtest_fn_hz,
-    }
+    return r.ErsCoverage(
+        test_ers=test_ers.tolist(), life_ers=life_ers.tolist(),
+        ers_ratio_db=e.ers_ratio_db.tolist(), required_db=eq.ers_margin_db,
+        worst_fn_hz=e.worst_ers_fn_hz, worst_db=e.worst_ers_margin_db,
+        passed=e.passed, overtest_limit_db=eq.overtest_limit_db,
+        overtest_fn_hz=fn[e.overtest].tolist(), max_overtest_db=e.max_overtest_db,
+        max_overtest_fn_hz=e.max_overtest_fn_hz)
 
 
-def _coverage(tests: list[tuple[str, str, dict[str, Any]]], life: list[LifeItem],
-              rules: s.PolicyRules) -> dict[str, Any]:
+def _coverage(tests: list[Tested], life: list[LifeItem], rules: s.PolicyRules) -> r.Coverage:
     eq = rules.equivalence
     notes: list[str] = []
     if not life:
-        return {"fn_hz": [], "passed": False, "tests": [t[0] for t in tests], "life": [],
-                "notes": ["no environment in the life cycle of this axis"]}
+        return r.Coverage(tests=[t[0] for t in tests],
+                          notes=["no environment in the life cycle of this axis"])
     fn = core_srs.octave_grid(eq.f_lo_hz, eq.f_hi_hz, eq.points_per_octave)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", AccuracyWarning)
-        test_parts = [spectra_of_level(kind, result, fn, eq.q, eq.b)
-                      for _, kind, result in tests]
+        test_parts = [spectra_of_level(result, fn, eq.q, eq.b) for _, result in tests]
         parts = [spectra_of_environment(x, fn, eq.q, eq.b) for x in life]
     notes.extend(sorted({str(w.message) for w in caught}))
     test_ers = np.max([p.ers for p in test_parts], axis=0)
@@ -285,20 +213,10 @@ def _coverage(tests: list[tuple[str, str, dict[str, Any]]], life: list[LifeItem]
         notes.append(f"{int((~keep).sum())} natural frequencies have no response of the test "
                      "or of the life (outside every spectrum's reach) and are left out")
     fk = fn[keep]
-    out: dict[str, Any] = {"fn_hz": fk.tolist(), "q": eq.q, "b": list(eq.b),
-                           "tests": [t[0] for t in tests], "life": [x.life_label for x in life],
-                           "by_b": {}, "notes": notes}
-    passed = True
-    for b in eq.b:
-        c = core_eq.coverage(fk, test_fds=test_fds[b][keep], life_fds=life_fds[b][keep], b=b,
-                             fds_margin_db=eq.fds_margin_db)
-        out["by_b"][f"{b:g}"] = {
-            "test_fds": test_fds[b][keep].tolist(), "life_fds": life_fds[b][keep].tolist(),
-            "fds_ratio_db": c.fds_ratio_db.tolist(), "fds_level_db": c.fds_level_db.tolist(),
-            "required_db": eq.fds_margin_db, "worst_fn_hz": c.worst_fds_fn_hz,
-            "worst_db": c.worst_fds_margin_db, "passed": c.passed,
-        }
-        passed &= c.passed
-    out["ers"] = _ers_block(fk, test_ers[keep], life_ers[keep], eq)
-    out["passed"] = bool(passed and out["ers"]["passed"])
-    return out
+    by_b = {f"{b:g}": _fds_block(fk, test_fds[b][keep], life_fds[b][keep], b, eq)
+            for b in eq.b}
+    ers = _ers_block(fk, test_ers[keep], life_ers[keep], eq)
+    return r.Coverage(fn_hz=fk.tolist(), q=eq.q, b=list(eq.b), tests=[t[0] for t in tests],
+                      life=[x.life_label for x in life], by_b=by_b, ers=ers,
+                      passed=bool(all(x.passed for x in by_b.values()) and ers.passed),
+                      notes=notes)

@@ -323,29 +323,28 @@ def build_demo(session: Session, *, seed: int = 2026) -> DemoSummary:
 
     # --- evidence ------------------------------------------------------------------
     def random_record(key, db=0.8):
-        r = lv[key].result
-        f, v = _achieved(r["freq_hz"], r["asd_g2_hz"], r["freq_hz"][0], r["freq_hz"][-1],
+        r = levels.result_of(lv[key])
+        f, v = _achieved(r.freq_hz, r.asd_g2_hz, r.freq_hz[0], r.freq_hz[-1],
                          rng, db, points=120)
         return evidence.add_test_record(session, me, reqs[key].id, s.TestEvidenceIn(
-            freq_hz=f.tolist(), values=v.tolist(), duration_s=r["duration_s"],
+            freq_hz=f.tolist(), values=v.tolist(), duration_s=r.duration_s,
             note="controller record of the qualification run (synthesised)"))
 
     def sine_record(key):
-        r = lv[key].result
-        f, v = _achieved(r["freq_hz"], r["accel_g"], r["freq_hz"][0], r["freq_hz"][-1],
-                         rng, 0.25)
+        r = levels.result_of(lv[key])
+        f, v = _achieved(r.freq_hz, r.accel_g, r.freq_hz[0], r.freq_hz[-1], rng, 0.25)
         return evidence.add_test_record(session, me, reqs[key].id, s.TestEvidenceIn(
             freq_hz=f.tolist(), values=v.tolist(), note="control channel, peak hold"))
 
     def shock_record(key, low_db=0.0):
-        r = lv[key].result
-        f, v = _achieved(r["freq_hz"], r["accel_g"], r["freq_hz"][0], r["freq_hz"][-1],
-                         rng, 0.0, points=40)
+        r = levels.result_of(lv[key])
+        f, v = _achieved(r.freq_hz, r.accel_g, r.freq_hz[0], r.freq_hz[-1], rng, 0.0,
+                         points=40)
         v = v * 10 ** ((1.0 + 0.8 * np.sin(np.linspace(0, 6, f.size))) / 20)
         if low_db:
             v = np.where(f > 800.0, v * 10 ** (low_db / 20), v)
         return evidence.add_test_record(session, me, reqs[key].id, s.TestEvidenceIn(
-            freq_hz=f.tolist(), values=v.tolist(), shocks=r["shocks_per_axis"],
+            freq_hz=f.tolist(), values=v.tolist(), shocks=r.shocks_per_axis,
             note="SRS of the control accelerometer, maximax, Q = 10"))
 
     for axis in "XYZ":
@@ -356,9 +355,9 @@ def build_demo(session: Session, *, seed: int = 2026) -> DemoSummary:
     shock_record("sh Z")
     random_record("at Z")
     random_record("cam")
-    lf = loads.result["load_factor"]
+    lf = levels.result_of(loads).load_factor
     evidence.add_analysis(session, me, reqs["bracket"].id, s.AnalysisEvidenceIn(
-        applied=round(4.2 * lf["three_sigma_g"], 1), allowable=276.0, units="MPa",
+        applied=round(4.2 * lf.three_sigma_g, 1), allowable=276.0, units="MPa",
         factor_of_safety=1.25, note="bracket root stress per g from the unit FE model: "
         "4.2 MPa/g (invented); allowable: aluminium 6061-T6 yield"))
     evidence.add_inspection(session, me, reqs["cam insp"].id, s.InspectionEvidenceIn(

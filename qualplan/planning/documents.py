@@ -23,12 +23,14 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from qualplan.planning import coverage
+from qualplan.planning import results as res
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require
 from qualplan.planning.audit import audit
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import Conflict, ValidationFailed
-from qualplan.planning.levels import current_test_levels, read_level
+from qualplan.planning.levels import read_level, result_of
+from qualplan.planning.lifecycle import current_test_levels
 from qualplan.planning.policies import rules_of
 from qualplan.store import models as m
 from qualplan.store.hashing import json_hash
@@ -321,10 +323,9 @@ def _fmt(value: Any) -> str:
     return str(value)
 
 
-def _step(item: dict[str, Any]) -> StepRow:
-    name = str(item.get("step", ""))
-    detail = "; ".join(f"{k.replace('_', ' ')} {_fmt(v)}" for k, v in item.items() if k != "step")
-    return StepRow(step=name, detail=detail)
+def _step(item: res.Step) -> StepRow:
+    detail = "; ".join(f"{k.replace('_', ' ')} {_fmt(v)}" for k, v in item.items())
+    return StepRow(step=item.step, detail=detail)
 
 
 def _slopes(values: list[float] | None, n: int) -> list[float | None]:
@@ -360,104 +361,99 @@ def _with_revision(session: Session, number: str, body: dict[str, Any], cls, not
 # --- specification content --------------------------------------------------------------
 
 
-def _random_table(r: dict[str, Any]) -> RandomTable:
-    f, a = r["freq_hz"], r["asd_g2_hz"]
-    slopes = _slopes(r.get("slopes_db_per_oct"), len(f))
-    shaker = r.get("shaker") or {}
+def _random_table(r: res.RandomResult) -> RandomTable:
+    f, a = r.freq_hz, r.asd_g2_hz
+    slopes = _slopes(r.slopes_db_per_oct, len(f))
     return RandomTable(
         rows=[RandomRow(freq_hz=f[i], asd_g2_hz=a[i],
                         slope_db_per_oct=slopes[i] if i < len(slopes) else None)
               for i in range(len(f))],
-        grms=r["grms"],
-        duration_s=r["duration_s"],
-        tolerance_db=r["tolerance_db"],
-        grms_tolerance_pct=r["grms_tolerance_pct"],
-        duration_tolerance_pct=r["duration_tolerance_pct"],
-        velocity_rms_m_s=shaker.get("velocity_rms_m_s"),
-        displacement_pk_pk_m=shaker.get("displacement_pk_pk_m"),
+        grms=r.grms,
+        duration_s=r.duration_s,
+        tolerance_db=r.tolerance_db,
+        grms_tolerance_pct=r.grms_tolerance_pct,
+        duration_tolerance_pct=r.duration_tolerance_pct,
+        velocity_rms_m_s=r.shaker.velocity_rms_m_s if r.shaker else None,
+        displacement_pk_pk_m=r.shaker.displacement_pk_pk_m if r.shaker else None,
     )
 
 
 _SINE_UNITS = {"displacement": "mm", "velocity": "m/s", "acceleration": "g"}
 
 
-def _sine_table(r: dict[str, Any]) -> SineTable:
+def _sine_table(r: res.SineResult) -> SineTable:
     from qualplan.dynamics.sine import crossover_hz
 
     bands, crossovers = [], []
-    raw = r.get("bands") or []
+    raw = r.bands or []
     for b in raw:
-        amp = float(b["amplitude"])
-        quantity = b["quantity"]
-        label = quantity
-        if quantity == "displacement":
+        amp = float(b.amplitude)
+        label = b.quantity
+        if b.quantity == "displacement":
             amp *= 1000.0
-            label = "displacement " + ("peak-to-peak" if b.get("measure") == "peak_to_peak"
+            label = "displacement " + ("peak-to-peak" if b.measure == "peak_to_peak"
                                        else "peak")
-        bands.append(SineBandRow(f_lo_hz=b["f_lo_hz"], f_hi_hz=b["f_hi_hz"], quantity=label,
-                                 amplitude=amp, unit=_SINE_UNITS[quantity]))
+        bands.append(SineBandRow(f_lo_hz=b.f_lo_hz, f_hi_hz=b.f_hi_hz, quantity=label,
+                                 amplitude=amp, unit=_SINE_UNITS[b.quantity]))
+
+    def peak(band: res.SineBand) -> float:
+        return band.amplitude / 2 if band.measure == "peak_to_peak" else band.amplitude
+
     for a, b in zip(raw, raw[1:], strict=False):
-        if a["quantity"] == b["quantity"]:
+        if a.quantity == b.quantity:
             continue
-
-        def peak(band):
-            x = float(band["amplitude"])
-            return x / 2 if band.get("measure") == "peak_to_peak" else x
-
         crossovers.append(SineCrossover(
-            between=f"{a['quantity']} / {b['quantity']}",
-            freq_hz=crossover_hz(a["quantity"], peak(a), b["quantity"], peak(b))))
+            between=f"{a.quantity} / {b.quantity}",
+            freq_hz=crossover_hz(a.quantity, peak(a), b.quantity, peak(b))))
     return SineTable(
         bands=bands,
         crossovers=crossovers,
         points=[SinePoint(freq_hz=f, accel_g=g)
-                for f, g in zip(r["freq_hz"], r["accel_g"], strict=True)],
-        peak_accel_g=r["peak_accel_g"],
-        sweep_rate_oct_per_min=r["sweep_rate_oct_per_min"],
-        direction=r["direction"],
-        sweeps=r["sweeps"],
-        sweep_time_s=r["sweep_time_s"],
-        tolerance_pct=r["tolerance_pct"],
+                for f, g in zip(r.freq_hz, r.accel_g, strict=True)],
+        peak_accel_g=r.peak_accel_g,
+        sweep_rate_oct_per_min=r.sweep_rate_oct_per_min,
+        direction=r.direction,
+        sweeps=r.sweeps,
+        sweep_time_s=r.sweep_time_s,
+        tolerance_pct=r.tolerance_pct,
     )
 
 
-def _shock_table(r: dict[str, Any]) -> ShockTable:
-    f, a = r["freq_hz"], r["accel_g"]
-    slopes = _slopes(r.get("slopes_db_per_oct"), len(f))
+def _shock_table(r: res.ShockResult) -> ShockTable:
+    f, a = r.freq_hz, r.accel_g
+    slopes = _slopes(r.slopes_db_per_oct, len(f))
     return ShockTable(
         rows=[ShockRow(freq_hz=f[i], accel_g=a[i],
                        slope_db_per_oct=slopes[i] if i < len(slopes) else None)
               for i in range(len(f))],
-        q=r["q"],
-        lower_db=r["lower_db"],
-        upper_db=r["upper_db"],
-        min_fraction_above_nominal=r["min_fraction_above_nominal"],
-        shocks_per_direction=r["shocks_per_direction"],
-        directions=r["directions"],
-        shocks_per_axis=r["shocks_per_axis"],
+        q=r.q,
+        lower_db=r.lower_db,
+        upper_db=r.upper_db,
+        min_fraction_above_nominal=r.min_fraction_above_nominal,
+        shocks_per_direction=r.shocks_per_direction,
+        directions=r.directions,
+        shocks_per_axis=r.shocks_per_axis,
     )
 
 
-def _coverage(cov: dict[str, Any] | None) -> CoverageData | None:
-    if not cov:
+def _coverage(cov: res.Coverage | None) -> CoverageData | None:
+    if cov is None:
         return None
     fds = [
-        FdsCoverage(b=b, ratio_db=item["fds_ratio_db"], required_db=item["required_db"],
-                    worst_fn_hz=item["worst_fn_hz"], worst_db=item["worst_db"],
-                    passed=item["passed"])
-        for b, item in (cov.get("by_b") or {}).items()
+        FdsCoverage(b=b, ratio_db=item.fds_ratio_db, required_db=item.required_db,
+                    worst_fn_hz=item.worst_fn_hz, worst_db=item.worst_db, passed=item.passed)
+        for b, item in cov.by_b.items()
     ]
-    e = cov.get("ers")
+    e = cov.ers
     ers = None
-    if e:
-        ers = ErsCoverage(ratio_db=e["ers_ratio_db"], required_db=e["required_db"],
-                          worst_fn_hz=e["worst_fn_hz"], worst_db=e["worst_db"],
-                          passed=e["passed"], overtest_limit_db=e["overtest_limit_db"],
-                          max_overtest_db=e.get("max_overtest_db"),
-                          max_overtest_fn_hz=e.get("max_overtest_fn_hz"))
-    return CoverageData(fn_hz=cov.get("fn_hz", []), q=cov.get("q"), life=cov.get("life", []),
-                        fds=fds, ers=ers, passed=bool(cov.get("passed")),
-                        notes=cov.get("notes", []))
+    if e is not None:
+        ers = ErsCoverage(ratio_db=e.ers_ratio_db, required_db=e.required_db,
+                          worst_fn_hz=e.worst_fn_hz, worst_db=e.worst_db, passed=e.passed,
+                          overtest_limit_db=e.overtest_limit_db,
+                          max_overtest_db=e.max_overtest_db,
+                          max_overtest_fn_hz=e.max_overtest_fn_hz)
+    return CoverageData(fn_hz=cov.fn_hz, q=cov.q, life=cov.life, fds=fds, ers=ers,
+                        passed=cov.passed, notes=cov.notes)
 
 
 def _inputs(session: Session, level: m.Level) -> list[InputRow]:
@@ -479,21 +475,21 @@ def _inputs(session: Session, level: m.Level) -> list[InputRow]:
 
 def _section(session: Session, level: m.Level) -> LevelSection:
     read = read_level(session, level)
-    r = level.result
-    kind = level.kind.value
-    limit = r.get("limit") or {}
-    values = limit.get("asd_g2_hz") or limit.get("accel_g")
+    r = read.result
+    kind = r.kind
+    limit = r.limit
+    values = limit.asd_g2_hz if isinstance(limit, res.RandomLimit) else limit.accel_g
     derivation = Derivation(
         inputs=_inputs(session, level),
         combination=level.recipe.get("combination", "envelope"),
-        steps=[_step(x) for x in r.get("steps", [])],
-        limit=Curve(freq_hz=limit["freq_hz"], values=values) if values else None,
-        coverage=_coverage(r.get("coverage")),
+        steps=[_step(x) for x in r.steps],
+        limit=Curve(freq_hz=limit.freq_hz, values=values) if values else None,
+        coverage=_coverage(r.coverage),
     )
     tables: dict[str, Any] = {}
-    if kind == "random":
+    if isinstance(r, res.RandomResult):
         tables["random"] = _random_table(r)
-    elif kind == "sine":
+    elif isinstance(r, res.SineResult):
         tables["sine"] = _sine_table(r)
     else:
         tables["shock"] = _shock_table(r)
@@ -551,7 +547,7 @@ def specification_content(
     axes = []
     for axis in sorted({lvl.axis for lvl in chosen}, key=lambda a: AXIS_ORDER[a.value]):
         on_axis = [lvl for lvl in chosen if lvl.axis is axis]
-        tests = [(f"{lv.name} #{lv.number}", lv.kind.value, lv.result) for lv in on_axis]
+        tests = [(f"{lv.name} #{lv.number}", result_of(lv)) for lv in on_axis]
         policy = on_axis[0].policy
         combined = (coverage.combine_stored(tests, rules_of(policy))
                     if policy is not None else None)

@@ -16,10 +16,12 @@ from qualplan.dynamics import psd as core_psd
 from qualplan.dynamics import srs as core_srs
 from qualplan.dynamics.units import db_amplitude
 from qualplan.planning import envdata, imports
+from qualplan.planning import results as res
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import Conflict, ValidationFailed
+from qualplan.planning.levels import result_of
 from qualplan.planning.requirements import status_of
 from qualplan.store import models as m
 from qualplan.store.repositories import EvidenceRepository
@@ -117,13 +119,14 @@ def add_test_record(
     v = np.asarray(cmd.values, float)
     if f.size != v.size:
         raise ValidationFailed("values", f"{v.size} values", f"must match freq_hz ({f.size})")
+    result = result_of(level)
     with envdata.core_errors(""):
-        if level.kind is m.EnvironmentKind.random:
-            verdict, summary, achieved = _check_random(level.result, f, v, cmd.duration_s)
-        elif level.kind is m.EnvironmentKind.shock:
-            verdict, summary, achieved = _check_shock(level.result, f, v, cmd.shocks)
+        if isinstance(result, res.RandomResult):
+            verdict, summary, achieved = _check_random(result, f, v, cmd.duration_s)
+        elif isinstance(result, res.ShockResult):
+            verdict, summary, achieved = _check_shock(result, f, v, cmd.shocks)
         else:
-            verdict, summary, achieved = _check_sine(level.result, f, v)
+            verdict, summary, achieved = _check_sine(result, f, v)
     summary["note"] = cmd.note
     return _add(
         session,
@@ -178,27 +181,27 @@ def _verdict(ok: bool) -> m.Verdict:
     return m.Verdict.passed if ok else m.Verdict.failed
 
 
-def _check_random(level: dict, f, v, duration_s):
-    chk = core_psd.check_against(f, v, level["freq_hz"], level["asd_g2_hz"],
-                                 tol_db=level["tolerance_db"],
-                                 grms_tol_pct=level["grms_tolerance_pct"])
+def _check_random(level: res.RandomResult, f, v, duration_s):
+    chk = core_psd.check_against(f, v, level.freq_hz, level.asd_g2_hz,
+                                 tol_db=level.tolerance_db,
+                                 grms_tol_pct=level.grms_tolerance_pct)
     problems = []
     bad = int((~chk.line_pass).sum())
     if bad:
         problems.append(f"{bad} of {chk.line_pass.size} lines outside "
-                        f"+/-{level['tolerance_db']:g} dB; worst {chk.worst_deviation_db:+.2f} dB "
+                        f"+/-{level.tolerance_db:g} dB; worst {chk.worst_deviation_db:+.2f} dB "
                         f"at {chk.worst_freq_hz:.4g} Hz")
     if not chk.grms_pass:
         problems.append(f"g rms {chk.grms_achieved:.3g} g is {chk.grms_deviation_db:+.2f} dB "
                         f"from the specified {chk.grms_spec:.3g} g (allowed "
-                        f"+/-{level['grms_tolerance_pct']:g} %)")
-    required_s = level["duration_s"] * (1 - level["duration_tolerance_pct"] / 100)
+                        f"+/-{level.grms_tolerance_pct:g} %)")
+    required_s = level.duration_s * (1 - level.duration_tolerance_pct / 100)
     if duration_s is None:
         problems.append("no test duration given")
     elif duration_s < required_s:
         problems.append(f"duration {duration_s:g} s is shorter than the required "
-                        f"{level['duration_s']:g} s (-{level['duration_tolerance_pct']:g} %)")
-    achieved = db_amplitude(chk.grms_achieved / level["limit"]["grms"])
+                        f"{level.duration_s:g} s (-{level.duration_tolerance_pct:g} %)")
+    achieved = db_amplitude(chk.grms_achieved / level.limit.grms)
     summary = {
         "lines": int(chk.line_pass.size), "lines_outside": bad,
         "worst_freq_hz": chk.worst_freq_hz, "worst_deviation_db": chk.worst_deviation_db,
@@ -208,16 +211,16 @@ def _check_random(level: dict, f, v, duration_s):
         "duration": {"value": duration_s, "unit": "s"},
         "achieved_margin_db": {"value": achieved, "unit": "dB over the limit level (g rms)"},
         "reason": "; ".join(problems) if problems else
-                  f"all {chk.line_pass.size} lines within +/-{level['tolerance_db']:g} dB (worst "
+                  f"all {chk.line_pass.size} lines within +/-{level.tolerance_db:g} dB (worst "
                   f"{chk.worst_deviation_db:+.2f} dB at {chk.worst_freq_hz:.4g} Hz), g rms "
-                  f"{chk.grms_achieved:.3g} g within +/-{level['grms_tolerance_pct']:g} %, "
+                  f"{chk.grms_achieved:.3g} g within +/-{level.grms_tolerance_pct:g} %, "
                   f"duration {duration_s:g} s",
     }
     return _verdict(not problems), summary, achieved
 
 
-def _check_shock(level: dict, f, v, shocks):
-    nominal = core_srs.SrsProfile(level["freq_hz"], level["accel_g"])
+def _check_shock(level: res.ShockResult, f, v, shocks):
+    nominal = core_srs.SrsProfile(level.freq_hz, level.accel_g)
     band = (f >= nominal.freq_hz[0]) & (f <= nominal.freq_hz[-1])
     if band.sum() < 2:
         raise ValidationFailed("freq_hz", [float(f[0]), float(f[-1])],
@@ -225,18 +228,19 @@ def _check_shock(level: dict, f, v, shocks):
                                f"{nominal.freq_hz[0]:g}-{nominal.freq_hz[-1]:g} Hz")
     f, v = f[band], v[band]
     chk = core_srs.check_srs(
-        f, v, nominal, lower_db=level["lower_db"], upper_db=level["upper_db"],
-        outer_lower_db=level.get("outer_lower_db"), outer_upper_db=level.get("outer_upper_db"),
-        min_share_within_band=level.get("min_share_within_band", 1.0),
-        min_fraction_above=level["min_fraction_above_nominal"] or None,
+        f, v, nominal, lower_db=level.lower_db, upper_db=level.upper_db,
+        outer_lower_db=level.outer_lower_db, outer_upper_db=level.outer_upper_db,
+        min_share_within_band=(1.0 if level.min_share_within_band is None
+                               else level.min_share_within_band),
+        min_fraction_above=level.min_fraction_above_nominal or None,
     )
     problems = list(chk.reasons)
-    need = level["shocks_per_axis"]
+    need = level.shocks_per_axis
     if shocks is None:
         problems.append("the number of shocks applied is not given")
     elif shocks < need:
         problems.append(f"{shocks} shocks applied, {need} required per axis")
-    limit = core_srs.SrsProfile(level["limit"]["freq_hz"], level["limit"]["accel_g"])
+    limit = core_srs.SrsProfile(level.limit.freq_hz, level.limit.accel_g)
     inside = (f >= limit.freq_hz[0]) & (f <= limit.freq_hz[-1])
     achieved = (float(np.mean(20 * np.log10(v[inside] / limit.value_at(f[inside]))))
                 if inside.any() else None)
@@ -255,8 +259,8 @@ def _check_shock(level: dict, f, v, shocks):
     return _verdict(not problems), summary, achieved
 
 
-def _check_sine(level: dict, f, v):
-    ref_f, ref_a = np.asarray(level["freq_hz"]), np.asarray(level["accel_g"])
+def _check_sine(level: res.SineResult, f, v):
+    ref_f, ref_a = np.asarray(level.freq_hz), np.asarray(level.accel_g)
     inside = (f >= ref_f[0]) & (f <= ref_f[-1])
     if not inside.any():
         raise ValidationFailed(
@@ -266,20 +270,20 @@ def _check_sine(level: dict, f, v):
         )
     nominal = np.exp(np.interp(np.log(f[inside]), np.log(ref_f), np.log(ref_a)))
     ratio = v[inside] / nominal
-    tol = level["tolerance_pct"] / 100
+    tol = level.tolerance_pct / 100
     bad = np.abs(ratio - 1) > tol
     worst = int(np.argmax(np.abs(ratio - 1)))
     lim_a = np.exp(
         np.interp(
-            np.log(f[inside]), np.log(level["limit"]["freq_hz"]), np.log(level["limit"]["accel_g"])
+            np.log(f[inside]), np.log(level.limit.freq_hz), np.log(level.limit.accel_g)
         )
     )
     achieved = float(np.min(20 * np.log10(v[inside] / lim_a)))
     reason = (
-        f"{int(bad.sum())} of {int(inside.sum())} points outside +/-{level['tolerance_pct']:g}"
+        f"{int(bad.sum())} of {int(inside.sum())} points outside +/-{level.tolerance_pct:g}"
         f" %; worst {100 * (ratio[worst] - 1):+.1f} % at {f[inside][worst]:g} Hz"
         if bad.any()
-        else f"within +/-{level['tolerance_pct']:g} % at every point"
+        else f"within +/-{level.tolerance_pct:g} % at every point"
     )
     summary = {
         "points": int(inside.sum()),

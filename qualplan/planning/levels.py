@@ -25,10 +25,17 @@ from qualplan.dynamics.errors import AccuracyWarning
 from qualplan.dynamics.units import from_db_amplitude
 from qualplan.planning import coverage as cov
 from qualplan.planning import envdata
+from qualplan.planning import results as r
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import ValidationFailed
+from qualplan.planning.lifecycle import (
+    LifeItem,
+    exposure_s,
+    life_cycle,
+    lineage,
+)
 from qualplan.planning.policies import rules_of
 from qualplan.store import models as m
 from qualplan.store.hashing import json_hash
@@ -39,12 +46,17 @@ K = m.EnvironmentKind
 SRS_POINTS_PER_OCTAVE = 6
 
 
+#: Limits a random vibration controller can follow (common practice): the steepest
+#: slope between breakpoints [dB/oct] and the ratio of the highest to the lowest ASD [dB].
+MAX_SLOPE_DB_PER_OCT = 24.0
+MAX_DYNAMIC_RANGE_DB = 40.0
+
 #: One environment revision chosen for a level, with its environment.
-Input = cov.LifeItem
+Input = LifeItem
 
 
 def _inputs(session: Session, recipe: s.LevelRecipe, product: m.Product) -> list[Input]:
-    allowed_products = set(cov.lineage(session, product))
+    allowed_products = set(lineage(session, product))
     out = []
     for i, rid in enumerate(recipe.revision_ids):
         rev = get(session, m.EnvironmentRevision, rid, "environment revision")
@@ -160,70 +172,90 @@ def _simplified(freq, values, max_points: int, *, power: bool):
     return res.freq_hz, np.sqrt(res.asd_g2_hz), res.excess_db / 2
 
 
+def _step(step: str, **fields: Any) -> r.Step:
+    """A derivation step; keywords other than Step's own fields are its values."""
+    own = {k: fields.pop(k) for k in ("inputs", "db", "basis", "method") if k in fields}
+    return r.Step(step=step, **own, values=fields)
+
+
+def _random_verdicts(f, a, converged: bool, reasons: list[str], *, test: bool
+                     ) -> tuple[bool | None, list[str]]:
+    """Controllability of a random test level: slopes and dynamic range (common practice)."""
+    if not test:
+        return None, reasons
+    out = list(reasons)
+    slopes = core_psd.slopes_db_per_oct(f, a)
+    steep = np.abs(slopes) > MAX_SLOPE_DB_PER_OCT
+    if steep.any():
+        i = int(np.argmax(np.abs(slopes)))
+        out.append(f"not controllable: slope {slopes[i]:+.1f} dB/oct between {f[i]:.4g} and "
+                   f"{f[i + 1]:.4g} Hz (limit +/-{MAX_SLOPE_DB_PER_OCT:g} dB/oct)")
+    span = 10 * np.log10(np.max(a) / np.min(a))
+    if span > MAX_DYNAMIC_RANGE_DB:
+        out.append(f"not controllable: ASD spans {span:.1f} dB (limit "
+                   f"{MAX_DYNAMIC_RANGE_DB:g} dB)")
+    return not (steep.any() or span > MAX_DYNAMIC_RANGE_DB), out
+
+
 def derive_random(
     recipe: s.LevelRecipe, rules: s.PolicyRules, inputs: list[Input], life_s: float
-) -> dict[str, Any]:
+) -> r.RandomResult:
     eq = rules.equivalence
-    steps: list[dict[str, Any]] = []
+    steps: list[r.Step] = []
     equivalent = recipe.combination == "fds_equivalent"
+    converged, reasons = True, []
     if equivalent:
         if recipe.purpose is m.LevelPurpose.analysis:
             raise ValidationFailed("combination", recipe.combination,
                                    "makes test levels (it needs a test duration)")
         test_s = rules.random[recipe.grade].duration_s or life_s
         f, a, info = _fds_equivalent(inputs, rules, test_s)
-        steps.append({"step": "FDS equivalence", **info})
+        steps.append(_step("FDS equivalence", **info))
+        worst = max(info["max_fds_error"].values())
+        if not worst <= r.FDS_RTOL:
+            converged = False
+            reasons.append(f"FDS inversion did not converge: worst error {worst:.3g} "
+                           f"(tolerance {r.FDS_RTOL:g})")
     elif recipe.combination == "envelope":
         curves = _random_curves(inputs, (eq.f_lo_hz, eq.f_hi_hz))
         f, a = core_psd.envelope(curves) if len(curves) > 1 else curves[0]
-        steps.append({"step": "maximum envelope", "inputs": [i.label for i in inputs]})
+        steps.append(_step("maximum envelope", inputs=[i.label for i in inputs]))
     else:
         f, a, info = _statistical(_random_curves(inputs, (eq.f_lo_hz, eq.f_hi_hz)),
                                   power=True)
-        steps.append({"step": "P95/50", **info})
+        steps.append(_step("P95/50", **info))
     f, a, excess = _simplified(f, a, recipe.max_breakpoints, power=True)
-    limit = {"freq_hz": f.tolist(), "asd_g2_hz": a.tolist(), "grms": core_psd.grms(f, a)}
-    steps.append(
-        {
-            "step": "conservative simplification",
-            "max_breakpoints": recipe.max_breakpoints,
-            "excess_db": excess,
-        }
-    )
+    limit = r.RandomLimit(freq_hz=list(map(float, f)), asd_g2_hz=list(map(float, a)),
+                          grms=core_psd.grms(f, a))
+    steps.append(_step("conservative simplification", max_breakpoints=recipe.max_breakpoints,
+                       excess_db=excess))
     if recipe.purpose is m.LevelPurpose.analysis:
         margin = rules.analysis.margin_db
         f, a = core_psd.scale_db(f, a, margin)
-        steps.append({"step": "analysis margin", "db": margin, "basis": rules.analysis.basis})
-        out = {
-            "freq_hz": f.tolist(),
-            "asd_g2_hz": a.tolist(),
-            "grms": core_psd.grms(f, a),
-            "limit": limit,
-            "steps": steps,
-            "life_exposure_s": life_s,
-        }
+        steps.append(_step("analysis margin", db=margin, basis=rules.analysis.basis))
+        load_factor = None
         if recipe.load_factor_fn_hz:
             fn, q = recipe.load_factor_fn_hz, recipe.load_factor_q
             g_fn = float(core_psd.asd_at(f, a, fn))
             rms = float(core_sdof.miles_grms(fn, q, g_fn))
-            out["load_factor"] = {
-                "fn_hz": fn,
-                "q": q,
-                "asd_at_fn_g2_hz": g_fn,
-                "miles_grms": rms,
-                "three_sigma_g": 3 * rms,
-                "method": "Miles' equation, 3 sigma",
-            }
-        return out
+            load_factor = r.LoadFactor(fn_hz=fn, q=q, asd_at_fn_g2_hz=g_fn, miles_grms=rms,
+                                       three_sigma_g=3 * rms,
+                                       method="Miles' equation, 3 sigma")
+        return r.RandomResult(
+            freq_hz=list(map(float, f)), asd_g2_hz=list(map(float, a)),
+            grms=core_psd.grms(f, a), slopes_db_per_oct=core_psd.slopes_db_per_oct(f, a).tolist(),
+            limit=limit, steps=steps, life_exposure_s=life_s, load_factor=load_factor,
+            verdicts=r.Verdicts(converged=converged, controllable=None, reasons=reasons),
+        )
     rule = rules.random[recipe.grade]
     f, a = core_psd.scale_db(f, a, rule.margin_db)
-    steps.append({"step": "margin", "db": rule.margin_db, "basis": rule.basis})
+    steps.append(_step("margin", db=rule.margin_db, basis=rule.basis))
     duration, compression = _random_duration(rule, life_s)
     if equivalent:  # the FDS inversion already brought the life into the test duration
         duration, compression = rule.duration_s or life_s, None
     if compression is not None:
         f, a = core_psd.scale_db(f, a, compression["db"])
-        steps.append({"step": "time compression", **compression})
+        steps.append(_step("time compression", **compression))
     if rule.minimum_profile:
         mf, ma = rule.minimum_profile["freq_hz"], rule.minimum_profile["asd_g2_hz"]
         floor_grms = core_psd.grms(mf, ma)
@@ -231,21 +263,23 @@ def derive_random(
         raised = not np.allclose(core_psd.asd_at(ef, ea, ef), core_psd.asd_at(f, a, ef))
         if raised:
             f, a, _ = _simplified(ef, ea, recipe.max_breakpoints, power=True)
-        steps.append({"step": "minimum level", "floor_grms": floor_grms, "raised": bool(raised)})
-    return {
-        "freq_hz": list(map(float, f)),
-        "asd_g2_hz": list(map(float, a)),
-        "grms": core_psd.grms(f, a),
-        "slopes_db_per_oct": core_psd.slopes_db_per_oct(f, a).tolist(),
-        "duration_s": duration,
-        "tolerance_db": rule.tolerance_db,
-        "grms_tolerance_pct": rule.grms_tolerance_pct,
-        "duration_tolerance_pct": rule.duration_tolerance_pct,
-        "shaker": _shaker(f, a),
-        "limit": limit,
-        "steps": steps,
-        "life_exposure_s": life_s,
-    }
+        steps.append(_step("minimum level", floor_grms=floor_grms, raised=bool(raised)))
+    f, a = np.asarray(f, float), np.asarray(a, float)
+    controllable, reasons = _random_verdicts(f, a, converged, reasons, test=True)
+    d = core_psd.shaker_demand(f, a)
+    return r.RandomResult(
+        freq_hz=f.tolist(), asd_g2_hz=a.tolist(), grms=core_psd.grms(f, a),
+        slopes_db_per_oct=core_psd.slopes_db_per_oct(f, a).tolist(), duration_s=duration,
+        tolerance_db=rule.tolerance_db, grms_tolerance_pct=rule.grms_tolerance_pct,
+        duration_tolerance_pct=rule.duration_tolerance_pct,
+        shaker=r.Shaker(velocity_rms_m_s=d.velocity_rms_m_s,
+                        displacement_rms_m=d.displacement_rms_m,
+                        displacement_peak_m=d.displacement_peak_m,
+                        displacement_pk_pk_m=d.displacement_pk_pk_m),
+        limit=limit, steps=steps, life_exposure_s=life_s,
+        tolerance_band=r.random_band(f, a, rule.tolerance_db),
+        verdicts=r.Verdicts(converged=converged, controllable=controllable, reasons=reasons),
+    )
 
 
 def _fds_equivalent(inputs: list[Input], rules: s.PolicyRules, test_s: float):
@@ -279,16 +313,6 @@ def _fds_equivalent(inputs: list[Input], rules: s.PolicyRules, test_s: float):
     return fn[keep], g, info
 
 
-def _shaker(f, a) -> dict[str, Any]:
-    d = core_psd.shaker_demand(f, a)
-    return {
-        "velocity_rms_m_s": d.velocity_rms_m_s,
-        "displacement_rms_m": d.displacement_rms_m,
-        "displacement_peak_m": d.displacement_peak_m,
-        "displacement_pk_pk_m": d.displacement_pk_pk_m,
-    }
-
-
 def _random_duration(rule: s.RandomRule, life_s: float):
     """Test duration per axis and, under an inverse power law, the level increase."""
     if rule.compression_exponent and rule.duration_s:
@@ -313,70 +337,61 @@ def _random_duration(rule: s.RandomRule, life_s: float):
 
 def derive_shock(
     recipe: s.LevelRecipe, rules: s.PolicyRules, inputs: list[Input]
-) -> dict[str, Any]:
+) -> r.ShockResult:
     rule = rules.shock[recipe.grade]
     curves = _shock_curves(inputs, rule.q)
-    steps: list[dict[str, Any]] = []
+    steps: list[r.Step] = []
     if recipe.combination == "envelope":
         if len(curves) > 1:
             env = core_srs.srs_envelope([core_srs.SrsProfile(f, v) for f, v in curves])
             f, v = env.freq_hz, env.accel_g
         else:
             f, v = curves[0]
-        steps.append({"step": "maximum envelope", "inputs": [i.label for i in inputs]})
+        steps.append(_step("maximum envelope", inputs=[i.label for i in inputs]))
     else:
         f, v, info = _statistical(curves, power=False)
-        steps.append({"step": "P95/50", **info})
+        steps.append(_step("P95/50", **info))
     f, v, excess = _simplified(f, v, recipe.max_breakpoints, power=False)
-    steps.append(
-        {
-            "step": "conservative simplification",
-            "max_breakpoints": recipe.max_breakpoints,
-            "excess_db": excess,
-        }
-    )
-    limit = {"freq_hz": list(map(float, f)), "accel_g": list(map(float, v))}
+    steps.append(_step("conservative simplification", max_breakpoints=recipe.max_breakpoints,
+                       excess_db=excess))
+    limit = r.CurveLimit(freq_hz=list(map(float, f)), accel_g=list(map(float, v)))
     margin = (
         rules.analysis.margin_db if recipe.purpose is m.LevelPurpose.analysis else rule.margin_db
     )
     v = np.asarray(v) * from_db_amplitude(margin)
-    steps.append({"step": "margin", "db": margin})
+    steps.append(_step("margin", db=margin))
     directions = 2 if rule.directions == "both" else 1
-    return {
-        "freq_hz": list(map(float, f)),
-        "accel_g": list(map(float, v)),
-        "q": rule.q,
-        "slopes_db_per_oct": core_srs.SrsProfile(f, v).slopes_db_per_oct().tolist(),
-        "lower_db": rule.lower_db,
-        "upper_db": rule.upper_db,
-        "outer_lower_db": rule.outer_lower_db,
-        "outer_upper_db": rule.outer_upper_db,
-        "min_share_within_band": rule.min_share_within_band,
-        "min_fraction_above_nominal": rule.min_fraction_above_nominal,
-        "shocks_per_direction": rule.shocks_per_direction,
-        "directions": rule.directions,
-        "shocks_per_axis": rule.shocks_per_direction * directions,
-        "steps": steps,
-        "limit": limit,
-    }
+    f = list(map(float, f))
+    v = list(map(float, v))
+    return r.ShockResult(
+        freq_hz=f, accel_g=v, q=rule.q,
+        slopes_db_per_oct=core_srs.SrsProfile(f, v).slopes_db_per_oct().tolist(),
+        lower_db=rule.lower_db, upper_db=rule.upper_db,
+        outer_lower_db=rule.outer_lower_db, outer_upper_db=rule.outer_upper_db,
+        min_share_within_band=rule.min_share_within_band,
+        min_fraction_above_nominal=rule.min_fraction_above_nominal,
+        shocks_per_direction=rule.shocks_per_direction, directions=rule.directions,
+        shocks_per_axis=rule.shocks_per_direction * directions, steps=steps, limit=limit,
+        tolerance_band=r.shock_band(f, v, rule.lower_db, rule.upper_db),
+        verdicts=r.Verdicts(converged=True, controllable=(
+            None if recipe.purpose is m.LevelPurpose.analysis else True)),
+    )
 
 
-def derive_sine(recipe: s.LevelRecipe, rules: s.PolicyRules, inputs: list[Input]) -> dict[str, Any]:
+def derive_sine(recipe: s.LevelRecipe, rules: s.PolicyRules, inputs: list[Input]
+                ) -> r.SineResult:
     rule = rules.sine[recipe.grade]
     if recipe.purpose is m.LevelPurpose.analysis:
         factor = from_db_amplitude(rules.analysis.margin_db)
     else:
         factor = rule.factor
     specs = [envdata.sine_spec_of(i.revision.spec) for i in inputs]
-    steps: list[dict[str, Any]] = [
-        {"step": "maximum envelope", "inputs": [i.label for i in inputs]}
-    ]
-    out: dict[str, Any] = {}
+    steps = [_step("maximum envelope", inputs=[i.label for i in inputs])]
+    bands = None
     if len(specs) == 1:
         bands = [
             dict(b, amplitude=b["amplitude"] * factor) for b in inputs[0].revision.spec["bands"]
         ]
-        out["bands"] = bands
         spec = envdata.sine_spec_of({"bands": bands})
         table_f = np.unique(
             np.concatenate([spec.breaks_hz, np.geomspace(spec.f_lo_hz, spec.f_hi_hz, 49)])
@@ -385,43 +400,36 @@ def derive_sine(recipe: s.LevelRecipe, rules: s.PolicyRules, inputs: list[Input]
     else:
         table = core_sine.envelope(specs)
         table_f, table_a = table.freq_hz, table.accel_g_points * factor
-    steps.append({"step": "factor", "factor": factor, "basis": rule.basis})
-    out.update(
-        {
-            "freq_hz": list(map(float, table_f)),
-            "accel_g": list(map(float, table_a)),
-            "sweep_rate_oct_per_min": rule.sweep_rate_oct_per_min,
-            "direction": rule.direction,
-            "sweeps": rule.sweeps,
-            "tolerance_pct": rule.tolerance_pct,
-            "steps": steps,
-            "limit": {
-                "freq_hz": list(map(float, table_f)),
-                "accel_g": list(map(float, np.asarray(table_a) / factor)),
-            },
-        }
-    )
+    steps.append(_step("factor", factor=factor, basis=rule.basis))
     sweep = core_sine.Sweep(
         core_sine.SineTable(table_f, table_a),
         rule.sweep_rate_oct_per_min,
         direction=rule.direction,
         n_sweeps=rule.sweeps,
     )
-    out["sweep_time_s"] = sweep.duration_s
-    out["peak_accel_g"] = float(np.max(table_a))
-    return out
-
-
-def _seconds(item: Input) -> float:
-    """Exposure time of a random environment or a record over the life [s]."""
-    amount, unit = cov.exposure(item.environment, item.revision)
-    if unit == "s":
-        return amount
-    rev = item.revision
-    return amount * np.asarray(rev.data).size * rev.spec["dt_s"]
+    f, a = list(map(float, table_f)), list(map(float, table_a))
+    return r.SineResult(
+        bands=bands, freq_hz=f, accel_g=a,
+        sweep_rate_oct_per_min=rule.sweep_rate_oct_per_min, direction=rule.direction,
+        sweeps=rule.sweeps, tolerance_pct=rule.tolerance_pct, steps=steps,
+        limit=r.CurveLimit(freq_hz=f, accel_g=list(map(float, np.asarray(table_a) / factor))),
+        sweep_time_s=sweep.duration_s, peak_accel_g=float(np.max(table_a)),
+        tolerance_band=r.sine_band(f, a, rule.tolerance_pct),
+        verdicts=r.Verdicts(converged=True, controllable=(
+            None if recipe.purpose is m.LevelPurpose.analysis else True)),
+    )
 
 
 # --- the use case ---------------------------------------------------------------------
+
+
+def _with_coverage(result, life: list[LifeItem], rules: s.PolicyRules):
+    """The test level with its coverage of the life and the verdicts that follow."""
+    coverage = cov.coverage_of_level(result, life, rules)
+    covers, reasons = r.covers_life(coverage)
+    verdicts = result.verdicts.model_copy(update={
+        "covers_life": covers, "reasons": [*result.verdicts.reasons, *reasons]})
+    return result.model_copy(update={"coverage": coverage, "verdicts": verdicts})
 
 
 def derive_level(session: Session, actor: Actor, recipe: s.LevelRecipe) -> m.Level:
@@ -431,17 +439,17 @@ def derive_level(session: Session, actor: Actor, recipe: s.LevelRecipe) -> m.Lev
     policy = get(session, m.MarginPolicy, recipe.policy_id, "policy")
     rules = rules_of(policy)
     inputs = _inputs(session, recipe, product)
-    life = cov.life_cycle(session, product, recipe.axis)
+    life = life_cycle(session, product, recipe.axis)
     with envdata.core_errors(""):
         if recipe.kind == "random":
-            life_s = sum(_seconds(i) for i in inputs)
+            life_s = sum(exposure_s(i) for i in inputs)
             result = derive_random(recipe, rules, inputs, life_s)
         elif recipe.kind == "shock":
             result = derive_shock(recipe, rules, inputs)
         else:
             result = derive_sine(recipe, rules, inputs)
         if recipe.purpose is m.LevelPurpose.test:
-            result["coverage"] = cov.coverage_of_level(recipe.kind, result, life, rules)
+            result = _with_coverage(result, life, rules)
     hashes = {
         "revisions": {str(i.revision.id): i.revision.content_hash for i in inputs},
         "life_cycle": {str(x.revision.id): x.revision.content_hash for x in life},
@@ -460,7 +468,7 @@ def derive_level(session: Session, actor: Actor, recipe: s.LevelRecipe) -> m.Lev
             kind=K(recipe.kind),
             axis=recipe.axis,
             recipe=recipe_json,
-            result=_json_safe(result),
+            result=r.dump(result),
             input_hashes=hashes,
             level_hash=json_hash({"recipe": recipe_json, "inputs": hashes}),
             author=actor.name,
@@ -479,18 +487,9 @@ def derive_level(session: Session, actor: Actor, recipe: s.LevelRecipe) -> m.Lev
     return level
 
 
-def _json_safe(value):
-    if isinstance(value, dict):
-        return {str(k): _json_safe(v) for k, v in value.items()}
-    if isinstance(value, list | tuple):
-        return [_json_safe(v) for v in value]
-    if isinstance(value, np.ndarray):
-        return [_json_safe(v) for v in value.tolist()]
-    if isinstance(value, np.floating | np.integer | np.bool_):
-        return value.item()
-    if isinstance(value, float) and not np.isfinite(value):
-        return None
-    return value
+def result_of(level: m.Level) -> r.RandomResult | r.SineResult | r.ShockResult:
+    """The typed result of a stored level (rows of every schema version load)."""
+    return r.load(level.kind.value, level.result)
 
 
 def staleness(session: Session, level: m.Level) -> list[str]:
@@ -512,7 +511,7 @@ def staleness(session: Session, level: m.Level) -> list[str]:
     if level.purpose is m.LevelPurpose.test:
         product = session.get(m.Product, level.product_id)
         known = set(level.input_hashes.get("life_cycle", {}))
-        for x in cov.life_cycle(session, product, level.axis):
+        for x in life_cycle(session, product, level.axis):
             if str(x.revision.id) not in known and str(x.revision.id) not in used:
                 if x.revision.number == 1:
                     reasons.append(
@@ -523,21 +522,14 @@ def staleness(session: Session, level: m.Level) -> list[str]:
 
 
 def read_level(session: Session, level: m.Level) -> s.LevelRead:
-    out = s.LevelRead.model_validate(level)
-    out.stale_reasons = staleness(session, level)
-    out.stale = bool(out.stale_reasons)
-    return out
-
-
-def current_test_levels(session: Session, product_id: int, grade: m.Grade) -> list[m.Level]:
-    """The newest number of every test level of a product for a grade."""
-    newest: dict[str, m.Level] = {}
-    for lvl in LevelRepository(session).list(product_id=product_id):
-        if lvl.purpose is not m.LevelPurpose.test or lvl.grade is not m.Grade(grade):
-            continue
-        if lvl.name not in newest or lvl.number > newest[lvl.name].number:
-            newest[lvl.name] = lvl
-    return list(newest.values())
+    reasons = staleness(session, level)
+    return s.LevelRead(
+        id=level.id, product_id=level.product_id, policy_id=level.policy_id, name=level.name,
+        number=level.number, purpose=level.purpose, grade=level.grade, kind=level.kind,
+        axis=level.axis, recipe=level.recipe, result=result_of(level),
+        input_hashes=level.input_hashes, level_hash=level.level_hash, author=level.author,
+        created_at=level.created_at, stale=bool(reasons), stale_reasons=reasons,
+    )
 
 
 def level_by_id(session: Session, level_id: int) -> m.Level:

@@ -10,6 +10,7 @@ from typing import Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 
+from qualplan.planning.results import LevelResult
 from qualplan.store.models import (
     Axis,
     EnvironmentKind,
@@ -305,7 +306,8 @@ class LevelRead(Read):
     kind: EnvironmentKind
     axis: Axis
     recipe: dict[str, Any]
-    result: dict[str, Any]
+    #: The typed result (planning.results), discriminated on ``kind``.
+    result: LevelResult
     input_hashes: dict[str, Any]
     level_hash: str
     author: str

@@ -19,6 +19,7 @@ from matplotlib.collections import LineCollection  # noqa: E402
 from matplotlib.figure import Figure  # noqa: E402
 from matplotlib.ticker import FuncFormatter, LogLocator, NullLocator  # noqa: E402
 
+from qualplan.planning import results  # noqa: E402
 from qualplan.planning.documents import CoverageData, Curve, LevelSection  # noqa: E402
 
 WIDTH_IN, HEIGHT_IN = 6.4, 3.5
@@ -145,31 +146,32 @@ def level_chart(section: LevelSection) -> str:
             t = section.random
             f = [r.freq_hz for r in t.rows]
             a = [r.asd_g2_hz for r in t.rows]
-            up, lo = 10 ** (t.tolerance_db / 10), 10 ** (-t.tolerance_db / 10)
+            band = results.random_band(f, a, t.tolerance_db)
             ax.plot(f, a, color=NOMINAL, marker="o", ms=3,
                     label=f"test level, {t.grms:.3g} g rms")
-            ax.plot(f, np.multiply(a, up), color=BAND, ls="--", lw=1,
+            ax.plot(f, band.upper, color=BAND, ls="--", lw=1,
                     label=f"tolerance +/-{t.tolerance_db:g} dB")
-            ax.plot(f, np.multiply(a, lo), color=BAND, ls="--", lw=1)
+            ax.plot(f, band.lower, color=BAND, ls="--", lw=1)
             ax.set_ylabel("ASD [g²/Hz]")
         elif section.kind == "shock":
             t = section.shock
             f = [r.freq_hz for r in t.rows]
             a = [r.accel_g for r in t.rows]
             ax.plot(f, a, color=NOMINAL, marker="o", ms=3, label=f"test SRS, Q = {t.q:g}")
-            ax.plot(f, np.multiply(a, 10 ** (t.upper_db / 20)), color=BAND, ls="--", lw=1,
+            band = results.shock_band(f, a, t.lower_db, t.upper_db)
+            ax.plot(f, band.upper, color=BAND, ls="--", lw=1,
                     label=f"tolerance {t.lower_db:+g} / {t.upper_db:+g} dB")
-            ax.plot(f, np.multiply(a, 10 ** (t.lower_db / 20)), color=BAND, ls="--", lw=1)
+            ax.plot(f, band.lower, color=BAND, ls="--", lw=1)
             ax.set_ylabel("SRS peak acceleration [g]")
         else:
             t = section.sine
             f = [p.freq_hz for p in t.points]
             a = [p.accel_g for p in t.points]
-            tol = t.tolerance_pct / 100
+            band = results.sine_band(f, a, t.tolerance_pct)
             ax.plot(f, a, color=NOMINAL, label=f"test level, peak {t.peak_accel_g:.3g} g")
-            ax.plot(f, np.multiply(a, 1 + tol), color=BAND, ls="--", lw=1,
+            ax.plot(f, band.upper, color=BAND, ls="--", lw=1,
                     label=f"tolerance +/-{t.tolerance_pct:g} %")
-            ax.plot(f, np.multiply(a, 1 - tol), color=BAND, ls="--", lw=1)
+            ax.plot(f, band.lower, color=BAND, ls="--", lw=1)
             ax.set_ylabel("acceleration [g peak]")
         if limit is not None and limit.freq_hz:
             lf, lv = limit.freq_hz, limit.values

@@ -596,9 +596,9 @@ def level(level_id: int, ctx: Ctx = CtxDep) -> Response:
         product = catalog.get(ctx.db, m.Product, row.product_id, "product")
         return render(
             ctx, "web/level.html", level=row, read=read, product=product,
-            plot=plots.level_plot(row) if row.kind in plots.QUANTITY else None,
-            coverage=plots.coverage_plots(row), worst=plots.worst_margins(row),
-            cov=(row.result or {}).get("coverage") or {},
+            plot=plots.level_plot(read) if row.kind in plots.QUANTITY else None,
+            coverage=plots.coverage_plots(read), worst=plots.worst_margins(read),
+            cov=read.result.coverage,
         )
 
     return page(ctx, build)
@@ -608,10 +608,10 @@ def level(level_id: int, ctx: Ctx = CtxDep) -> Response:
 def level_csv(level_id: int, ctx: Ctx = CtxDep) -> Response:
     def build() -> Response:
         row = catalog.get(ctx.db, m.Level, level_id, "level")
+        result = levels.result_of(row)
         qty, unit = plots.QUANTITY[row.kind]
-        key = "asd_g2_hz" if row.kind is K.random else "accel_g"
         rows = [["frequency [Hz]", f"{qty} [{unit}]"],
-                *zip(row.result["freq_hz"], row.result[key], strict=True)]
+                *zip(result.freq_hz, result.values, strict=True)]
         return csv_response(rows, f"{_slug(row.name)}-{row.number}.csv")
 
     return page(ctx, build)

@@ -1,8 +1,8 @@
 """Plot data for the pages: series of (x, y) with names, units and line styles.
 
 The browser draws them (``static/plot.js``); here we only choose what to show. Values
-come from planning (envdata.curve and the stored level results); nothing is computed
-twice.
+come from planning (envdata.curve and the typed level results, tolerance band included);
+nothing is computed twice.
 """
 
 from __future__ import annotations
@@ -80,77 +80,71 @@ def record_plots(env, rev) -> list[dict[str, Any]]:
 
 
 def level_plot(level) -> dict[str, Any]:
-    """The level with its tolerance band (dashed) and the limit level it came from."""
+    """The level with its tolerance band (dashed) and the limit level it came from.
+
+    `level` is planning's LevelRead; the band is the one planning stored with the result.
+    """
     r = level.result
-    kind = level.kind
-    qty, unit = QUANTITY[kind]
-    key = "asd_g2_hz" if kind is K.random else "accel_g"
-    f, v = np.asarray(r["freq_hz"]), np.asarray(r[key])
+    qty, unit = QUANTITY[level.kind]
+    f, v = r.freq_hz, r.values
     series = [_series(f"{level.name} #{level.number}", f, v)]
-    band = None
-    if kind is K.random and "tolerance_db" in r:
-        tol = r["tolerance_db"]
-        band = (10 ** (-tol / 10), 10 ** (tol / 10), f"±{tol:g} dB")
-    elif kind is K.shock and "lower_db" in r:
-        band = (10 ** (r["lower_db"] / 20), 10 ** (r["upper_db"] / 20),
-                f"{r['lower_db']:+g}/{r['upper_db']:+g} dB")
-    elif kind is K.sine and "tolerance_pct" in r:
-        p = r["tolerance_pct"] / 100
-        band = (1 - p, 1 + p, f"±{r['tolerance_pct']:g} %")
+    band = r.tolerance_band
     if band is not None:
-        series.append(_series(f"tolerance {band[2]} (upper)", f, v * band[1], "dashed", "band"))
-        series.append(_series(f"tolerance {band[2]} (lower)", f, v * band[0], "dashed", "band"))
-    lim = r.get("limit") or {}
-    if key in lim:
-        series.append(_series("limit level (before margin)", lim["freq_hz"], lim[key],
-                              "dotted", "other"))
+        series.append(_series(f"tolerance {band.label} (upper)", band.freq_hz, band.upper,
+                              "dashed", "band"))
+        series.append(_series(f"tolerance {band.label} (lower)", band.freq_hz, band.lower,
+                              "dashed", "band"))
+    lim = r.limit
+    series.append(_series("limit level (before margin)", lim.freq_hz,
+                          lim.asd_g2_hz if level.kind is K.random else lim.accel_g,
+                          "dotted", "other"))
     return plot(f"{level.name} #{level.number}: {qty}", series, xlabel="frequency",
                 xunit="Hz", ylabel=qty, yunit=unit)
 
 
 def coverage_plots(level) -> list[dict[str, Any]]:
-    """FDS ratio test/life per b [dB], ERS of test and life [g], from result["coverage"]."""
-    cov = (level.result or {}).get("coverage") or {}
-    fn = cov.get("fn_hz") or []
-    if not fn:
+    """FDS ratio test/life per b [dB], ERS of test and life [g], from the level's coverage."""
+    cov = level.result.coverage
+    if cov is None or not cov.fn_hz:
         return []
+    fn = cov.fn_hz
     out = []
     series = [
-        _series(f"b = {b}", fn, d["fds_ratio_db"], role="main" if i == 0 else "alt")
-        for i, (b, d) in enumerate(cov.get("by_b", {}).items())
+        _series(f"b = {b}", fn, d.fds_ratio_db, role="main" if i == 0 else "alt")
+        for i, (b, d) in enumerate(cov.by_b.items())
     ]
-    req = next(iter(cov.get("by_b", {}).values()), {}).get("required_db", 0.0)
+    req = next(iter(cov.by_b.values())).required_db if cov.by_b else 0.0
     series.append(_series(f"required {req:+g} dB", [fn[0], fn[-1]], [req, req], "dashed", "band"))
     out.append(plot("FDS coverage: test / life", series, xlabel="natural frequency",
                     xunit="Hz", ylabel="FDS ratio", yunit="dB", ylog=False,
                     note="damage is relative: the material constant cancels in the ratio"))
-    ers = cov.get("ers")
-    if ers:
+    ers = cov.ers
+    if ers is not None:
         out.append(plot("ERS coverage: test and life", [
-            _series("test ERS", fn, ers["test_ers"]),
-            _series("life ERS", fn, ers["life_ers"], "dashed", "alt"),
+            _series("test ERS", fn, ers.test_ers),
+            _series("life ERS", fn, ers.life_ers, "dashed", "alt"),
         ], xlabel="natural frequency", xunit="Hz", ylabel="ERS", yunit="g",
-            note=f"Q = {cov.get('q', 10):g}"))
+            note=f"Q = {cov.q if cov.q is not None else 10:g}"))
         out.append(plot("ERS ratio: test / life", [
-            _series("ERS ratio", fn, ers["ers_ratio_db"]),
-            _series(f"required {ers['required_db']:+g} dB", [fn[0], fn[-1]],
-                    [ers["required_db"]] * 2, "dashed", "band"),
-            _series(f"over-test limit {ers['overtest_limit_db']:+g} dB", [fn[0], fn[-1]],
-                    [ers["overtest_limit_db"]] * 2, "dotted", "band"),
+            _series("ERS ratio", fn, ers.ers_ratio_db),
+            _series(f"required {ers.required_db:+g} dB", [fn[0], fn[-1]],
+                    [ers.required_db] * 2, "dashed", "band"),
+            _series(f"over-test limit {ers.overtest_limit_db:+g} dB", [fn[0], fn[-1]],
+                    [ers.overtest_limit_db] * 2, "dotted", "band"),
         ], xlabel="natural frequency", xunit="Hz", ylabel="ERS ratio", yunit="dB", ylog=False))
     return out
 
 
 def worst_margins(level) -> list[dict[str, Any]]:
-    cov = (level.result or {}).get("coverage") or {}
+    cov = level.result.coverage
+    if cov is None:
+        return []
     rows = []
-    for b, d in (cov.get("by_b") or {}).items():
-        rows.append({"what": f"FDS, b = {b}", "fn_hz": d.get("worst_fn_hz"),
-                     "margin_db": d.get("worst_db"), "required_db": d.get("required_db"),
-                     "passed": d.get("passed")})
-    ers = cov.get("ers")
-    if ers:
-        rows.append({"what": "ERS", "fn_hz": ers.get("worst_fn_hz"),
-                     "margin_db": ers.get("worst_db"), "required_db": ers.get("required_db"),
-                     "passed": ers.get("passed")})
+    for b, d in cov.by_b.items():
+        rows.append({"what": f"FDS, b = {b}", "fn_hz": d.worst_fn_hz, "margin_db": d.worst_db,
+                     "required_db": d.required_db, "passed": d.passed})
+    ers = cov.ers
+    if ers is not None:
+        rows.append({"what": "ERS", "fn_hz": ers.worst_fn_hz, "margin_db": ers.worst_db,
+                     "required_db": ers.required_db, "passed": ers.passed})
     return rows

@@ -220,14 +220,14 @@ def test_program_coverage_adds_the_levels_of_an_axis(session, engineer, unit, st
         revision_ids=[sine.revisions[-1].id], policy_id=gevs.id))
     rules = policies.rules_of(gevs)
     both = coverage.program_coverage(session, unit, m.Axis.Z, m.Grade.qualification, rules)
-    assert both["tests"] == ["random Z #1", "sine Z #1"]
-    for alone in (rnd.result["coverage"], sin.result["coverage"]):
-        assert alone["fn_hz"] == both["fn_hz"]
-        for b in both["by_b"]:
-            assert np.all(np.asarray(both["by_b"][b]["fds_ratio_db"]) >=
-                          np.asarray(alone["by_b"][b]["fds_ratio_db"]) - 1e-9)
-        assert np.all(np.asarray(both["ers"]["ers_ratio_db"]) >=
-                      np.asarray(alone["ers"]["ers_ratio_db"]) - 1e-9)
+    assert both.tests == ["random Z #1", "sine Z #1"]
+    for alone in (levels.result_of(rnd).coverage, levels.result_of(sin).coverage):
+        assert alone.fn_hz == both.fn_hz
+        for b in both.by_b:
+            assert np.all(np.asarray(both.by_b[b].fds_ratio_db) >=
+                          np.asarray(alone.by_b[b].fds_ratio_db) - 1e-9)
+        assert np.all(np.asarray(both.ers.ers_ratio_db) >= np.asarray(alone.ers.ers_ratio_db)
+                      - 1e-9)
 
 
 def test_random_level_from_a_record_stays_in_the_band(session, engineer, unit, road):

@@ -1,0 +1,103 @@
+"""The life cycle of a product: phases, the environments that apply to a product and
+axis (its own and its parents'), their exposures, and the current test levels.
+
+Both the derivation of levels (``planning.levels``) and their coverage of the life
+(``planning.coverage``) read the life cycle from here; neither imports the other.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from qualplan.planning.errors import ValidationFailed
+from qualplan.store import models as m
+from qualplan.store.repositories import LevelRepository, RevisionRepository
+
+K = m.EnvironmentKind
+
+
+@dataclass(frozen=True)
+class LifeItem:
+    """One environment revision with its environment (a level's input or a life item)."""
+
+    environment: m.Environment
+    revision: m.EnvironmentRevision
+
+    @property
+    def label(self) -> str:
+        """Name and revision, e.g. ``road Z r2``."""
+        return f"{self.environment.name} r{self.revision.number}"
+
+    @property
+    def life_label(self) -> str:
+        """Name, revision and phase, as the life cycle lists it."""
+        phase = self.environment.phase.name if self.environment.phase else "no phase"
+        return f"{self.label} ({phase})"
+
+
+def lineage(session: Session, product: m.Product) -> list[int]:
+    """The product and its ancestors (an environment of a parent applies to its units)."""
+    ids, p = [], product
+    while p is not None:
+        ids.append(p.id)
+        p = session.get(m.Product, p.parent_id) if p.parent_id else None
+    return ids
+
+
+def life_cycle(session: Session, product: m.Product, axis: m.Axis) -> list[LifeItem]:
+    """Latest revision of every environment of the product (and its parents) on `axis`."""
+    stmt = select(m.Environment).where(m.Environment.product_id.in_(lineage(session, product)))
+    if axis is not m.Axis.all:
+        stmt = stmt.where(m.Environment.axis.in_([axis, m.Axis.all]))
+    revs = RevisionRepository(session)
+    out = []
+    for env in session.scalars(stmt.order_by(m.Environment.id)):
+        latest = revs.latest(env.id)
+        if latest is not None:
+            out.append(LifeItem(env, latest))
+    return out
+
+
+def exposure(env: m.Environment, rev: m.EnvironmentRevision) -> tuple[float, str]:
+    """How much of an environment the life holds: seconds (random), sweeps (sine),
+    shocks (shock) or passes of the record (time history)."""
+    phase = env.phase
+    occurrences = phase.occurrences if phase else 1
+    if env.kind is K.shock:
+        return float(rev.spec.get("count", 1) * occurrences), "shocks"
+    if env.kind is K.sine:
+        return float(occurrences), "sweep sequences"
+    if env.kind is K.time_history:
+        record_s = np.asarray(rev.data).size * rev.spec["dt_s"]
+        per = rev.spec.get("duration_s", phase.duration_s if phase else record_s)
+        return float(per * occurrences / record_s), "passes of the record"
+    per = rev.spec.get("duration_s", phase.duration_s if phase else None)
+    if per is None:
+        raise ValidationFailed(
+            "duration_s", None, f"environment {env.name!r} has neither a duration nor a phase"
+        )
+    return float(per * occurrences), "s"
+
+
+def exposure_s(item: LifeItem) -> float:
+    """Exposure time of a random environment or a record over the life [s]."""
+    amount, unit = exposure(item.environment, item.revision)
+    if unit == "s":
+        return amount
+    rev = item.revision
+    return amount * np.asarray(rev.data).size * rev.spec["dt_s"]
+
+
+def current_test_levels(session: Session, product_id: int, grade: m.Grade) -> list[m.Level]:
+    """The newest number of every test level of a product for a grade."""
+    newest: dict[str, m.Level] = {}
+    for lvl in LevelRepository(session).list(product_id=product_id):
+        if lvl.purpose is not m.LevelPurpose.test or lvl.grade is not m.Grade(grade):
+            continue
+        if lvl.name not in newest or lvl.number > newest[lvl.name].number:
+            newest[lvl.name] = lvl
+    return list(newest.values())
