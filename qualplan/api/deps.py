@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import re
-from collections.abc import AsyncIterator, Iterator
+from collections.abc import Iterator
 from typing import Annotated
 
 from fastapi import Depends, Header, Query, Request
@@ -14,56 +14,19 @@ from qualplan.api.errors import Problem
 from qualplan.planning import access
 from qualplan.planning.access import Actor
 from qualplan.planning.schemas import Role
-from qualplan.store.session import unit_of_work
+from qualplan.serving import READ_SLOTS, admission, request_session
+
+__all__ = ["READ_SLOTS", "SessionDep", "ActorDep", "ReaderDep", "PageDep", "VersionDep"]
 
 MAX_LIMIT = 500
 DEFAULT_LIMIT = 50
 
 
-SAFE_METHODS = frozenset({"GET", "HEAD", "OPTIONS"})
-#: Reading requests served at once; the rest of the worker threads stay free for writers.
-READ_SLOTS = 30
-
-
-async def admission(request: Request) -> AsyncIterator[None]:
-    """Take a turn before the request's transaction starts (waiting costs no thread).
-
-    - Reads hold one of READ_SLOTS, so that readers never occupy every worker thread
-      and a writer's steps (session, route, commit) never queue behind fifty reads.
-    - On SQLite, writers take turns: SQLite has one writer, and a deferred transaction
-      that has read (the token check) and then writes after another writer committed
-      fails with "database is locked" (SQLITE_BUSY_SNAPSHOT) instead of waiting.
-      PostgreSQL needs no turn.
-    """
-    state = request.app.state
-    if request.method in SAFE_METHODS:
-        slots = getattr(state, "read_slots", None)
-        if slots is None:
-            yield
-            return
-        async with slots:
-            yield
-        return
-    lock = getattr(state, "write_lock", None)
-    if lock is None:
-        yield
-        return
-    async with lock:
-        yield
-
-
 def get_session(
     request: Request, _turn: Annotated[None, Depends(admission, scope="function")]
 ) -> Iterator[Session]:
-    """One transaction per request: commit once at the end, roll back on any error.
-
-    Used with ``scope="function"`` so the commit happens before the response is sent:
-    a failed commit (a concurrent edit, a constraint) becomes the response.
-    """
-    state = request.app.state
-    maker = state.sessionmaker if request.method in SAFE_METHODS else state.write_sessionmaker
-    with unit_of_work(maker) as session:
-        yield session
+    """The request's unit of work (qualplan.serving: commit once, roll back on error)."""
+    yield from request_session(request)
 
 
 SessionDep = Annotated[Session, Depends(get_session, scope="function")]

@@ -21,6 +21,7 @@ from sqlalchemy.orm.exc import StaleDataError
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from qualplan.planning import errors as pe
+from qualplan.serving import status_of
 
 PROBLEM_JSON = "application/problem+json"
 MAX_VALUE_CHARS = 200
@@ -115,20 +116,8 @@ def dotted(loc: Sequence[Any]) -> str:
 
 # --- handlers ---------------------------------------------------------------------------
 
-_PLANNING = {
-    pe.NotFound: (404, "Not found"),
-    pe.Conflict: (409, "Conflict"),
-    pe.VersionMismatch: (412, "Precondition failed: edited an older version"),
-    pe.ValidationFailed: (422, "Invalid input"),
-    pe.PermissionDenied: (403, "Forbidden"),
-    pe.NotAuthenticated: (401, "Not authenticated"),
-}
-
-
 async def planning_error(_request: Request, exc: pe.PlanningError) -> JSONResponse:
-    status, title = next(
-        (v for cls, v in _PLANNING.items() if isinstance(exc, cls)), (400, "Bad request")
-    )
+    status, title = status_of(exc)
     headers = {"WWW-Authenticate": "Bearer"} if status == 401 else None
     if isinstance(exc, pe.ValidationFailed):
         return problem_response(

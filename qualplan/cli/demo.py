@@ -19,9 +19,9 @@ from qualplan.cli.output import progress
 from qualplan.planning import demo as scenario
 from qualplan.planning import documents
 from qualplan.planning.access import Actor
+from qualplan.planning.schemas import Grade, Role
 from qualplan.reports import PdfRenderer
 from qualplan.store import migrate
-from qualplan.store.models import Grade, Role
 from qualplan.store.session import make_engine, make_sessionmaker, unit_of_work
 
 DEFAULT_FOLDER = Path("qualplan-demo")

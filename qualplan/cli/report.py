@@ -13,11 +13,11 @@ from typing import Annotated
 import typer
 
 from qualplan.cli.base import DbOption, app
-from qualplan.cli.commands import ProgramOption, _program, local_actor, work
+from qualplan.cli.common import ProgramOption, _program, local_actor, work
 from qualplan.cli.output import emit_json, progress
 from qualplan.planning import catalog, documents
+from qualplan.planning.schemas import Grade
 from qualplan.reports import PdfRenderer
-from qualplan.store.models import Grade
 
 report_app = typer.Typer(help="Issue test-level specifications and audit reports (PDF, CSV, "
                          "JSON).", no_args_is_help=True)

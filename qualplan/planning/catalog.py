@@ -52,6 +52,14 @@ def create_program(session: Session, actor: Actor, cmd: s.ProgramCreate) -> m.Pr
     return program
 
 
+def program_by_id(session: Session, program_id: int) -> m.Program:
+    return get(session, m.Program, program_id, "program")
+
+
+def product_by_id(session: Session, product_id: int) -> m.Product:
+    return get(session, m.Product, product_id, "product")
+
+
 def list_programs(session: Session) -> list[m.Program]:
     return list(ProgramRepository(session).list())
 

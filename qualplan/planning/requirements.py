@@ -144,6 +144,66 @@ def requirement_page(session: Session, *, program_id: int | None = None,
     return rows, total
 
 
+def requirement_by_id(session: Session, requirement_id: int) -> m.Requirement:
+    return get(session, m.Requirement, requirement_id, "requirement")
+
+
+def traceability(
+    session: Session,
+    program_id: int,
+    *,
+    status: str | None = None,
+    method: str | None = None,
+    product_id: int | None = None,
+    text: str | None = None,
+    sort: s.TraceSort = "key",
+    descending: bool = False,
+) -> list[s.TraceRow]:
+    """The traceability matrix of a program, filtered and sorted (the API and the web
+    offer the same filters: status, method, product, text in key or wording)."""
+    get(session, m.Program, program_id, "program")
+    base = select(m.Requirement).where(m.Requirement.program_id == program_id)
+    if status and status not in s.Status.__args__:
+        raise ValidationFailed("status", status, f"must be one of {', '.join(s.Status.__args__)}")
+    if method:
+        if method not in {x.value for x in m.VerificationMethod}:
+            raise ValidationFailed("method", method, "must be one of "
+                                   + ", ".join(x.value for x in m.VerificationMethod))
+        base = base.where(m.Requirement.method == m.VerificationMethod(method))
+    if product_id is not None:
+        base = base.where(m.Requirement.product_id == product_id)
+    stmt = base.options(selectinload(m.Requirement.evidence),
+                        selectinload(m.Requirement.waivers),
+                        selectinload(m.Requirement.level),
+                        selectinload(m.Requirement.product))
+    cache: dict[int, list[str]] = {}
+    rows = []
+    needle = (text or "").lower()
+    for req in session.scalars(stmt.order_by(m.Requirement.key, m.Requirement.id)):
+        if needle and needle not in req.key.lower() and needle not in req.text.lower():
+            continue
+        read = read_requirement(session, req, level_stale=cache)
+        if status and read.status != status:
+            continue
+        ev = req.evidence[-1] if req.evidence else None
+        rows.append(s.TraceRow(
+            requirement=read, product=req.product.name,
+            level=f"{req.level.name} #{req.level.number}" if req.level else "",
+            evidence_id=ev.id if ev else None, evidence_kind=ev.kind if ev else None,
+            evidence_verdict=ev.verdict if ev else None,
+            evidence_achieved_margin=ev.achieved_margin if ev else None,
+            evidence_at=ev.created_at if ev else None))
+    keyf = {
+        "key": lambda r: r.requirement.key, "product": lambda r: r.product,
+        "level": lambda r: r.level, "method": lambda r: r.requirement.method.value,
+        "status": lambda r: r.requirement.status,
+        "evidence": lambda r: r.evidence_at.isoformat() if r.evidence_at else "",
+    }
+    if sort not in keyf:
+        raise ValidationFailed("sort", sort, f"must be one of {', '.join(keyf)}")
+    return sorted(rows, key=keyf[sort], reverse=descending)
+
+
 def active_waiver(req: m.Requirement, now: datetime | None = None) -> m.Waiver | None:
     now = now or datetime.now(UTC)
     for w in reversed(req.waivers):

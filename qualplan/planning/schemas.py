@@ -354,6 +354,24 @@ class RequirementRead(Read):
     status_reason: str = ""
 
 
+class TraceRow(BaseModel):
+    """One line of the traceability matrix: a requirement, its level and latest evidence."""
+
+    requirement: RequirementRead
+    product: str
+    #: Level the requirement points at, as "name #number" ("" when none).
+    level: str
+    evidence_id: int | None = None
+    evidence_kind: EvidenceKind | None = None
+    evidence_verdict: Verdict | None = None
+    evidence_achieved_margin: float | None = None
+    evidence_at: datetime | None = None
+
+
+#: Orders of the traceability matrix.
+TraceSort = Literal["key", "product", "level", "method", "status", "evidence"]
+
+
 class AnalysisEvidenceIn(Command):
     applied: float = Field(description="Applied (computed) value, in `units`")
     allowable: float = Field(description="Allowable value, in `units`")

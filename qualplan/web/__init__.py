@@ -8,6 +8,6 @@ does; see ``qualplan.service``).
 
 from __future__ import annotations
 
-from qualplan.web.pages import mount, router
+from qualplan.web.pages import ROUTERS, mount
 
-__all__ = ["mount", "router"]
+__all__ = ["mount", "ROUTERS"]

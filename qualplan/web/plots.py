@@ -12,7 +12,7 @@ from typing import Any
 import numpy as np
 
 from qualplan.planning import envdata
-from qualplan.store.models import EnvironmentKind
+from qualplan.planning.schemas import EnvironmentKind
 
 K = EnvironmentKind
 QUANTITY = {

@@ -190,7 +190,7 @@ def test_bad_environment_file_message_and_nothing_stored(browserless, users, wor
                                                          content, units, says):
     b = browserless(users["engineer"])
     r = upload(b, world, content=content, units=units)
-    assert r.status_code == 400
+    assert r.status_code == 422
     assert says in alert(r.text), alert(r.text)
     assert "Not saved." in alert(r.text)
     assert env_count(factory, world.product_id) == 0
@@ -200,14 +200,14 @@ def test_bad_numbers_in_forms(browserless, users, world, factory):
     b = browserless(users["engineer"])
     b.get(f"/programs/{world.program_id}")
     r = b.post(f"/programs/{world.program_id}/phases", {"name": "road", "duration_s": "ten"})
-    assert r.status_code == 400 and "duration_s = &#39;ten&#39;: is not a number" in r.text
+    assert r.status_code == 422 and "duration_s = &#39;ten&#39;: is not a number" in r.text
     r = b.post(f"/programs/{world.program_id}/phases", {"name": "road", "duration_s": "-5"})
-    assert r.status_code == 400 and "duration_s" in alert(r.text)
+    assert r.status_code == 422 and "duration_s" in alert(r.text)
     r = b.post("/programs", {"name": ""})
-    assert r.status_code == 400 and "name" in alert(r.text)
+    assert r.status_code == 422 and "name" in alert(r.text)
     r = b.post(f"/products/{world.product_id}/levels", {"name": "lvl", "kind": "random",
                "axis": "Z", "policy_id": "1"})
-    assert r.status_code == 400 and "revision_ids" in alert(r.text)
+    assert r.status_code == 422 and "revision_ids" in alert(r.text)
 
 
 def test_upload_plot_summary_and_downloads(browserless, users, world):
@@ -312,7 +312,7 @@ def test_pdf_downloads(browserless, users, world, factory):
     r = b.get(f"/products/{world.product_id}/specification.pdf?grade=qualification")
     assert r.status_code == 200 and r.content.startswith(b"%PDF")
     r = b.get(f"/products/{world.product_id}/specification.pdf?grade=acceptance")
-    assert r.status_code == 400 and "no acceptance test level" in r.text
+    assert r.status_code == 422 and "no acceptance test level" in r.text
 
 
 def _plot_data(html: str) -> list[dict]:
@@ -364,7 +364,7 @@ def test_sign_in_never_redirects_off_site(browserless, users, target):
 
 
 def test_numbers_for_people():
-    from qualplan.web.pages import _fmt, _unit
+    from qualplan.web.common import _fmt, _unit
 
     assert [_fmt(10000.0), _fmt(12345.6), _fmt(6.78416), _fmt([20.0, 2000.0])] == [
         "10000", "12350", "6.784", "20–2000"]

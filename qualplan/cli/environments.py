@@ -1,0 +1,234 @@
+"""`qualplan env`: environments, their revisions, history and comparison."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+from typing import Annotated, Any
+
+import typer
+
+from qualplan.cli.base import CliError, DbOption
+from qualplan.cli.common import (
+    JsonOption,
+    ProgramOption,
+    _program,
+    _read_file,
+    group,
+    local_actor,
+    work,
+)
+from qualplan.cli.output import emit_json, table
+from qualplan.planning import (
+    catalog,
+    environments,
+    imports,
+)
+from qualplan.planning import schemas as s
+from qualplan.planning.schemas import (
+    Axis,
+    EnvironmentKind,
+)
+
+env_app = group("env", "Environments and their revisions.")
+
+
+# --- environments -----------------------------------------------------------------------
+
+FileOption = Annotated[
+    Path | None,
+    typer.Option("--file", help="Data file (.json, .csv; records: .csv .npy .wav .mat .uff)."),
+]
+DataOption = Annotated[str | None, typer.Option("--data", help="The data as inline JSON.")]
+UnitsOption = Annotated[
+    str | None,
+    typer.Option("--units", help="Units of the file's values (g^2/Hz, (m/s^2)^2/Hz, g, m/s^2)."),
+]
+RateOption = Annotated[
+    float | None, typer.Option("--sample-rate-hz", help="Sample rate of a one-column record [Hz].")
+]
+
+
+def _data(
+    kind: EnvironmentKind,
+    file: Path | None,
+    data: str | None,
+    units: str | None,
+    rate: float | None,
+):
+    if (file is None) == (data is None):
+        raise CliError("give the data with exactly one of --file or --data")
+    if data is not None:
+        try:
+            return json.loads(data), None
+        except json.JSONDecodeError as exc:
+            raise CliError(f"--data is not valid JSON: {exc.msg} at column {exc.colno}") from exc
+    return imports.environment_data_from_file(
+        kind, file.name, _read_file(file), value_units=units, sample_rate_hz=rate
+    )
+
+
+@env_app.command("add")
+def env_add(
+    name: str,
+    product: Annotated[str, typer.Option(help="Product name or id.")],
+    kind: Annotated[EnvironmentKind, typer.Option(help="Kind of environment.")],
+    axis: Annotated[Axis, typer.Option(help="Axis X, Y, Z or all.")],
+    phase: Annotated[str | None, typer.Option(help="Phase name.")] = None,
+    source: str = "",
+    provenance: str = "",
+    note: str = "",
+    file: FileOption = None,
+    data: DataOption = None,
+    units: UnitsOption = None,
+    sample_rate_hz: RateOption = None,
+    program: ProgramOption = None,
+    db: DbOption = None,
+) -> None:
+    """Add an environment with its first revision."""
+    payload, array = _data(kind, file, data, units, sample_rate_hz)
+    with work(db) as session:
+        prog = _program(session, program)
+        prod = catalog.product_ref(session, prog, product)
+        phase_id = None
+        if phase is not None:
+            match = [p for p in catalog.list_phases(session, prog.id) if p.name == phase]
+            if not match:
+                raise CliError(f"no phase {phase!r} in program {prog.name}")
+            phase_id = match[0].id
+        env = environments.create_environment(
+            session,
+            local_actor(),
+            s.EnvironmentCreate(
+                product_id=prod.id,
+                phase_id=phase_id,
+                name=name,
+                kind=kind,
+                axis=axis,
+                source=source,
+                provenance=provenance,
+                data=payload,
+                note=note,
+            ),
+            array,
+        )
+        summary = environments.history(session, env.id)[-1].summary
+    typer.echo(f"environment {name} added (id {env.id}, revision 1): " + _summary_text(summary))
+
+
+SUMMARY_LABELS = {"grms": "overall", "peak_asd": "peak", "peak_srs": "peak SRS",
+                  "peak_accel": "peak", "sweep_time": "sweep time", "sample_rate": "sample rate"}
+
+
+def _summary_text(summary: dict[str, Any]) -> str:
+    parts = []
+    for key, item in summary.items():
+        value = item["value"]
+        text = "-".join(f"{v:.4g}" for v in value) if isinstance(value, list) else f"{value:.4g}"
+        label = SUMMARY_LABELS.get(key, key.replace("_", " "))
+        parts.append(f"{label} {text} {item['unit']}".rstrip())
+    return ", ".join(parts)
+
+
+@env_app.command("revise")
+def env_revise(
+    environment_id: int,
+    note: Annotated[str, typer.Option(help="Why it changed.")],
+    file: FileOption = None,
+    data: DataOption = None,
+    units: UnitsOption = None,
+    sample_rate_hz: RateOption = None,
+    expected_revision: Annotated[
+        int | None, typer.Option(help="Refuse if the latest revision is not this one.")
+    ] = None,
+    db: DbOption = None,
+) -> None:
+    """Add a new revision to an environment (the old ones are kept)."""
+    with work(db) as session:
+        env = environments.environment_by_id(session, environment_id)
+        payload, array = _data(env.kind, file, data, units, sample_rate_hz)
+        rev = environments.revise_environment(
+            session,
+            local_actor(),
+            environment_id,
+            s.RevisionIn(data=payload, note=note, expected_revision=expected_revision),
+            array,
+        )
+    typer.echo(
+        f"environment {environment_id} revision {rev.number} added ({rev.content_hash[:12]})"
+    )
+
+
+@env_app.command("list")
+def env_list(
+    product: Annotated[str | None, typer.Option(help="Product name or id.")] = None,
+    program: ProgramOption = None,
+    db: DbOption = None,
+    as_json: JsonOption = False,
+) -> None:
+    """List environments (of one product, or all)."""
+    with work(db) as session:
+        prod_id = None
+        if product is not None:
+            prog = _program(session, program) if program else None
+            prod_id = catalog.product_ref(session, prog, product).id
+        rows = [
+            environments.read_environment(session, e)
+            for e in environments.list_environments(session, product_id=prod_id)
+        ]
+    if as_json:
+        emit_json(rows)
+    else:
+        table(
+            ["id", "name", "kind", "axis", "units", "latest rev", "product id"],
+            [
+                (e.id, e.name, e.kind.value, e.axis.value, e.units, e.latest_revision, e.product_id)
+                for e in rows
+            ],
+        )
+
+
+@env_app.command("history")
+def env_history(environment_id: int, db: DbOption = None, as_json: JsonOption = False) -> None:
+    """The revisions of an environment, with their measures."""
+    with work(db) as session:
+        rows = environments.history(session, environment_id)
+    if as_json:
+        emit_json(rows)
+    else:
+        table(
+            ["rev", "id", "author", "created (UTC)", "hash", "summary", "note"],
+            [
+                (
+                    r.number,
+                    r.id,
+                    r.author,
+                    f"{r.created_at:%Y-%m-%d %H:%M}",
+                    r.content_hash[:12],
+                    _summary_text(r.summary),
+                    r.note,
+                )
+                for r in rows
+            ],
+        )
+
+
+@env_app.command("compare")
+def env_compare(
+    environment_id: int, a: int, b: int, db: DbOption = None, as_json: JsonOption = False
+) -> None:
+    """Compare revisions A and B of an environment."""
+    with work(db) as session:
+        cmp = environments.compare(session, environment_id, a, b)
+    if as_json:
+        emit_json(cmp)
+        return
+    typer.echo(f"revision {a}: {_summary_text(cmp.a_summary)}")
+    typer.echo(f"revision {b}: {_summary_text(cmp.b_summary)}")
+    if cmp.max_difference_db is not None:
+        typer.echo(
+            f"largest difference {cmp.max_difference_db:+.2f} dB at "
+            f"{cmp.max_difference_at_hz:.4g} Hz"
+        )
+    for note in cmp.notes:
+        typer.echo(f"note: {note}")

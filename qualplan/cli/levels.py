@@ -1,0 +1,175 @@
+"""`qualplan level`: derive, show and list test and analysis levels."""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+import typer
+
+from qualplan.cli.base import CliError, DbOption
+from qualplan.cli.common import JsonOption, ProgramOption, _program, group, local_actor, work
+from qualplan.cli.output import emit_json, progress, table
+from qualplan.planning import (
+    catalog,
+    levels,
+    policies,
+)
+from qualplan.planning import schemas as s
+from qualplan.planning.schemas import (
+    Axis,
+    Grade,
+    LevelPurpose,
+)
+
+level_app = group("level", "Derived test and analysis levels.")
+
+
+# --- levels -----------------------------------------------------------------------------
+
+
+@level_app.command("derive")
+def level_derive(
+    name: str,
+    product: Annotated[str, typer.Option(help="Product name or id.")],
+    kind: Annotated[str, typer.Option(help="random, sine or shock.")],
+    axis: Annotated[Axis, typer.Option(help="Axis.")],
+    revisions: Annotated[str, typer.Option(help="Environment revision ids, comma-separated.")],
+    policy: Annotated[str, typer.Option(help="Margin policy name or id.")] = "spaceflight-gevs",
+    grade: Annotated[Grade, typer.Option(help="Test grade.")] = Grade.qualification,
+    purpose: Annotated[LevelPurpose, typer.Option(help="test or analysis.")] = LevelPurpose.test,
+    combination: Annotated[str, typer.Option(
+        help="envelope, p95_50, or fds_equivalent (random tests: the PSD doing the "
+        "inputs' fatigue damage in the test duration).")] = "envelope",
+    max_breakpoints: Annotated[int, typer.Option(help="Breakpoints at most.")] = 12,
+    load_factor_fn_hz: Annotated[
+        float | None,
+        typer.Option(help="Natural frequency for the 3-sigma load factor (analysis) [Hz]."),
+    ] = None,
+    program: ProgramOption = None,
+    db: DbOption = None,
+    as_json: JsonOption = False,
+) -> None:
+    """Derive a test or analysis level from environment revisions."""
+    try:
+        ids = [int(x) for x in revisions.split(",") if x.strip()]
+    except ValueError as exc:
+        raise CliError(f"--revisions {revisions!r}: give revision ids like 3,4,7") from exc
+    with work(db) as session:
+        prog = _program(session, program)
+        prod = catalog.product_ref(session, prog, product)
+        pol = policies.policy_ref(session, policy)
+        recipe = s.LevelRecipe(
+            product_id=prod.id,
+            name=name,
+            purpose=purpose,
+            grade=grade,
+            kind=kind,
+            axis=axis,
+            revision_ids=ids,
+            combination=combination,
+            max_breakpoints=max_breakpoints,
+            policy_id=pol.id,
+            load_factor_fn_hz=load_factor_fn_hz,
+        )
+        with progress("deriving the level and its FDS/ERS coverage"):
+            level = levels.derive_level(session, local_actor(), recipe)
+        out = levels.read_level(session, level)
+    if as_json:
+        emit_json(out)
+    else:
+        _print_level(out)
+
+
+def _covers(ok: bool) -> str:
+    return "covers the life" if ok else "does NOT cover the life"
+
+
+def _print_level(level: s.LevelRead) -> None:
+    r = level.result
+    typer.echo(
+        f"level {level.name} #{level.number} (id {level.id}): {level.purpose.value}, "
+        f"{level.grade.value if level.grade else ''} {level.kind.value}, axis "
+        f"{level.axis.value}, hash {level.level_hash[:12]}"
+    )
+    if r.kind == "random":
+        table(["freq [Hz]", "ASD [g^2/Hz]"], zip(r.freq_hz, r.asd_g2_hz, strict=True))
+        typer.echo(
+            f"overall {r.grms:.3f} g rms"
+            + (f", {r.duration_s:g} s per axis" if r.duration_s is not None else "")
+        )
+    elif r.kind == "shock":
+        table(["freq [Hz]", "SRS [g]"], zip(r.freq_hz, r.accel_g, strict=True))
+        typer.echo(
+            f"Q {r.q:g}, tolerance {r.lower_db:+g}/{r.upper_db:+g} dB, "
+            f"{r.shocks_per_axis} shocks per axis"
+        )
+    else:
+        table(["freq [Hz]", "amplitude [g peak]"], zip(r.freq_hz, r.accel_g, strict=True))
+        typer.echo(
+            f"{r.sweep_rate_oct_per_min:g} oct/min {r.direction}, "
+            f"{r.sweeps} sweep(s), {r.sweep_time_s:.1f} s"
+        )
+    cov = r.coverage
+    if cov is not None and cov.fn_hz:
+        for b, item in cov.by_b.items():
+            typer.echo(
+                f"FDS coverage b = {b}: worst {item.worst_db:+.2f} dB at "
+                f"{item.worst_fn_hz:.4g} Hz ({_covers(item.passed)})"
+            )
+        if cov.ers is not None:
+            typer.echo(
+                f"ERS coverage: worst {cov.ers.worst_db:+.2f} dB at "
+                f"{cov.ers.worst_fn_hz:.4g} Hz ({_covers(cov.ers.passed)})"
+            )
+    if r.kind == "random" and r.load_factor is not None:
+        lf = r.load_factor
+        typer.echo(
+            f"3-sigma load factor at {lf.fn_hz:g} Hz, Q {lf.q:g}: "
+            f"{lf.three_sigma_g:.2f} g (Miles {lf.miles_grms:.2f} g rms)"
+        )
+    v = r.verdicts
+    controllable = ("not applicable (analysis level)" if v.controllable is None
+                    else "controllable" if v.controllable else "NOT controllable")
+    typer.echo(f"numeric method: {'converged' if v.converged else 'NOT converged'}; "
+               f"controller: {controllable}")
+    for reason in v.reasons:
+        typer.echo(f"  {reason}")
+    for reason in level.stale_reasons:
+        typer.echo(f"STALE: {reason}")
+
+
+@level_app.command("show")
+def level_show(level_id: int, db: DbOption = None, as_json: JsonOption = False) -> None:
+    """Show a level, its coverage and whether it is stale."""
+    with work(db) as session:
+        out = levels.read_level(session, levels.level_by_id(session, level_id))
+    if as_json:
+        emit_json(out)
+    else:
+        _print_level(out)
+
+
+@level_app.command("list")
+def level_list(db: DbOption = None, as_json: JsonOption = False) -> None:
+    """List levels."""
+    with work(db) as session:
+        rows = [levels.read_level(session, x) for x in levels.list_levels(session)]
+    if as_json:
+        emit_json(rows)
+    else:
+        table(
+            ["id", "name", "#", "purpose", "grade", "kind", "axis", "stale"],
+            [
+                (
+                    x.id,
+                    x.name,
+                    x.number,
+                    x.purpose.value,
+                    x.grade.value if x.grade else None,
+                    x.kind.value,
+                    x.axis.value,
+                    "yes" if x.stale else "no",
+                )
+                for x in rows
+            ],
+        )

@@ -1,0 +1,281 @@
+"""What every web page module shares: the request context (database session, browser
+session, who is signed in), rendering, the sign-in and CSRF checks, form parsing and the
+mapping of planning errors to a page.
+
+GET pages need a signed-in user (else a redirect to the sign-in page). Every POST
+carries the CSRF token of the session; a POST without it is refused (403) before any
+use case runs. Role rules are planning's (PermissionDenied becomes 403); the pages
+also hide the forms a role may not use. A refused or invalid form re-renders its page
+with the message and stores nothing (the unit of work is rolled back). The statuses are
+qualplan.serving's table, the same as the API's.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass, field
+from typing import Annotated, Any
+from urllib.parse import quote
+
+from fastapi import APIRouter, Depends, Request
+from fastapi.responses import RedirectResponse, Response
+from fastapi.templating import Jinja2Templates
+from pydantic import ValidationError
+from sqlalchemy.orm import Session
+from starlette.datastructures import FormData, UploadFile
+
+from qualplan import __version__
+from qualplan.planning import schemas as s
+from qualplan.planning.access import Actor
+from qualplan.planning.errors import (
+    PlanningError,
+    ValidationFailed,
+)
+from qualplan.resources import data_dir
+from qualplan.serving import admission, request_session, status_of
+from qualplan.web import auth
+
+STATIC = "/static/web"
+templates = Jinja2Templates(directory=str(data_dir("templates")))
+router = APIRouter(include_in_schema=False)
+
+K = s.EnvironmentKind
+Role = s.Role
+
+
+def _fmt(value: Any, digits: int = 4) -> str:
+    """A number for a person: 4 significant digits, no trailing zeros."""
+    if value is None:
+        return "–"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, int | float):
+        if 1e4 <= abs(value) < 1e9:  # 10000 Hz, not 1e+04 Hz
+            return f"{float(f'{value:.{digits}g}'):.0f}"
+        return f"{value:.{digits}g}"
+    if isinstance(value, list | tuple):
+        return "–".join(_fmt(v, digits) for v in value)
+    return str(value)
+
+
+def _unit(text: str) -> str:
+    """A unit as printed: g^2/Hz -> g²/Hz."""
+    return str(text).replace("^2", "²").replace("^3", "³")
+
+
+#: Names of the overall measures of planning.envdata.summarise, as shown on the pages.
+LABELS = {
+    "grms": "overall", "peak_asd": "peak ASD", "peak_srs": "peak SRS", "q": "Q",
+    "peak_accel": "peak acceleration", "sweep_time": "sweep time", "band": "band",
+    "sample_rate": "sample rate", "rms": "rms", "peak": "peak", "duration": "duration",
+}
+
+templates.env.filters["num"] = _fmt
+templates.env.filters["unit"] = _unit
+templates.env.filters["label"] = lambda key: LABELS.get(key, str(key).replace("_", " "))
+templates.env.globals["STATIC"] = STATIC
+templates.env.globals["version"] = __version__
+
+
+#: Renders a planning document content (specification or audit) as PDF bytes. Given to
+#: :func:`mount` by the composition module, so the web never imports the reports interface.
+PdfRenderer = Callable[[Any], bytes]
+
+
+@dataclass
+class WebState:
+    signer: auth.Signer
+    secure: bool
+    pdf: PdfRenderer | None = None
+
+
+@dataclass
+class Ctx:
+    """One request: the database session, the browser session and who is signed in."""
+
+    request: Request
+    db: Session
+    web: WebState
+    ws: auth.WebSession
+    actor: Actor | None
+    set_cookie: bool = False
+    extra: dict[str, Any] = field(default_factory=dict)
+
+    @property
+    def csrf(self) -> str:
+        return self.web.signer.csrf(self.ws)
+
+    def can(self, role: Role) -> bool:
+        return self.actor is not None and self.actor.can(role)
+
+
+def request_session_dep(
+    request: Request, _turn: Annotated[None, Depends(admission, scope="function")]
+) -> Iterator[Session]:
+    yield from request_session(request)
+
+
+def ctx_dep(
+    request: Request, db: Annotated[Session, Depends(request_session_dep, scope="function")]
+) -> Ctx:
+    """The request's context on the shared unit of work (qualplan.serving): one
+    transaction, committed once after the page is built, rolled back on any error."""
+    web: WebState = request.app.state.web
+    ws = web.signer.load(request.cookies.get(auth.COOKIE))
+    fresh = ws is None
+    if fresh:
+        ws = auth.WebSession.new()
+    actor = auth.actor_of(db, ws)
+    if actor is None and ws.token_hash:  # revoked or expired: drop it
+        ws, fresh = auth.WebSession.new(), True
+    return Ctx(request, db, web, ws, actor, set_cookie=fresh)
+
+
+CtxDep = Depends(ctx_dep)
+
+
+def _cookie(ctx: Ctx, response: Response) -> Response:
+    if ctx.set_cookie:
+        response.set_cookie(
+            auth.COOKIE,
+            ctx.web.signer.dump(ctx.ws),
+            max_age=auth.MAX_AGE_S,
+            httponly=True,
+            samesite="strict",
+            secure=ctx.web.secure or ctx.request.url.scheme == "https",
+            path="/",
+        )
+    return response
+
+
+def render(ctx: Ctx, name: str, status: int = 200, **values) -> Response:
+    if ctx.extra.get("error_on_top"):
+        values["where"] = None
+    values.update(
+        pdf_available=ctx.web.pdf is not None,
+        actor=ctx.actor,
+        csrf=ctx.csrf,
+        can_edit=ctx.can(Role.engineer),
+        can_waive=ctx.can(Role.approver),
+    )
+    response = templates.TemplateResponse(ctx.request, name, values, status_code=status)
+    response.headers["Cache-Control"] = "no-store"
+    return _cookie(ctx, response)
+
+
+def redirect(ctx: Ctx, url: str) -> Response:
+    return _cookie(ctx, RedirectResponse(url, status_code=303))
+
+
+def problem_page(ctx: Ctx, status: int, title: str, message: str) -> Response:
+    return render(ctx, "web/problem.html", status, title=title, message=message)
+
+
+def message_of(exc: Exception) -> str:
+    if isinstance(exc, ValidationError):
+        parts = []
+        for err in exc.errors()[:3]:
+            loc = ".".join(str(x) for x in err["loc"]) or "form"
+            parts.append(f"{loc}: {err['msg']}")
+        return "; ".join(parts)
+    if isinstance(exc, ValidationFailed):
+        return f"{exc.field} = {exc.value!r}: {exc.rule}"
+    return str(exc)
+
+
+def status_of_error(exc: PlanningError) -> int:
+    """The HTTP status of a planning error: the table the API answers with too."""
+    return status_of(exc)[0]
+
+
+def page(ctx: Ctx, build: Callable[[], Response]) -> Response:
+    """A GET page: signed-in users only; planning errors become a problem page."""
+    if ctx.actor is None:
+        target = ctx.request.url.path
+        if ctx.request.url.query:
+            target += "?" + ctx.request.url.query
+        return redirect(ctx, "/signin?next=" + quote(target, safe=""))
+    try:
+        return build()
+    except PlanningError as exc:
+        code, title = status_of(exc)
+        return problem_page(ctx, code, title, message_of(exc))
+
+
+def action(
+    ctx: Ctx,
+    form: FormData,
+    do: Callable[[], str],
+    again: Callable[[str, int], Response],
+) -> Response:
+    """A POST: CSRF and sign-in checked first; `do` returns where to go on success.
+
+    On a planning or input error nothing is stored and `again(message, status)` renders
+    the form's page with the message.
+    """
+    if not ctx.web.signer.csrf_ok(ctx.ws, form.get("csrf")):
+        return problem_page(
+            ctx, 403, "Form refused",
+            "the form's security token is missing or out of date (CSRF check); "
+            "reload the page and send the form again",
+        )
+    if ctx.actor is None:
+        return redirect(ctx, "/signin")
+    try:
+        target = do()
+        ctx.db.flush()  # constraint failures surface here; the unit of work commits
+    except (PlanningError, ValidationError, ValueError) as exc:
+        ctx.db.rollback()
+        code = status_of_error(exc) if isinstance(exc, PlanningError) else 422
+        if code == 404:
+            return problem_page(ctx, 404, "Not found", message_of(exc))
+        if code == 403:  # the form may be hidden from this role: say it at the top
+            ctx.extra["error_on_top"] = True
+        return again(message_of(exc), code)
+    return redirect(ctx, target)
+
+
+async def form_of(request: Request) -> tuple[FormData, dict[str, tuple[str, bytes]]]:
+    """The form fields and the uploaded files as (filename, content)."""
+    form = await request.form()
+    files = {}
+    for key, value in form.multi_items():
+        if isinstance(value, UploadFile):
+            files[key] = (value.filename or "", await value.read())
+    return form, files
+
+
+def text(form: FormData, name: str, default: str = "") -> str:
+    value = form.get(name)
+    return value.strip() if isinstance(value, str) else default
+
+
+def number(form: FormData, name: str, *, integer: bool = False, required: bool = False):
+    raw = text(form, name)
+    if raw == "":
+        if required:
+            raise ValidationFailed(name, None, "is required")
+        return None
+    try:
+        return int(raw) if integer else float(raw)
+    except ValueError as exc:
+        kind = "a whole number" if integer else "a number"
+        raise ValidationFailed(name, raw, f"is not {kind}") from exc
+
+
+def csv_response(rows: list[list[Any]], filename: str) -> Response:
+    buf = io.StringIO()
+    csv.writer(buf, lineterminator="\n").writerows(rows)
+    return Response(
+        buf.getvalue(),
+        media_type="text/csv; charset=utf-8",
+        headers={"Content-Disposition": f'attachment; filename="{filename}"'},
+    )
+
+
+def _slug(name: str) -> str:
+    return "".join(c if c.isalnum() else "-" for c in name).strip("-").lower() or "data"
+
+

@@ -1,0 +1,126 @@
+"""Environments: upload on a product, the environment's page (plot, history, comparison),
+new revisions and the breakpoint table of a revision."""
+
+from __future__ import annotations
+
+from fastapi import APIRouter, Request
+from fastapi.responses import Response
+from starlette.concurrency import run_in_threadpool
+
+from qualplan.planning import catalog, environments, imports
+from qualplan.planning import schemas as s
+from qualplan.planning.errors import PlanningError, ValidationFailed
+from qualplan.web import plots
+from qualplan.web.common import (
+    Ctx,
+    CtxDep,
+    K,
+    _slug,
+    action,
+    csv_response,
+    form_of,
+    message_of,
+    number,
+    page,
+    problem_page,
+    render,
+    text,
+)
+from qualplan.web.programs import product_page
+
+router = APIRouter(include_in_schema=False)
+
+
+@router.post("/products/{product_id}/environments")
+async def upload_environment(product_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
+    form, files = await form_of(request)
+
+    def do() -> str:
+        filename, content = files.get("file", ("", b""))
+        if not filename:
+            raise ValidationFailed("file", None, "choose a file to upload")
+        kind = K(text(form, "kind"))
+        data, array = imports.environment_data_from_file(
+            kind, filename, content,
+            value_units=text(form, "value_units") or None,
+            freq_units=text(form, "freq_units") or "Hz",
+            sample_rate_hz=number(form, "sample_rate_hz"),
+        )
+        env = environments.create_environment(ctx.db, ctx.actor, s.EnvironmentCreate(
+            product_id=product_id, phase_id=number(form, "phase_id", integer=True),
+            name=text(form, "name"), kind=kind, axis=s.Axis(text(form, "axis")),
+            source=text(form, "source"),
+            provenance=text(form, "provenance") or f"uploaded file {filename}",
+            data=data, note=text(form, "note")), array)
+        return f"/environments/{env.id}"
+
+    return await run_in_threadpool(action, ctx, form, do, lambda msg, code: product_page(
+        ctx, product_id, msg, code, form, "upload"))
+
+
+# --- an environment: plot, history, comparison, new revision -----------------------------
+
+
+def environment_page(ctx: Ctx, env_id: int, error=None, status=200, form=None):
+    env = environments.environment_by_id(ctx.db, env_id)
+    hist = environments.history(ctx.db, env.id)
+    q = ctx.request.query_params
+    comparison, compare_plot, compare_error = None, None, None
+    if q.get("a") and q.get("b"):
+        try:
+            a, b = int(q["a"]), int(q["b"])
+            comparison = environments.compare(ctx.db, env.id, a, b)
+            pair = [r for r in hist if r.number in (a, b)]
+            compare_plot = plots.environment_plot(env, sorted(pair, key=lambda r: r.number))
+        except (ValueError, PlanningError) as exc:
+            compare_error = message_of(exc)
+    product = catalog.product_by_id(ctx.db, env.product_id)
+    return render(
+        ctx, "web/environment.html", status, env=env, product=product, history=hist,
+        latest=hist[-1] if hist else None, plot=plots.environment_plot(env, hist),
+        record_plots=plots.record_plots(env, env.revisions[-1] if env.revisions else None),
+        comparison=comparison, compare_plot=compare_plot, compare_error=compare_error,
+        value_units=sorted(imports.VALUE_UNITS[env.kind]), error=error, form=form or {},
+    )
+
+
+@router.get("/environments/{env_id}")
+def environment(env_id: int, ctx: Ctx = CtxDep) -> Response:
+    return page(ctx, lambda: environment_page(ctx, env_id))
+
+
+@router.post("/environments/{env_id}/revisions")
+async def revise_environment(env_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
+    form, files = await form_of(request)
+
+    def do() -> str:
+        env = environments.environment_by_id(ctx.db, env_id)
+        filename, content = files.get("file", ("", b""))
+        if not filename:
+            raise ValidationFailed("file", None, "choose a file to upload")
+        data, array = imports.environment_data_from_file(
+            env.kind, filename, content, value_units=text(form, "value_units") or None,
+            freq_units=text(form, "freq_units") or "Hz",
+            sample_rate_hz=number(form, "sample_rate_hz"))
+        environments.revise_environment(ctx.db, ctx.actor, env.id, s.RevisionIn(
+            data=data, note=text(form, "note"),
+            expected_revision=number(form, "expected_revision", integer=True)), array)
+        return f"/environments/{env.id}"
+
+    return await run_in_threadpool(action, ctx, form, do, lambda msg, code: environment_page(
+        ctx, env_id, msg, code, form))
+
+
+@router.get("/environments/{env_id}/revisions/{number}.csv")
+def revision_csv(env_id: int, number: int, ctx: Ctx = CtxDep) -> Response:
+    def build() -> Response:
+        env = environments.environment_by_id(ctx.db, env_id)
+        rev = environments.revision(ctx.db, env.id, number)
+        xy = plots.revision_xy(env.kind, rev.spec, rev.data)
+        if xy is None:
+            return problem_page(ctx, 400, "No table", "a time history has no breakpoint table")
+        qty, unit = plots.QUANTITY[env.kind]
+        rows = [["frequency [Hz]", f"{qty} [{unit}]"], *zip(*xy, strict=True)]
+        return csv_response(rows, f"{_slug(env.name)}-r{rev.number}.csv")
+
+    return page(ctx, build)

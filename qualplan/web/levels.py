@@ -1,0 +1,81 @@
+"""Levels: derive one on a product, the level's page (plot, verdicts, coverage) and its
+breakpoint table."""
+
+from __future__ import annotations
+
+from fastapi import APIRouter, Request
+from fastapi.responses import Response
+from starlette.concurrency import run_in_threadpool
+
+from qualplan.planning import catalog, levels
+from qualplan.planning import schemas as s
+from qualplan.web import plots
+from qualplan.web.common import (
+    Ctx,
+    CtxDep,
+    _slug,
+    action,
+    csv_response,
+    form_of,
+    number,
+    page,
+    render,
+    text,
+)
+from qualplan.web.programs import product_page
+
+router = APIRouter(include_in_schema=False)
+
+
+@router.post("/products/{product_id}/levels")
+async def derive_level(product_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
+    form, _ = await form_of(request)
+
+    def do() -> str:
+        ids = [int(v) for v in form.getlist("revision_ids") if str(v).isdigit()]
+        recipe = s.LevelRecipe(
+            product_id=product_id, name=text(form, "name"),
+            purpose=text(form, "purpose") or "test", grade=text(form, "grade") or "qualification",
+            kind=text(form, "kind"), axis=text(form, "axis"), revision_ids=ids,
+            combination=text(form, "combination") or "envelope",
+            max_breakpoints=number(form, "max_breakpoints", integer=True) or 12,
+            policy_id=number(form, "policy_id", integer=True, required=True),
+            load_factor_fn_hz=number(form, "load_factor_fn_hz"),
+        )
+        level = levels.derive_level(ctx.db, ctx.actor, recipe)
+        return f"/levels/{level.id}"
+
+    return await run_in_threadpool(action, ctx, form, do, lambda msg, code: product_page(
+        ctx, product_id, msg, code, form, "derive"))
+
+
+# --- levels --------------------------------------------------------------------------------
+
+
+@router.get("/levels/{level_id}")
+def level(level_id: int, ctx: Ctx = CtxDep) -> Response:
+    def build() -> Response:
+        row = levels.level_by_id(ctx.db, level_id)
+        read = levels.read_level(ctx.db, row)
+        product = catalog.product_by_id(ctx.db, row.product_id)
+        return render(
+            ctx, "web/level.html", level=row, read=read, product=product,
+            plot=plots.level_plot(read) if row.kind in plots.QUANTITY else None,
+            coverage=plots.coverage_plots(read), worst=plots.worst_margins(read),
+            cov=read.result.coverage,
+        )
+
+    return page(ctx, build)
+
+
+@router.get("/levels/{level_id}/breakpoints.csv")
+def level_csv(level_id: int, ctx: Ctx = CtxDep) -> Response:
+    def build() -> Response:
+        row = levels.level_by_id(ctx.db, level_id)
+        result = levels.result_of(row)
+        qty, unit = plots.QUANTITY[row.kind]
+        rows = [["frequency [Hz]", f"{qty} [{unit}]"],
+                *zip(result.freq_hz, result.values, strict=True)]
+        return csv_response(rows, f"{_slug(row.name)}-{row.number}.csv")
+
+    return page(ctx, build)
