@@ -114,3 +114,22 @@ def test_duplicate_name_is_409(eng):
 
 def test_api_class_smoke(client, callers):
     assert Api(client, callers["viewer"]).get("/policies").json()["total"] >= 2
+
+
+
+def test_traceability_matrix_offers_the_web_filters(eng):
+    """GET /programs/{id}/traceability filters by status and orders by key descending,
+    as the web's matrix does (both call planning's traceability)."""
+    prog = eng.post("/programs", {"name": unique("trace")}).json()
+    prod = eng.post("/products", {"program_id": prog["id"], "name": "box"}).json()
+    for key in ("T-1", "T-2", "T-3"):
+        eng.post("/requirements", {"program_id": prog["id"], "key": key,
+                                   "text": f"requirement {key}", "product_id": prod["id"],
+                                   "method": "inspection"})
+    got = eng.get(f"/programs/{prog['id']}/traceability?sort=key&dir=desc").json()
+    assert [x["requirement"]["key"] for x in got["items"]] == ["T-3", "T-2", "T-1"]
+    assert got["total"] == 3 and all(x["requirement"]["status"] == "open" for x in got["items"])
+    assert eng.get(f"/programs/{prog['id']}/traceability?status=verified").json()["total"] == 0
+    eng.get(f"/programs/{prog['id']}/traceability?status=done", expect=422)
+    found = eng.get(f"/programs/{prog['id']}/traceability?q=T-2").json()["items"]
+    assert [x["requirement"]["key"] for x in found] == ["T-2"]

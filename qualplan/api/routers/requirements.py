@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from typing import Literal
+
 from fastapi import APIRouter, Response
 
 from qualplan.api.deps import ActorDep, PageDep, ReaderDep, SessionDep, VersionDep, etag
@@ -28,6 +30,27 @@ def list_requirements(
                                                  product_ids=scope, offset=page.offset,
                                                  limit=page.limit)
     return Page(items=items, total=total, offset=page.offset, limit=page.limit)
+
+
+@router.get("/programs/{program_id}/traceability", response_model=Page[s.TraceRow])
+def traceability(
+    program_id: int,
+    session: SessionDep,
+    _: ReaderDep,
+    page: PageDep,
+    status: s.Status | None = None,
+    method: s.VerificationMethod | None = None,
+    product_id: int | None = None,
+    q: str | None = None,
+    sort: s.TraceSort = "key",
+    dir: Literal["asc", "desc"] = "asc",
+):
+    """The traceability matrix of a program: each requirement with its level, latest
+    evidence and status; filtered and ordered as the web page's matrix is."""
+    rows = requirements.traceability(
+        session, program_id, status=status, method=method.value if method else None,
+        product_id=product_id, text=q, sort=sort, descending=dir == "desc")
+    return Page(items=page.window(rows), total=len(rows), offset=page.offset, limit=page.limit)
 
 
 @router.post("/requirements", status_code=201, response_model=s.RequirementRead)
