@@ -22,7 +22,6 @@ from qualplan.cli.output import emit_json, table
 from qualplan.planning import (
     catalog,
     environments,
-    imports,
 )
 from qualplan.planning import schemas as s
 from qualplan.planning.schemas import (
@@ -49,23 +48,16 @@ RateOption = Annotated[
 ]
 
 
-def _data(
-    kind: EnvironmentKind,
-    file: Path | None,
-    data: str | None,
-    units: str | None,
-    rate: float | None,
-):
+def _json_data(file: Path | None, data: str | None) -> dict[str, Any] | None:
+    """The --data JSON, or None when the data come from --file (exactly one is given)."""
     if (file is None) == (data is None):
         raise CliError("give the data with exactly one of --file or --data")
-    if data is not None:
-        try:
-            return json.loads(data), None
-        except json.JSONDecodeError as exc:
-            raise CliError(f"--data is not valid JSON: {exc.msg} at column {exc.colno}") from exc
-    return imports.environment_data_from_file(
-        kind, file.name, _read_file(file), value_units=units, sample_rate_hz=rate
-    )
+    if data is None:
+        return None
+    try:
+        return json.loads(data)
+    except json.JSONDecodeError as exc:
+        raise CliError(f"--data is not valid JSON: {exc.msg} at column {exc.colno}") from exc
 
 
 @env_app.command("add")
@@ -86,7 +78,7 @@ def env_add(
     db: DbOption = None,
 ) -> None:
     """Add an environment with its first revision."""
-    payload, array = _data(kind, file, data, units, sample_rate_hz)
+    payload = _json_data(file, data)
     with work(db) as session:
         prog = _program(session, program)
         prod = catalog.product_ref(session, prog, product)
@@ -96,22 +88,17 @@ def env_add(
             if not match:
                 raise CliError(f"no phase {phase!r} in program {prog.name}")
             phase_id = match[0].id
-        env = environments.create_environment(
-            session,
-            local_actor(),
-            s.EnvironmentCreate(
-                product_id=prod.id,
-                phase_id=phase_id,
-                name=name,
-                kind=kind,
-                axis=axis,
-                source=source,
-                provenance=provenance,
-                data=payload,
-                note=note,
-            ),
-            array,
-        )
+        if payload is None:
+            env = environments.create_environment_from_file(
+                session, local_actor(), s.EnvironmentFromFile(
+                    product_id=prod.id, phase_id=phase_id, name=name, kind=kind, axis=axis,
+                    source=source, provenance=provenance, note=note,
+                    reading=s.FileReading(value_units=units, sample_rate_hz=sample_rate_hz)),
+                file.name, _read_file(file))
+        else:
+            env = environments.create_environment(session, local_actor(), s.EnvironmentCreate(
+                product_id=prod.id, phase_id=phase_id, name=name, kind=kind, axis=axis,
+                source=source, provenance=provenance, data=payload, note=note))
         summary = environments.history(session, env.id)[-1].summary
     typer.echo(f"environment {name} added (id {env.id}, revision 1): " + _summary_text(summary))
 
@@ -144,16 +131,17 @@ def env_revise(
     db: DbOption = None,
 ) -> None:
     """Add a new revision to an environment (the old ones are kept)."""
+    payload = _json_data(file, data)
     with work(db) as session:
-        env = environments.environment_by_id(session, environment_id)
-        payload, array = _data(env.kind, file, data, units, sample_rate_hz)
-        rev = environments.revise_environment(
-            session,
-            local_actor(),
-            environment_id,
-            s.RevisionIn(data=payload, note=note, expected_revision=expected_revision),
-            array,
-        )
+        if payload is None:
+            rev = environments.revise_environment_from_file(
+                session, local_actor(), environment_id, file.name, _read_file(file),
+                s.FileReading(value_units=units, sample_rate_hz=sample_rate_hz), note=note,
+                expected_revision=expected_revision)
+        else:
+            rev = environments.revise_environment(
+                session, local_actor(), environment_id,
+                s.RevisionIn(data=payload, note=note, expected_revision=expected_revision))
     typer.echo(
         f"environment {environment_id} revision {rev.number} added ({rev.content_hash[:12]})"
     )

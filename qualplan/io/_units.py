@@ -8,28 +8,35 @@ from __future__ import annotations
 from qualplan.dynamics.errors import InputError
 from qualplan.dynamics.units import G0_M_S2, M_PER_IN
 
-#: Acceleration units accepted by the readers -> factor to g.
-ACCEL_TO_G: dict[str, float] = {
+#: The one table of accepted acceleration units, as people write them -> factor to g.
+#: It serves the record readers here and planning's breakpoint importers.
+ACCEL_UNITS: dict[str, float] = {
     "g": 1.0,
-    "m/s^2": 1.0 / G0_M_S2,
-    "m/s2": 1.0 / G0_M_S2,
-    "mm/s^2": 1e-3 / G0_M_S2,
-    "mm/s2": 1e-3 / G0_M_S2,
-    "in/s^2": M_PER_IN / G0_M_S2,
-    "in/s2": M_PER_IN / G0_M_S2,
-    "ft/s^2": 12.0 * M_PER_IN / G0_M_S2,
-    "ft/s2": 12.0 * M_PER_IN / G0_M_S2,
     "mg": 1e-3,
+    "m/s^2": 1.0 / G0_M_S2,
+    "mm/s^2": 1e-3 / G0_M_S2,
+    "in/s^2": M_PER_IN / G0_M_S2,
+    "ft/s^2": 12.0 * M_PER_IN / G0_M_S2,
 }
 
-#: Acceleration spectral density units -> factor to g^2/Hz.
+#: The one table of accepted acceleration spectral density units -> factor to g^2/Hz.
+ASD_UNITS: dict[str, float] = {
+    "g^2/Hz": 1.0,
+    "(m/s^2)^2/Hz": 1.0 / G0_M_S2 ** 2,
+    "(in/s^2)^2/Hz": (M_PER_IN / G0_M_S2) ** 2,
+}
+
+#: Every accepted spelling (normalised) of an acceleration unit -> factor to g.
+ACCEL_TO_G: dict[str, float] = {
+    **{k: v for k, v in ACCEL_UNITS.items()},
+    **{k.replace("^2", "2"): v for k, v in ACCEL_UNITS.items()},
+}
+
+#: Every accepted spelling (normalised, lower case) of an ASD unit -> factor to g^2/Hz.
 ASD_TO_G2_HZ: dict[str, float] = {
-    "g^2/hz": 1.0,
-    "g2/hz": 1.0,
-    "(m/s^2)^2/hz": 1.0 / G0_M_S2 ** 2,
-    "(m/s2)^2/hz": 1.0 / G0_M_S2 ** 2,
+    **{k.lower(): v for k, v in ASD_UNITS.items()},
+    **{k.lower().replace("^2", "2", 1): v for k, v in ASD_UNITS.items()},
     "m^2/s^4/hz": 1.0 / G0_M_S2 ** 2,
-    "(in/s^2)^2/hz": (M_PER_IN / G0_M_S2) ** 2,
 }
 
 

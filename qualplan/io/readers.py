@@ -16,6 +16,7 @@ import csv
 import io as _io
 import math
 import os
+import tempfile
 from dataclasses import dataclass, field
 from pathlib import Path
 from types import MappingProxyType
@@ -112,13 +113,44 @@ class Spectrum:
 # ---------------------------------------------------------------------------------------------
 
 
-def _path(path) -> Path:
-    p = Path(os.fspath(path))
-    if not p.is_file():
-        raise InputError("path", str(p), "is not an existing file")
-    if p.stat().st_size == 0:
-        raise InputError("path", str(p), "is empty")
-    return p
+class _Source:
+    """What a reader reads: a file path, the file's bytes, or a binary stream.
+
+    ``file`` is what numpy and scipy read (the path, or a seekable binary stream),
+    ``name`` names the source in messages and in the result's ``source``.
+    """
+
+    def __init__(self, source, name: str | None = None) -> None:
+        if isinstance(source, bytes | bytearray | memoryview):
+            data = bytes(source)
+            self.path, self.name = None, name or "bytes"
+            if not data:
+                raise InputError("path", self.name, "is empty")
+            self.file = _io.BytesIO(data)
+        elif hasattr(source, "read"):
+            self.path, self.name = None, name or str(getattr(source, "name", "stream"))
+            data = source.read()
+            if not data:
+                raise InputError("path", self.name, "is empty")
+            self.file = _io.BytesIO(data)
+        else:
+            p = Path(os.fspath(source))
+            if not p.is_file():
+                raise InputError("path", str(p), "is not an existing file")
+            if p.stat().st_size == 0:
+                raise InputError("path", str(p), "is empty")
+            self.path, self.name, self.file = p, name or p.name, p
+
+    def text(self) -> str:
+        raw = self.path.read_bytes() if self.path is not None else self.file.getvalue()
+        try:
+            return raw.decode("utf-8-sig")
+        except UnicodeDecodeError as exc:
+            raise InputError("path", self.name, f"is not UTF-8 text (byte {exc.start})") from exc
+
+
+def _path(source, name: str | None = None) -> _Source:
+    return _Source(source, name)
 
 
 def _finite_column(name: str, values: np.ndarray, row0: int = 0) -> np.ndarray:
@@ -181,11 +213,11 @@ def _time_history(values, fs, t0, unit, calibration, source, meta, name="values"
 # ---------------------------------------------------------------------------------------------
 
 
-def _read_table(p: Path, delimiter: str | None):
-    text = p.read_text(encoding="utf-8-sig")
+def _read_table(p: _Source, delimiter: str | None):
+    text = p.text()
     lines = [ln for ln in text.splitlines() if ln.strip() and not ln.lstrip().startswith("#")]
     if not lines:
-        raise InputError("path", str(p), "has no data rows")
+        raise InputError("path", p.name, "has no data rows")
     if delimiter is None:
         try:
             delimiter = csv.Sniffer().sniff(lines[0] + "\n" + "\n".join(lines[1:5]),
@@ -203,7 +235,7 @@ def _read_table(p: Path, delimiter: str | None):
         header = rows[0]
         rows = rows[1:]
     if not rows:
-        raise InputError("path", str(p), "has a header but no data rows")
+        raise InputError("path", p.name, "has a header but no data rows")
     return header, rows, delimiter
 
 
@@ -229,7 +261,8 @@ def _column(header, rows, col, what: str, first_row: int) -> tuple[str, np.ndarr
     return name, out
 
 
-def read_csv_time_history(path, *, unit: str, value_column=1, time_column=0,
+def read_csv_time_history(path, *, name: str | None = None, unit: str, value_column=1,
+                          time_column=0,
                           fs_hz: float | None = None, calibration: float = 1.0,
                           delimiter: str | None = None,
                           time_tolerance: float = DEFAULT_TIME_TOLERANCE) -> TimeHistory:
@@ -237,7 +270,8 @@ def read_csv_time_history(path, *, unit: str, value_column=1, time_column=0,
 
     Parameters
     ----------
-    path : str or Path
+    path : str, Path, bytes or a binary stream
+        The file, or its content (then `name` names it in messages and in `source`).
         CSV file; an optional header row of column names; lines starting with ``#``
         are comments.
     unit : str
@@ -271,7 +305,7 @@ def read_csv_time_history(path, *, unit: str, value_column=1, time_column=0,
     ----------
     RFC 4180 (CSV); Python csv module dialect sniffing.
     """
-    p = _path(path)
+    p = _path(path, name)
     header, rows, delim = _read_table(p, delimiter)
     first = 2 if header is not None else 1
     vname, v = _column(header, rows, value_column, "value_column", first)
@@ -296,13 +330,14 @@ def read_csv_time_history(path, *, unit: str, value_column=1, time_column=0,
     return _time_history(v, fs, t0, unit, _calibration(calibration), p.name, meta, vname)
 
 
-def read_csv_spectrum(path, *, unit: str, freq_column=0, value_column=1,
+def read_csv_spectrum(path, *, name: str | None = None, unit: str, freq_column=0, value_column=1,
                       delimiter: str | None = None) -> Spectrum:
     """Read an acceleration spectral density (frequency, ASD) from CSV.
 
     Parameters
     ----------
-    path : str or Path
+    path : str, Path, bytes or a binary stream
+        The file, or its content (then `name` names it in messages and in `source`).
         CSV file (optional header, ``#`` comments).
     unit : str
         Declared ASD unit: ``"g^2/Hz"``, ``"(m/s^2)^2/Hz"``, ``"(in/s^2)^2/Hz"``.
@@ -320,7 +355,7 @@ def read_csv_spectrum(path, *, unit: str, freq_column=0, value_column=1,
     ----------
     RFC 4180 (CSV).
     """
-    p = _path(path)
+    p = _path(path, name)
     factor = asd_factor(unit)
     header, rows, delim = _read_table(p, delimiter)
     first = 2 if header is not None else 1
@@ -355,13 +390,14 @@ def _spectrum(f, v, fname, vname, unit, factor, source, meta) -> Spectrum:
 # ---------------------------------------------------------------------------------------------
 
 
-def read_npy_time_history(path, *, fs_hz: float, unit: str,
+def read_npy_time_history(path, *, name: str | None = None, fs_hz: float, unit: str,
                           calibration: float = 1.0) -> TimeHistory:
     """Read a 1-D acceleration record from a NumPy ``.npy`` file.
 
     Parameters
     ----------
-    path : str or Path
+    path : str, Path, bytes or a binary stream
+        The file, or its content (then `name` names it in messages and in `source`).
         ``.npy`` file holding a 1-D numeric array (no pickles).
     fs_hz : float
         Sample rate [Hz].
@@ -378,9 +414,9 @@ def read_npy_time_history(path, *, fs_hz: float, unit: str,
     ----------
     NumPy .npy format (numpy.lib.format), read with allow_pickle=False.
     """
-    p = _path(path)
+    p = _path(path, name)
     try:
-        arr = np.load(p, allow_pickle=False)
+        arr = np.load(p.file, allow_pickle=False)
     except (ValueError, OSError) as exc:
         raise InputError("path", p.name, f"is not a readable .npy array ({exc})") from exc
     if arr.ndim != 1:
@@ -392,13 +428,14 @@ def read_npy_time_history(path, *, fs_hz: float, unit: str,
                          {"format": "npy", "dtype": str(arr.dtype)})
 
 
-def read_wav_time_history(path, *, calibration: float, unit: str,
+def read_wav_time_history(path, *, name: str | None = None, calibration: float, unit: str,
                           channel: int = 0) -> TimeHistory:
     """Read one channel of a WAV file with a calibration factor.
 
     Parameters
     ----------
-    path : str or Path
+    path : str, Path, bytes or a binary stream
+        The file, or its content (then `name` names it in messages and in `source`).
         WAV file (PCM 8/16/24/32-bit integer or 32/64-bit float).
     calibration : float
         Engineering value per file count [unit per count] for integer files, per
@@ -420,10 +457,10 @@ def read_wav_time_history(path, *, calibration: float, unit: str,
     """
     from scipy.io import wavfile
 
-    p = _path(path)
+    p = _path(path, name)
     cal = _calibration(calibration)
     try:
-        fs, data = wavfile.read(p)
+        fs, data = wavfile.read(p.file)
     except (ValueError, OSError) as exc:
         raise InputError("path", p.name, f"is not a readable WAV file ({exc})") from exc
     n_ch = 1 if data.ndim == 1 else data.shape[1]
@@ -437,14 +474,16 @@ def read_wav_time_history(path, *, calibration: float, unit: str,
                           "channel": channel})
 
 
-def read_mat_time_history(path, *, variable: str, unit: str, fs_hz: float | None = None,
+def read_mat_time_history(path, *, name: str | None = None, variable: str, unit: str,
+                          fs_hz: float | None = None,
                           time_variable: str | None = None, calibration: float = 1.0,
                           time_tolerance: float = DEFAULT_TIME_TOLERANCE) -> TimeHistory:
     """Read an acceleration record from a MATLAB ``.mat`` file (v4 to v7.2).
 
     Parameters
     ----------
-    path : str or Path
+    path : str, Path, bytes or a binary stream
+        The file, or its content (then `name` names it in messages and in `source`).
         ``.mat`` file.
     variable : str
         Name of the vector of values.
@@ -469,9 +508,9 @@ def read_mat_time_history(path, *, variable: str, unit: str, fs_hz: float | None
     """
     from scipy.io import loadmat
 
-    p = _path(path)
+    p = _path(path, name)
     try:
-        mat = loadmat(p, squeeze_me=True)
+        mat = loadmat(p.file, squeeze_me=True)
     except NotImplementedError as exc:
         raise InputError("path", p.name, "is a v7.3 (HDF5) .mat file; save with -v7") from exc
     except (ValueError, OSError, TypeError) as exc:
@@ -513,13 +552,24 @@ _UFF_PSD = 9        # function type: power spectral density
 _UFF_SPECTRUM = 12  # function type: spectrum (treated as ASD only if declared so)
 
 
-def read_uff58(path, *, unit: str, record: int = 0,
+def _uff_sets(pyuff, p: _Source):
+    """pyuff reads named files only: bytes and streams go through a private temp file."""
+    if p.path is not None:
+        return pyuff.UFF(str(p.path)).read_sets()
+    with tempfile.TemporaryDirectory() as tmp:
+        f = Path(tmp) / "upload.uff"
+        f.write_bytes(p.file.getvalue())
+        return pyuff.UFF(str(f)).read_sets()
+
+
+def read_uff58(path, *, name: str | None = None, unit: str, record: int = 0,
                time_tolerance: float = DEFAULT_TIME_TOLERANCE) -> TimeHistory | Spectrum:
     """Read one dataset 58 record of a universal file (UFF/UNV), via pyuff.
 
     Parameters
     ----------
-    path : str or Path
+    path : str, Path, bytes or a binary stream
+        The file, or its content (then `name` names it in messages and in `source`).
         Universal file (ASCII or binary dataset 58).
     unit : str
         Declared unit of the ordinate: an acceleration unit for a time response
@@ -543,9 +593,9 @@ def read_uff58(path, *, unit: str, record: int = 0,
     """
     import pyuff
 
-    p = _path(path)
+    p = _path(path, name)
     try:
-        sets = pyuff.UFF(str(p)).read_sets()
+        sets = _uff_sets(pyuff, p)
     except Exception as exc:  # pyuff raises bare Exceptions on malformed files
         raise InputError("path", p.name, f"is not a readable universal file ({exc})") from exc
     sets = sets if isinstance(sets, list) else [sets]

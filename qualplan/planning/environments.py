@@ -57,6 +57,45 @@ def create_environment(
     return env
 
 
+def _file_data(kind: m.EnvironmentKind, filename: str, content: bytes,
+               how: s.FileReading) -> tuple[dict[str, Any], np.ndarray | None]:
+    from qualplan.planning import imports
+
+    return imports.environment_data_from_file(
+        kind, filename or "upload", content, value_units=how.value_units,
+        freq_units=how.freq_units, sample_rate_hz=how.sample_rate_hz,
+        calibration=how.calibration, variable=how.variable)
+
+
+def create_environment_from_file(session: Session, actor: Actor, cmd: s.EnvironmentFromFile,
+                                 filename: str, content: bytes) -> m.Environment:
+    """Create an environment from a file's content (the one use case behind the API's
+    upload, the web form and ``qualplan env add --file``)."""
+    require(actor, m.Role.engineer, "creating an environment")
+    if not filename:
+        raise ValidationFailed("file", None, "choose a file to upload")
+    data, array = _file_data(cmd.kind, filename, content, cmd.reading)
+    create = s.EnvironmentCreate(
+        product_id=cmd.product_id, phase_id=cmd.phase_id, name=cmd.name, kind=cmd.kind,
+        axis=cmd.axis, source=cmd.source,
+        provenance=cmd.provenance or f"uploaded file {filename}", data=data, note=cmd.note)
+    return create_environment(session, actor, create, array)
+
+
+def revise_environment_from_file(session: Session, actor: Actor, environment_id: int,
+                                 filename: str, content: bytes, how: s.FileReading, *,
+                                 note: str = "", expected_revision: int | None = None
+                                 ) -> m.EnvironmentRevision:
+    """A new revision read from a file's content (API upload, web form, CLI)."""
+    require(actor, m.Role.engineer, "revising an environment")
+    if not filename:
+        raise ValidationFailed("file", None, "choose a file to upload")
+    env = get(session, m.Environment, environment_id, "environment")
+    data, array = _file_data(env.kind, filename, content, how)
+    return revise_environment(session, actor, env.id, s.RevisionIn(
+        data=data, note=note, expected_revision=expected_revision), array)
+
+
 def revise_environment(
     session: Session,
     actor: Actor,

@@ -12,24 +12,24 @@ import csv
 import io
 import json
 import math
-import tempfile
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
 from qualplan import io as qio
-from qualplan.dynamics.units import G0_M_S2
+from qualplan.io._units import ACCEL_UNITS, ASD_UNITS
 from qualplan.planning.envdata import core_errors
 from qualplan.planning.errors import ValidationFailed
 from qualplan.store.models import EnvironmentKind
 
-#: Accepted value units per kind, with the factor to the core unit.
+#: Accepted value units per kind, with the factor to the core unit: the io readers' one
+#: table (qualplan.io._units), so a unit a record reader takes is one a table takes too.
 VALUE_UNITS: dict[EnvironmentKind, dict[str, float]] = {
-    EnvironmentKind.random: {"g^2/Hz": 1.0, "(m/s^2)^2/Hz": 1.0 / G0_M_S2**2},
-    EnvironmentKind.shock: {"g": 1.0, "m/s^2": 1.0 / G0_M_S2},
-    EnvironmentKind.sine: {"g": 1.0, "m/s^2": 1.0 / G0_M_S2},
-    EnvironmentKind.time_history: {"g": 1.0, "m/s^2": 1.0 / G0_M_S2},
+    EnvironmentKind.random: dict(ASD_UNITS),
+    EnvironmentKind.shock: dict(ACCEL_UNITS),
+    EnvironmentKind.sine: dict(ACCEL_UNITS),
+    EnvironmentKind.time_history: dict(ACCEL_UNITS),
 }
 VALUE_KEY = {
     EnvironmentKind.random: "asd_g2_hz",
@@ -135,7 +135,7 @@ RECORD_SUFFIXES = (".csv", ".txt", ".npy", ".wav", ".mat", ".uff", ".unv")
 def _read_record(filename: str, content: bytes, *, value_units: str | None,
                  sample_rate_hz: float | None = None, calibration: float | None = None,
                  variable: str | None = None):
-    """Read a record with qualplan.io (which reads paths) through a private temp file."""
+    """Read a record's bytes with qualplan.io (the readers take bytes and name them)."""
     suffix = Path(filename).suffix.lower()
     if suffix not in RECORD_SUFFIXES:
         raise ValidationFailed("file", filename,
@@ -144,32 +144,28 @@ def _read_record(filename: str, content: bytes, *, value_units: str | None,
         raise ValidationFailed("value_units", None,
                                "say the units of the record's values (g, m/s^2, ...)")
     cal = 1.0 if calibration is None else calibration
-    with tempfile.TemporaryDirectory() as tmp:
-        path = Path(tmp) / f"upload{suffix}"
-        path.write_bytes(content)
-        with core_errors(""):
-            if suffix in (".csv", ".txt"):
-                if sample_rate_hz is not None:
-                    return qio.read_csv_time_history(path, unit=value_units, time_column=None,
-                                                     value_column=0, fs_hz=sample_rate_hz,
-                                                     calibration=cal)
-                return qio.read_csv_time_history(path, unit=value_units, calibration=cal)
-            if suffix == ".npy":
-                if sample_rate_hz is None:
-                    raise ValidationFailed("sample_rate_hz", None, "is required for .npy")
-                return qio.read_npy_time_history(path, fs_hz=sample_rate_hz, unit=value_units,
-                                                 calibration=cal)
-            if suffix == ".wav":
-                if calibration is None:
-                    raise ValidationFailed("calibration", None,
-                                           "is required for .wav (units per full-scale count)")
-                return qio.read_wav_time_history(path, calibration=cal, unit=value_units)
-            if suffix == ".mat":
-                if variable is None:
-                    raise ValidationFailed("variable", None, "name the variable of the .mat file")
-                return qio.read_mat_time_history(path, variable=variable, unit=value_units,
+    src = {"path": content, "name": filename, "unit": value_units}
+    with core_errors(""):
+        if suffix in (".csv", ".txt"):
+            if sample_rate_hz is not None:
+                return qio.read_csv_time_history(**src, time_column=None, value_column=0,
                                                  fs_hz=sample_rate_hz, calibration=cal)
-            return qio.read_uff58(path, unit=value_units)
+            return qio.read_csv_time_history(**src, calibration=cal)
+        if suffix == ".npy":
+            if sample_rate_hz is None:
+                raise ValidationFailed("sample_rate_hz", None, "is required for .npy")
+            return qio.read_npy_time_history(**src, fs_hz=sample_rate_hz, calibration=cal)
+        if suffix == ".wav":
+            if calibration is None:
+                raise ValidationFailed("calibration", None,
+                                       "is required for .wav (units per full-scale count)")
+            return qio.read_wav_time_history(**src, calibration=cal)
+        if suffix == ".mat":
+            if variable is None:
+                raise ValidationFailed("variable", None, "name the variable of the .mat file")
+            return qio.read_mat_time_history(**src, variable=variable, fs_hz=sample_rate_hz,
+                                             calibration=cal)
+        return qio.read_uff58(**src)
 
 
 def _time_history(filename: str, content: bytes, *, value_units: str | None,

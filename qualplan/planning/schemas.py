@@ -132,6 +132,30 @@ class RevisionIn(Command):
     )
 
 
+class FileReading(Command):
+    """How to read an uploaded file: units of its values and what a record needs."""
+
+    value_units: str | None = None
+    freq_units: str = "Hz"
+    sample_rate_hz: float | None = Field(default=None, gt=0)
+    calibration: float | None = Field(default=None, gt=0)
+    variable: str | None = None
+
+
+class EnvironmentFromFile(Command):
+    """An environment whose first revision is read from a file (the file comes beside)."""
+
+    product_id: int
+    phase_id: int | None = None
+    name: str = Field(min_length=1, max_length=200)
+    kind: EnvironmentKind
+    axis: Axis
+    source: str = ""
+    provenance: str = ""
+    note: str = ""
+    reading: FileReading = FileReading()
+
+
 class EnvironmentRead(Read):
     id: int
     product_id: int

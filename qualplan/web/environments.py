@@ -9,12 +9,11 @@ from starlette.concurrency import run_in_threadpool
 
 from qualplan.planning import catalog, environments, imports
 from qualplan.planning import schemas as s
-from qualplan.planning.errors import PlanningError, ValidationFailed
+from qualplan.planning.errors import PlanningError
 from qualplan.web import plots
 from qualplan.web.common import (
     Ctx,
     CtxDep,
-    K,
     _slug,
     action,
     csv_response,
@@ -31,27 +30,23 @@ from qualplan.web.programs import product_page
 router = APIRouter(include_in_schema=False)
 
 
+def _reading(form) -> s.FileReading:
+    return s.FileReading(value_units=text(form, "value_units") or None,
+                         freq_units=text(form, "freq_units") or "Hz",
+                         sample_rate_hz=number(form, "sample_rate_hz"))
+
+
 @router.post("/products/{product_id}/environments")
 async def upload_environment(product_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
     form, files = await form_of(request)
 
     def do() -> str:
         filename, content = files.get("file", ("", b""))
-        if not filename:
-            raise ValidationFailed("file", None, "choose a file to upload")
-        kind = K(text(form, "kind"))
-        data, array = imports.environment_data_from_file(
-            kind, filename, content,
-            value_units=text(form, "value_units") or None,
-            freq_units=text(form, "freq_units") or "Hz",
-            sample_rate_hz=number(form, "sample_rate_hz"),
-        )
-        env = environments.create_environment(ctx.db, ctx.actor, s.EnvironmentCreate(
+        env = environments.create_environment_from_file(ctx.db, ctx.actor, s.EnvironmentFromFile(
             product_id=product_id, phase_id=number(form, "phase_id", integer=True),
-            name=text(form, "name"), kind=kind, axis=s.Axis(text(form, "axis")),
-            source=text(form, "source"),
-            provenance=text(form, "provenance") or f"uploaded file {filename}",
-            data=data, note=text(form, "note")), array)
+            name=text(form, "name"), kind=text(form, "kind"), axis=text(form, "axis"),
+            source=text(form, "source"), provenance=text(form, "provenance"),
+            note=text(form, "note"), reading=_reading(form)), filename, content)
         return f"/environments/{env.id}"
 
     return await run_in_threadpool(action, ctx, form, do, lambda msg, code: product_page(
@@ -94,18 +89,12 @@ async def revise_environment(env_id: int, request: Request, ctx: Ctx = CtxDep) -
     form, files = await form_of(request)
 
     def do() -> str:
-        env = environments.environment_by_id(ctx.db, env_id)
         filename, content = files.get("file", ("", b""))
-        if not filename:
-            raise ValidationFailed("file", None, "choose a file to upload")
-        data, array = imports.environment_data_from_file(
-            env.kind, filename, content, value_units=text(form, "value_units") or None,
-            freq_units=text(form, "freq_units") or "Hz",
-            sample_rate_hz=number(form, "sample_rate_hz"))
-        environments.revise_environment(ctx.db, ctx.actor, env.id, s.RevisionIn(
-            data=data, note=text(form, "note"),
-            expected_revision=number(form, "expected_revision", integer=True)), array)
-        return f"/environments/{env.id}"
+        environments.revise_environment_from_file(
+            ctx.db, ctx.actor, env_id, filename, content, _reading(form),
+            note=text(form, "note"),
+            expected_revision=number(form, "expected_revision", integer=True))
+        return f"/environments/{env_id}"
 
     return await run_in_threadpool(action, ctx, form, do, lambda msg, code: environment_page(
         ctx, env_id, msg, code, form))

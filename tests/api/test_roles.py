@@ -184,6 +184,8 @@ CASES = {
     "level get": Case("GET", "/levels/{level_id}", "viewer",
                       lambda b: (f"/levels/{b['test_level']['id']}", {})),
     "requirements list": Case("GET", "/requirements", "viewer", lambda b: ("/requirements", {})),
+    "traceability": Case("GET", "/programs/{program_id}/traceability", "viewer",
+                         lambda b: (f"/programs/{P(b)}/traceability", {})),
     "requirement create": Case("POST", "/requirements", "engineer", lambda b: (
         "/requirements", {"json": {"program_id": P(b), "key": unique("K"), "text": "t",
                                    "product_id": U(b), "method": "analysis"}}), 201),

@@ -188,3 +188,45 @@ def test_uff58_time_and_psd(tmp_path):
     bad.write_text("    -1\n    58\ngarbage\n")
     with pytest.raises(InputError):
         read_uff58(bad, unit="g")
+
+
+# --- bytes and streams: the readers take a file's content as well as its path ---------
+
+
+def test_every_reader_takes_bytes_and_a_stream_as_well_as_a_path(tmp_path):
+    """The same file read from its path, its bytes and a binary stream gives the same
+    record (planning hands uploads over as bytes, never through a temporary file)."""
+    import io as _io_mod
+
+    x = np.sin(2 * np.pi * 50.0 * np.arange(400) / 1000.0)
+    cases = []
+    p = tmp_path / "rec.csv"
+    p.write_text("time_s,accel_g\n" + "".join(f"{i / 1000.0:.6f},{v:.9f}\n"
+                                                for i, v in enumerate(x)))
+    cases.append((p, lambda src, **kw: read_csv_time_history(src, unit="g", **kw)))
+    p = tmp_path / "rec.npy"
+    np.save(p, x)
+    cases.append((p, lambda src, **kw: read_npy_time_history(src, fs_hz=1000.0, unit="g",
+                                                                **kw)))
+    p = tmp_path / "rec.wav"
+    wavfile.write(p, 1000, (x * 16000).astype(np.int16))
+    cases.append((p, lambda src, **kw: read_wav_time_history(src, calibration=1 / 16000,
+                                                                unit="g", **kw)))
+    p = tmp_path / "rec.mat"
+    savemat(p, {"acc": x, "fs": 1000.0})
+    cases.append((p, lambda src, **kw: read_mat_time_history(src, variable="acc",
+                                                                unit="g", fs_hz=1000.0, **kw)))
+    for path, read in cases:
+        from_path = read(path)
+        from_bytes = read(path.read_bytes(), name=path.name)
+        from_stream = read(_io_mod.BytesIO(path.read_bytes()), name=path.name)
+        for other in (from_bytes, from_stream):
+            assert np.array_equal(other.accel_g, from_path.accel_g), path.suffix
+            assert other.fs_hz == from_path.fs_hz and other.source == from_path.source
+
+
+def test_empty_bytes_and_non_utf8_text_are_named_errors():
+    with pytest.raises(InputError, match="upload.csv"):
+        read_csv_time_history(b"", name="upload.csv", unit="g")
+    with pytest.raises(InputError, match="not UTF-8"):
+        read_csv_time_history(b"\xff\xfe0,1\n", name="latin.csv", unit="g")

@@ -17,7 +17,6 @@ from qualplan.api.deps import (
 from qualplan.api.errors import Problem
 from qualplan.api.models import Page
 from qualplan.planning import environments as envs
-from qualplan.planning import imports
 from qualplan.planning import schemas as s
 
 router = APIRouter(tags=["environments"])
@@ -147,17 +146,10 @@ class RecordForm:
 RecordFormDep = Annotated[RecordForm, Depends()]
 
 
-def _file_data(kind, file: UploadFile, how: RecordForm):
-    return imports.environment_data_from_file(
-        kind,
-        file.filename or "upload",
-        file.file.read(),
-        value_units=how.value_units,
-        freq_units=how.freq_units,
-        sample_rate_hz=how.sample_rate_hz,
-        calibration=how.calibration,
-        variable=how.variable,
-    )
+def _reading(how: RecordForm) -> s.FileReading:
+    return s.FileReading(value_units=how.value_units, freq_units=how.freq_units,
+                         sample_rate_hz=how.sample_rate_hz, calibration=how.calibration,
+                         variable=how.variable)
 
 
 @router.post("/environments/upload", status_code=201, response_model=s.EnvironmentRead)
@@ -177,19 +169,12 @@ def upload_environment(
     how: RecordFormDep = None,  # type: ignore[assignment]
 ):
     """Create an environment from an uploaded file (multipart), within the upload limit."""
-    data, array = _file_data(kind, file, how)
-    cmd = s.EnvironmentCreate(
-        product_id=product_id,
-        phase_id=phase_id,
-        name=name,
-        kind=kind,
-        axis=axis,
-        source=source,
-        provenance=provenance or f"uploaded file {file.filename}",
-        data=data,
-        note=note,
-    )
-    return _read(session, envs.create_environment(session, actor, cmd, array), response)
+    cmd = s.EnvironmentFromFile(
+        product_id=product_id, phase_id=phase_id, name=name, kind=kind, axis=axis,
+        source=source, provenance=provenance, note=note, reading=_reading(how))
+    env = envs.create_environment_from_file(session, actor, cmd, file.filename or "upload",
+                                            file.file.read())
+    return _read(session, env, response)
 
 
 @router.post(
@@ -210,10 +195,9 @@ def upload_revision(
 ):
     """Add a revision from an uploaded file; If-Match or `expected_revision` as for JSON."""
     env = _environment(session, environment_id)
-    data, array = _file_data(env.kind, file, how)
-    cmd = s.RevisionIn(data=data, note=note, expected_revision=expected_revision)
-    if version is not None:
-        cmd = cmd.model_copy(update={"expected_revision": version})
-    rev = envs.revise_environment(session, actor, environment_id, cmd, array)
+    rev = envs.revise_environment_from_file(
+        session, actor, environment_id, file.filename or "upload", file.file.read(),
+        _reading(how), note=note,
+        expected_revision=version if version is not None else expected_revision)
     response.headers["ETag"] = etag(rev.number)
     return envs.read_revision(rev, env.kind)
