@@ -172,7 +172,13 @@ def test_pdf_bytes_are_the_same_in_another_process(db, kind):
     here = pdf_bytes(content)
     env = {**os.environ, "PYTHONHASHSEED": "12345"}
     env.pop("SOURCE_DATE_EPOCH", None)
-    there = subprocess.run([sys.executable, "-c", _RENDER_IN_A_NEW_PROCESS, kind],
-                           input=content.model_dump_json().encode(), capture_output=True,
-                           env=env, check=True, timeout=300).stdout
-    assert here.startswith(b"%PDF-") and there == here
+    run = subprocess.run([sys.executable, "-c", _RENDER_IN_A_NEW_PROCESS, kind],
+                         input=content.model_dump_json().encode(), capture_output=True,
+                         env=env, timeout=300)
+    assert run.returncode == 0, run.stderr.decode(errors="replace")[-2000:]
+    there = run.stdout
+    at = next((i for i, (a, b) in enumerate(zip(here, there, strict=False)) if a != b),
+              min(len(here), len(there)))
+    assert here.startswith(b"%PDF-") and there == here, (
+        f"{len(here)} vs {len(there)} bytes, first difference at byte {at}: "
+        f"{here[at - 40:at + 40]!r} vs {there[at - 40:at + 40]!r}")
