@@ -9,6 +9,11 @@ from __future__ import annotations
 
 import base64
 import math
+import os
+import threading
+from collections.abc import Iterator
+from contextlib import contextmanager
+from datetime import UTC, datetime
 from pathlib import Path
 
 from jinja2 import Environment, FileSystemLoader, StrictUndefined, select_autoescape
@@ -117,14 +122,48 @@ def html(content: DocumentContent, svgs: dict | None = None) -> str:
     return template.render(doc=content, content_hash=content.content_hash())
 
 
+_font_clock = threading.Lock()
+
+
+@contextmanager
+def _font_timestamps(at: datetime) -> Iterator[None]:
+    """Stamp the fonts embedded while inside with `at` (naive: UTC), not the wall clock.
+
+    Without HarfBuzz-Subset, WeasyPrint subsets fonts with fontTools, which writes the
+    current time into each subset font's ``head.modified`` field: two renders a second
+    apart then differ. fontTools reads the time from ``SOURCE_DATE_EPOCH`` when it is set
+    (the reproducible-builds convention, https://reproducible-builds.org/specs/source-date-epoch/),
+    so it is set for the render and restored after. The lock keeps concurrent renders
+    from restoring it under each other.
+    """
+    if at.tzinfo is None:
+        at = at.replace(tzinfo=UTC)  # the store keeps UTC times
+    with _font_clock:
+        before = os.environ.get("SOURCE_DATE_EPOCH")
+        os.environ["SOURCE_DATE_EPOCH"] = str(max(0, int(at.timestamp())))
+        try:
+            yield
+        finally:
+            if before is None:
+                del os.environ["SOURCE_DATE_EPOCH"]
+            else:
+                os.environ["SOURCE_DATE_EPOCH"] = before
+
+
 def pdf_bytes(content: DocumentContent, svgs: dict | None = None) -> bytes:
-    """The document as PDF bytes (for the API route that serves it)."""
+    """The document as PDF bytes (for the API route that serves it).
+
+    The same content gives the same bytes, in any process and at any time: the PDF has
+    no creation date, its identifier is the document number and the embedded fonts carry
+    the content's date.
+    """
     from weasyprint import HTML
 
     document = HTML(string=html(content, svgs), base_url=str(_templates() / "reports") + "/",
                     url_fetcher=_fetcher())
-    return document.write_pdf(metadata=None, pdf_identifier=content.number.encode(),
-                              uncompressed_pdf=False)
+    with _font_timestamps(content.date):
+        return document.write_pdf(pdf_identifier=content.number.encode(),
+                                  uncompressed_pdf=False)
 
 
 def _stem(content: DocumentContent) -> str:

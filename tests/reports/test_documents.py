@@ -8,7 +8,10 @@ from __future__ import annotations
 
 import csv
 import io
+import os
 import re
+import subprocess
+import sys
 
 import pytest
 from pypdf import PdfReader
@@ -144,3 +147,38 @@ def test_pdf_bytes_are_reproducible(db):
     content = documents.audit_content(session, data["program"].id)
     first = pdf_bytes(content)
     assert first.startswith(b"%PDF-") and pdf_bytes(content) == first
+
+
+# Renders one document given as JSON on stdin and writes its PDF bytes to stdout.
+_RENDER_IN_A_NEW_PROCESS = """
+import sys
+from qualplan.planning import documents
+from qualplan.reports import pdf_bytes
+kind = {"audit": documents.AuditContent, "specification": documents.SpecificationContent}
+content = kind[sys.argv[1]].model_validate_json(sys.stdin.buffer.read())
+sys.stdout.buffer.write(pdf_bytes(content))
+"""
+
+
+@pytest.mark.parametrize("kind", ["audit", "specification"])
+def test_pdf_bytes_are_the_same_in_another_process(db, kind):
+    """Another interpreter (other hash seed, a later second of the clock) gives the same
+    PDF from the same content: no clock, hash order or process state leaks into it."""
+    from qualplan.reports import pdf_bytes
+
+    session, data = db
+    content = (documents.audit_content(session, data["program"].id) if kind == "audit"
+               else documents.specification_content(session, data["unit"].id, "qualification"))
+    here = pdf_bytes(content)
+    env = {**os.environ, "PYTHONHASHSEED": "12345"}
+    env.pop("SOURCE_DATE_EPOCH", None)
+    run = subprocess.run([sys.executable, "-c", _RENDER_IN_A_NEW_PROCESS, kind],
+                         input=content.model_dump_json().encode(), capture_output=True,
+                         env=env, timeout=300)
+    assert run.returncode == 0, run.stderr.decode(errors="replace")[-2000:]
+    there = run.stdout
+    at = next((i for i, (a, b) in enumerate(zip(here, there, strict=False)) if a != b),
+              min(len(here), len(there)))
+    assert here.startswith(b"%PDF-") and there == here, (
+        f"{len(here)} vs {len(there)} bytes, first difference at byte {at}: "
+        f"{here[at - 40:at + 40]!r} vs {there[at - 40:at + 40]!r}")
