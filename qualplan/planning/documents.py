@@ -185,6 +185,8 @@ class LevelSection(Content):
     author: str
     policy: str
     stale_reasons: list[str]
+    #: The level's verdicts as planning decided them when it was derived.
+    verdicts: res.Verdicts
     random: RandomTable | None = None
     sine: SineTable | None = None
     shock: ShockTable | None = None
@@ -497,7 +499,8 @@ def _section(session: Session, level: m.Level) -> LevelSection:
         level_id=level.id, name=level.name, number=level.number, kind=kind,
         axis=level.axis.value, level_hash=level.level_hash, derived_at=level.created_at,
         author=level.author, policy=level.policy.name if level.policy else "-",
-        stale_reasons=read.stale_reasons, derivation=derivation, **tables,
+        stale_reasons=read.stale_reasons, verdicts=r.verdicts, derivation=derivation,
+        **tables,
     )
 
 
