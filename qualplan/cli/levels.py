@@ -13,6 +13,7 @@ from qualplan.planning import (
     catalog,
     levels,
     policies,
+    wording,
 )
 from qualplan.planning import schemas as s
 from qualplan.planning.schemas import (
@@ -95,7 +96,8 @@ def _print_level(level: s.LevelRead) -> None:
         table(["freq [Hz]", "ASD [g^2/Hz]"], zip(r.freq_hz, r.asd_g2_hz, strict=True))
         typer.echo(
             f"overall {r.grms:.3f} g rms"
-            + (f", {r.duration_s:g} s per axis" if r.duration_s is not None else "")
+            + (f", {wording.duration(r.duration_s)} per axis" if r.duration_s is not None
+               else "")
         )
     elif r.kind == "shock":
         table(["freq [Hz]", "SRS [g]"], zip(r.freq_hz, r.accel_g, strict=True))
@@ -127,6 +129,10 @@ def _print_level(level: s.LevelRead) -> None:
             f"3-sigma load factor at {lf.fn_hz:g} Hz, Q {lf.q:g}: "
             f"{lf.three_sigma_g:.2f} g (Miles {lf.miles_grms:.2f} g rms)"
         )
+    typer.echo("derivation:")
+    for st in r.steps:
+        typer.echo("  " + wording.step_sentence(st, grade=level.grade.value if level.grade
+                                                else None, policy=level.policy_name))
     v = r.verdicts
     controllable = ("not applicable (analysis level)" if v.controllable is None
                     else "controllable" if v.controllable else "NOT controllable")

@@ -22,7 +22,7 @@ from pydantic import BaseModel, ConfigDict
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from qualplan.planning import coverage
+from qualplan.planning import coverage, wording
 from qualplan.planning import results as res
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require
@@ -317,17 +317,13 @@ def _slug(text: str) -> str:
     return re.sub(r"[^A-Z0-9]+", "-", text.upper()).strip("-") or "X"
 
 
-def _fmt(value: Any) -> str:
-    if isinstance(value, float):
-        return f"{value:.4g}"
-    if isinstance(value, list):
-        return ", ".join(_fmt(v) for v in value)
-    return str(value)
-
-
-def _step(item: res.Step) -> StepRow:
-    detail = "; ".join(f"{k.replace('_', ' ')} {_fmt(v)}" for k, v in item.items())
-    return StepRow(step=item.step, detail=detail)
+def _step(item: res.Step, level: m.Level) -> StepRow:
+    """The step in words (planning.wording, as the web and the CLI print it), with its
+    basis beside it."""
+    policy = level.policy.name if level.policy else None
+    grade = level.grade.value if level.grade else None
+    return StepRow(step=wording.step_sentence(item, grade=grade, policy=policy),
+                   detail=item.basis or "")
 
 
 def _slopes(values: list[float] | None, n: int) -> list[float | None]:
@@ -484,7 +480,7 @@ def _section(session: Session, level: m.Level) -> LevelSection:
     derivation = Derivation(
         inputs=_inputs(session, level),
         combination=level.recipe.get("combination", "envelope"),
-        steps=[_step(x) for x in r.steps],
+        steps=[_step(x, level) for x in r.steps],
         limit=Curve(freq_hz=limit.freq_hz, values=values) if values else None,
         coverage=_coverage(r.coverage),
     )

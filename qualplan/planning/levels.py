@@ -528,7 +528,8 @@ def read_level(session: Session, level: m.Level) -> s.LevelRead:
         number=level.number, purpose=level.purpose, grade=level.grade, kind=level.kind,
         axis=level.axis, recipe=level.recipe, result=result_of(level),
         input_hashes=level.input_hashes, level_hash=level.level_hash, author=level.author,
-        created_at=level.created_at, stale=bool(reasons), stale_reasons=reasons,
+        created_at=level.created_at, policy_name=level.policy.name if level.policy else None,
+        stale=bool(reasons), stale_reasons=reasons,
     )
 
 

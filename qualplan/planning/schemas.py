@@ -336,6 +336,8 @@ class LevelRead(Read):
     level_hash: str
     author: str
     created_at: datetime
+    #: Name of the margin policy the level was derived under.
+    policy_name: str | None = None
     stale: bool = False
     stale_reasons: list[str] = []
 

@@ -7,7 +7,7 @@ from fastapi import APIRouter, Request
 from fastapi.responses import Response
 from starlette.concurrency import run_in_threadpool
 
-from qualplan.planning import catalog, levels
+from qualplan.planning import catalog, levels, wording
 from qualplan.planning import schemas as s
 from qualplan.web import plots
 from qualplan.web.common import (
@@ -60,6 +60,9 @@ def level(level_id: int, ctx: Ctx = CtxDep) -> Response:
         product = catalog.product_by_id(ctx.db, row.product_id)
         return render(
             ctx, "web/level.html", level=row, read=read, product=product,
+            steps=[wording.step_sentence(st, grade=row.grade.value if row.grade else None,
+                                         policy=row.policy.name if row.policy else None)
+                   for st in read.result.steps],
             plot=plots.level_plot(read) if row.kind in plots.QUANTITY else None,
             coverage=plots.coverage_plots(read), worst=plots.worst_margins(read),
             cov=read.result.coverage,
