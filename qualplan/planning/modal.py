@@ -129,6 +129,12 @@ class LevelCurve:
         Random: the level's duration (test level) or life exposure (analysis level). [s]
     duration_basis : str
         Where `duration_s` comes from.
+    grms : float or None
+        Random: overall level. [g rms]
+    margin_db : float or None
+        The margin the derivation added over the limit level. [dB]
+    sweep_rate_oct_per_min, sweep_time_s : float or None
+        Sine: sweep rate [oct/min] and the time of the sweeps [s].
     """
 
     kind: m.EnvironmentKind
@@ -137,10 +143,23 @@ class LevelCurve:
     q: float | None
     duration_s: float | None
     duration_basis: str
+    grms: float | None = None
+    margin_db: float | None = None
+    sweep_rate_oct_per_min: float | None = None
+    sweep_time_s: float | None = None
+
+
+def _margin_db(r: dict) -> float | None:
+    for st in r.get("steps", []):
+        if st.get("step") in ("analysis margin", "margin") and st.get("db") is not None:
+            return float(st["db"])
+        if st.get("step") == "factor" and st.get("factor"):
+            return 20.0 * math.log10(float(st["factor"]))
+    return None
 
 
 def level_curve(level: m.Level) -> LevelCurve:
-    """Read a level's breakpoints (the only reader of ``level.result`` in this module)."""
+    """Read a level's breakpoints and facts (the only reader of ``level.result`` here)."""
     r = level.result
     if level.kind is K.random:
         if r.get("duration_s"):
@@ -149,12 +168,15 @@ def level_curve(level: m.Level) -> LevelCurve:
             dur, basis = float(r["life_exposure_s"]), "the life exposure the level covers"
         else:
             dur, basis = None, ""
-        return LevelCurve(level.kind, list(r["freq_hz"]), list(r["asd_g2_hz"]), None, dur, basis)
+        return LevelCurve(level.kind, list(r["freq_hz"]), list(r["asd_g2_hz"]), None, dur, basis,
+                          grms=float(r["grms"]), margin_db=_margin_db(r))
     if level.kind is K.shock:
         return LevelCurve(level.kind, list(r["freq_hz"]), list(r["accel_g"]),
-                          float(r.get("q", 10.0)), None, "")
+                          float(r.get("q", 10.0)), None, "", margin_db=_margin_db(r))
     if level.kind is K.sine:
-        return LevelCurve(level.kind, list(r["freq_hz"]), list(r["accel_g"]), None, None, "")
+        return LevelCurve(level.kind, list(r["freq_hz"]), list(r["accel_g"]), None, None, "",
+                          sweep_rate_oct_per_min=r.get("sweep_rate_oct_per_min"),
+                          sweep_time_s=r.get("sweep_time_s"))
     raise ValidationFailed("level_id", level.id, f"a {level.kind.value} level has no estimate")
 
 

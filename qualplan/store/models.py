@@ -394,6 +394,7 @@ IMMUTABLE_MODELS: tuple[type[Base], ...] = (EnvironmentRevision, Level, Evidence
 class DocumentKind(enum.StrEnum):
     specification = "specification"
     audit = "audit"
+    loads = "loads"
 
 
 class Document(Base):

@@ -46,3 +46,38 @@ def test_modal_tables_upgrade_refuse_edits_and_downgrade(fresh_db_url):
         assert conn.execute(text("SELECT count(*) FROM modal_summaries")).scalar_one() == 0
         assert conn.execute(text("SELECT name FROM products")).scalar_one() == "U"
     engine.dispose()
+
+
+def _doc(conn, kind, number):
+    pid = conn.execute(text("SELECT min(id) FROM programs")).scalar_one()
+    conn.execute(text("INSERT INTO documents (program_id, product_id, kind, number, revision, "
+                      "title, content_hash, input_hashes, note, author, created_at) VALUES "
+                      "(:p, NULL, :k, :n, 1, 't', 'h', '{}', '', 'a', CURRENT_TIMESTAMP)"),
+                 {"p": pid, "k": kind, "n": number})
+
+
+def test_documents_accept_loads_keep_rows_and_triggers(fresh_db_url):
+    migrate.upgrade(fresh_db_url, "0003")
+    engine = make_engine(fresh_db_url)
+    with engine.begin() as conn:
+        conn.execute(text("INSERT INTO programs (name, description, created_at, version) "
+                          "VALUES ('P', '', CURRENT_TIMESTAMP, 1)"))
+        _doc(conn, "audit", "MCA-P")
+    with pytest.raises(DBAPIError):
+        with engine.begin() as conn:
+            _doc(conn, "loads", "ALP-0")
+    engine.dispose()
+    migrate.upgrade(fresh_db_url, "0005")
+    engine.dispose()
+    with engine.begin() as conn:
+        _doc(conn, "loads", "ALP-1")
+        assert conn.execute(text("SELECT count(*) FROM documents")).scalar_one() == 2
+    with pytest.raises(DBAPIError):
+        with engine.begin() as conn:
+            _doc(conn, "drawing", "X-1")
+    with pytest.raises(DBAPIError, match="immutable"):
+        with engine.begin() as conn:
+            conn.execute(text("UPDATE documents SET note = 'edited'"))
+    with pytest.raises(RuntimeError, match="loads"):
+        migrate.downgrade(fresh_db_url, "0003")
+    engine.dispose()
