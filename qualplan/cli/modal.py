@@ -8,7 +8,8 @@
   Davenport expected peak; sine: steady-state peak);
 - ``modal estimates``, ``modal estimate-show ID``;
 - ``modal evidence REQ --estimate ID --quantity Q --allowable A [--factor-of-safety FS]``:
-  close an analysis requirement with MS = allowable / (FS x applied) - 1.
+  close an analysis requirement with MS = allowable / (FS x applied) - 1;
+- ``report loads --product P [--axis Z] --out DIR``: the analysis loads package.
 """
 
 from __future__ import annotations
@@ -20,9 +21,11 @@ import typer
 
 from qualplan.cli.base import DbOption, app
 from qualplan.cli.commands import JsonOption, ProgramOption, _program, _read_file, local_actor, work
-from qualplan.cli.output import emit_json, table
-from qualplan.planning import catalog, requirements
+from qualplan.cli.output import emit_json, progress, table
+from qualplan.cli.report import report_app
+from qualplan.planning import catalog, documents, loads, requirements
 from qualplan.planning import modal as pm
+from qualplan.reports.loads import LoadsRenderer
 from qualplan.store.models import Axis
 
 modal_app = typer.Typer(help="Modal summaries and peak-response estimates.",
@@ -247,3 +250,38 @@ def modal_evidence(
             estimate_id=estimate, quantity=quantity, allowable=allowable,
             factor_of_safety=factor_of_safety, note=note))
     typer.echo(f"evidence {ev.id}: {ev.verdict.value}; {ev.summary['reason']}")
+
+
+@report_app.command("loads")
+def report_loads(
+    product: Annotated[str, typer.Option(help="Product name or id.")],
+    axis: Annotated[Axis | None, typer.Option(help="One axis only (default all).")] = None,
+    out: Annotated[Path, typer.Option("--out", help="Folder for the PDF, CSV and JSON files.")
+                   ] = Path("."),
+    levels: Annotated[str | None, typer.Option(
+        help="Level ids, comma-separated (default: the newest analysis levels).")] = None,
+    number: Annotated[str | None, typer.Option(
+        help="Document number (default ALP-<part>[-<axis>]).")] = None,
+    note: Annotated[str, typer.Option(help="Revision note (why this issue).")] = "",
+    program: ProgramOption = None,
+    db: DbOption = None,
+    as_json: JsonOption = False,
+) -> None:
+    """Issue the analysis loads package of a product (tables, solver settings, caution)."""
+    ids = [int(x) for x in levels.split(",") if x.strip()] if levels else None
+    with work(db) as session:
+        prog = _program(session, program) if program else None
+        prod = catalog.product_ref(session, prog, product)
+        content = loads.loads_content(session, prod.id, axis=axis, level_ids=ids, number=number,
+                                      note=note)
+        with progress("rendering the loads package"):
+            issued = documents.issue_document(session, local_actor(), content, LoadsRenderer(),
+                                              out)
+    if as_json:
+        emit_json(issued.model_dump(mode="json"))
+        return
+    state = "issued" if issued.new_revision else "unchanged since, re-rendered"
+    typer.echo(f"{issued.number} revision {issued.revision} ({state}), content hash "
+               f"{issued.content_hash[:12]}")
+    for path in issued.files:
+        typer.echo(f"  {path}")

@@ -84,3 +84,16 @@ def test_modal_import_estimate_and_evidence(db, capsys, tmp_path):
     code, _, err = ok("modal", "evidence", "STR-1", "--estimate", str(est["id"]), "--quantity",
                       "stress", "--allowable", "1")
     assert code == 2 and "quantity" in err
+    # the loads package of the analysis level, issued twice: the same revision
+    out_dir = tmp_path / "docs"
+    code, out, err = ok("report", "loads", "--product", "Camera electronics", "--axis", "Z",
+                        "--out", str(out_dir))
+    assert code == 0, err
+    assert "revision 1 (issued)" in out
+    assert (out_dir / "ALP-CAMERA-ELECTRONICS-Z-r1.pdf").is_file()
+    code, out, err = ok("report", "loads", "--product", "Camera electronics", "--axis", "Z",
+                        "--out", str(out_dir))
+    assert code == 0 and "unchanged since" in out
+    code, out, err = ok("report", "loads", "--product", "Camera electronics", "--axis", "X",
+                        "--out", str(out_dir))
+    assert code == 2 and "no analysis level on axis X" in err
