@@ -60,3 +60,8 @@ def test_modal_upload_estimate_evidence_and_stale(eng, viewer):
     r = eng.post("/estimates", {"modal_revision_id": rev["id"], "level_id": level["id"],
                                 "axis": "all"}, expect=422)
     assert "axis" in r.text
+    r = viewer.get("/documents/loads.pdf", params={"product_id": unit["id"], "axis": "Z"})
+    assert r.headers["content-type"] == "application/pdf" and r.content.startswith(b"%PDF")
+    assert len(r.headers["X-Content-Hash"]) == 64
+    viewer.get("/documents/loads.pdf", params={"product_id": unit["id"], "axis": "X"},
+               expect=422)

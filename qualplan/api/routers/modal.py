@@ -4,12 +4,14 @@ from __future__ import annotations
 
 from typing import Annotated
 
-from fastapi import APIRouter, File, Form, UploadFile
+from fastapi import APIRouter, File, Form, Response, UploadFile
 
 from qualplan.api.deps import ActorDep, PageDep, ReaderDep, SessionDep
 from qualplan.api.models import Page
+from qualplan.planning import loads
 from qualplan.planning import modal as pm
 from qualplan.planning import schemas as s
+from qualplan.reports.loads import pdf_bytes as loads_pdf_bytes
 
 router = APIRouter(tags=["modal"])
 
@@ -82,3 +84,14 @@ def add_estimate_evidence(requirement_id: int, cmd: pm.EstimateEvidenceIn, sessi
     """Analysis evidence from an estimate: MS = allowable / (FS x applied) - 1."""
     return s.EvidenceRead.model_validate(pm.record_as_evidence(session, actor, requirement_id,
                                                                cmd))
+
+
+@router.get("/documents/loads.pdf", response_class=Response, tags=["documents"],
+            responses={200: {"content": {"application/pdf": {}}}})
+def loads_pdf(session: SessionDep, _: ReaderDep, product_id: int, axis: s.Axis | None = None):
+    """The analysis loads package of a product (newest analysis levels), as PDF (not issued)."""
+    content = loads.loads_content(session, product_id, axis=axis)
+    name = f"{content.number}-r{content.revision}.pdf"
+    return Response(loads_pdf_bytes(content), media_type="application/pdf",
+                    headers={"Content-Disposition": f'inline; filename="{name}"',
+                             "X-Content-Hash": content.content_hash()})
