@@ -509,6 +509,8 @@ def sine_response(freq_hz, accel_g, fn_hz, zeta, meff_kg, *, residual_kg: float 
     mres = float(residual_kg)
     if not math.isfinite(mres) or mres < 0:
         raise InputError("residual_kg", residual_kg, "must be a finite number >= 0")
+    if int(n_res) != n_res or n_res < 8:
+        raise InputError("n_res", n_res, "must be a whole number >= 8")
     lo, hi = float(f[0]), float(f[-1])
     theta = np.linspace(-0.5 * np.pi, 0.5 * np.pi, int(n_res) + 2)[1:-1]
     parts = [np.geomspace(lo, hi, max(int(96 * math.log2(hi / lo)) + 2, 2)), f]

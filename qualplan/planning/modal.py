@@ -31,7 +31,7 @@ from qualplan.io.modal import read_modal_summary
 from qualplan.planning import envdata
 from qualplan.planning.access import Actor, record, require
 from qualplan.planning.catalog import get
-from qualplan.planning.errors import Conflict, ValidationFailed
+from qualplan.planning.errors import Conflict, ValidationFailed, VersionMismatch
 from qualplan.store import models as m
 from qualplan.store.hashing import json_hash
 
@@ -229,7 +229,6 @@ def import_modal_summary(
     latest = _latest(session, summary.id)
     if expected_revision is not None and latest is not None and \
             latest.number != expected_revision:
-        from qualplan.planning.errors import VersionMismatch
         raise VersionMismatch("modal summary", summary.id, expected_revision, latest.number)
     digest = json_hash(spec)
     if latest is not None and latest.content_hash == digest:
@@ -330,8 +329,9 @@ def _estimate_shock(curve: LevelCurve, fn, zeta, meff, notes: list[str]) -> dict
     q = {f"base_force_{k}_n": _qty(v, "N peak", f"{k.upper()} of the modal base forces "
                                    "m_eff SRS(fn) g0")
          for k, v in res.force_combined_n.items()}
-    q["accel_cqc_g"] = _qty(res.force_combined_n["cqc"] / (G0_M_S2 * meff.sum()),
-                            "g peak", "CQC base force / (g0 x sum of effective masses)")
+    if meff.sum() > 0:
+        q["accel_cqc_g"] = _qty(res.force_combined_n["cqc"] / (G0_M_S2 * meff.sum()),
+                                "g peak", "CQC base force / (g0 x sum of effective masses)")
     return {
         "method": "response spectrum: per-mode peaks from the SRS at fn, combined by ABS, SRSS, "
                   "NRL and CQC (Der Kiureghian 1981)",
