@@ -74,6 +74,9 @@ __all__ = [
     "combine",
     "spectrum_response",
     "random_response",
+    "QuantityResponse",
+    "quantity_spectrum_peaks",
+    "quantity_random_response",
     "sine_response",
     "sigma_levels",
     "peak_factor",
@@ -415,6 +418,134 @@ def random_response(freq_hz, asd_g2_hz, fn_hz, zeta, meff_kg, *, residual_kg: fl
         mode_force_rms_n=mode_force, mode_nu0_hz=np.sqrt(mode_m2 / mode_ms),
         force_rms_n=force, accel_rms_g=acc,
         nu0_hz=math.sqrt(m2 / m0) if m0 > 0 else 0.0, force_srss_rms_n=srss)
+
+
+# ------------------------------------------------- response quantity of the modes
+
+def _quantity_inputs(fn_hz, zeta, gamma, phi):
+    fn, z, _ = _modes(fn_hz, zeta)
+    g = v.as_1d_float("gamma", gamma)
+    r = v.as_1d_float("phi", phi)
+    for name, arr in (("gamma", g), ("phi", r)):
+        if arr.size != fn.size:
+            raise InputError(name, f"{arr.size} values", f"must give one value per mode "
+                             f"({fn.size})")
+    return fn, z, g, r
+
+
+def quantity_spectrum_peaks(srs_at_fn_g, fn_hz, gamma, phi) -> np.ndarray:
+    """Signed modal peaks of a response quantity from the SRS at each fn (mode displacement).
+
+    Parameters
+    ----------
+    srs_at_fn_g : array_like, shape (k,)
+        SRS (maximax, taken as the pseudo-acceleration) at each fn. [g]
+    fn_hz : array_like, shape (k,)
+        Natural frequencies. [Hz]
+    gamma : array_like, shape (k,)
+        Participation factors in the excitation axis (mass-normalised modes:
+        m_eff = gamma^2). [sqrt(kg)]
+    phi : array_like, shape (k,)
+        Response quantity per unit modal coordinate. [unit / (m sqrt(kg))]
+
+    Returns
+    -------
+    numpy.ndarray
+        R_k = phi_k gamma_k SRS(fn_k) g0 / (2 pi fn_k)^2, signed. [unit]
+
+    Notes
+    -----
+    The modal coordinate's peak is gamma S_d with the spectral displacement
+    S_d = S_pa / w^2 (response spectrum method; Chopra, Dynamics of Structures,
+    ch. 13). Valid for a quantity linear in the relative displacements (stress,
+    strain, internal force, relative displacement), not for absolute acceleration.
+    Combine with :func:`combine` (signs matter for CQC).
+    """
+    fn, _, g, r = _quantity_inputs(fn_hz, np.full(np.size(fn_hz), 0.05), gamma, phi)
+    sa = v.as_1d_float("srs_at_fn_g", srs_at_fn_g)
+    if sa.size != fn.size:
+        raise InputError("srs_at_fn_g", f"{sa.size} values", f"must give one per mode "
+                         f"({fn.size})")
+    return r * g * sa * G0_M_S2 / (2.0 * np.pi * fn) ** 2
+
+
+@dataclass(frozen=True)
+class QuantityResponse:
+    """Random response of a quantity linear in the modal coordinates.
+
+    Attributes
+    ----------
+    mode_rms : numpy.ndarray
+        Per mode: rms of phi_k q_k. [unit rms]
+    rms : float
+        Coherent total: sqrt(integral |sum phi_k q_k(f)|^2 df). [unit rms]
+    nu0_hz : float
+        Zero up-crossing rate of the total, sqrt(m2/m0). [Hz]
+    """
+
+    mode_rms: np.ndarray
+    rms: float
+    nu0_hz: float
+
+
+def quantity_random_response(freq_hz, asd_g2_hz, fn_hz, zeta, gamma, phi, *,
+                             n_res: int = 320) -> QuantityResponse:
+    """Random response of a quantity from its value per unit modal coordinate.
+
+    Parameters
+    ----------
+    freq_hz, asd_g2_hz : array_like
+        Base-acceleration ASD breakpoints. [Hz], [g^2/Hz]
+    fn_hz : array_like, shape (k,)
+        Natural frequencies. [Hz]
+    zeta : float or array_like
+        Damping ratios. [unitless]
+    gamma : array_like, shape (k,)
+        Participation factors in the axis. [sqrt(kg)]
+    phi : array_like, shape (k,)
+        Response per unit modal coordinate. [unit / (m sqrt(kg))]
+    n_res : int
+        Quadrature nodes per resonance.
+
+    Returns
+    -------
+    QuantityResponse
+
+    Notes
+    -----
+    q_k'' + 2 zeta_k w_k q_k' + w_k^2 q_k = -gamma_k a_base: the modal coordinate's
+    transfer is -gamma_k g0 / (w_k^2 - w^2 + 2 i zeta_k w_k w) (mode displacement
+    method), and R(f) = sum_k phi_k q_k(f) integrated coherently over W(f) as in
+    :func:`random_response`. A single mode with gamma = phi = 1 is the SDOF relative
+    displacement [m].
+    """
+    f, w = check_psd(freq_hz, asd_g2_hz)
+    fn, z, g, r = _quantity_inputs(fn_hz, zeta, gamma, phi)
+    if int(n_res) != n_res or n_res < 8:
+        raise InputError("n_res", n_res, "must be a whole number >= 8")
+    x, xm = _simpson_nodes(f[0], f[-1], fn, z, f, int(n_res))
+    lf, lw = np.log(f), np.log(w)
+    wx = np.exp(np.interp(np.log(x), lf, lw))
+    wm = np.exp(np.interp(np.log(xm), lf, lw))
+    sx = np.zeros(x.shape, complex)
+    sm = np.zeros(xm.shape, complex)
+    mode_ms = np.empty(fn.size)
+    for k in range(fn.size):
+        wk = 2.0 * np.pi * fn[k]
+
+        def h(ff, wk=wk, k=k):
+            om = 2.0 * np.pi * ff
+            return -g[k] * r[k] * G0_M_S2 / (wk * wk - om * om + 2j * z[k] * wk * om)
+
+        hx, hm = h(x), h(xm)
+        mode_ms[k] = _simpson(x, np.abs(hx) ** 2 * wx, np.abs(hm) ** 2 * wm)
+        sx += hx
+        sm += hm
+    px, pm = np.abs(sx) ** 2 * wx, np.abs(sm) ** 2 * wm
+    m0 = _simpson(x, px, pm)
+    m2 = _simpson(x, px * x * x, pm * xm * xm)
+    return QuantityResponse(np.sqrt(mode_ms), math.sqrt(m0),
+                            math.sqrt(m2 / m0) if m0 > 0 else 0.0)
 
 
 # ---------------------------------------------------------------------- sine

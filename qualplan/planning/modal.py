@@ -302,6 +302,16 @@ def _modes_for_axis(spec: dict, axis: m.Axis):
     return fn, zeta, meff
 
 
+def _quantity_of(spec: dict, axis: m.Axis):
+    """(gamma, phi, unit) when every mode gives a participation on `axis` and a response."""
+    modes = spec["modes"]
+    if not spec.get("response_unit") or not all(
+            "response" in md and axis.value in (md.get("participation") or {}) for md in modes):
+        return None
+    return (np.array([md["participation"][axis.value] for md in modes], float),
+            np.array([md["response"] for md in modes], float), spec["response_unit"])
+
+
 def _qty(value: float, unit: str, basis: str) -> dict[str, Any]:
     return {"value": float(value), "unit": unit, "basis": basis}
 
@@ -317,7 +327,8 @@ def _mode_rows(fn, zeta, meff, **cols) -> list[dict[str, Any]]:
     return rows
 
 
-def _estimate_shock(curve: LevelCurve, fn, zeta, meff, notes: list[str]) -> dict[str, Any]:
+def _estimate_shock(curve: LevelCurve, fn, zeta, meff, notes: list[str], quantity=None
+                    ) -> dict[str, Any]:
     res = core_modal.spectrum_response(curve.freq_hz, curve.values, fn, zeta, meff)
     z_srs = 1.0 / (2.0 * curve.q)
     if np.any(np.abs(zeta - z_srs) > 1e-9):
@@ -329,6 +340,12 @@ def _estimate_shock(curve: LevelCurve, fn, zeta, meff, notes: list[str]) -> dict
     q = {f"base_force_{k}_n": _qty(v, "N peak", f"{k.upper()} of the modal base forces "
                                    "m_eff SRS(fn) g0")
          for k, v in res.force_combined_n.items()}
+    if quantity is not None:
+        gamma, phi, unit = quantity
+        peaks = core_modal.quantity_spectrum_peaks(res.accel_g, fn, gamma, phi)
+        for k in core_modal.METHODS:
+            q[f"response_{k}"] = _qty(core_modal.combine(peaks, k, res.rho), f"{unit} peak",
+                                      f"{k.upper()} of phi gamma SRS(fn) g0 / w^2 per mode")
     if meff.sum() > 0:
         q["accel_cqc_g"] = _qty(res.force_combined_n["cqc"] / (G0_M_S2 * meff.sum()),
                                 "g peak", "CQC base force / (g0 x sum of effective masses)")
@@ -343,7 +360,7 @@ def _estimate_shock(curve: LevelCurve, fn, zeta, meff, notes: list[str]) -> dict
 
 
 def _estimate_random(curve: LevelCurve, fn, zeta, meff, residual: float, duration_s,
-                     notes: list[str]) -> dict[str, Any]:
+                     notes: list[str], quantity=None) -> dict[str, Any]:
     res = core_modal.random_response(curve.freq_hz, curve.values, fn, zeta, meff,
                                      residual_kg=residual)
     out_band = (fn < curve.freq_hz[0]) | (fn > curve.freq_hz[-1])
@@ -372,6 +389,17 @@ def _estimate_random(curve: LevelCurve, fn, zeta, meff, residual: float, duratio
         q["accel_expected_peak_g"] = _qty(u * res.accel_rms_g, "g peak", "Davenport 1964")
     else:
         notes.append("no exposure duration: the expected peak (Davenport) is not computed")
+    if quantity is not None:
+        gamma, phi, unit = quantity
+        qr = core_modal.quantity_random_response(curve.freq_hz, curve.values, fn, zeta, gamma,
+                                                 phi)
+        q["response_rms"] = _qty(qr.rms, f"{unit} rms", "coherent sum of phi q_k over the ASD "
+                                 "(mode displacement)")
+        q["response_3sigma"] = _qty(3 * qr.rms, unit, "3 sigma")
+        if duration_s is not None and qr.nu0_hz * duration_s > 1:
+            u = core_modal.peak_factor(qr.nu0_hz, duration_s)
+            q["response_expected_peak"] = _qty(u * qr.rms, f"{unit} peak",
+                                               f"Davenport 1964 at nu0 = {qr.nu0_hz:.4g} Hz")
     mode_peak = None
     if duration_s is not None and np.all(res.mode_nu0_hz * duration_s > 1):
         mode_peak = core_modal.peak_factor(res.mode_nu0_hz, duration_s) * res.mode_force_rms_n
@@ -434,10 +462,12 @@ def make_estimate(session: Session, actor: Actor, cmd: EstimateIn) -> m.Response
     notes: list[str] = []
     with envdata.core_errors(""), warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", AccuracyWarning)
+        quantity = _quantity_of(rev.spec, axis)
         if curve.kind is K.shock:
-            result = _estimate_shock(curve, fn, zeta, meff, notes)
+            result = _estimate_shock(curve, fn, zeta, meff, notes, quantity)
         elif curve.kind is K.random:
-            result = _estimate_random(curve, fn, zeta, meff, residual, duration, notes)
+            result = _estimate_random(curve, fn, zeta, meff, residual, duration, notes,
+                                      quantity)
         else:
             result = _estimate_sine(curve, fn, zeta, meff, residual, notes)
     for w in caught:

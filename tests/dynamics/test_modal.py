@@ -330,3 +330,48 @@ def test_no_warning_inside_band():
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         modal.spectrum_response([10.0, 1000.0], [20.0, 20.0], [100.0], 0.05, [1.0])
+
+
+# ---------------------------------------------------- response quantity per modal coordinate
+
+def test_quantity_single_mode_is_the_sdof_relative_displacement():
+    # gamma = phi = 1: the SDOF relative displacement z rms (exact integral of the core,
+    # and Miles' z_rms for the domain case: 0.19561 mm exact, flat 0.04 g^2/Hz, fn 100, Q 10)
+    res = modal.quantity_random_response(*FLAT, [100.0], 0.05, [1.0], [1.0])
+    z = sdof.response_rms(*FLAT, [100.0], 10.0, output="rel_disp")[0]
+    assert res.rms == pytest.approx(z, rel=1e-7)
+    assert res.rms * 1e3 == pytest.approx(0.19561, abs=5e-6)
+    # linear in phi and gamma
+    res2 = modal.quantity_random_response(*FLAT, [100.0], 0.05, [-2.0], [3.0])
+    assert res2.rms == pytest.approx(6.0 * z, rel=1e-12)
+
+
+def test_quantity_two_modes_matches_direct_integration():
+    psd_f, psd_w = [20.0, 80.0, 350.0, 2000.0], [0.01, 0.04, 0.04, 0.007]
+    fn, zeta, gamma, phi = [150.0, 200.0], [0.05, 0.03], [1.1, -0.9], [30.0, 45.0]
+    res = modal.quantity_random_response(psd_f, psd_w, fn, zeta, gamma, phi)
+
+    def w(f):
+        i = min(np.searchsorted(psd_f, f, side="right") - 1, len(psd_f) - 2)
+        n = math.log(psd_w[i + 1] / psd_w[i]) / math.log(psd_f[i + 1] / psd_f[i])
+        return psd_w[i] * (f / psd_f[i]) ** n
+
+    def integrand(f):
+        om = 2 * math.pi * f
+        s = sum(-g * p * G0 / ((2 * math.pi * fk) ** 2 - om * om + 2j * zk * 2 * math.pi * fk * om)
+                for fk, zk, g, p in zip(fn, zeta, gamma, phi, strict=True))
+        return abs(s) ** 2 * w(f)
+
+    tot = sum(integrate.quad(integrand, a, b, points=[x for x in fn if a < x < b] or None,
+                             limit=4000, epsabs=0, epsrel=1e-11)[0]
+              for a, b in zip(psd_f[:-1], psd_f[1:], strict=True))
+    assert res.rms == pytest.approx(math.sqrt(tot), rel=1e-7)
+
+
+def test_quantity_spectrum_peaks_by_hand():
+    # R = phi gamma SRS g0 / (2 pi fn)^2: 23535.96 / 394784.18 = 0.059617 (by hand)
+    r = modal.quantity_spectrum_peaks([50.0], [100.0], [1.2], [40.0])
+    assert r[0] == pytest.approx(40 * 1.2 * 50 * 9.80665 / (2 * math.pi * 100) ** 2, rel=1e-12)
+    assert r[0] == pytest.approx(0.059617, abs=5e-7)
+    with pytest.raises(InputError, match="phi"):
+        modal.quantity_spectrum_peaks([50.0, 60.0], [100.0, 200.0], [1.2, 1.0], [40.0])

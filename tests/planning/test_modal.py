@@ -105,6 +105,12 @@ def test_random_estimate_matches_core_and_closes_a_requirement(session, engineer
     assert est.settings["duration_s"] == level.result["life_exposure_s"]
     u = core_modal.peak_factor(core.nu0_hz, level.result["life_exposure_s"])
     assert q["base_force_expected_peak_n"]["value"] == pytest.approx(u * core.force_rms_n)
+    # the stress per unit modal coordinate (MPa) with the participation factors on Z
+    qr = core_modal.quantity_random_response(curve.freq_hz, curve.values, [180.0, 240.0, 610.0],
+                                             [0.03, 0.05, 0.05], [1.22, 0.63, 0.45],
+                                             [40.0, 25.0, 12.0])
+    assert q["response_rms"] == {"value": pytest.approx(qr.rms, rel=1e-12), "unit": "MPa rms",
+                                 "basis": q["response_rms"]["basis"]}
     assert est.input_hashes["modal_revision"] == {str(rev.id): rev.content_hash}
     assert not pm.read_estimate(session, est).stale
 
@@ -148,6 +154,12 @@ def test_shock_estimate_cqc_and_level_revision_staleness(session, engineer, unit
                                                             rel=1e-9)
     assert q["base_force_srss_n"]["value"] < q["base_force_cqc_n"]["value"] < \
         q["base_force_abs_n"]["value"]
+    stress = core_modal.quantity_spectrum_peaks(np.exp(srs), [180.0, 240.0, 610.0],
+                                                [1.22, 0.63, 0.45], [40.0, 25.0, 12.0])
+    rho = core_modal.cqc_coefficients([180.0, 240.0, 610.0], [0.03, 0.05, 0.05])
+    assert q["response_cqc"]["value"] == pytest.approx(core_modal.combine(stress, "cqc", rho),
+                                                       rel=1e-9)
+    assert q["response_cqc"]["unit"] == "MPa peak"
     assert any("Q = 10" in n for n in est.result["notes"])  # modes at zeta 0.03 read a Q 10 SRS
     # deriving the level again (a new number) makes the estimate stale
     _level(session, engineer, unit, env, "shock")
