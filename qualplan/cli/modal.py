@@ -285,3 +285,33 @@ def report_loads(
                f"{issued.content_hash[:12]}")
     for path in issued.files:
         typer.echo(f"  {path}")
+
+
+@modal_app.command("steinberg")
+def modal_steinberg(
+    estimate: Annotated[int, typer.Option(help="Random estimate id.")],
+    mode: Annotated[int, typer.Option(help="Mode number of the board's fundamental.")],
+    board_edge_mm: Annotated[float, typer.Option(help="Board edge B parallel to the "
+                                                 "component [mm].")],
+    component_length_mm: Annotated[float, typer.Option(help="Component length L [mm].")],
+    board_thickness_mm: Annotated[float, typer.Option(help="Board thickness h [mm].")],
+    c: Annotated[float, typer.Option(help="Component constant (1.0 DIP, 2.25 leadless "
+                                     "chip carrier; from memory).")] = 1.0,
+    r: Annotated[float, typer.Option(help="Position factor (1.0 at the board centre).")] = 1.0,
+    db: DbOption = None,
+    as_json: JsonOption = False,
+) -> None:
+    """Steinberg's allowable board displacement against the 3-sigma displacement of a mode."""
+    with work(db) as session:
+        out = pm.steinberg_from_estimate(
+            session, estimate, mode, board_edge_mm=board_edge_mm,
+            component_length_mm=component_length_mm, board_thickness_mm=board_thickness_mm,
+            c=c, r=r)
+    if as_json:
+        emit_json(out)
+        return
+    typer.echo(f"mode {out['mode']} at {out['fn_hz']:.4g} Hz, {out['response_grms']:.4g} g rms: "
+               f"3-sigma displacement {out['z_3sigma_mm']:.4g} mm, allowable "
+               f"{out['z_allow_mm']:.4g} mm, ratio {out['ratio']:.3g} -> "
+               f"{'passes' if out['passes'] else 'FAILS'}")
+    typer.echo(out["basis"])

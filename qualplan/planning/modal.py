@@ -616,3 +616,35 @@ __all__ = [
     "level_curve", "list_estimates", "list_summaries", "make_estimate", "read_estimate",
     "read_summary", "record_as_evidence", "revision_by_id", "summary_by_id", "summary_revision",
 ]
+
+
+def steinberg_from_estimate(session: Session, estimate_id: int, mode: int, *,
+                            board_edge_mm: float, component_length_mm: float,
+                            board_thickness_mm: float, c: float = 1.0, r: float = 1.0
+                            ) -> dict[str, Any]:
+    """Steinberg's board check on one mode of a random estimate (the board's fundamental).
+
+    Uses the mode's fn and its rms absolute acceleration from the estimate
+    (Steinberg, Vibration Analysis for Electronic Equipment, 3rd ed., 2000; constants
+    from memory). Not stored: a check to read beside the estimate.
+    """
+    est = estimate_by_id(session, estimate_id)
+    if est.settings.get("kind") != "random":
+        raise ValidationFailed("estimate_id", estimate_id, "must be a random estimate")
+    rows = est.result["modes"]
+    if not 1 <= mode <= len(rows):
+        raise ValidationFailed("mode", mode, f"must be 1 to {len(rows)}")
+    row = rows[mode - 1]
+    with envdata.core_errors(""):
+        chk = core_modal.steinberg_check(
+            row["fn_hz"], row["accel_rms_g"], board_edge_mm / 1e3, component_length_mm / 1e3,
+            board_thickness_mm / 1e3, c=c, r=r)
+    return {
+        "estimate_id": est.id, "mode": mode, "fn_hz": row["fn_hz"],
+        "response_grms": row["accel_rms_g"],
+        "z_3sigma_mm": chk.z_3sigma_m * 1e3, "z_allow_mm": chk.z_allow_m * 1e3,
+        "ratio": chk.ratio, "passes": chk.passes,
+        "basis": "Steinberg, Vibration Analysis for Electronic Equipment, 3rd ed. (2000): "
+                 "Z = 0.00022 B / (c h r sqrt(L)) in, about 2e7 reversals at 3 sigma "
+                 "(constants from memory: verify against the book)",
+    }

@@ -97,3 +97,8 @@ def test_modal_import_estimate_and_evidence(db, capsys, tmp_path):
     code, out, err = ok("report", "loads", "--product", "Camera electronics", "--axis", "X",
                         "--out", str(out_dir))
     assert code == 2 and "no analysis level on axis X" in err
+    # Steinberg's check needs a random estimate: one line, exit 2, for the shock estimate
+    code, _, err = ok("modal", "steinberg", "--estimate", str(est["id"]), "--mode", "1",
+                      "--board-edge-mm", "150", "--component-length-mm", "25",
+                      "--board-thickness-mm", "1.6")
+    assert code == 2 and "random estimate" in err

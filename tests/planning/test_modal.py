@@ -190,3 +190,24 @@ def test_sine_estimate_and_bad_inputs(session, engineer, unit, road):
     with pytest.raises(ValidationFailed, match="quantity"):
         pm.record_as_evidence(session, engineer, req.id, pm.EstimateEvidenceIn(
             estimate_id=est.id, quantity="stress", allowable=1.0))
+
+
+def test_steinberg_on_a_random_estimate(session, engineer, unit, road):
+    env = _env(session, engineer, unit, road, "road Z", m.EnvironmentKind.random,
+               {"freq_hz": [20.0, 2000.0], "asd_g2_hz": [0.04, 0.04]})
+    level = _level(session, engineer, unit, env, "random")
+    rev = _import(session, engineer, unit)
+    est = pm.make_estimate(session, engineer, pm.EstimateIn(modal_revision_id=rev.id,
+                                                            level_id=level.id))
+    out = pm.steinberg_from_estimate(session, est.id, 1, board_edge_mm=152.4,
+                                     component_length_mm=25.4, board_thickness_mm=1.5748)
+    row = est.result["modes"][0]
+    # Steinberg (3rd ed., constants from memory): B = 6 in, L = 1 in, h = 0.062 in, c = r = 1
+    # -> 0.00022 x 6 / 0.062 = 0.021290 in = 0.54077 mm (by hand)
+    assert out["z_allow_mm"] == pytest.approx(0.54077, rel=1e-4)
+    z3 = 3 * row["accel_rms_g"] * G0 / (2 * math.pi * row["fn_hz"]) ** 2 * 1e3
+    assert out["z_3sigma_mm"] == pytest.approx(z3, rel=1e-12)
+    assert out["passes"] is (out["z_allow_mm"] >= z3)
+    with pytest.raises(ValidationFailed, match="mode"):
+        pm.steinberg_from_estimate(session, est.id, 9, board_edge_mm=152.4,
+                                   component_length_mm=25.4, board_thickness_mm=1.5748)
