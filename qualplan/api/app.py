@@ -19,6 +19,7 @@ from qualplan.api.routers import (
     events,
     evidence,
     levels,
+    modal,
     policies,
     requirements,
     users,
@@ -39,6 +40,7 @@ ROUTERS = (
     documents.router,
     users.router,
     events.router,
+    modal.router,
 )
 
 

@@ -17,10 +17,11 @@ import typer
 from qualplan.cli.base import CliError, app
 from qualplan.cli.output import progress
 from qualplan.planning import demo as scenario
-from qualplan.planning import documents
+from qualplan.planning import documents, loads
 from qualplan.planning.access import Actor
 from qualplan.planning.schemas import Grade, Role
 from qualplan.reports import PdfRenderer
+from qualplan.reports.loads import LoadsRenderer
 from qualplan.store import migrate
 from qualplan.store.session import make_engine, make_sessionmaker, unit_of_work
 
@@ -65,6 +66,9 @@ def demo(
                     content = documents.specification_content(session, summary.unit_id, grade)
                     issued.append(documents.issue_document(
                         session, actor, content, PdfRenderer(figures=True), docs_dir))
+                issued.append(documents.issue_document(
+                    session, actor, loads.loads_content(session, summary.unit_id),
+                    LoadsRenderer(), docs_dir))
                 audit = documents.audit_content(session, summary.program_id)
                 issued.append(documents.issue_document(session, actor, audit, PdfRenderer(),
                                                        docs_dir))

@@ -16,4 +16,6 @@ Modules by topic (units inside the core: g, g^2/Hz, Hz, s, m, m/s):
   tests, duration equivalence, time compression
 - ``shock_synthesis``: wavelet shocks matching an SRS (shaker-realisable)
 - ``sdof_filter``: ramp-invariant recursive filters of the SDOF oscillator
+- ``modal``: modal combination (ABS, SRSS, NRL, CQC), random/sine/SRS peak responses of
+  a modal summary, Davenport peak factor, Steinberg board check
 """

@@ -27,15 +27,15 @@ from typing import Literal
 import numpy as np
 
 from qualplan.dynamics import _validate as v
-from qualplan.dynamics import sdof
+from qualplan.dynamics import modal, sdof
 from qualplan.dynamics.errors import AccuracyWarning, InputError
 from qualplan.dynamics.sine import Sweep
 from qualplan.dynamics.units import G0_M_S2
 
 __all__ = ["ers_random", "peak_factor", "ers_sine_dwell", "ers_sweep", "ers_shock"]
 
-#: Euler-Mascheroni constant (Davenport's correction).
-EULER_GAMMA = 0.5772156649015329
+#: Euler-Mascheroni constant (Davenport's correction); defined in :mod:`modal`.
+EULER_GAMMA = modal.EULER_GAMMA
 
 
 def peak_factor(n_crossings, *, method: Literal["davenport", "u0"] = "davenport") -> np.ndarray:
@@ -48,7 +48,9 @@ def peak_factor(n_crossings, *, method: Literal["davenport", "u0"] = "davenport"
         n0+ T (double it for the largest absolute value). [count]
     method : {"davenport", "u0"}
         "davenport": expected largest peak u0 + gamma / u0 (Davenport 1964,
-        gamma = 0.5772); "u0": the level exceeded once on average,
+        gamma = 0.5772; the one implementation is
+        :func:`qualplan.dynamics.modal.davenport_factor`); "u0": the level
+        exceeded once on average,
         u0 = sqrt(2 ln(n0+ T)) (Lalanne's usual form).
 
     Returns
@@ -59,11 +61,10 @@ def peak_factor(n_crossings, *, method: Literal["davenport", "u0"] = "davenport"
     n = np.asarray(n_crossings, float)
     if (n <= 1).any():
         raise InputError("n_crossings", n, "must exceed 1 (exposure shorter than one cycle)")
-    u0 = np.sqrt(2.0 * np.log(n))
     if method == "u0":
-        return u0
+        return np.sqrt(2.0 * np.log(n))
     if method == "davenport":
-        return u0 + EULER_GAMMA / u0
+        return modal.davenport_factor(n)
     raise InputError("method", method, "must be 'davenport' or 'u0'")
 
 

@@ -32,6 +32,7 @@ from qualplan.planning import (
     policies,
     requirements,
 )
+from qualplan.planning import modal as pm
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor
 from qualplan.store import models as m
@@ -137,6 +138,20 @@ def _achieved(freq, values, lo_hz, hi_hz, rng, db, points=60):
     f = np.geomspace(lo_hz, hi_hz, points)
     v = np.exp(np.interp(np.log(f), np.log(freq), np.log(values)))
     return f, v * _ripple(rng, points, db)
+
+
+#: Invented modal summary of the payload electronics unit (3.1 kg): fn, damping, effective
+#: masses per axis (each axis holds about 90 % of the mass).
+UNIT_MODES_CSV = b"""# invented normal modes of the PEU-200 FE model
+mode,fn_hz,zeta,meff_x_kg,meff_y_kg,meff_z_kg
+1,212,0.04,0.15,0.35,1.62
+2,268,0.05,0.90,1.20,0.41
+3,395,0.05,1.10,0.60,0.18
+4,640,0.05,0.35,0.40,0.45
+5,1150,0.05,0.20,0.15,0.14
+"""
+#: Pull-out load of the four mounting inserts together (invented rating). [N]
+INSERT_PULL_OUT_N = 1000.0
 
 
 def build_demo(session: Session, *, seed: int = 2026) -> DemoSummary:
@@ -282,6 +297,11 @@ def build_demo(session: Session, *, seed: int = 2026) -> DemoSummary:
         kind="random", axis=m.Axis.Z, revision_ids=[rev(k) for k in records_z],
         combination="p95_50", policy_id=pol.id, load_factor_fn_hz=240.0))
     summary.levels["loads random Z"] = loads.id
+    loads_shock = levels.derive_level(session, me, s.LevelRecipe(
+        product_id=unit.id, name="loads shock Z", purpose=m.LevelPurpose.analysis,
+        kind="shock", axis=m.Axis.Z, revision_ids=[rev(k) for k in landings],
+        combination="p95_50", policy_id=pol.id))
+    summary.levels["loads shock Z"] = loads_shock.id
 
     def requirement(key, prod, text, method, level_=None, criterion="", margin=0.0):
         req = requirements.create_requirement(session, me, s.RequirementCreate(
@@ -314,6 +334,10 @@ def build_demo(session: Session, *, seed: int = 2026) -> DemoSummary:
         "PEU-STR-01", unit, "The mounting bracket shall carry the 3-sigma random load with a "
         "factor of safety of 1.25 on yield.", m.VerificationMethod.analysis, loads,
         "MS >= 0 on yield", 0.0)
+    reqs["feet"] = requirement(
+        "PEU-STR-02", unit, "The four mounting inserts shall carry the landing-shock base "
+        "force (CQC of the unit's modes) with a factor of safety of 1.4 on pull-out.",
+        m.VerificationMethod.analysis, loads_shock, "MS >= 0 on insert pull-out", 0.0)
     reqs["cam"] = requirement(
         "CAM-VIB-03", camera, "The camera head shall survive the qualification random "
         "vibration of axis Z.", T, lv["cam"], crit)
@@ -360,6 +384,16 @@ def build_demo(session: Session, *, seed: int = 2026) -> DemoSummary:
         applied=round(4.2 * lf.three_sigma_g, 1), allowable=276.0, units="MPa",
         factor_of_safety=1.25, note="bracket root stress per g from the unit FE model: "
         "4.2 MPa/g (invented); allowable: aluminium 6061-T6 yield"))
+    modal_rev = pm.import_modal_summary(
+        session, me, unit.id, "PEU-200 FE model", "peu200-modes.csv", UNIT_MODES_CSV,
+        source="unit FE model, normal modes (invented)", note="first modal survey of the model")
+    estimate = pm.make_estimate(session, me, pm.EstimateIn(
+        modal_revision_id=modal_rev.id, level_id=loads_shock.id))
+    summary.notes.append(f"PEU-STR-02 is closed by response estimate {estimate.id} (CQC base "
+                         "force of the modal summary under the landing-shock analysis level)")
+    pm.record_as_evidence(session, me, reqs["feet"].id, pm.EstimateEvidenceIn(
+        estimate_id=estimate.id, quantity="base_force_cqc_n", allowable=INSERT_PULL_OUT_N,
+        factor_of_safety=1.4, note="4 inserts x 250 N pull-out (invented supplier rating)"))
     evidence.add_inspection(session, me, reqs["cam insp"].id, s.InspectionEvidenceIn(
         passed=True, note="all connector locks engaged and torque-striped after the tests"))
 

@@ -247,6 +247,12 @@ def status_of(
             cache[req.level_id] = staleness(session, req.level)
         if cache[req.level_id]:
             return StatusOf("stale", "; ".join(cache[req.level_id]), ev)
+    if ev.summary.get("estimate_id") is not None:  # evidence from a response estimate
+        from qualplan.planning.modal import estimate_staleness
+
+        reasons = estimate_staleness(session, ev.summary["estimate_id"])
+        if reasons:
+            return StatusOf("stale", "; ".join(reasons), ev)
     if ev.kind is m.EvidenceKind.similarity and ev.similar_requirement_id is not None:
         other = session.get(m.Requirement, ev.similar_requirement_id)
         inner = status_of(session, other, level_stale=level_stale, now=now)

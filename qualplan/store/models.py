@@ -394,6 +394,7 @@ IMMUTABLE_MODELS: tuple[type[Base], ...] = (EnvironmentRevision, Level, Evidence
 class DocumentKind(enum.StrEnum):
     specification = "specification"
     audit = "audit"
+    loads = "loads"
 
 
 class Document(Base):
@@ -422,3 +423,70 @@ class Document(Base):
 
 
 IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, Document)
+
+
+class ModalSummary(Base):
+    """A product's table of modes from a structural model; data live in revisions."""
+
+    __tablename__ = "modal_summaries"
+    __table_args__ = (UniqueConstraint("product_id", "name"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    product_id: Mapped[int] = mapped_column(ForeignKey("products.id"), index=True)
+    name: Mapped[str] = mapped_column(String(200))
+    source: Mapped[str] = mapped_column(Text, default="")
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    version: Mapped[int] = mapped_column(Integer, default=1)
+
+    product: Mapped[Product] = relationship()
+    revisions: Mapped[list[ModalSummaryRevision]] = relationship(
+        back_populates="summary", order_by="ModalSummaryRevision.number"
+    )
+
+    __mapper_args__ = {"version_id_col": version}
+
+
+class ModalSummaryRevision(Base):
+    """Immutable content of a modal summary: the modes (JSON) and their content hash."""
+
+    __tablename__ = "modal_summary_revisions"
+    __table_args__ = (UniqueConstraint("summary_id", "number"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    summary_id: Mapped[int] = mapped_column(ForeignKey("modal_summaries.id"), index=True)
+    number: Mapped[int] = mapped_column(Integer)
+    #: {"modes": [{"fn_hz", "zeta", "meff_kg": {axis: kg}, ...}], "response_unit", ...}
+    spec: Mapped[dict[str, Any]] = mapped_column(JSON)
+    content_hash: Mapped[str] = mapped_column(String(64), index=True)
+    author: Mapped[str] = mapped_column(String(120))
+    note: Mapped[str] = mapped_column(Text, default="")
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+    summary: Mapped[ModalSummary] = relationship(back_populates="revisions")
+
+
+class ResponseEstimate(Base):
+    """A peak-response estimate from a modal summary revision and a level. Immutable."""
+
+    __tablename__ = "response_estimates"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    product_id: Mapped[int] = mapped_column(ForeignKey("products.id"), index=True)
+    modal_revision_id: Mapped[int] = mapped_column(
+        ForeignKey("modal_summary_revisions.id"), index=True
+    )
+    level_id: Mapped[int] = mapped_column(ForeignKey("levels.id"), index=True)
+    axis: Mapped[Axis] = mapped_column(_enum(Axis, "estimate_axis"))
+    settings: Mapped[dict[str, Any]] = mapped_column(JSON)
+    result: Mapped[dict[str, Any]] = mapped_column(JSON)
+    #: The modal revision's content hash and the level's hash the estimate was made from.
+    input_hashes: Mapped[dict[str, Any]] = mapped_column(JSON)
+    estimate_hash: Mapped[str] = mapped_column(String(64), index=True)
+    author: Mapped[str] = mapped_column(String(120))
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+    modal_revision: Mapped[ModalSummaryRevision] = relationship()
+    level: Mapped[Level] = relationship()
+
+
+IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, ModalSummaryRevision, ResponseEstimate)

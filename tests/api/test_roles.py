@@ -245,6 +245,72 @@ CASES = {
 }
 
 
+# --- modal summaries, estimates and the loads package (routers/modal.py) ----------------
+_MODES = b"fn_hz,zeta,meff_z_kg\n150,0.05,0.6\n400,0.05,0.2\n"
+
+
+def _upload_kw() -> dict:
+    return {"files": {"file": ("modes.csv", _MODES, "text/csv")},
+            "data": {"product_id": "0", "name": unique("fem")}}
+
+
+def _modal(b) -> dict:
+    """One modal summary revision and one estimate of the base rows, made once."""
+    if "modal" not in b:
+        kw = _upload_kw()
+        kw["data"]["product_id"] = str(U(b))
+        rev = b["eng"].request("POST", "/modal-summaries/upload", 201, **kw).json()
+        est = b["eng"].post("/estimates", {"modal_revision_id": rev["id"],
+                                           "level_id": b["analysis_level"]["id"]}).json()
+        b["modal"] = {"revision": rev, "estimate": est}
+    return b["modal"]
+
+
+def _upload(b):
+    kw = _upload_kw()
+    kw["data"]["product_id"] = str(U(b))
+    return "/modal-summaries/upload", kw
+
+
+def _estimate_evidence(b):
+    # its own environment and level: other cases revise the base environment (stale level)
+    env = b["eng"].post("/environments", {"product_id": U(b), "phase_id": b["phase"]["id"],
+                                          "name": unique("env"), "kind": "random",
+                                          "axis": "Z", "data": _fresh_psd()}).json()
+    rev = b["eng"].get(f"/environments/{env['id']}/revisions").json()["items"][0]
+    level = b["eng"].post("/levels", {**b["analysis_level"]["recipe"], "name": unique("lvl"),
+                                      "revision_ids": [rev["id"]]}).json()
+    kw = _upload_kw()
+    kw["data"]["product_id"] = str(U(b))
+    modal = b["eng"].request("POST", "/modal-summaries/upload", 201, **kw).json()
+    est = b["eng"].post("/estimates", {"modal_revision_id": modal["id"],
+                                       "level_id": level["id"]}).json()
+    r = _new_requirement(b, method="analysis", level_id=level["id"])
+    return f"/requirements/{r['id']}/evidence/estimate", {"json": {
+        "estimate_id": est["id"], "quantity": "base_force_rms_n", "allowable": 1e6}}
+
+
+CASES.update({
+    "modal upload": Case("POST", "/modal-summaries/upload", "engineer", _upload, 201),
+    "modal list": Case("GET", "/modal-summaries", "viewer", lambda b: ("/modal-summaries", {})),
+    "modal get": Case("GET", "/modal-summaries/{summary_id}", "viewer", lambda b: (
+        f"/modal-summaries/{_modal(b)['revision']['summary_id']}", {})),
+    "modal revisions": Case("GET", "/modal-summaries/{summary_id}/revisions", "viewer",
+                            lambda b: (f"/modal-summaries/"
+                                       f"{_modal(b)['revision']['summary_id']}/revisions", {})),
+    "estimate create": Case("POST", "/estimates", "engineer", lambda b: ("/estimates", {
+        "json": {"modal_revision_id": _modal(b)["revision"]["id"],
+                 "level_id": b["analysis_level"]["id"]}}), 201),
+    "estimates list": Case("GET", "/estimates", "viewer", lambda b: ("/estimates", {})),
+    "estimate get": Case("GET", "/estimates/{estimate_id}", "viewer", lambda b: (
+        f"/estimates/{_modal(b)['estimate']['id']}", {})),
+    "estimate evidence": Case("POST", "/requirements/{requirement_id}/evidence/estimate",
+                              "engineer", _estimate_evidence, 201),
+    "loads pdf": Case("GET", "/documents/loads.pdf", "viewer", lambda b: (
+        "/documents/loads.pdf", {"params": {"product_id": U(b)}})),
+})
+
+
 def _expected(case: Case, who: str) -> int:
     if case.role is None:
         return case.ok
@@ -287,7 +353,7 @@ def test_nothing_readable_without_a_token(client, callers, base):
     spec = client.get(f"{API}/openapi.json").json()
     fill = {"program_id": P(base), "product_id": U(base), "environment_id": E(base),
             "policy_id": base["policy"]["id"], "level_id": base["test_level"]["id"],
-            "requirement_id": R(base)}
+            "requirement_id": R(base), "summary_id": 1, "estimate_id": 1}
     for path, ops in spec["paths"].items():
         if "get" not in ops or path.endswith(("/health", "/openapi.json", "/docs")):
             continue

@@ -24,13 +24,14 @@ def test_demo_builds_everything_in_its_folder(tmp_path):
     assert (out_dir / "qualplan.db").is_file()
     docs = out_dir / "documents"
     pdfs = sorted(p.name for p in docs.glob("*.pdf"))
-    assert len(pdfs) == 3, pdfs
+    assert len(pdfs) == 4, pdfs
     assert any(p.startswith("TLS-") and "-Q-" in p for p in pdfs)
     assert any(p.startswith("TLS-") and "-A-" in p for p in pdfs)
     assert any(p.startswith("MCA-") for p in pdfs)
+    assert any(p.startswith("ALP-") for p in pdfs)  # the analysis loads package
     for name in pdfs:
         assert len(PdfReader(str(docs / name)).pages) >= 1
-    assert len(list(docs.glob("*.csv"))) >= 10 and len(list(docs.glob("*.json"))) == 3
+    assert len(list(docs.glob("*.csv"))) >= 10 and len(list(docs.glob("*.json"))) == 4
     # The summary: paths, the audit verdict with its blocking items, the sign-in token.
     assert str(out_dir / "qualplan.db") in out.stdout
     assert "NOT READY" in out.stdout and "failed" in out.stdout and "stale" in out.stdout
@@ -43,6 +44,13 @@ def test_demo_builds_everything_in_its_folder(tmp_path):
     # The database is a working qualplan database: the audit command agrees (exit 1).
     audit = run_cli("audit", "--db", f"sqlite:///{out_dir / 'qualplan.db'}")
     assert audit.returncode == 1 and "NOT READY" in audit.stdout
+    # One analysis requirement is closed by a CQC response estimate of the modal summary.
+    import json
+
+    reqs = json.loads(run_cli("req", "list", "--json", "--db",
+                              f"sqlite:///{out_dir / 'qualplan.db'}").stdout)
+    feet = next(r for r in reqs if r["key"] == "PEU-STR-02")
+    assert feet["status"] == "verified" and "base_force_cqc_n" in feet["status_reason"]
     # Running again into the same folder is refused in one line, without --replace.
     again = run_cli("demo", "--out", str(out_dir))
     assert again.returncode == 2
