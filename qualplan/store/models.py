@@ -422,3 +422,8 @@ class Document(Base):
 
 
 IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, Document)
+
+# Chunked multi-channel records (their own module; append-only like revisions).
+from qualplan.store.records import RECORD_MODELS  # noqa: E402
+
+IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, *RECORD_MODELS)
