@@ -12,7 +12,9 @@ from __future__ import annotations
 
 import hashlib
 import math
+import os
 from collections.abc import Callable, Iterator, Sequence
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -145,12 +147,17 @@ def import_record(session: Session, actor: Actor, cmd: RecordImport, src: Record
     # pass 1: hashes and statistics
     hashes: list[list[str]] = [[] for _ in range(n_ch)]
     stats = [streaming.StatsStream(src.fs_hz) for _ in range(n_ch)]
-    with core_errors(""):
+    pool = ThreadPoolExecutor(max_workers=max(1, min(n_ch, os.cpu_count() or 1)))
+
+    def check(c: int, block: np.ndarray) -> None:
+        col = np.ascontiguousarray(block[:, c])
+        hashes[c].append(pack_chunk_hash(col))
+        stats[c].update(col)
+
+    with pool, core_errors(""):
+        # channels in threads: hashing, numpy and zlib release the GIL
         for k, block in enumerate(src.chunks(chunk_samples)):
-            for c in range(n_ch):
-                col = np.ascontiguousarray(block[:, c])
-                hashes[c].append(pack_chunk_hash(col))
-                stats[c].update(col)
+            list(pool.map(check, range(n_ch), [block] * n_ch))
             say(0.5 * (k + 1) * chunk_samples / src.n_samples, "checking the record")
     n_chunks = len(hashes[0])
     channels = [
@@ -207,10 +214,11 @@ def import_record(session: Session, actor: Actor, cmd: RecordImport, src: Record
 
     # pass 2: compress and store; the file must read the same as in pass 1
     rows: list[dict[str, Any]] = []
-    with core_errors(""):
+    pool = ThreadPoolExecutor(max_workers=max(1, min(n_ch, os.cpu_count() or 1)))
+    with pool, core_errors(""):
         for k, block in enumerate(src.chunks(chunk_samples)):
-            for c in range(n_ch):
-                blob, h = pack_chunk(block[:, c])
+            packed = list(pool.map(lambda c, b=block: pack_chunk(b[:, c]), range(n_ch)))
+            for c, (blob, h) in enumerate(packed):
                 if k >= n_chunks or h != hashes[c][k]:
                     raise Conflict(f"{src.source} changed while it was being imported "
                                    f"(channel {src.channel_names[c]}, chunk {k})")
