@@ -11,6 +11,7 @@ from qualplan import __version__
 from qualplan.api import errors
 from qualplan.api.deps import READ_SLOTS
 from qualplan.api.limits import BodySizeLimit
+from qualplan.api.requestlog import RequestLog, install_handler
 from qualplan.api.routers import (
     audit,
     catalog,
@@ -72,6 +73,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     )
     errors.install(app)
     app.add_middleware(BodySizeLimit, max_bytes=settings.max_upload_bytes)
+    app.add_middleware(RequestLog)  # outermost: logs refused uploads too
+    install_handler()
 
     @app.get(f"{PREFIX}/health", tags=["service"])
     def health(request: Request) -> dict:
