@@ -8,7 +8,7 @@ import anyio
 from fastapi import FastAPI, Request
 
 from qualplan import __version__
-from qualplan.api import errors
+from qualplan.api import errors, metrics
 from qualplan.api.deps import READ_SLOTS
 from qualplan.api.limits import BodySizeLimit
 from qualplan.api.requestlog import RequestLog, install_handler
@@ -87,4 +87,5 @@ def create_app(settings: Settings | None = None) -> FastAPI:
 
     for router in ROUTERS:
         app.include_router(router, prefix=PREFIX)
+    app.include_router(metrics.router, prefix=PREFIX)
     return app

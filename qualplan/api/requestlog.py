@@ -19,6 +19,8 @@ import uuid
 
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
+from qualplan.api import metrics
+
 LOGGER = logging.getLogger("qualplan.request")
 FIELDS = ("request_id", "user", "method", "route", "status", "duration_ms")
 _SANE_ID = re.compile(r"^[A-Za-z0-9._-]{1,64}$")
@@ -55,15 +57,19 @@ class RequestLog:
         finally:
             route = scope.get("route")
             state = scope.get("state") or {}
+            template = _template(getattr(route, "path", None), scope.get("path", ""))
+            duration = time.perf_counter() - start
+            if route is not None:  # unmatched paths would make one series each
+                metrics.observe(scope.get("method", ""), template, status, duration)
             LOGGER.info(
                 "%s %s %s", scope.get("method"), scope.get("path"), status,
                 extra={
                     "request_id": rid,
                     "user": state.get("user"),
                     "method": scope.get("method"),
-                    "route": _template(getattr(route, "path", None), scope.get("path", "")),
+                    "route": template,
                     "status": status,
-                    "duration_ms": round((time.perf_counter() - start) * 1000.0, 3),
+                    "duration_ms": round(duration * 1000.0, 3),
                 })
 
 

@@ -71,3 +71,20 @@ def test_json_lines_when_not_a_terminal():
         assert isinstance(logger.handlers[0].formatter, requestlog.JsonLines)
     finally:
         logger.handlers = saved
+
+
+def test_metrics_in_prometheus_text_format(viewer, client):
+    # reference: prometheus-client's own parser of the text exposition format
+    from prometheus_client.parser import text_string_to_metric_families
+
+    viewer.get("/events")
+    r = viewer.get("/metrics")
+    assert r.headers["content-type"].startswith("text/plain")
+    fams = {f.name: f for f in text_string_to_metric_families(r.text)}
+    counts = {(s.labels["method"], s.labels["route"], s.labels["status"]): s.value
+              for s in fams["qualplan_http_requests"].samples if s.name.endswith("_total")}
+    assert counts[("GET", "/api/v1/events", "200")] >= 1
+    buckets = [s for s in fams["qualplan_http_request_duration_seconds"].samples
+               if s.name.endswith("_count") and s.labels["route"] == "/api/v1/events"]
+    assert buckets and buckets[0].value >= 1
+    assert client.get("/api/v1/metrics").status_code == 401  # a token, like every route
