@@ -427,14 +427,12 @@ def open_mat_record(path, *, variable: str, unit: str, fs_hz: float, calibration
     if h5py.is_hdf5(p):
         with h5py.File(p, "r") as f:
             d = _h5_dataset(f, variable, "variable")
-            ndim = d.ndim
-        # MATLAB n x c is stored c x n; a vector is 1 x n or n x 1
+            shape = d.shape
+        # MATLAB n x c is stored c x n; a MATLAB row vector 1 x n is stored n x 1
+        transpose = len(shape) == 2 and shape[1] != 1
         src = open_hdf5_record(p, dataset=variable, unit=unit, fs_hz=fs_hz,
                                calibration=calibration, channel_names=channel_names,
-                               transpose=ndim == 2)
-        if ndim == 2 and src.n_samples < src.n_channels:  # stored n x 1: a row vector
-            src = open_hdf5_record(p, dataset=variable, unit=unit, fs_hz=fs_hz,
-                                   calibration=calibration, channel_names=channel_names)
+                               transpose=transpose)
         meta = dict(src.metadata)
         meta.update({"format": "mat-v7.3", "variable": variable})
         return RecordSource(

@@ -135,12 +135,16 @@ def test_mat_v73_through_h5py(tmp_path):
     with h5py.File(p, "w") as f:
         f.create_dataset("acc", data=x.T, chunks=(3, 1000), compression="gzip")
         f.create_dataset("vec", data=x[:, :1].T)  # a MATLAB column vector n x 1 -> 1 x n
+        f.create_dataset("row", data=x[:, :1])  # a MATLAB row vector 1 x n -> n x 1
     src = streams.open_mat_record(p, variable="acc", unit="g", fs_hz=FS)
     assert src.metadata["format"] == "mat-v7.3" and src.n_samples == 5003
     np.testing.assert_array_equal(gather(src), x)
     vec = streams.open_mat_record(p, variable="vec", unit="g", fs_hz=FS)
     assert vec.n_channels == 1
     np.testing.assert_array_equal(gather(vec)[:, 0], x[:, 0])
+    row = streams.open_mat_record(p, variable="row", unit="g", fs_hz=FS)
+    assert (row.n_samples, row.n_channels) == (5003, 1)
+    np.testing.assert_array_equal(gather(row)[:, 0], x[:, 0])
 
 
 def test_hdf5_dataset_and_rate_attribute(tmp_path):
