@@ -8,9 +8,10 @@ import anyio
 from fastapi import FastAPI, Request
 
 from qualplan import __version__
-from qualplan.api import errors
+from qualplan.api import errors, metrics
 from qualplan.api.deps import READ_SLOTS
 from qualplan.api.limits import BodySizeLimit
+from qualplan.api.requestlog import RequestLog, install_handler
 from qualplan.api.routers import (
     audit,
     catalog,
@@ -74,6 +75,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     )
     errors.install(app)
     app.add_middleware(BodySizeLimit, max_bytes=settings.max_upload_bytes)
+    app.add_middleware(RequestLog)  # outermost: logs refused uploads too
+    install_handler()
 
     @app.get(f"{PREFIX}/health", tags=["service"])
     def health(request: Request) -> dict:
@@ -86,4 +89,5 @@ def create_app(settings: Settings | None = None) -> FastAPI:
 
     for router in ROUTERS:
         app.include_router(router, prefix=PREFIX)
+    app.include_router(metrics.router, prefix=PREFIX)
     return app

@@ -38,11 +38,14 @@ bearer = HTTPBearer(
 
 
 def current_actor(
+    request: Request,
     session: SessionDep,
     credentials: Annotated[HTTPAuthorizationCredentials | None, Depends(bearer)],
 ) -> Actor:
     """The caller; NotAuthenticated (401) without a valid, unrevoked token."""
-    return access.authenticate(session, credentials.credentials if credentials else None)
+    actor = access.authenticate(session, credentials.credentials if credentials else None)
+    request.state.user = actor.name  # for the request log (api.requestlog)
+    return actor
 
 
 ActorDep = Annotated[Actor, Depends(current_actor)]

@@ -129,6 +129,8 @@ def db_current(db: DbOption = None) -> None:
 def serve(
     host: Annotated[str, typer.Option(help="Interface to listen on.")] = "127.0.0.1",
     port: Annotated[int, typer.Option(help="TCP port.")] = 8000,
+    workers: Annotated[int, typer.Option(
+        help="API processes (PostgreSQL only; needs QUALPLAN_WEB_SECRET when > 1).")] = 1,
     db: DbOption = None,
 ) -> None:
     """Serve the HTTP API (/api/v1) and the web pages (/) with uvicorn."""
@@ -137,12 +139,28 @@ def serve(
     import uvicorn
 
     url = database_url(db)
+    check_workers(url, workers, settings_for(db).web_secret)
     checked_engine(db).dispose()
     # The service (API + web pages) reads its Settings from the environment; the CLI and
     # the other interfaces stay independent (no import between them).
     os.environ["QUALPLAN_DATABASE_URL"] = url
     uvicorn.run("qualplan.service:create_service", factory=True, host=host, port=port,
-                log_level="info")
+                log_level="info", workers=workers)
+
+
+def check_workers(url: str, workers: int, web_secret: str | None) -> None:
+    """Refuse a process count the database or the web sessions cannot serve."""
+    if workers < 1:
+        raise CliError(f"--workers={workers}: must be 1 or more")
+    if workers == 1:
+        return
+    if make_url(url).drivername.startswith("sqlite"):
+        raise CliError(f"--workers={workers}: the SQLite database {masked(url)} serves one "
+                       "process (one writer at a time, file locks); use PostgreSQL for "
+                       "several API processes")
+    if not web_secret:
+        raise CliError(f"--workers={workers}: set QUALPLAN_WEB_SECRET, so that every process "
+                       "signs and accepts the same web session cookies")
 
 
 KNOWN_ERRORS = (

@@ -10,6 +10,9 @@ core's units with the declared unit and the file's metadata:
 - :func:`read_uff58` (universal file format, dataset 58, via pyuff)
 
 Units are declared by the caller, never guessed.
+
+Streaming, multi-channel: :mod:`qualplan.io.streams` (``open_record`` and one
+``open_*`` per format) reads long records in chunks, channels by column.
 """
 
 from qualplan.io.readers import (

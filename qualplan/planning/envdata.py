@@ -254,6 +254,15 @@ def summarise(kind: EnvironmentKind, spec: dict[str, Any], array: np.ndarray | N
                 "sweep_time": {"value": sweep.duration_s, "unit": "s"},
             }
         )
+    if array is None and "record" in spec:  # chunked multi-channel record (planning.records)
+        rec = spec["record"]
+        return Summary({
+            "peak": {"value": max(s["peak"]["value"] for s in rec["stats"]), "unit": "g"},
+            "rms": {"value": max(s["rms"]["value"] for s in rec["stats"]), "unit": "g rms"},
+            "duration": {"value": rec["n_samples"] / rec["fs_hz"], "unit": "s"},
+            "sample_rate": {"value": rec["fs_hz"], "unit": "Hz"},
+            "channels": {"value": rec["n_channels"], "unit": ""},
+        })
     x = np.asarray(array, float)
     return Summary(
         {

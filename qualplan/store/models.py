@@ -490,3 +490,7 @@ class ResponseEstimate(Base):
 
 
 IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, ModalSummaryRevision, ResponseEstimate)
+# Chunked multi-channel records (their own module; append-only like revisions).
+from qualplan.store.records import RECORD_MODELS  # noqa: E402
+
+IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, *RECORD_MODELS)

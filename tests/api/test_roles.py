@@ -236,6 +236,7 @@ CASES = {
     "token create": Case("POST", "/users/{user_name}/tokens", "admin", _other_user, 201),
     "token revoke": Case("POST", "/tokens/{prefix}/revoke", "admin", _new_token),
     "events list": Case("GET", "/events", "viewer", lambda b: ("/events", {})),
+    "metrics": Case("GET", "/metrics", "viewer", lambda b: ("/metrics", {})),
     "specification pdf": Case("GET", "/documents/specification.pdf", "viewer", lambda b: (
         "/documents/specification.pdf",
         {"params": {"product_id": U(b), "grade": b["test_level"]["grade"]}})),

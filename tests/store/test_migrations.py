@@ -98,3 +98,48 @@ def test_models_and_migrations_agree(engine):
         ctx = MigrationContext.configure(conn, opts={"compare_type": True})
         diff = compare_metadata(ctx, Base.metadata)
     assert diff == []
+
+
+def test_record_chunks_upgrade_downgrade_upgrade(fresh_db_url):
+    """0003 -> 0007 adds the chunked-record tables with their append-only triggers;
+    downgrading drops them (the samples cannot live in the older schema) and keeps the
+    revisions."""
+    migrate.upgrade(fresh_db_url, "0007")
+    engine = make_engine(fresh_db_url)
+    with engine.begin() as conn:
+        conn.execute(text("INSERT INTO programs (name, description, created_at, version) "
+                          "VALUES ('P', '', CURRENT_TIMESTAMP, 1)"))
+        pid = conn.execute(text("SELECT id FROM programs")).scalar_one()
+        conn.execute(text("INSERT INTO products (program_id, name, part_number, description, "
+                          "created_at, version) VALUES (:p, 'U', '', '', CURRENT_TIMESTAMP, 1)"),
+                     {"p": pid})
+        uid = conn.execute(text("SELECT id FROM products")).scalar_one()
+        conn.execute(text("INSERT INTO environments (product_id, name, kind, axis, units, "
+                          "source, provenance, created_at, version) VALUES (:u, 'rec', "
+                          "'time_history', 'all', 'g', '', '', CURRENT_TIMESTAMP, 1)"),
+                     {"u": uid})
+        eid = conn.execute(text("SELECT id FROM environments")).scalar_one()
+        conn.execute(text("INSERT INTO environment_revisions (environment_id, number, spec, "
+                          "content_hash, author, note, created_at) VALUES (:e, 1, '{}', 'h', "
+                          "'a', '', CURRENT_TIMESTAMP)"), {"e": eid})
+        rid = conn.execute(text("SELECT id FROM environment_revisions")).scalar_one()
+        conn.execute(text("INSERT INTO record_channels (revision_id, \"index\", name, axis, "
+                          "unit, source_unit, calibration) VALUES (:r, 0, 'ch0', 'X', 'g', "
+                          "'g', 1.0)"), {"r": rid})
+        conn.execute(text("INSERT INTO record_chunks (revision_id, channel_index, seq, "
+                          "n_samples, sha256, data) VALUES (:r, 0, 0, 1, 'h', :d)"),
+                     {"r": rid, "d": b"x"})
+    for sql in ("UPDATE record_chunks SET seq = 1", "DELETE FROM record_channels"):
+        with pytest.raises(DBAPIError, match="immutable"):
+            with engine.begin() as conn:
+                conn.execute(text(sql))
+    migrate.downgrade(fresh_db_url, "0003")
+    engine.dispose()
+    names = inspect(engine).get_table_names()
+    assert "record_chunks" not in names and "record_channels" not in names
+    migrate.upgrade(fresh_db_url, "0007")
+    engine.dispose()
+    with engine.connect() as conn:
+        assert conn.execute(text("SELECT count(*) FROM environment_revisions")).scalar() == 1
+        assert conn.execute(text("SELECT count(*) FROM record_chunks")).scalar() == 0
+    engine.dispose()
