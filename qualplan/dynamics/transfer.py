@@ -55,6 +55,8 @@ __all__ = [
     "apply_gain_asd",
     "apply_gain_peak",
     "apply_gain_sine",
+    "apply_gain_sine_bands",
+    "scale_sine_bands",
     "MassAttenuation",
     "gevs_mass_reduction_db",
     "mass_loading_reduction_db",
@@ -400,6 +402,47 @@ def apply_gain_sine(spec, table: GainTable) -> core_sine.SineTable:
     g = np.unique(np.concatenate([tab.freq_hz, inside]))
     return core_sine.SineTable(g, tab.accel_g(g) * table.at(g),
                                notes=("times zone transmissibility |T|",))
+
+
+def scale_sine_bands(spec: core_sine.SineSpec, factor: float) -> core_sine.SineSpec:
+    """Every band's amplitude times `factor` (> 0) [unitless]: the law a(f) scales alike."""
+    k = v.positive_scalar("factor", factor)
+    return core_sine.SineSpec(tuple(core_sine.SineBand(b.f_lo_hz, b.f_hi_hz, b.quantity,
+                                                       b.amplitude * k) for b in spec.bands))
+
+
+def apply_gain_sine_bands(spec: core_sine.SineSpec, table: GainTable) -> core_sine.SineSpec:
+    """Sine specification through |T| kept in band form, bounded from above.
+
+    Parameters
+    ----------
+    spec : SineSpec
+        Input bands (constant displacement, velocity or acceleration). [m], [m/s], [g]
+    table : GainTable
+        |T(f)| covering the specification band. [g/g]
+
+    Returns
+    -------
+    SineSpec
+        Each band split at the table's frequencies; each piece keeps its law and
+        is scaled by the largest |T| over the piece. [g peak at every frequency]
+
+    Notes
+    -----
+    |T| is a log-log straight line between table points, so it is monotonic on
+    each piece and its maximum is at an end: the result lies at or above
+    |T(f)| a(f) everywhere (conservative), equal to it where |T| is constant
+    over a piece. Use :func:`apply_gain_sine` for the exact table.
+    """
+    table.covers(spec.f_lo_hz, spec.f_hi_hz)
+    bands = []
+    for b in spec.bands:
+        inner = table.freq_hz[(table.freq_hz > b.f_lo_hz) & (table.freq_hz < b.f_hi_hz)]
+        edges = np.concatenate([[b.f_lo_hz], inner, [b.f_hi_hz]])
+        for lo, hi in zip(edges[:-1], edges[1:], strict=True):
+            k = float(np.max(table.at(np.array([lo, hi]))))
+            bands.append(core_sine.SineBand(float(lo), float(hi), b.quantity, b.amplitude * k))
+    return core_sine.SineSpec(tuple(bands))
 
 
 # ---------------------------------------------------------------------------------------

@@ -28,6 +28,7 @@ from qualplan.dynamics import srs as core_srs
 from qualplan.dynamics.errors import AccuracyWarning
 from qualplan.planning import envdata
 from qualplan.planning import schemas as s
+from qualplan.planning.transfers import replaced_environment_ids
 from qualplan.store import models as m
 from qualplan.store.repositories import RevisionRepository
 
@@ -71,7 +72,11 @@ def life_cycle(session: Session, product: m.Product, axis: m.Axis) -> list[LifeI
         stmt = stmt.where(m.Environment.axis.in_([axis, m.Axis.all]))
     revs = RevisionRepository(session)
     out = []
+    # a parent's environment that a transfer carried down is replaced by the transferred one
+    replaced = replaced_environment_ids(session, product)
     for env in session.scalars(stmt.order_by(m.Environment.id)):
+        if env.id in replaced:
+            continue
         latest = revs.latest(env.id)
         if latest is not None:
             out.append(LifeItem(env, latest))

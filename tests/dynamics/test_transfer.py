@@ -142,6 +142,22 @@ def test_transmissibility_on_sine():
                                                    rel=1e-6)
 
 
+def test_transmissibility_on_sine_bands_is_an_upper_bound():
+    # band form: each piece scaled by the largest |T| at its ends (|T| monotonic between
+    # table points), so a(f) |T(f)| <= result everywhere; equal at the table points where
+    # |T| peaks (100 Hz: 2 g x 10).
+    spec = sine.sine_spec(10.0, 1000.0, [("displacement", 2e-3), ("acceleration", 2.0)])
+    out = transfer.apply_gain_sine_bands(spec, T_TABLE)
+    f = np.geomspace(10, 1000, 997)
+    exact = spec.accel_g(f) * T_TABLE.at(f)
+    assert np.all(out.accel_g(f) >= exact * (1 - 1e-12))
+    assert float(out.accel_g(100.0)) == pytest.approx(20.0)
+    # crossover sqrt(2 g0 / 2 mm) / (2 pi) = 15.76 Hz: the displacement band has no table
+    # point inside, the acceleration band is split at 100 Hz
+    assert [b.quantity for b in out.bands] == ["displacement", "acceleration", "acceleration"]
+    assert transfer.scale_sine_bands(spec, 0.5).accel_g(500.0) == pytest.approx(1.0)
+
+
 def test_transmissibility_on_srs():
     f, a = transfer.apply_gain_peak(np.array([10.0, 1000.0]), np.array([5.0, 500.0]), T_TABLE)
     prof = srs.SrsProfile(f, a)
