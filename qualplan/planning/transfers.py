@@ -608,3 +608,92 @@ def environments_for(session: Session, product_id: int) -> list[EnvironmentOrigi
                 out.append(EnvironmentOrigin(**base, origin=origin, from_product=owner.name,
                                              notes=notes))
     return out
+
+
+# --- force limits ------------------------------------------------------------------------
+
+
+class ModeIn(s.Command):
+    fn_hz: float = Field(gt=0)
+    mass_kg: float = Field(gt=0)
+    q: float = Field(gt=0.5)
+
+
+class ForceLimitIn(s.Command):
+    """NASA-HDBK-7004 semi-empirical force limit inputs, and the item's modes (effective
+    masses from the modal summary) to predict the notches."""
+
+    mass_kg: float = Field(gt=0)
+    c2: float = Field(gt=0)
+    f0_hz: float = Field(gt=0)
+    rolloff: float = Field(default=2.0, gt=0)
+    modes: list[ModeIn] = []
+    residual_mass_kg: float = Field(default=0.0, ge=0)
+    max_notch_db: float | None = Field(default=None, gt=0)
+
+
+class NotchRead(BaseModel):
+    f_lo_hz: float
+    f_hi_hz: float
+    f_deepest_hz: float
+    depth_db: float
+    width_oct: float
+    exceeds_policy: bool
+
+
+class ForceLimitRead(BaseModel):
+    """A force spectral density limit [N^2/Hz] and the notches it predicts in the input."""
+
+    environment: str
+    c2: float
+    mass_kg: float
+    f0_hz: float
+    rolloff: float
+    rolloff_db_per_oct: float
+    freq_hz: list[float]
+    fsd_n2_hz: list[float]
+    force_rms_n: float
+    notches: list[NotchRead] = []
+    notched_freq_hz: list[float] = []
+    notched_asd_g2_hz: list[float] = []
+    needs_acceptance: bool = False
+    method: str = ("NASA-HDBK-7004C semi-empirical method: S_FF = C^2 M0^2 S_AA below f0, "
+                   "x (f0/f)^n above")
+
+
+def force_limit_of(freq_hz, asd_g2_hz, label: str, cmd: ForceLimitIn) -> ForceLimitRead:
+    """Force limit of an input ASD [Hz, g^2/Hz], and its predicted notches when modes are
+    given (computed by qualplan.dynamics.transfer)."""
+    with envdata.core_errors(""):
+        fl = core_tr.semi_empirical_force_limit(freq_hz, asd_g2_hz, mass_kg=cmd.mass_kg,
+                                                c2=cmd.c2, f0_hz=cmd.f0_hz, rolloff=cmd.rolloff)
+        out = ForceLimitRead(environment=label, c2=fl.c2, mass_kg=fl.mass_kg, f0_hz=fl.f0_hz,
+                             rolloff=fl.rolloff, rolloff_db_per_oct=fl.rolloff_db_per_oct,
+                             freq_hz=fl.freq_hz.tolist(), fsd_n2_hz=fl.fsd_n2_hz.tolist(),
+                             force_rms_n=fl.force_rms_n)
+        if cmd.modes:
+            total = sum(x.mass_kg for x in cmd.modes) + cmd.residual_mass_kg
+            if total > cmd.mass_kg * (1 + 1e-9):
+                raise ValidationFailed("modes", total, f"effective masses and residual add up "
+                                       f"to {total:g} kg, more than mass_kg = {cmd.mass_kg:g}")
+            notched = core_tr.notch_by_force_limit(
+                freq_hz, asd_g2_hz, fl, [core_tr.Mode(x.fn_hz, x.mass_kg, x.q)
+                                         for x in cmd.modes],
+                residual_mass_kg=cmd.residual_mass_kg, max_notch_db=cmd.max_notch_db)
+            out.notches = [NotchRead(**n.__dict__) for n in notched.notches]
+            out.notched_freq_hz = notched.freq_hz.tolist()
+            out.notched_asd_g2_hz = notched.values.tolist()
+            out.needs_acceptance = notched.needs_acceptance
+    return out
+
+
+def force_limit(session: Session, environment_id: int, cmd: ForceLimitIn) -> ForceLimitRead:
+    """Force limit of the latest revision of a random environment."""
+    env = get(session, m.Environment, environment_id, "environment")
+    if env.kind is not K.random:
+        raise ValidationFailed("environment_id", environment_id,
+                               f"environment {env.name!r} is {env.kind.value}; a force limit "
+                               "is made from a random (ASD) input")
+    rev = RevisionRepository(session).latest(env.id)
+    return force_limit_of(rev.spec["freq_hz"], rev.spec["asd_g2_hz"],
+                          f"{env.name} r{rev.number}", cmd)
