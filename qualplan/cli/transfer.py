@@ -9,10 +9,12 @@ environment of X came from.
 
 from __future__ import annotations
 
+import enum
 import json
 from typing import Annotated
 
 import typer
+from pydantic import ValidationError
 
 from qualplan.cli.base import CliError, DbOption, app
 from qualplan.cli.commands import JsonOption, ProgramOption, _program, local_actor, work
@@ -24,6 +26,27 @@ transfer_app = typer.Typer(help="Environments down the product tree: mountings, 
                            "rules, transferred environments, force limits.",
                            no_args_is_help=True)
 app.add_typer(transfer_app, name="transfer")
+
+class RuleKind(enum.StrEnum):
+    zone_transmissibility = "zone_transmissibility"
+    mass_attenuation = "mass_attenuation"
+
+
+class Basis(enum.StrEnum):
+    test = "test"
+    analysis = "analysis"
+    handbook = "handbook"
+
+
+def _command(model, **fields):
+    """Build a planning command; a field pydantic refuses becomes one line (exit 2)."""
+    try:
+        return model(**fields)
+    except ValidationError as exc:
+        err = exc.errors()[0]
+        where = ".".join(str(x) for x in err["loc"])
+        raise CliError(f"{where}={err.get('input')!r}: {err['msg']}") from exc
+
 
 ProductOption = Annotated[str, typer.Option("--product", help="Product name or id.")]
 
@@ -78,8 +101,8 @@ def mount(
     db: DbOption = None,
 ) -> None:
     """State a product's orientation in its parent."""
-    cmd = transfers.MountingIn(axes=_axes(axes) if axes else None,
-                               matrix=_json("--matrix", matrix) if matrix else None, note=note)
+    cmd = _command(transfers.MountingIn, axes=_axes(axes) if axes else None,
+                   matrix=_json("--matrix", matrix) if matrix else None, note=note)
     with work(db) as session:
         prog = _program(session, program) if program else None
         prod = catalog.product_ref(session, prog, product)
@@ -93,11 +116,11 @@ def mount(
 @transfer_app.command("rule-add")
 def rule_add(
     name: str,
-    kind: Annotated[str, typer.Option(help="zone_transmissibility or mass_attenuation.")],
+    kind: Annotated[RuleKind, typer.Option(help="Kind of rule.")],
     data: Annotated[str, typer.Option(help='JSON: {"freq_hz": [...], "gain": [...]} (|T| in '
                                       'g/g) or {"method": "gevs"} or {"method": '
                                       '"mass_loading", "mounting_mass_kg": 16}.')],
-    basis: Annotated[str, typer.Option(help="test, analysis or handbook.")],
+    basis: Annotated[Basis, typer.Option(help="How the numbers were obtained.")],
     provenance: str = "",
     program: ProgramOption = None,
     db: DbOption = None,
@@ -105,9 +128,9 @@ def rule_add(
     """Add a transfer rule with its first revision."""
     with work(db) as session:
         prog = _program(session, program)
-        rule = transfers.create_rule(session, local_actor(), transfers.RuleCreate(
-            program_id=prog.id, name=name, kind=kind, spec=_json("--data", data), basis=basis,
-            provenance=provenance))
+        rule = transfers.create_rule(session, local_actor(), _command(
+            transfers.RuleCreate, program_id=prog.id, name=name, kind=kind.value,
+            spec=_json("--data", data), basis=basis.value, provenance=provenance))
         rid = rule.id
     typer.echo(f"transfer rule {name} added (id {rid}, revision 1)")
 
@@ -116,15 +139,16 @@ def rule_add(
 def rule_revise(
     rule_id: int,
     data: Annotated[str, typer.Option(help="JSON of the rule (as for rule-add).")],
-    basis: Annotated[str, typer.Option(help="test, analysis or handbook.")],
+    basis: Annotated[Basis, typer.Option(help="How the numbers were obtained.")],
     note: Annotated[str, typer.Option(help="Why it changed.")],
     provenance: str = "",
     db: DbOption = None,
 ) -> None:
     """Add a revision to a transfer rule (environments transferred through it go stale)."""
     with work(db) as session:
-        rev = transfers.revise_rule(session, local_actor(), rule_id, transfers.RuleRevisionIn(
-            spec=_json("--data", data), basis=basis, provenance=provenance, note=note))
+        rev = transfers.revise_rule(session, local_actor(), rule_id, _command(
+            transfers.RuleRevisionIn, spec=_json("--data", data), basis=basis.value,
+            provenance=provenance, note=note))
         number = rev.number
     typer.echo(f"transfer rule {rule_id} revision {number} added")
 
@@ -163,9 +187,9 @@ def derive(
     with work(db) as session:
         prog = _program(session, program) if program else None
         prod = catalog.product_ref(session, prog, product)
-        rev = transfers.derive_transferred(session, local_actor(), transfers.TransferCreate(
-            product_id=prod.id, name=name, axis=axis, parent_environment_ids=parents,
-            rule_ids=rule_ids, note=note))
+        rev = transfers.derive_transferred(session, local_actor(), _command(
+            transfers.TransferCreate, product_id=prod.id, name=name, axis=axis,
+            parent_environment_ids=parents, rule_ids=rule_ids, note=note))
         env_id, number, text = rev.environment_id, rev.number, rev.note
     typer.echo(f"environment {name} of {prod.name}: revision {number} (id {env_id}), {text}")
 
@@ -198,9 +222,9 @@ def force_limit(
     if any(len(x) != 3 for x in mode_list):
         raise CliError(f"--modes {modes!r}: write fn:mass:Q, e.g. 120:6:10")
     with work(db) as session:
-        out = transfers.force_limit(session, environment, transfers.ForceLimitIn(
-            mass_kg=mass_kg, c2=c2, f0_hz=f0_hz, rolloff=rolloff,
-            modes=[transfers.ModeIn(fn_hz=a, mass_kg=b, q=c) for a, b, c in mode_list],
+        out = transfers.force_limit(session, environment, _command(
+            transfers.ForceLimitIn, mass_kg=mass_kg, c2=c2, f0_hz=f0_hz, rolloff=rolloff,
+            modes=[{"fn_hz": a, "mass_kg": b, "q": c} for a, b, c in mode_list],
             residual_mass_kg=residual_kg, max_notch_db=max_notch_db))
     if as_json:
         emit_json(out)

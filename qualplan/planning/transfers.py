@@ -437,6 +437,14 @@ def derive_transferred(session: Session, actor: Actor, cmd: TransferCreate
     elif kind is not K.random and not frame.is_permutation():
         notes.append("rotated mounting: envelope of the direction-cosine-weighted parent axes "
                      "(separate events, one axis at a time)")
+    for i, (env, _) in enumerate(inputs):
+        cols = [core_tr.AXES.index(a) for a in
+                (core_tr.AXES if env.axis is m.Axis.all else (env.axis.value,))]
+        rows = [core_tr.AXES.index(a) for a in child_axes]
+        if np.max(np.abs(frame.matrix[np.ix_(rows, cols)])) < 1e-9:
+            raise ValidationFailed(f"parent_environment_ids[{i}]", env.id,
+                                   f"environment {env.name!r} (parent axis {env.axis.value}) "
+                                   f"does not reach axis {cmd.axis.value} through the mounting")
     with envdata.core_errors(""):
         mapped = _map_axes(kind, frame, _parent_profiles(kind, inputs), child_axes,
                            "parent_environment_ids")

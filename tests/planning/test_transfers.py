@@ -70,9 +70,14 @@ def test_rotated_mounting_sums_parent_axes(session, engineer, program, tree):
     # unit X in the pod's X-Y plane at 30 degrees from pod X (rotation about Z)
     transfers.set_mounting(session, engineer, unit.id, transfers.MountingIn(
         matrix=[[c, sn, 0.0], [-sn, c, 0.0], [0.0, 0.0, 1.0]]))
+    with pytest.raises(ValidationFailed) as e:  # pod Z is at right angles to unit X
+        transfers.derive_transferred(session, engineer, transfers.TransferCreate(
+            product_id=unit.id, name="road X", axis=m.Axis.X,
+            parent_environment_ids=[envs["X"].id, envs["Y"].id, envs["Z"].id]))
+    assert e.value.field == "parent_environment_ids[2]"
     rev = transfers.derive_transferred(session, engineer, transfers.TransferCreate(
         product_id=unit.id, name="road X", axis=m.Axis.X,
-        parent_environment_ids=[envs["X"].id, envs["Y"].id, envs["Z"].id]))
+        parent_environment_ids=[envs["X"].id, envs["Y"].id]))
     # direct: cos^2 30 x 0.01 + sin^2 30 x 0.02 = 0.75 x 0.01 + 0.25 x 0.02 = 0.0125
     np.testing.assert_allclose(rev.spec["asd_g2_hz"], 0.0125, rtol=1e-12)
     assert "uncorrelated" in rev.note
