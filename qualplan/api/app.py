@@ -21,6 +21,7 @@ from qualplan.api.routers import (
     levels,
     policies,
     requirements,
+    transfers,
     users,
 )
 from qualplan.config import Settings
@@ -38,6 +39,7 @@ ROUTERS = (
     audit.router,
     documents.router,
     users.router,
+    transfers.router,
     events.router,
 )
 
