@@ -196,12 +196,16 @@ def derive(
 
 @transfer_app.command("force-limit")
 def force_limit(
-    environment: Annotated[int, typer.Option(help="Random environment (or transferred one) id "
-                                             "whose latest revision is the input ASD.")],
-    mass_kg: Annotated[float, typer.Option(help="Total mass M0 of the test item [kg].")],
-    c2: Annotated[float, typer.Option(help="Semi-empirical constant C^2 [unitless].")],
+    environment: Annotated[int | None, typer.Option(
+        help="Random environment id whose latest revision is the input ASD (computed, not "
+             "stored).")] = None,
+    level: Annotated[int | None, typer.Option(
+        help="Random test level id: the force limit is stored with the level and printed "
+             "in its specification and CSV.")] = None,
+    mass_kg: Annotated[float, typer.Option(help="Total mass M0 of the test item [kg].")] = 0.0,
+    c2: Annotated[float, typer.Option(help="Semi-empirical constant C^2 [unitless].")] = 0.0,
     f0_hz: Annotated[float, typer.Option(help="Break frequency: the item's fundamental on its "
-                                         "mounting [Hz].")],
+                                         "mounting [Hz].")] = 0.0,
     rolloff: Annotated[float, typer.Option(help="Roll-off exponent n of (f0/f)^n above f0.")
                        ] = 2.0,
     modes: Annotated[str, typer.Option(help="Modes fn:effective mass:Q, comma-separated, "
@@ -221,11 +225,18 @@ def force_limit(
         raise CliError(f"--modes {modes!r}: write fn:mass:Q, e.g. 120:6:10") from exc
     if any(len(x) != 3 for x in mode_list):
         raise CliError(f"--modes {modes!r}: write fn:mass:Q, e.g. 120:6:10")
+    if (environment is None) == (level is None):
+        raise CliError("say --environment ID (compute) or --level ID (store with the level)")
     with work(db) as session:
-        out = transfers.force_limit(session, environment, _command(
+        cmd = _command(
             transfers.ForceLimitIn, mass_kg=mass_kg, c2=c2, f0_hz=f0_hz, rolloff=rolloff,
             modes=[{"fn_hz": a, "mass_kg": b, "q": c} for a, b, c in mode_list],
-            residual_mass_kg=residual_kg, max_notch_db=max_notch_db))
+            residual_mass_kg=residual_kg, max_notch_db=max_notch_db)
+        if level is not None:
+            row = transfers.set_level_force_limit(session, local_actor(), level, cmd)
+            out = transfers.ForceLimitRead.model_validate(row.result)
+        else:
+            out = transfers.force_limit(session, environment, cmd)
     if as_json:
         emit_json(out)
         return

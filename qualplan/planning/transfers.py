@@ -705,3 +705,37 @@ def force_limit(session: Session, environment_id: int, cmd: ForceLimitIn) -> For
     rev = RevisionRepository(session).latest(env.id)
     return force_limit_of(rev.spec["freq_hz"], rev.spec["asd_g2_hz"],
                           f"{env.name} r{rev.number}", cmd)
+
+
+def _level_asd(level: m.Level) -> tuple[list[float], list[float]]:
+    """The test ASD of a random level [Hz], [g^2/Hz] (the one place that reads a level's
+    result for force limits)."""
+    r = level.result
+    return r["freq_hz"], r["asd_g2_hz"]
+
+
+def set_level_force_limit(session: Session, actor: Actor, level_id: int, cmd: ForceLimitIn
+                          ) -> m.LevelForceLimit:
+    """Set the force limit of a random test level (a new row; the newest applies)."""
+    require(actor, m.Role.engineer, "setting a force limit")
+    level = get(session, m.Level, level_id, "level")
+    if level.kind is not K.random or level.purpose is not m.LevelPurpose.test:
+        raise ValidationFailed("level_id", level_id, f"level {level.name!r} is a "
+                               f"{level.kind.value} {level.purpose.value} level; force limits "
+                               "go with random test levels")
+    out = force_limit_of(*_level_asd(level), f"{level.name} #{level.number}", cmd)
+    row = m.LevelForceLimit(level_id=level.id, params=cmd.model_dump(mode="json"),
+                            result=out.model_dump(mode="json"), level_hash=level.level_hash,
+                            author=actor.name)
+    session.add(row)
+    session.flush()
+    record(session, actor, "force_limit", "level", level.id, c2=cmd.c2, f0_hz=cmd.f0_hz,
+           mass_kg=cmd.mass_kg, notches=len(out.notches))
+    return row
+
+
+def level_force_limit(session: Session, level_id: int) -> ForceLimitRead | None:
+    """The newest force limit of a level, or None."""
+    row = session.scalar(select(m.LevelForceLimit).where(m.LevelForceLimit.level_id == level_id)
+                         .order_by(m.LevelForceLimit.id.desc()).limit(1))
+    return None if row is None else ForceLimitRead.model_validate(row.result)

@@ -504,4 +504,22 @@ class EnvironmentDerivation(Base):
     revision: Mapped[EnvironmentRevision] = relationship()
 
 
-IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, TransferRuleRevision, EnvironmentDerivation)
+class LevelForceLimit(Base):
+    """A force limit (NASA-HDBK-7004 semi-empirical) set for a random test level, with its
+    predicted notches; the newest row of a level applies. Append-only."""
+
+    __tablename__ = "level_force_limits"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    level_id: Mapped[int] = mapped_column(ForeignKey("levels.id"), index=True)
+    #: The inputs: mass_kg, c2, f0_hz, rolloff, modes, residual_mass_kg, max_notch_db.
+    params: Mapped[dict[str, Any]] = mapped_column(JSON)
+    #: The limit [Hz, N^2/Hz], overall N rms and the notches.
+    result: Mapped[dict[str, Any]] = mapped_column(JSON)
+    level_hash: Mapped[str] = mapped_column(String(64))
+    author: Mapped[str] = mapped_column(String(120))
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+
+IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, TransferRuleRevision, EnvironmentDerivation,
+                    LevelForceLimit)

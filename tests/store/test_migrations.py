@@ -126,7 +126,7 @@ def test_transfer_tables_are_append_only_and_downgrade_cleanly(fresh_db_url):
     engine.dispose()
     names = set(inspect(engine).get_table_names())
     assert not names & {"mountings", "transfer_rules", "transfer_rule_revisions",
-                        "environment_derivations"}
+                        "environment_derivations", "level_force_limits"}
     migrate.upgrade(fresh_db_url, "0006")
     with engine.begin() as conn:
         conn.execute(text("INSERT INTO programs (name, description, created_at, version) "

@@ -63,3 +63,13 @@ def force_limit(environment_id: int, cmd: transfers.ForceLimitIn, session: Sessi
     """NASA-HDBK-7004 semi-empirical force limit [N^2/Hz] of a random environment's
     latest revision, with the notches it predicts when the item's modes are given."""
     return transfers.force_limit(session, environment_id, cmd)
+
+
+@router.post("/levels/{level_id}/force-limit", status_code=201,
+             response_model=transfers.ForceLimitRead)
+def set_level_force_limit(level_id: int, cmd: transfers.ForceLimitIn, session: SessionDep,
+                          actor: ActorDep):
+    """Set the force limit of a random test level: it becomes the second table of the
+    level in the test-level specification and a CSV of its own for the lab."""
+    row = transfers.set_level_force_limit(session, actor, level_id, cmd)
+    return transfers.ForceLimitRead.model_validate(row.result)
