@@ -170,6 +170,20 @@ def _matrix(session: Session, product: m.Product) -> list[list[float]]:
     return row.frame["matrix"] if row is not None else IDENTITY
 
 
+def _composed(session: Session, product: m.Product, ancestor_id: int) -> list[list[float]]:
+    """Direction cosines of the product's axes in an ancestor's axes: the mountings of
+    each level between them multiplied (child in parent @ parent in grandparent ...)."""
+    r, p = np.eye(3), product
+    while p.id != ancestor_id:
+        if p.parent_id is None:
+            raise ValidationFailed("product_id", ancestor_id, "is not an ancestor")
+        r = r @ np.asarray(_matrix(session, p))
+        p = session.get(m.Product, p.parent_id)
+    if p is product:
+        return IDENTITY
+    return [[float(x) for x in row] for row in r]
+
+
 # --- rules ------------------------------------------------------------------------------
 
 
@@ -400,9 +414,13 @@ def derive_transferred(session: Session, actor: Actor, cmd: TransferCreate
     for i, eid in enumerate(cmd.parent_environment_ids):
         field = f"parent_environment_ids[{i}]"
         env = get(session, m.Environment, eid, "environment")
-        if env.product_id != product.parent_id:
-            raise ValidationFailed(field, eid, f"environment {env.name!r} is not one of the "
-                                   f"parent's (product {product.parent_id})")
+        ancestors = {a.id for a in _ancestors(session, product)}
+        if env.product_id not in ancestors:
+            raise ValidationFailed(field, eid, f"environment {env.name!r} is not one of a "
+                                   f"parent's of {product.name!r}")
+        if inputs and env.product_id != inputs[0][0].product_id:
+            raise ValidationFailed(field, eid, "all inputs must come from the same parent "
+                                   f"(the first is of product {inputs[0][0].product_id})")
         if env.kind is K.time_history:
             raise ValidationFailed(field, eid, "a time history is not transferred; derive "
                                    "from its PSD or SRS environment")
@@ -425,7 +443,8 @@ def derive_transferred(session: Session, actor: Actor, cmd: TransferCreate
         if rule.program_id != product.program_id:
             raise ValidationFailed(f"rule_ids[{i}]", rid, "the rule belongs to another program")
         rules.append((rule, _latest_rule_revision(session, rule.id)))
-    matrix = _matrix(session, product)
+    source = session.get(m.Product, inputs[0][0].product_id)
+    matrix = _composed(session, product, source.id)
     frame = core_tr.AxisFrame(np.asarray(matrix))
     child_axes = core_tr.AXES if cmd.axis is m.Axis.all else (cmd.axis.value,)
     notes = [("mounting " + (", ".join(f"{k} = parent {v}" for k, v in
@@ -467,6 +486,7 @@ def derive_transferred(session: Session, actor: Actor, cmd: TransferCreate
         hashes["unit_mass_kg"] = product.mass_kg
     recipe = {
         "kind": kind.value,
+        "from_product_id": source.id,
         "parent_environment_ids": list(cmd.parent_environment_ids),
         "axis": cmd.axis.value,
         "rule_ids": list(cmd.rule_ids),
@@ -541,7 +561,8 @@ def derivation_staleness(session: Session, rev: m.EnvironmentRevision, _depth: i
             reasons.append(f"transfer rule {used.rule.name!r} has revision {latest.number}, "
                            f"the transfer used revision {used.number}")
     product = session.get(m.Product, d.product_id)
-    if json_hash(_matrix(session, product)) != d.input_hashes.get("mounting"):
+    source_id = d.recipe.get("from_product_id", product.parent_id)
+    if json_hash(_composed(session, product, source_id)) != d.input_hashes.get("mounting"):
         reasons.append(f"the mounting of {product.name!r} changed since the transfer")
     if "unit_mass_kg" in d.input_hashes and d.input_hashes["unit_mass_kg"] != product.mass_kg:
         reasons.append(f"the mass of {product.name!r} changed since the transfer "
@@ -578,8 +599,12 @@ def environments_for(session: Session, product_id: int) -> list[EnvironmentOrigi
     product = get(session, m.Product, product_id, "product")
     revs = RevisionRepository(session)
     replaced = replaced_environment_ids(session, product)
-    rotated = mounting_of(session, product) is not None and \
-        _matrix(session, product) != IDENTITY
+    # direction cosines of the product's axes in each ancestor's axes (frames composed)
+    frames, r, p = {}, np.eye(3), product
+    for owner in _ancestors(session, product):
+        r = r @ np.asarray(_matrix(session, p))
+        frames[owner.id] = r
+        p = owner
     out = []
     for owner in [product, *_ancestors(session, product)]:
         envs = session.scalars(select(m.Environment).where(m.Environment.product_id == owner.id)
@@ -602,7 +627,8 @@ def environments_for(session: Session, product_id: int) -> list[EnvironmentOrigi
                 for rid in d.input_hashes.get("revisions", {}):
                     ir = revs.get(int(rid))
                     inputs.append(f"{ir.environment.name} r{ir.number}")
-                parent = session.get(m.Product, product.parent_id)
+                parent = session.get(m.Product, d.recipe.get("from_product_id",
+                                                             product.parent_id))
                 out.append(EnvironmentOrigin(
                     **base, origin="transferred", from_product=parent.name if parent else "",
                     through=["mounting"] + rule_names, inputs=inputs, stale=bool(reasons),
@@ -610,9 +636,12 @@ def environments_for(session: Session, product_id: int) -> list[EnvironmentOrigi
             else:
                 origin = "replaced" if env.id in replaced else "inherited"
                 notes = []
-                if origin == "inherited" and rotated and env.axis is not m.Axis.all:
-                    notes.append(f"on the axes of {owner.name!r}; {product.name!r} is mounted "
-                                 "rotated: transfer it through the mounting")
+                if origin == "inherited" and env.axis is not m.Axis.all:
+                    i = core_tr.AXES.index(env.axis.value)
+                    if abs(frames[owner.id][i, i] - 1.0) > 1e-9:
+                        notes.append(f"on the axes of {owner.name!r}, where the {env.axis.value} "
+                                     f"axis of {product.name!r} does not lie: transfer it "
+                                     "through the mounting")
                 out.append(EnvironmentOrigin(**base, origin=origin, from_product=owner.name,
                                              notes=notes))
     return out

@@ -193,3 +193,23 @@ def test_sine_and_shock_transfer(session, engineer, program, tree, road):
     t1000 = 4.0 * (1000 / 200) ** (math.log(1 / 4) / math.log(10))
     assert a[f.tolist().index(1000.0)] == pytest.approx(100 * t1000)
     assert rev.spec["q"] == 10.0
+
+
+def test_transfer_from_a_grandparent_composes_the_mountings(session, engineer, program, tree):
+    # board in unit: board X = unit Y; unit in pod: unit X = pod -Z, unit Y = pod X
+    # -> board X = pod X (by hand), so the board's X takes the pod's X (0.01 g^2/Hz)
+    unit, envs = tree["unit"], tree["envs"]
+    board = catalog.create_product(session, engineer, s.ProductCreate(
+        program_id=program.id, name="board", parent_id=unit.id, mass_kg=0.2))
+    transfers.set_mounting(session, engineer, unit.id,
+                           transfers.MountingIn(axes={"X": "-Z", "Y": "X", "Z": "-Y"}))
+    transfers.set_mounting(session, engineer, board.id,
+                           transfers.MountingIn(axes={"X": "Y", "Y": "Z", "Z": "X"}))
+    rev = transfers.derive_transferred(session, engineer, transfers.TransferCreate(
+        product_id=board.id, name="road X", axis=m.Axis.X,
+        parent_environment_ids=[envs["X"].id]))
+    np.testing.assert_allclose(rev.spec["asd_g2_hz"], 0.01)
+    assert transfers.derivation_staleness(session, rev) == []
+    transfers.set_mounting(session, engineer, unit.id,
+                           transfers.MountingIn(axes={"X": "X", "Y": "Y", "Z": "Z"}))
+    assert any("mounting" in r for r in transfers.derivation_staleness(session, rev))
