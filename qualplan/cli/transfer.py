@@ -250,3 +250,16 @@ def force_limit(
                "acceptance"],
               [(n.f_lo_hz, n.f_hi_hz, n.f_deepest_hz, n.depth_db, n.width_oct,
                 "needs approver" if n.exceeds_policy else "-") for n in out.notches])
+
+
+@transfer_app.command("accept-notches")
+def accept_notches(
+    level: Annotated[int, typer.Option(help="Random test level id with a force limit.")],
+    rationale: Annotated[str, typer.Option(help="Why the deep notches are acceptable.")],
+    db: DbOption = None,
+) -> None:
+    """Accept (as an approver) notches deeper than the policy allows; recorded."""
+    with work(db) as session:
+        row = transfers.accept_notches(session, local_actor(), level, rationale)
+        who = row.result["accepted_by"]
+    typer.echo(f"notches of level {level} accepted by {who}")

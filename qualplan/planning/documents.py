@@ -200,6 +200,8 @@ class ForceLimitTable(Content):
     notches: list[ForceLimitNotch]
     max_notch_db: float | None
     needs_acceptance: bool
+    accepted_by: str | None = None
+    acceptance_rationale: str = ""
 
 
 class LevelSection(Content):
@@ -520,7 +522,8 @@ def _force_limit(session: Session, level: m.Level) -> ForceLimitTable | None:
         rows=[ForceLimitRow(freq_hz=f, fsd_n2_hz=v) for f, v in zip(fl.freq_hz, fl.fsd_n2_hz,
                                                                     strict=True)],
         notches=[ForceLimitNotch(**n.model_dump()) for n in fl.notches],
-        max_notch_db=row.params.get("max_notch_db"), needs_acceptance=fl.needs_acceptance)
+        max_notch_db=row.params.get("max_notch_db"), needs_acceptance=fl.needs_acceptance,
+        accepted_by=fl.accepted_by, acceptance_rationale=fl.acceptance_rationale)
 
 
 def _section(session: Session, level: m.Level) -> LevelSection:

@@ -694,6 +694,9 @@ class ForceLimitRead(BaseModel):
     notched_freq_hz: list[float] = []
     notched_asd_g2_hz: list[float] = []
     needs_acceptance: bool = False
+    #: Who accepted the notches deeper than the policy allows, and why (None: not accepted).
+    accepted_by: str | None = None
+    acceptance_rationale: str = ""
     method: str = ("NASA-HDBK-7004C semi-empirical method: S_FF = C^2 M0^2 S_AA below f0, "
                    "x (f0/f)^n above")
 
@@ -768,3 +771,29 @@ def level_force_limit(session: Session, level_id: int) -> ForceLimitRead | None:
     row = session.scalar(select(m.LevelForceLimit).where(m.LevelForceLimit.level_id == level_id)
                          .order_by(m.LevelForceLimit.id.desc()).limit(1))
     return None if row is None else ForceLimitRead.model_validate(row.result)
+
+
+def accept_notches(session: Session, actor: Actor, level_id: int, rationale: str
+                   ) -> m.LevelForceLimit:
+    """An approver accepts the notches of a level's force limit that are deeper than the
+    policy allows: recorded as the level's next force-limit row and an event."""
+    require(actor, m.Role.approver, "accepting notches deeper than the policy allows")
+    if not rationale.strip():
+        raise ValidationFailed("rationale", rationale, "must say why the notches are accepted")
+    row = session.scalar(select(m.LevelForceLimit).where(m.LevelForceLimit.level_id == level_id)
+                         .order_by(m.LevelForceLimit.id.desc()).limit(1))
+    if row is None:
+        raise ValidationFailed("level_id", level_id, "the level has no force limit")
+    if not row.result.get("needs_acceptance"):
+        raise Conflict("no notch of this force limit is deeper than the policy allows")
+    if row.result.get("accepted_by"):
+        raise Conflict(f"the notches were accepted already by {row.result['accepted_by']}")
+    result = {**row.result, "accepted_by": actor.name, "acceptance_rationale": rationale}
+    new = m.LevelForceLimit(level_id=level_id, params=row.params, result=result,
+                            level_hash=row.level_hash, author=actor.name)
+    session.add(new)
+    session.flush()
+    record(session, actor, "accept_notches", "level", level_id, force_limit_id=new.id,
+           rationale=rationale,
+           depths_db=[n["depth_db"] for n in row.result["notches"] if n["exceeds_policy"]])
+    return new

@@ -277,6 +277,14 @@ def _new_rule(b):
 
 _FORCE = {"mass_kg": 2.0, "c2": 2.0, "f0_hz": 100.0}
 
+
+def _deep_notch_level(b):
+    """A fresh test level whose force limit notches deeper than 3 dB (one mode, Q 20)."""
+    lvl = b["eng"].post("/levels", {**b["test_level"]["recipe"], "name": unique("fl")}).json()
+    b["eng"].post(f"/levels/{lvl['id']}/force-limit", {
+        **_FORCE, "modes": [{"fn_hz": 100.0, "mass_kg": 1.5, "q": 20.0}], "max_notch_db": 3.0})
+    return f"/levels/{lvl['id']}/force-limit/acceptance", {"json": {"rationale": "accepted"}}
+
 CASES.update({
     "product environments": Case("GET", "/products/{product_id}/environments", "viewer",
                                  lambda b: (f"/products/{U(b)}/environments", {})),
@@ -300,6 +308,8 @@ CASES.update({
         f"/environments/{E(b)}/force-limit", {"json": _FORCE})),
     "level force limit": Case("POST", "/levels/{level_id}/force-limit", "engineer", lambda b: (
         f"/levels/{b['test_level']['id']}/force-limit", {"json": _FORCE}), 201),
+    "notch acceptance": Case("POST", "/levels/{level_id}/force-limit/acceptance", "approver",
+                             _deep_notch_level, 201),
 })
 
 @pytest.mark.parametrize("name, who", list(_params()))

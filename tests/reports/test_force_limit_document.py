@@ -47,3 +47,31 @@ def test_force_limit_table_in_pdf_and_csv(db, tmp_path):
     # the JSON round-trips with the new table
     body = content.model_dump(mode="json")
     assert documents.SpecificationContent.model_validate(body) == content
+
+
+def test_deep_notches_need_an_approver_and_the_acceptance_is_printed(db, tmp_path):
+    import pytest
+
+    from qualplan.planning.access import Actor
+    from qualplan.planning.errors import Conflict, PermissionDenied
+    from qualplan.store import models as m
+
+    session, data = db
+    level = data["levels"]["random"]
+    transfers.set_level_force_limit(session, data["engineer"], level.id, transfers.ForceLimitIn(
+        mass_kg=0.8, c2=2.0, f0_hz=150.0, modes=[{"fn_hz": 150.0, "mass_kg": 0.5, "q": 10}],
+        residual_mass_kg=0.1, max_notch_db=6.0))
+    with pytest.raises(PermissionDenied):
+        transfers.accept_notches(session, data["engineer"], level.id, "fine")
+    alan = Actor("alan", m.Role.approver)
+    row = transfers.accept_notches(session, alan, level.id, "unit qualified by a notched "
+                                   "sine survey on the same fixture")
+    assert row.result["accepted_by"] == "alan"
+    with pytest.raises(Conflict, match="accepted already"):
+        transfers.accept_notches(session, alan, level.id, "again")
+    assert transfers.level_force_limit(session, level.id).accepted_by == "alan"
+    content = documents.specification_content(session, data["unit"].id, "qualification")
+    paths = PdfRenderer().render(content, tmp_path)
+    text = re.sub(r"\s+", " ", "\n".join(p.extract_text() or "" for p in PdfReader(
+        str(next(p for p in paths if p.suffix == ".pdf"))).pages))
+    assert "accepted by alan" in text and "notched sine survey" in text

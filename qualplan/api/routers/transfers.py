@@ -4,6 +4,7 @@ environments, the environments that apply to a product, and force limits."""
 from __future__ import annotations
 
 from fastapi import APIRouter
+from pydantic import BaseModel, Field
 
 from qualplan.api.deps import ActorDep, ReaderDep, SessionDep
 from qualplan.planning import environments as envs
@@ -72,4 +73,17 @@ def set_level_force_limit(level_id: int, cmd: transfers.ForceLimitIn, session: S
     """Set the force limit of a random test level: it becomes the second table of the
     level in the test-level specification and a CSV of its own for the lab."""
     row = transfers.set_level_force_limit(session, actor, level_id, cmd)
+    return transfers.ForceLimitRead.model_validate(row.result)
+
+
+class NotchAcceptance(BaseModel):
+    rationale: str = Field(min_length=1)
+
+
+@router.post("/levels/{level_id}/force-limit/acceptance", status_code=201,
+             response_model=transfers.ForceLimitRead)
+def accept_notches(level_id: int, cmd: NotchAcceptance, session: SessionDep, actor: ActorDep):
+    """An approver accepts notches deeper than the policy's maximum (recorded with the
+    level's force limit and in the event log)."""
+    row = transfers.accept_notches(session, actor, level_id, cmd.rationale)
     return transfers.ForceLimitRead.model_validate(row.result)
