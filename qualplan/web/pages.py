@@ -37,6 +37,7 @@ from qualplan.planning import (
     levels,
     policies,
     requirements,
+    transfers,
 )
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor
@@ -455,6 +456,7 @@ def product_page(ctx: Ctx, product_id: int, error=None, status=200, form=None, w
         policies=policies.list_policies(ctx.db), kinds=list(K), all_axes=list(m.Axis),
         value_units={k.value: sorted(v) for k, v in imports.VALUE_UNITS.items()},
         grades=list(m.Grade), purposes=list(m.LevelPurpose),
+        origins=transfers.environments_for(ctx.db, product.id),
         error=error, where=where, form=form or {},
     )
 
