@@ -32,6 +32,7 @@ from qualplan.planning.errors import Conflict, ValidationFailed
 from qualplan.store import models as m
 from qualplan.store.hashing import json_hash, revision_hash
 from qualplan.store.repositories import RevisionRepository
+from qualplan.store.types import utcnow
 
 K = m.EnvironmentKind
 RuleKind = Literal["zone_transmissibility", "mass_attenuation"]
@@ -155,7 +156,7 @@ def set_mounting(session: Session, actor: Actor, product_id: int, cmd: MountingI
 
             raise VersionMismatch("mounting", row.id, cmd.expected_version, row.version)
         row.frame, row.note, row.author = frame, cmd.note, actor.name
-        row.updated_at = datetime.now(row.updated_at.tzinfo)
+        row.updated_at = utcnow()
     session.flush()
     record(session, actor, "mount", "product", product.id, frame=frame)
     return row
