@@ -2,7 +2,7 @@
 compressed chunks with their hashes, both append-only like revisions
 
 Revision ID: 0007
-Revises: 0005
+Revises: 0006
 Create Date: 2026-12-02 18:00:08.120162
 """
 
@@ -12,7 +12,7 @@ import sqlalchemy as sa
 from alembic import op
 
 revision = "0007"
-down_revision = "0005"
+down_revision = "0006"
 branch_labels = None
 depends_on = None
 

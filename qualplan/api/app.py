@@ -23,6 +23,7 @@ from qualplan.api.routers import (
     modal,
     policies,
     requirements,
+    transfers,
     users,
 )
 from qualplan.config import Settings
@@ -40,6 +41,7 @@ ROUTERS = (
     audit.router,
     documents.router,
     users.router,
+    transfers.router,
     events.router,
     modal.router,
 )

@@ -154,12 +154,15 @@ def env_list(
     db: DbOption = None,
     as_json: JsonOption = False,
 ) -> None:
-    """List environments (of one product, or all)."""
+    """List environments (all, or those that apply to one product and where they came from)."""
     with work(db) as session:
         prod_id = None
         if product is not None:
             prog = _program(session, program) if program else None
             prod_id = catalog.product_ref(session, prog, product).id
+            from qualplan.cli.transfer import print_origins
+
+            return print_origins(session, prod_id, as_json)
         rows = [
             environments.read_environment(session, e)
             for e in environments.list_environments(session, product_id=prod_id)

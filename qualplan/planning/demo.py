@@ -7,9 +7,11 @@ five life phases, breakpoint environments from invented specifications, and
 the planning use cases, as an engineer would through the CLI or the API:
 
 programs and the product tree -> phases -> environments of every kind on three axes
--> a program margin policy (a copy of a shipped one, edited) -> qualification and
-acceptance levels (envelopes, P95/50 of measured records) with their coverage ->
-requirements -> evidence (passing, one failing, one made stale by a new revision of
+(the unit's flight X and Y carried down from its pod through its mounting and the
+shelf's transmissibility) -> a program margin policy (a copy of a shipped one, edited)
+-> qualification and acceptance levels (envelopes, P95/50 of measured records) with
+their coverage, random X force limited -> requirements -> evidence (passing, one
+failing, one made stale by a new revision of
 its environment) -> a user and a token for the web pages.
 """
 
@@ -31,6 +33,7 @@ from qualplan.planning import (
     levels,
     policies,
     requirements,
+    transfers,
 )
 from qualplan.planning import modal as pm
 from qualplan.planning import schemas as s
@@ -56,6 +59,13 @@ FLIGHT = {
     "X": ([20.0, 80.0, 400.0, 2000.0], [0.001, 0.004, 0.004, 0.0005]),
     "Y": ([20.0, 80.0, 400.0, 2000.0], [0.0008, 0.003, 0.003, 0.0004]),
 }
+#: The unit's orientation on the pod's electronics shelf (unit axis = pod axis).
+UNIT_AXES = {"X": "Y", "Y": "-X", "Z": "Z"}
+#: Invented |T| of the shelf per g at the pod's mounting [Hz], [g/g].
+SHELF_T = ([20.0, 150.0, 300.0, 2000.0], [1.0, 1.6, 1.6, 0.7])
+#: Invented modal summary of the unit on a rigid base, X: (fn [Hz], effective mass [kg],
+#: Q), and the residual mass [kg]; the force limit of its random X level uses them.
+UNIT_MODES_X, UNIT_RESIDUAL_KG = [(240.0, 1.9, 12.0), (610.0, 0.6, 15.0)], 0.6
 #: The spectrum behind the synthesised Z flight records, and each record's scale.
 FLIGHT_Z_TRUE = ([20.0, 100.0, 350.0, 2000.0], [0.006, 0.008, 0.008, 0.0008])
 FLIGHT_Z_SCALES = (0.8, 1.0, 1.25)
@@ -200,10 +210,33 @@ def build_demo(session: Session, *, seed: int = 2026) -> DemoSummary:
             {"freq_hz": f, "asd_g2_hz": a},
             "Tern-4 transport specification TS-04 rev A (invented)", "breakpoints")
     for axis, (f, a) in FLIGHT.items():
-        made[f"flight {axis}"] = env(
-            unit, flight, f"survey flight {axis}", K.random, axis,
+        made[f"pod flight {axis}"] = env(
+            pod, flight, f"survey flight {axis}", K.random, axis,
             {"freq_hz": f, "asd_g2_hz": a},
-            "Tern-4 platform vibration specification PVS-2 (invented)", "breakpoints")
+            "Tern-4 platform vibration specification PVS-2 (invented)",
+            "breakpoints at the pod's mounting")
+    # The unit sits on the pod's electronics shelf turned a quarter turn about Z (unit X
+    # along pod Y): its flight X and Y come from the pod's through the mounting and the
+    # shelf's transmissibility (an invented analysis result).
+    transfers.set_mounting(session, me, unit.id, transfers.MountingIn(
+        axes=UNIT_AXES, note="quarter turn on the electronics shelf (drawing TRN4-SP-140)"))
+    shelf = transfers.create_rule(session, me, transfers.RuleCreate(
+        program_id=program.id, name="pod electronics shelf", kind="zone_transmissibility",
+        spec={"freq_hz": SHELF_T[0], "gain": SHELF_T[1]}, basis="analysis",
+        provenance="pod finite-element model, shelf response per g at the pod mounting "
+        "(invented for the demo)"))
+    for axis, parent_axis in (("X", "Y"), ("Y", "X")):
+        # road transport: the vehicle's spectra through the mounting only (unit Z = Z)
+        made[f"unit road {axis}"] = transfers.derive_transferred(
+            session, me, transfers.TransferCreate(
+                product_id=unit.id, name=f"road transport {axis} (unit axes)",
+                axis=m.Axis(axis), parent_environment_ids=[made[f"road {parent_axis}"].id]
+            )).environment
+        made[f"flight {axis}"] = transfers.derive_transferred(
+            session, me, transfers.TransferCreate(
+                product_id=unit.id, name=f"survey flight {axis} (shelf)", axis=m.Axis(axis),
+                parent_environment_ids=[made[f"pod flight {parent_axis}"].id],
+                rule_ids=[shelf.id])).environment
     # Measured flight records, Z: one per sortie, each standing for a third of the hours.
     # Each record's maximax PSD (1 s windows) over 20-2000 Hz becomes a measured spectrum.
     per_record_s = flight.duration_s / len(FLIGHT_Z_SCALES)
@@ -273,8 +306,10 @@ def build_demo(session: Session, *, seed: int = 2026) -> DemoSummary:
     records_z = [f"flight Z{i}" for i in range(1, len(FLIGHT_Z_SCALES) + 1)]
     landings = [f"landing {i}" for i in range(1, len(LANDING_SCALES) + 1)]
     lv = {
-        "rv X": level("qualification random X", unit, "random", "X", ["road X", "flight X"]),
-        "rv Y": level("qualification random Y", unit, "random", "Y", ["road Y", "flight Y"]),
+        "rv X": level("qualification random X", unit, "random", "X",
+                      ["unit road X", "flight X"]),
+        "rv Y": level("qualification random Y", unit, "random", "Y",
+                      ["unit road Y", "flight Y"]),
         "rv Z": level("qualification random Z", unit, "random", "Z", records_z,
                       combination="p95_50"),
         "sn X": level("qualification sine X", unit, "sine", "X", ["tones"]),
@@ -284,14 +319,21 @@ def build_demo(session: Session, *, seed: int = 2026) -> DemoSummary:
         "sh Y": level("qualification shock Y", unit, "shock", "Y", ["drop"]),
         "sh Z": level("qualification shock Z", unit, "shock", "Z", landings,
                       combination="p95_50"),
-        "at X": level("acceptance random X", unit, "random", "X", ["road X", "flight X"],
+        "at X": level("acceptance random X", unit, "random", "X", ["unit road X", "flight X"],
                       grade=A),
-        "at Y": level("acceptance random Y", unit, "random", "Y", ["road Y", "flight Y"],
+        "at Y": level("acceptance random Y", unit, "random", "Y", ["unit road Y", "flight Y"],
                       grade=A),
         "at Z": level("acceptance random Z", unit, "random", "Z", records_z, grade=A,
                       combination="p95_50"),
         "cam": level("qualification random Z", camera, "random", "Z", ["road Z", "camera"]),
     }
+    transfers.set_level_force_limit(session, me, lv["rv X"].id, transfers.ForceLimitIn(
+        mass_kg=3.1, c2=2.0, f0_hz=UNIT_MODES_X[0][0],
+        modes=[{"fn_hz": f, "mass_kg": mk, "q": q} for f, mk, q in UNIT_MODES_X],
+        residual_mass_kg=UNIT_RESIDUAL_KG, max_notch_db=10.0))
+    summary.notes.append(
+        "qualification random X is force limited (NASA-HDBK-7004 semi-empirical, C^2 = 2, "
+        "f0 = 240 Hz); its flight inputs came from the pod through the shelf")
     loads = levels.derive_level(session, me, s.LevelRecipe(
         product_id=unit.id, name="loads random Z", purpose=m.LevelPurpose.analysis,
         kind="random", axis=m.Axis.Z, revision_ids=[rev(k) for k in records_z],

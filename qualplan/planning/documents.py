@@ -32,6 +32,7 @@ from qualplan.planning.errors import Conflict, ValidationFailed
 from qualplan.planning.levels import read_level, result_of
 from qualplan.planning.lifecycle import current_test_levels
 from qualplan.planning.policies import rules_of
+from qualplan.planning.transfers import level_force_limit
 from qualplan.store import models as m
 from qualplan.store.hashing import json_hash
 from qualplan.store.repositories import RevisionRepository
@@ -174,6 +175,37 @@ class Derivation(Content):
     coverage: CoverageData | None
 
 
+class ForceLimitRow(Content):
+    freq_hz: float
+    fsd_n2_hz: float
+
+
+class ForceLimitNotch(Content):
+    f_lo_hz: float
+    f_hi_hz: float
+    f_deepest_hz: float
+    depth_db: float
+    width_oct: float
+    exceeds_policy: bool
+
+
+class ForceLimitTable(Content):
+    """The force limit of a random level (NASA-HDBK-7004 semi-empirical) [N^2/Hz]."""
+
+    method: str
+    c2: float
+    mass_kg: float
+    f0_hz: float
+    rolloff_db_per_oct: float
+    force_rms_n: float
+    rows: list[ForceLimitRow]
+    notches: list[ForceLimitNotch]
+    max_notch_db: float | None
+    needs_acceptance: bool
+    accepted_by: str | None = None
+    acceptance_rationale: str = ""
+
+
 class LevelSection(Content):
     level_id: int
     name: str
@@ -190,6 +222,7 @@ class LevelSection(Content):
     random: RandomTable | None = None
     sine: SineTable | None = None
     shock: ShockTable | None = None
+    force_limit: ForceLimitTable | None = None
     derivation: Derivation
 
 
@@ -471,6 +504,22 @@ def _inputs(session: Session, level: m.Level) -> list[InputRow]:
     return out
 
 
+def _force_limit(session: Session, level: m.Level) -> ForceLimitTable | None:
+    fl = level_force_limit(session, level.id)
+    if fl is None:
+        return None
+    row = session.scalar(select(m.LevelForceLimit).where(m.LevelForceLimit.level_id == level.id)
+                         .order_by(m.LevelForceLimit.id.desc()).limit(1))
+    return ForceLimitTable(
+        method=fl.method, c2=fl.c2, mass_kg=fl.mass_kg, f0_hz=fl.f0_hz,
+        rolloff_db_per_oct=fl.rolloff_db_per_oct, force_rms_n=fl.force_rms_n,
+        rows=[ForceLimitRow(freq_hz=f, fsd_n2_hz=v) for f, v in zip(fl.freq_hz, fl.fsd_n2_hz,
+                                                                    strict=True)],
+        notches=[ForceLimitNotch(**n.model_dump()) for n in fl.notches],
+        max_notch_db=row.params.get("max_notch_db"), needs_acceptance=fl.needs_acceptance,
+        accepted_by=fl.accepted_by, acceptance_rationale=fl.acceptance_rationale)
+
+
 def _section(session: Session, level: m.Level) -> LevelSection:
     read = read_level(session, level)
     r = read.result
@@ -491,6 +540,8 @@ def _section(session: Session, level: m.Level) -> LevelSection:
         tables["sine"] = _sine_table(r)
     else:
         tables["shock"] = _shock_table(r)
+    if kind == "random":
+        tables["force_limit"] = _force_limit(session, level)
     return LevelSection(
         level_id=level.id, name=level.name, number=level.number, kind=kind,
         axis=level.axis.value, level_hash=level.level_hash, derived_at=level.created_at,

@@ -37,6 +37,7 @@ from qualplan.planning.lifecycle import (
     lineage,
 )
 from qualplan.planning.policies import rules_of
+from qualplan.planning.transfers import derivation_staleness
 from qualplan.store import models as m
 from qualplan.store.hashing import json_hash
 from qualplan.store.repositories import LevelRepository, RevisionRepository
@@ -505,6 +506,9 @@ def staleness(session: Session, level: m.Level) -> list[str]:
                 f"environment {rev.environment.name!r} has revision {latest.number}, "
                 f"the level used revision {rev.number}"
             )
+        else:  # a transferred environment is stale when its parent inputs or rules changed
+            reasons += [f"environment {rev.environment.name!r}: {r}"
+                        for r in derivation_staleness(session, rev)]
     policy = session.get(m.MarginPolicy, level.input_hashes["policy"]["id"])
     if policy is None or json_hash(policy.rules) != level.input_hashes["policy"]["rules_hash"]:
         reasons.append("the margin policy's rules changed since the level was derived")

@@ -14,6 +14,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from qualplan.planning.errors import ValidationFailed
+from qualplan.planning.transfers import replaced_environment_ids
 from qualplan.store import models as m
 from qualplan.store.repositories import LevelRepository, RevisionRepository
 
@@ -55,7 +56,11 @@ def life_cycle(session: Session, product: m.Product, axis: m.Axis) -> list[LifeI
         stmt = stmt.where(m.Environment.axis.in_([axis, m.Axis.all]))
     revs = RevisionRepository(session)
     out = []
+    # a parent's environment that a transfer carried down is replaced by the transferred one
+    replaced = replaced_environment_ids(session, product)
     for env in session.scalars(stmt.order_by(m.Environment.id)):
+        if env.id in replaced:
+            continue
         latest = revs.latest(env.id)
         if latest is not None:
             out.append(LifeItem(env, latest))

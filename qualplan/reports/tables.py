@@ -60,6 +60,29 @@ def section_csv(content: SpecificationContent, section: LevelSection) -> str:
     return buf.getvalue()
 
 
+def force_limit_csv(content: SpecificationContent, section: LevelSection) -> str:
+    """Force limit of one random level (Hz, N^2/Hz) and its predicted notches."""
+    t = section.force_limit
+    buf = io.StringIO()
+    buf.write("\n".join([
+        f"# {content.number} revision {content.revision}: {content.title}",
+        f"# force limit of level {section.name} #{section.number}, axis {section.axis}, "
+        f"hash {section.level_hash}",
+        f"# {t.method}; C^2 = {t.c2:g}, M0 = {t.mass_kg:g} kg, f0 = {t.f0_hz:g} Hz, "
+        f"{t.rolloff_db_per_oct:.2f} dB/oct above f0; overall {t.force_rms_n:.4g} N rms",
+    ]) + "\n")
+    for n in t.notches:
+        buf.write(f"# predicted notch {n.f_lo_hz:.4g}-{n.f_hi_hz:.4g} Hz, {n.depth_db:.2f} dB "
+                  f"at {n.f_deepest_hz:.4g} Hz"
+                  + (" (deeper than the policy maximum: approver's acceptance needed)"
+                     if n.exceeds_policy else "") + "\n")
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(["freq_hz", "fsd_n2_hz"])
+    for r in t.rows:
+        w.writerow([_num(r.freq_hz), _num(r.fsd_n2_hz)])
+    return buf.getvalue()
+
+
 def audit_csv(content: AuditContent) -> str:
     buf = io.StringIO()
     buf.write(f"# {content.number} revision {content.revision}: {content.title}\n")
@@ -97,6 +120,10 @@ def write_tables(content: SpecificationContent | AuditContent, out_dir: Path) ->
             p = out_dir / f"{section_file_stem(content, section)}.csv"
             p.write_text(section_csv(content, section), encoding="utf-8")
             paths.append(p)
+            if getattr(section, "force_limit", None) is not None:
+                p = out_dir / f"{section_file_stem(content, section)}-force-limit.csv"
+                p.write_text(force_limit_csv(content, section), encoding="utf-8")
+                paths.append(p)
     else:
         p = out_dir / f"{stem}.csv"
         p.write_text(audit_csv(content), encoding="utf-8")

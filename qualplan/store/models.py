@@ -490,6 +490,109 @@ class ResponseEstimate(Base):
 
 
 IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, ModalSummaryRevision, ResponseEstimate)
+
+
+# --- environments down the product tree (planning.transfers) -----------------------------
+
+
+class Mounting(Base):
+    """A product's orientation in its parent: direction cosines of its axes (editable)."""
+
+    __tablename__ = "mountings"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    product_id: Mapped[int] = mapped_column(ForeignKey("products.id"), unique=True)
+    #: {"matrix": 3x3 direction cosines, rows child X, Y, Z; "axes": signed permutation or
+    #: None}.
+    frame: Mapped[dict[str, Any]] = mapped_column(JSON)
+    note: Mapped[str] = mapped_column(Text, default="")
+    author: Mapped[str] = mapped_column(String(120))
+    updated_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    version: Mapped[int] = mapped_column(Integer, default=1)
+
+    product: Mapped[Product] = relationship()
+
+    __mapper_args__ = {"version_id_col": version}
+
+
+class TransferRule(Base):
+    """A named rule carrying environments from a parent to a child (zone
+    transmissibility or mass attenuation). Its content lives in revisions."""
+
+    __tablename__ = "transfer_rules"
+    __table_args__ = (UniqueConstraint("program_id", "name"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    program_id: Mapped[int] = mapped_column(ForeignKey("programs.id"), index=True)
+    name: Mapped[str] = mapped_column(String(200))
+    #: "zone_transmissibility" or "mass_attenuation".
+    kind: Mapped[str] = mapped_column(String(40))
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+    revisions: Mapped[list[TransferRuleRevision]] = relationship(
+        back_populates="rule", order_by="TransferRuleRevision.number"
+    )
+
+
+class TransferRuleRevision(Base):
+    """Immutable content of a transfer rule, with where it came from."""
+
+    __tablename__ = "transfer_rule_revisions"
+    __table_args__ = (UniqueConstraint("rule_id", "number"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    rule_id: Mapped[int] = mapped_column(ForeignKey("transfer_rules.id"), index=True)
+    number: Mapped[int] = mapped_column(Integer)
+    spec: Mapped[dict[str, Any]] = mapped_column(JSON)
+    #: "test", "analysis" or "handbook" (how the numbers were obtained).
+    basis: Mapped[str] = mapped_column(String(40))
+    provenance: Mapped[str] = mapped_column(Text, default="")
+    content_hash: Mapped[str] = mapped_column(String(64))
+    author: Mapped[str] = mapped_column(String(120))
+    note: Mapped[str] = mapped_column(Text, default="")
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+    rule: Mapped[TransferRule] = relationship(back_populates="revisions")
+
+
+class EnvironmentDerivation(Base):
+    """How a transferred environment revision was made: recipe and input hashes."""
+
+    __tablename__ = "environment_derivations"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    revision_id: Mapped[int] = mapped_column(
+        ForeignKey("environment_revisions.id"), unique=True
+    )
+    product_id: Mapped[int] = mapped_column(ForeignKey("products.id"), index=True)
+    recipe: Mapped[dict[str, Any]] = mapped_column(JSON)
+    input_hashes: Mapped[dict[str, Any]] = mapped_column(JSON)
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+    revision: Mapped[EnvironmentRevision] = relationship()
+
+
+class LevelForceLimit(Base):
+    """A force limit (NASA-HDBK-7004 semi-empirical) set for a random test level, with its
+    predicted notches; the newest row of a level applies. Append-only."""
+
+    __tablename__ = "level_force_limits"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    level_id: Mapped[int] = mapped_column(ForeignKey("levels.id"), index=True)
+    #: The inputs: mass_kg, c2, f0_hz, rolloff, modes, residual_mass_kg, max_notch_db.
+    params: Mapped[dict[str, Any]] = mapped_column(JSON)
+    #: The limit [Hz, N^2/Hz], overall N rms and the notches.
+    result: Mapped[dict[str, Any]] = mapped_column(JSON)
+    level_hash: Mapped[str] = mapped_column(String(64))
+    author: Mapped[str] = mapped_column(String(120))
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+
+IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, TransferRuleRevision, EnvironmentDerivation,
+                    LevelForceLimit)
+
+
 # Chunked multi-channel records (their own module; append-only like revisions).
 from qualplan.store.records import RECORD_MODELS  # noqa: E402
 

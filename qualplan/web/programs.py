@@ -7,7 +7,7 @@ from fastapi import APIRouter, Request
 from fastapi.responses import Response
 from starlette.concurrency import run_in_threadpool
 
-from qualplan.planning import catalog, environments, imports, levels, policies
+from qualplan.planning import catalog, environments, imports, levels, policies, transfers
 from qualplan.planning import schemas as s
 from qualplan.web.common import (
     Ctx,
@@ -123,6 +123,7 @@ def product_page(ctx: Ctx, product_id: int, error=None, status=200, form=None, w
         policies=policies.list_policies(ctx.db), kinds=list(K), all_axes=list(s.Axis),
         value_units={k.value: sorted(v) for k, v in imports.VALUE_UNITS.items()},
         grades=list(s.Grade), purposes=list(s.LevelPurpose),
+        origins=transfers.environments_for(ctx.db, product.id),
         error=error, where=where, form=form or {},
     )
 

@@ -328,6 +328,59 @@ def _params():
         yield pytest.param(name, who, id=f"{name}-{who}", marks=marks)
 
 
+def _child(b):
+    return b["eng"].post("/products", {"program_id": P(b), "name": unique("child"),
+                                       "parent_id": U(b), "mass_kg": 1.0}).json()
+
+
+_ZONE = {"freq_hz": [10.0, 3000.0], "gain": [1.0, 1.0]}
+
+
+def _new_rule(b):
+    r = b["eng"].post("/transfer-rules", {"program_id": P(b), "name": unique("zone"),
+                                          "kind": "zone_transmissibility", "spec": _ZONE,
+                                          "basis": "test"}).json()
+    return f"/transfer-rules/{r['id']}/revisions", {"json": {
+        "spec": {**_ZONE, "gain": [1.0, 2.0]}, "basis": "analysis", "note": "revised"}}
+
+
+_FORCE = {"mass_kg": 2.0, "c2": 2.0, "f0_hz": 100.0}
+
+
+def _deep_notch_level(b):
+    """A fresh test level whose force limit notches deeper than 3 dB (one mode, Q 20)."""
+    lvl = b["eng"].post("/levels", {**b["test_level"]["recipe"], "name": unique("fl")}).json()
+    b["eng"].post(f"/levels/{lvl['id']}/force-limit", {
+        **_FORCE, "modes": [{"fn_hz": 100.0, "mass_kg": 1.5, "q": 20.0}], "max_notch_db": 3.0})
+    return f"/levels/{lvl['id']}/force-limit/acceptance", {"json": {"rationale": "accepted"}}
+
+CASES.update({
+    "product environments": Case("GET", "/products/{product_id}/environments", "viewer",
+                                 lambda b: (f"/products/{U(b)}/environments", {})),
+    "mounting": Case("PUT", "/products/{product_id}/mounting", "engineer", lambda b: (
+        f"/products/{_child(b)['id']}/mounting", {"json": {"axes": {"X": "Y", "Y": "-X",
+                                                                    "Z": "Z"}}})),
+    "transfer rules list": Case("GET", "/transfer-rules", "viewer", lambda b: (
+        "/transfer-rules", {"params": {"program_id": P(b)}})),
+    "transfer rule create": Case("POST", "/transfer-rules", "engineer", lambda b: (
+        "/transfer-rules", {"json": {"program_id": P(b), "name": unique("zone"),
+                                     "kind": "zone_transmissibility", "spec": _ZONE,
+                                     "basis": "handbook"}}), 201),
+    "transfer rule revise": Case("POST", "/transfer-rules/{rule_id}/revisions", "engineer",
+                                 _new_rule, 201),
+    "transferred environment": Case("POST", "/transferred-environments", "engineer",
+                                    lambda b: ("/transferred-environments", {"json": {
+                                        "product_id": _child(b)["id"], "name": unique("t"),
+                                        "axis": "Z", "parent_environment_ids": [E(b)]}}), 201),
+    "environment force limit": Case("POST", "/environments/{environment_id}/force-limit",
+                                    "viewer", lambda b: (
+        f"/environments/{E(b)}/force-limit", {"json": _FORCE})),
+    "level force limit": Case("POST", "/levels/{level_id}/force-limit", "engineer", lambda b: (
+        f"/levels/{b['test_level']['id']}/force-limit", {"json": _FORCE}), 201),
+    "notch acceptance": Case("POST", "/levels/{level_id}/force-limit/acceptance", "approver",
+                             _deep_notch_level, 201),
+})
+
 @pytest.mark.parametrize("name, who", list(_params()))
 def test_role_matrix(client, callers, base, name, who):
     case = CASES[name]

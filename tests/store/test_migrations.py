@@ -143,3 +143,47 @@ def test_record_chunks_upgrade_downgrade_upgrade(fresh_db_url):
         assert conn.execute(text("SELECT count(*) FROM environment_revisions")).scalar() == 1
         assert conn.execute(text("SELECT count(*) FROM record_chunks")).scalar() == 0
     engine.dispose()
+
+
+def test_transfer_tables_are_append_only_and_downgrade_cleanly(fresh_db_url):
+    """0006: transfer rule revisions and environment derivations refuse UPDATE and DELETE
+    through raw SQL (triggers); downgrading to 0003 removes the four tables, upgrading
+    again restores them with their triggers."""
+    migrate.upgrade(fresh_db_url, "0006")
+    engine = make_engine(fresh_db_url)
+    with engine.begin() as conn:
+        conn.execute(text("INSERT INTO programs (name, description, created_at, version) "
+                          "VALUES ('P', '', CURRENT_TIMESTAMP, 1)"))
+        pid = conn.execute(text("SELECT id FROM programs")).scalar_one()
+        conn.execute(text("INSERT INTO transfer_rules (program_id, name, kind, created_at) "
+                          "VALUES (:p, 'zone A', 'zone_transmissibility', CURRENT_TIMESTAMP)"),
+                     {"p": pid})
+        rid = conn.execute(text("SELECT id FROM transfer_rules")).scalar_one()
+        conn.execute(text("INSERT INTO transfer_rule_revisions (rule_id, number, spec, basis, "
+                          "provenance, content_hash, author, note, created_at) VALUES "
+                          "(:r, 1, '{}', 'test', '', 'h', 'a', '', CURRENT_TIMESTAMP)"),
+                     {"r": rid})
+    for sql in ("UPDATE transfer_rule_revisions SET note = 'x'",
+                "DELETE FROM transfer_rule_revisions"):
+        with pytest.raises(DBAPIError, match="immutable"), engine.begin() as conn:
+            conn.execute(text(sql))
+    migrate.downgrade(fresh_db_url, "0003")
+    engine.dispose()
+    names = set(inspect(engine).get_table_names())
+    assert not names & {"mountings", "transfer_rules", "transfer_rule_revisions",
+                        "environment_derivations", "level_force_limits"}
+    migrate.upgrade(fresh_db_url, "0006")
+    with engine.begin() as conn:
+        conn.execute(text("INSERT INTO programs (name, description, created_at, version) "
+                          "VALUES ('Q', '', CURRENT_TIMESTAMP, 1)"))
+        pid = conn.execute(text("SELECT id FROM programs WHERE name = 'Q'")).scalar_one()
+        conn.execute(text("INSERT INTO transfer_rules (program_id, name, kind, created_at) "
+                          "VALUES (:p, 'z', 'mass_attenuation', CURRENT_TIMESTAMP)"), {"p": pid})
+        rid = conn.execute(text("SELECT id FROM transfer_rules")).scalar_one()
+        conn.execute(text("INSERT INTO transfer_rule_revisions (rule_id, number, spec, basis, "
+                          "provenance, content_hash, author, note, created_at) VALUES "
+                          "(:r, 1, '{}', 'handbook', '', 'h', 'a', '', CURRENT_TIMESTAMP)"),
+                     {"r": rid})
+    with pytest.raises(DBAPIError, match="immutable"), engine.begin() as conn:
+        conn.execute(text("DELETE FROM transfer_rule_revisions"))
+    engine.dispose()

@@ -49,8 +49,19 @@ def list_environments(
     product_id: int | None = None,
     kind: s.EnvironmentKind | None = None,
     axis: s.Axis | None = None,
+    include_parents: bool = False,
 ):
-    rows = envs.list_environments(session, product_id=product_id, kind=kind, axis=axis)
+    """Environments, filtered; with `product_id` and `include_parents=true`, also the
+    parents' environments that apply to the product (see /products/{id}/environments for
+    where each came from)."""
+    if include_parents and product_id is not None:
+        from qualplan.planning.transfers import environments_for
+
+        rows = [envs.environment_by_id(session, o.id) for o in
+                environments_for(session, product_id) if o.origin != "replaced"
+                and (kind is None or o.kind is kind) and (axis is None or o.axis is axis)]
+    else:
+        rows = envs.list_environments(session, product_id=product_id, kind=kind, axis=axis)
     items = [_read(session, r) for r in page.window(rows)]
     return Page(items=items, total=len(rows), offset=page.offset, limit=page.limit)
 
