@@ -12,7 +12,7 @@ from typing import Annotated
 import typer
 
 from qualplan.cli.base import CliError, DbOption, app
-from qualplan.cli.commands import ProgramOption, _program, local_actor, work
+from qualplan.cli.common import ProgramOption, _program, local_actor, work
 from qualplan.cli.output import emit_json, table
 from qualplan.planning import catalog, records
 

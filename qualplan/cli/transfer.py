@@ -17,10 +17,10 @@ import typer
 from pydantic import ValidationError
 
 from qualplan.cli.base import CliError, DbOption, app
-from qualplan.cli.commands import JsonOption, ProgramOption, _program, local_actor, work
+from qualplan.cli.common import JsonOption, ProgramOption, _program, local_actor, work
 from qualplan.cli.output import emit_json, table
 from qualplan.planning import catalog, transfers
-from qualplan.store.models import Axis
+from qualplan.planning.schemas import Axis
 
 transfer_app = typer.Typer(help="Environments down the product tree: mountings, transfer "
                            "rules, transferred environments, force limits.",
