@@ -219,3 +219,17 @@ def test_against_pyyeti_with_its_upsampling():
 def test_unknown_method():
     with pytest.raises(S.InputError, match="method"):
         S.srs(np.ones(10), DT, [100.0], 10.0, method="spline")
+
+
+def test_time_domain_ers_bandlimited_pseudo_accel():
+    # ERS of a time history = wn^2 max|z| / g0 (pseudo-acceleration maximax);
+    # exact continuous responses, goal 1 % (fs/8) / 2 % (fs/5)
+    from qualplan.dynamics import extreme as E
+
+    x, pieces, t_end = decaying_sines(True)
+    fn = FS / RATIOS
+    got = E.ers_shock(x, DT, fn, 10.0, method="bandlimited")
+    ref = np.array([(2 * np.pi * f) ** 2 / sdof_filter.G0_M_S2
+                    * max(abs(v) for v in exact_extremes(f, 10.0, pieces, t_end)["rel_disp"])
+                    for f in fn])
+    assert np.all(np.abs(got / ref - 1) <= _bound(0.01, 0.02))
