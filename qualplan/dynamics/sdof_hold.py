@@ -198,68 +198,97 @@ if _HAVE_NUMBA:
             t = 1.0
         return r0 + t * (d0 + t * (c2 + t * c3))
 
+    @numba.njit(cache=True, inline="always")
+    def _step4(k, xp, m0, m1, c, s0, s1, r, d, hi, lo, between, n_int):  # pragma: no cover
+        """One interval for four oscillators; extremes folded into hi/lo."""
+        if k < n_int:
+            xa = xp[k]
+            xb = xp[k + 1]
+            ma = m0[k]
+            mb = m1[k]
+        else:
+            xa = 0.0
+            xb = 0.0
+            ma = 0.0
+            mb = 0.0
+        for j in range(4):
+            n0 = c[0, j] * s0[j] + c[1, j] * s1[j] + c[4, j] * xa + c[6, j] * xb \
+                + c[8, j] * ma + c[10, j] * mb
+            n1 = c[2, j] * s0[j] + c[3, j] * s1[j] + c[5, j] * xa + c[7, j] * xb \
+                + c[9, j] * ma + c[11, j] * mb
+            s0[j] = n0
+            s1[j] = n1
+            rn = c[14, j] * n0 + c[15, j] * n1
+            dn = c[16, j] * n0 + c[17, j] * n1 + c[18, j] * xb
+            if rn > hi[j]:
+                hi[j] = rn
+            if rn < lo[j]:
+                lo[j] = rn
+            if between and d[j] * dn < 0.0:
+                # cheap bound first: the Hermite cubic exceeds the chord by at
+                # most 4/27 (|d0 - s| + |d1 - s|)
+                sl = rn - r[j]
+                bound = (4.0 / 27.0) * (abs(d[j] - sl) + abs(dn - sl))
+                if max(r[j], rn) + bound > hi[j] or min(r[j], rn) - bound < lo[j]:
+                    pk = _hermite_extremum(r[j], rn, d[j], dn)
+                    if pk > hi[j]:
+                        hi[j] = pk
+                    if pk < lo[j]:
+                        lo[j] = pk
+            r[j] = rn
+            d[j] = dn
+
     @numba.njit(parallel=True, cache=True, fastmath=False)
     def _peaks_bank(xp, m0, m1, cf, kind, n_end, n_extra, between, out):  # pragma: no cover
+        """Four oscillators per pass (independent recursions keep the floating-point
+        units busy, as the ramp kernel of sdof_filter); no branch on the phase."""
         n_fn = cf.shape[0]
         n_int = xp.shape[0] - 1
-        for i in numba.prange(n_fn):
-            p00, p01, p10, p11 = cf[i, 0], cf[i, 1], cf[i, 2], cf[i, 3]
-            a00, a01, a10, a11 = cf[i, 4], cf[i, 5], cf[i, 6], cf[i, 7]
-            b00, b01, b10, b11 = cf[i, 8], cf[i, 9], cf[i, 10], cf[i, 11]
-            w, zeta = cf[i, 12], cf[i, 13]
-            c1 = 2.0 * zeta * w
-            c0 = w * w
-            s0 = 0.0
-            s1 = 0.0
-            r = 0.0
-            d = 0.0
-            hp = 0.0
-            lp = 0.0
-            hr = -np.inf
-            lr = np.inf
-            total = n_int + n_extra[i]
-            for k in range(total):
-                if k < n_int:
-                    xa = xp[k]
-                    xb = xp[k + 1]
-                    ma = m0[k]
-                    mb = m1[k]
-                else:
-                    xa = 0.0
-                    xb = 0.0
-                    ma = 0.0
-                    mb = 0.0
-                n0 = p00 * s0 + p01 * s1 + a00 * xa + a10 * xb + b00 * ma + b10 * mb
-                n1 = p10 * s0 + p11 * s1 + a01 * xa + a11 * xb + b01 * ma + b11 * mb
-                s0 = n0
-                s1 = n1
-                if kind == 0:
-                    rn = -(c1 * s1 + c0 * s0)
-                    dn = -(c1 * (-xb - c1 * s1 - c0 * s0) + c0 * s1)
-                else:
-                    rn = s0
-                    dn = s1
-                after = k + 1 > n_end
-                if between and d * dn < 0.0:
-                    pk = _hermite_extremum(r, rn, d, dn)
-                    if after:
-                        hr = max(hr, pk)
-                        lr = min(lr, pk)
-                    else:
-                        hp = max(hp, pk)
-                        lp = min(lp, pk)
-                if k + 1 <= n_end:
-                    hp = max(hp, rn)
-                    lp = min(lp, rn)
-                if k + 1 >= n_end:
-                    hr = max(hr, rn)
-                    lr = min(lr, rn)
-                r = rn
-                d = dn
-            out[i, 0] = hp
-            out[i, 1] = lp
-            out[i, 2] = hr
-            out[i, 3] = lr
+        n_groups = (n_fn + 3) // 4
+        for g in numba.prange(n_groups):
+            i0 = g * 4
+            m = min(4, n_fn - i0)
+            c = np.zeros((19, 4))
+            ext = 0
+            for j in range(m):
+                i = i0 + j
+                for t in range(12):
+                    c[t, j] = cf[i, t]
+                w, zeta = cf[i, 12], cf[i, 13]
+                c1 = 2.0 * zeta * w
+                c0 = w * w
+                if kind == 0:  # absolute acceleration and its tau-derivative
+                    c[14, j] = -c0
+                    c[15, j] = -c1
+                    c[16, j] = c1 * c0
+                    c[17, j] = c1 * c1 - c0
+                    c[18, j] = c1
+                else:  # z / dt^2 and its tau-derivative
+                    c[14, j] = 1.0
+                    c[17, j] = 1.0
+                ext = max(ext, n_extra[i])
+            s0 = np.zeros(4)
+            s1 = np.zeros(4)
+            r = np.zeros(4)
+            d = np.zeros(4)
+            hp = np.zeros(4)
+            lp = np.zeros(4)
+            for k in range(n_end - 1):  # values at samples 1 .. n_end - 1: during
+                _step4(k, xp, m0, m1, c, s0, s1, r, d, hp, lp, between, n_int)
+            hr = np.full(4, -np.inf)
+            lr = np.full(4, np.inf)
+            # interval ending at the last sample of the record: during and after
+            _step4(n_end - 1, xp, m0, m1, c, s0, s1, r, d, hp, lp, between, n_int)
+            for j in range(4):
+                hr[j] = r[j]
+                lr[j] = r[j]
+            for k in range(n_end, n_int + ext):
+                _step4(k, xp, m0, m1, c, s0, s1, r, d, hr, lr, between, n_int)
+            for j in range(m):
+                out[i0 + j, 0] = hp[j]
+                out[i0 + j, 1] = lp[j]
+                out[i0 + j, 2] = hr[j]
+                out[i0 + j, 3] = lr[j]
 
 
 def run_peaks(xp, m0, m1, cf, *, kind: int, n_end: int, n_extra, between: bool = True):
