@@ -315,8 +315,8 @@ def fft_upsample(x: np.ndarray, factor: int, pad: int = FFT_PAD) -> np.ndarray:
     Returns
     -------
     numpy.ndarray
-        ``L (n + 2 pad)`` samples at step dt/L; sample j of the record is at
-        index ``(pad + j) L`` [unit of x].
+        ``L m`` samples at step dt/L, m >= n + 2 pad the next fast FFT length;
+        sample j of the record is at index ``(pad + j) L`` [unit of x].
 
     References
     ----------
@@ -324,16 +324,19 @@ def fft_upsample(x: np.ndarray, factor: int, pad: int = FFT_PAD) -> np.ndarray:
     Schafer, Discrete-Time Signal Processing, 3rd ed., 2010, sec. 4.6); the
     Nyquist bin of an even length is split between +/- fs/2.
     """
-    xp = np.concatenate([np.zeros(pad), x, np.zeros(pad)])
+    from scipy import fft as _fft
+
+    # at least `pad` zeros after the record, more up to a fast FFT length
+    n = _fft.next_fast_len(x.size + 2 * pad, real=True)
+    xp = np.concatenate([np.zeros(pad), x, np.zeros(n - x.size - pad)])
     if factor == 1:
         return xp
-    n = xp.size
-    spec = np.fft.rfft(xp)
+    spec = _fft.rfft(xp)
     if n % 2 == 0:
         spec[-1] *= 0.5
     up = np.zeros(factor * n // 2 + 1, dtype=complex)
     up[: spec.size] = spec
-    return np.fft.irfft(up, factor * n) * factor
+    return _fft.irfft(up, factor * n) * factor
 
 
 def _record_extremes(x, fn, q, dt, output: str, method: str, n_extra) -> np.ndarray:

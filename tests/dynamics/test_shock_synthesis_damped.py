@@ -83,3 +83,18 @@ def test_stroke_limit_applies_to_wavelets():
 def test_bad_input(kwargs, match):
     with pytest.raises(InputError, match=match):
         SS.synthesize_shock(SHAKER, **kwargs)
+
+
+# A target that falls at high frequency (100 g at 100-500 Hz, 20 g at 2 kHz)
+FALLING = S.SrsProfile([10.0, 100.0, 500.0, 2000.0], [10.0, 100.0, 100.0, 20.0])
+
+
+def test_sweep_placement_lowers_the_error_on_a_falling_target():
+    # measured (seed 0, one trial, 60 iterations): random start times 2.9-3.0 dB,
+    # sweep 1.87 dB; the +/-1.5 dB goal is NOT reached (docs/methods/shock-synthesis.md)
+    rand = SS.synthesize_shock(FALLING, seed=0, n_trials=1)
+    sweep = SS.synthesize_shock(FALLING, seed=0, n_trials=1, placement="sweep")
+    assert sweep.max_error_db < rand.max_error_db - 0.5
+    assert sweep.peak_accel_g < rand.peak_accel_g
+    with pytest.raises(InputError, match="placement"):
+        SS.synthesize_shock(FALLING, placement="grid")
