@@ -533,13 +533,15 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: boo
     need = FDS_MIN_RATIO * fn * dt
     lf = np.where(need <= 1.0, 1, 2 ** np.ceil(np.log2(np.maximum(need, 1.0)))).astype(int)
     out = np.empty(fn.size)
+    top = int(lf.max())
+    x_top = fft_upsample(x, top) if top > 1 else None
     for factor in np.unique(lf):
         idx = np.flatnonzero(lf == factor)
         h = dt / factor
         if factor == 1:
             xs, skip_up = x, n_skip
-        else:
-            xs = fft_upsample(x, int(factor))
+        else:  # every (top/L)-th sample of the L_max trigonometric interpolation
+            xs = x_top[:: top // int(factor)]
             skip_up = (FFT_PAD + n_skip) * factor if n_skip else 0
         xs = np.ascontiguousarray(_sinc2_correct(xs))
         bzu, azu = coefficients(fn[idx], q, h, output="rel_disp")

@@ -331,12 +331,12 @@ def fft_upsample(x: np.ndarray, factor: int, pad: int = FFT_PAD) -> np.ndarray:
     xp = np.concatenate([np.zeros(pad), x, np.zeros(n - x.size - pad)])
     if factor == 1:
         return xp
-    spec = _fft.rfft(xp)
+    spec = _fft.rfft(xp, workers=-1)
     if n % 2 == 0:
         spec[-1] *= 0.5
     up = np.zeros(factor * n // 2 + 1, dtype=complex)
     up[: spec.size] = spec
-    return _fft.irfft(up, factor * n) * factor
+    return _fft.irfft(up, factor * n, workers=-1) * factor
 
 
 def _record_extremes(x, fn, q, dt, output: str, method: str, n_extra) -> np.ndarray:
@@ -352,12 +352,14 @@ def _record_extremes(x, fn, q, dt, output: str, method: str, n_extra) -> np.ndar
         need = BANDLIMITED_MIN_RATIO * fn * dt
         lf = np.where(need <= 1.0, 1, 2 ** np.ceil(np.log2(np.maximum(need, 1.0))))
         groups = {int(v): np.flatnonzero(lf == v) for v in np.unique(lf)}
+    top = max(groups)
+    x_top = fft_upsample(x, top) if method == "bandlimited" and top > 1 else None
     for factor, idx in groups.items():
         h = dt / factor
         if method == "cubic" or factor == 1:
             xs, start = x, 0
-        else:
-            xs, start = fft_upsample(x, factor), FFT_PAD * factor
+        else:  # trigonometric interpolation: every (top/L)-th sample of the L_max one
+            xs, start = x_top[:: top // factor], FFT_PAD * factor
         xp = np.concatenate([[0.0], xs, [0.0]])
         m0, m1 = sdof_hold.limited_slopes(xp)
         cf = sdof_hold.cubic_hold_coefficients(fn[idx], q, h)
