@@ -16,6 +16,9 @@ single-degree-of-freedom oscillators (natural frequency fn, amplification Q)
 to that record. The responses come from the ramp-invariant recursive filters
 of :mod:`qualplan.dynamics.sdof_filter` (Smallwood 1981; ISO 18431-4); only
 their extremes are kept, so memory is O(n_fn) whatever the record length.
+``method="cubic"`` / ``"bandlimited"`` use the cubic-hold oscillator of
+:mod:`qualplan.dynamics.sdof_hold` with peaks between samples instead
+(docs/methods/between-samples.md); the default ``"ramp"`` is unchanged.
 
 Kinds of spectrum (all returned as positive magnitudes):
 
