@@ -202,7 +202,8 @@ def ers_sweep(sweep: Sweep, fn_hz, q: float, *, n_res: int = 400) -> np.ndarray:
 
 
 def ers_shock(accel_g, dt_s: float, fn_hz, q: float = 10.0, *,
-              output: Literal["pseudo_accel", "abs_accel"] = "pseudo_accel") -> np.ndarray:
+              output: Literal["pseudo_accel", "abs_accel"] = "pseudo_accel",
+              method: str = "ramp") -> np.ndarray:
     """ERS of a shock or any transient time history: the maximax SRS.
 
     Parameters
@@ -220,6 +221,10 @@ def ers_shock(accel_g, dt_s: float, fn_hz, q: float = 10.0, *,
         ERS and all FDS): wn^2 max|z| / g0 over the record and its residual
         free decay; "abs_accel": the absolute-acceleration maximax SRS (differs
         from the former by about 1/(2Q) near and above fn).
+    method : {"ramp", "cubic", "bandlimited"}
+        Input model and peak search of :func:`qualplan.dynamics.srs.srs`
+        (default "ramp"; "bandlimited" is within 2 % up to fs/5 on smooth
+        records, docs/methods/srs.md). [unitless]
 
     Returns
     -------
@@ -234,12 +239,12 @@ def ers_shock(accel_g, dt_s: float, fn_hz, q: float = 10.0, *,
     from qualplan.dynamics import srs as srs_mod
 
     if output == "abs_accel":
-        return srs_mod.srs(accel_g, dt_s, fn_hz, q, kind="maximax")
+        return srs_mod.srs(accel_g, dt_s, fn_hz, q, kind="maximax", method=method)
     if output != "pseudo_accel":
         raise InputError("output", output, "must be 'pseudo_accel' or 'abs_accel'")
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        pv = srs_mod.pseudo_velocity_srs(accel_g, dt_s, fn_hz, q)
+        pv = srs_mod.pseudo_velocity_srs(accel_g, dt_s, fn_hz, q, method=method)
     for w in caught:
         warnings.warn(str(w.message), AccuracyWarning, stacklevel=2)
     fn = np.asarray(fn_hz, float)

@@ -249,12 +249,16 @@ class Wavelets:
         Odd numbers of half-cycles N_i [unitless].
     delay_s : numpy.ndarray
         Start times tau_i (on the sample grid) [s].
+    damping : numpy.ndarray or None
+        Damping ratio zeta_i of each decaying sinusoid (``method="damped_sines"``),
+        None for wavelets [unitless].
     """
 
     freq_hz: np.ndarray
     amplitude_g: np.ndarray
     half_cycles: np.ndarray
     delay_s: np.ndarray
+    damping: np.ndarray | None = None
 
 
 @dataclass(frozen=True)
@@ -311,6 +315,8 @@ class ShockSynthesis:
         Seed used (None when a Generator was passed).
     warnings : tuple of str
         Non-fatal issues (e.g. not converged).
+    method : str
+        "wavelets" or "damped_sines".
     """
 
     dt_s: float
@@ -338,6 +344,7 @@ class ShockSynthesis:
     duration_s: float
     seed: int | None
     warnings: tuple[str, ...]
+    method: str = "wavelets"
 
 
 # --------------------------------------------------------------------------
@@ -396,8 +403,13 @@ def _zero_drift(shape: np.ndarray, window: np.ndarray, tt: np.ndarray, dt: float
     return shape + window * (c[0] + c[1] * tt)
 
 
-def _design(fn, dt, duration, max_delay, n_lo, n_hi, rng):
-    """Random half-cycle counts and sample-aligned delays (one trial)."""
+def _design(fn, dt, duration, max_delay, n_lo, n_hi, rng, placement="random"):
+    """Random half-cycle counts and sample-aligned delays (one trial).
+
+    ``placement="sweep"``: the delays grow with frequency so that each component
+    starts a share ``k/(n-1)`` of the way through the room its length leaves in
+    the record (the components follow one another instead of piling up at the
+    start, which lowers the record's peak acceleration)."""
     nf = fn.size
     room = duration - n_lo / (2.0 * fn)  # time left for the delay
     u = rng.uniform(0.0, 1.0, nf)
@@ -408,6 +420,10 @@ def _design(fn, dt, duration, max_delay, n_lo, n_hi, rng):
     n_choices = (n_top - n_lo) // 2 + 1
     half = n_lo + 2 * np.floor(rng.uniform(0.0, 1.0, nf) * n_choices).astype(np.int64)
     sign = np.where(rng.uniform(0.0, 1.0, nf) < 0.5, -1.0, 1.0)
+    if placement == "sweep":
+        span = half / (2.0 * fn)
+        share = np.linspace(0.0, 1.0, nf) if nf > 1 else np.zeros(1)
+        delay = np.floor(share * np.maximum(duration - span, 0.0) / dt) * dt
     return half, delay, sign
 
 
@@ -419,11 +435,14 @@ def synthesize_shock(
     tolerance_db: float = 1.5,
     dt_s: float | None = None,
     duration_s: float | None = None,
-    half_cycles: tuple[int, int] = (7, 21),
+    half_cycles: tuple[int, int] | None = None,
     max_delay_s: float | None = None,
     seed: int | np.random.Generator = 0,
     n_trials: int = 4,
     max_iterations: int = 60,
+    method: str = "wavelets",
+    stroke_m: float | None = None,
+    placement: str = "random",
 ) -> ShockSynthesis:
     """Synthesise a shock time history whose maximax SRS matches a target SRS.
 
@@ -449,7 +468,9 @@ def synthesize_shock(
     half_cycles : (int, int), optional
         Range of odd half-cycle counts drawn for each wavelet [unitless].
         Fewer half-cycles: shorter, broader-band wavelets; more: narrower.
-        Default (7, 21); lowered automatically where the duration is short.
+        Default (7, 21) for wavelets, (15, 45) for damped sines (whose
+        duration is N half-cycles, decayed to 1e-3 over it); lowered
+        automatically where the duration is short.
     max_delay_s : float, optional
         Largest wavelet start time [s]. Default ``duration_s / 10``.
     seed : int or numpy.random.Generator, optional
@@ -460,6 +481,22 @@ def synthesize_shock(
     max_iterations : int, optional
         Amplitude iterations per trial [unitless]. Default 60. A trial also
         stops when its best error has not improved for 30 iterations.
+    method : {"wavelets", "damped_sines"}, optional
+        Components [unitless]: half-sine-windowed sines (default), or decaying
+        sinusoids ``exp(-zeta w t) sin(w t)`` with ``zeta = ln(1000) / (pi N)``
+        (decayed to 1e-3 after N half-cycles, where the sine is at zero),
+        each with compensating terms ``sin(pi t/T_i) (c1 + c2 t)`` that make
+        its final velocity and displacement zero (the compensated decaying
+        sinusoids of Smallwood & Nord 1974, compensation of our own form).
+    placement : {"random", "sweep"}, optional
+        Start times of the components [unitless]: drawn at random within
+        ``max_delay_s`` (default), or "sweep": increasing with frequency across
+        the whole duration (lower peak acceleration; better for targets that
+        fall at high frequency, docs/methods/shock-synthesis.md section 9).
+    stroke_m : float, optional
+        Largest |displacement| the shaker allows from its rest position [m].
+        A result whose peak displacement exceeds it is refused
+        (:class:`InputError` naming ``stroke_m``).
 
     Returns
     -------
@@ -471,7 +508,8 @@ def synthesize_shock(
     ------
     InputError
         Bad target or grid, tolerance <= 0, a grid frequency above a tenth of
-        the sample rate, a duration too short for the lowest frequency.
+        the sample rate, a duration too short for the lowest frequency, an
+        unknown method, a result whose displacement exceeds ``stroke_m``.
 
     Notes
     -----
@@ -494,8 +532,18 @@ def synthesize_shock(
     a supplement to response spectrum as a definition of shock environment",
     Shock and Vibration Bulletin 42, 1972 [from memory].
     IEST-RP-DTE032, Pyroshock Testing Techniques (wavelet synthesis on shakers).
+    D. O. Smallwood, A. R. Nord, "Matching shock spectra with sums of decaying
+    sinusoids compensated for velocity effects", Shock and Vibration Bulletin 44,
+    1974 [from memory].
     D. O. Smallwood 1981 and ISO 18431-4:2007 (the SRS used for the check).
     """
+    if placement not in ("random", "sweep"):
+        raise InputError("placement", placement, "must be 'random' or 'sweep'")
+    if method not in SYNTHESIS_METHODS:
+        raise InputError("method", method, f"must be one of {', '.join(SYNTHESIS_METHODS)}")
+    stroke = None if stroke_m is None else _validate.positive_scalar("stroke_m", stroke_m)
+    if half_cycles is None:
+        half_cycles = (7, 21) if method == "wavelets" else (15, 45)
     fn, tgt = _target_values(target, freq_hz)
     qv = _validate.check_q(q)
     tol = _validate.positive_scalar("tolerance_db", tolerance_db)
@@ -540,13 +588,26 @@ def synthesize_shock(
     n_extra = _srs._residual_samples(fn, qv, dt)
     best = None
     for trial in range(trials):
-        run = _iterate(fn, tgt, dt, dur, max_delay, n_lo, n_hi, rng, b, a, n_extra, tol, iters)
+        run = _iterate(fn, tgt, dt, dur, max_delay, n_lo, n_hi, rng, b, a, n_extra, tol, iters,
+                       method, placement)
         if best is None or run["max_err"] < best["max_err"]:
             best = dict(run, trial=trial)
         if run["max_err"] <= tol:
             break
-    return _result(best, fn, tgt, qv, dt, tol, seed_out)
+    out = _result(best, fn, tgt, qv, dt, tol, seed_out, method)
+    if stroke is not None and out.peak_displacement_m > stroke:
+        raise InputError(
+            "stroke_m", stroke_m,
+            f"the synthesised shock needs a peak displacement of {out.peak_displacement_m:.4g} m"
+            f" (peak velocity {out.peak_velocity_m_s:.3g} m/s, peak acceleration"
+            f" {out.peak_accel_g:.3g} g), more than the stroke; raise the lowest frequency,"
+            f" shorten the duration or use more half-cycles at low frequency",
+        )
+    return out
 
+
+#: Component families of :func:`synthesize_shock`.
+SYNTHESIS_METHODS = ("wavelets", "damped_sines")
 
 #: A trial stops when its best error has not improved for this many iterations.
 _PATIENCE = 30
@@ -568,8 +629,14 @@ def _largest_eigenvalue(m: np.ndarray, iterations: int = 30) -> float:
     return lam
 
 
-def _iterate(fn, tgt, dt, dur, max_delay, n_lo, n_hi, rng, b, a, n_extra, tol, iters):
-    half, delay, sign = _design(fn, dt, dur, max_delay, n_lo, n_hi, rng)
+def _damping(half: np.ndarray) -> np.ndarray:
+    """Damping ratio that decays a sinusoid to 1e-3 over N half-cycles."""
+    return math.log(1000.0) / (np.pi * half)
+
+
+def _iterate(fn, tgt, dt, dur, max_delay, n_lo, n_hi, rng, b, a, n_extra, tol, iters,
+             method="wavelets", placement="random"):
+    half, delay, sign = _design(fn, dt, dur, max_delay, n_lo, n_hi, rng, placement)
     nf = fn.size
     k0 = np.rint(delay / dt).astype(np.int64)
     span = half / (2.0 * fn)
@@ -581,7 +648,12 @@ def _iterate(fn, tgt, dt, dur, max_delay, n_lo, n_hi, rng, b, a, n_extra, tol, i
     for i in range(nf):
         tt = np.arange(ln[i]) * dt
         window = np.sin(2 * np.pi * fn[i] * tt / half[i])
-        shapes.append(_zero_drift(window * np.sin(2 * np.pi * fn[i] * tt), window, tt, dt))
+        if method == "wavelets":
+            shape = window * np.sin(2 * np.pi * fn[i] * tt)
+        else:  # decaying sinusoid, compensated by the same window (c1 + c2 t)
+            wi = 2 * np.pi * fn[i]
+            shape = np.exp(-_damping(half[i]) * wi * tt) * np.sin(wi * tt)
+        shapes.append(_zero_drift(shape, window, tt, dt))
     w = np.concatenate(shapes)
     # index of the wavelet owning each stacked sample, to build x with one bincount
     pos = np.concatenate([k0[i] + np.arange(ln[i]) for i in range(nf)])
@@ -619,7 +691,7 @@ def _iterate(fn, tgt, dt, dur, max_delay, n_lo, n_hi, rng, b, a, n_extra, tol, i
     return best
 
 
-def _result(run, fn, tgt, q, dt, tol, seed):
+def _result(run, fn, tgt, q, dt, tol, seed, method="wavelets"):
     x = run["x"]
     res = _srs.shock_response_spectrum(x, dt, fn, q, pseudo_velocity=False)
     v, d = integrate_accel(x, dt)
@@ -646,7 +718,8 @@ def _result(run, fn, tgt, q, dt, tol, seed):
         velocity_m_s=v,
         displacement_m=d,
         wavelets=Wavelets(freq_hz=fn.copy(), amplitude_g=run["amp"], half_cycles=run["half"],
-                          delay_s=run["delay"]),
+                          delay_s=run["delay"],
+                          damping=None if method == "wavelets" else _damping(run["half"])),
         freq_hz=fn,
         q=q,
         target_g=tgt,
@@ -667,4 +740,5 @@ def _result(run, fn, tgt, q, dt, tol, seed):
         duration_s=(x.size - 1) * dt,
         seed=seed,
         warnings=tuple(warn),
+        method=method,
     )

@@ -1,0 +1,329 @@
+"""SDOF responses to a piecewise-cubic base acceleration, with peaks between samples.
+
+The ramp-invariant filters of :mod:`qualplan.dynamics.sdof_filter` read the
+samples as a piecewise-linear signal. That model is exact for a signal that is
+linear between samples but attenuates smooth (band-limited) content by about
+sinc^2(f/fs), and a peak taken at the samples only reads low by up to
+``1 - cos(pi fn/fs)``. This module offers the two remedies used by the
+``method="cubic"`` and ``method="bandlimited"`` spectra (docs/methods/srs.md):
+
+- an input model that is a cubic between samples (Hermite form: the sample
+  values and one slope per sample end of each interval), solved *exactly* by a
+  cubic-hold discretisation of the oscillator (the block matrix exponential of
+  the oscillator augmented by a chain of four integrators: the
+  triangle-hold construction of Franklin, Powell & Workman carried to degree
+  3). With the slopes of each interval equal to its secant the model is the
+  piecewise-linear one, and the recursion agrees with Smallwood's
+  ramp-invariant filter to rounding;
+- the response and its exact time derivative at every sample, from which a
+  cubic Hermite interpolant of the response between two samples gives the
+  peak between them (interpolation error below ``(wn dt)^4 / 384`` of the
+  amplitude: 0.65 % at fs = 5 fn, 0.1 % at fs = 8 fn, Hermite remainder
+  bound, Burden & Faires, Numerical Analysis, sec. 3.4).
+
+Slopes: :func:`limited_slopes` gives fourth-order central differences limited
+as in Fritsch & Carlson (1980) so the interpolant never overshoots the samples
+where they are monotone and is flat at a sampled extremum (no ringing after a
+step). Normalised time tau = t/dt is used throughout.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy import linalg
+
+try:
+    import numba
+
+    _HAVE_NUMBA = True
+except ImportError:  # pragma: no cover
+    numba = None
+    _HAVE_NUMBA = False
+
+__all__ = ["cubic_hold_coefficients", "limited_slopes", "secant_slopes", "run_peaks"]
+
+#: Response kinds of the kernel: absolute acceleration (g) or z / dt^2 (g).
+ABS_ACCEL, REL_DISP = 0, 1
+
+
+def cubic_hold_coefficients(fn: np.ndarray, q: float, dt: float) -> np.ndarray:
+    """Exact one-step map of a base-excited SDOF driven by a cubic input.
+
+    Parameters
+    ----------
+    fn : numpy.ndarray
+        Natural frequencies [Hz], below 1/(2 dt).
+    q : float
+        Amplification Q = 1/(2 zeta) [unitless].
+    dt : float
+        Sample step [s].
+
+    Returns
+    -------
+    numpy.ndarray
+        Shape (n_fn, 14): per oscillator ``phi00, phi01, phi10, phi11`` (state
+        transition), ``a0_0, a0_1, a1_0, a1_1`` (weights of the interval's end
+        values x0, x1), ``b0_0, b0_1, b1_0, b1_1`` (weights of its end slopes
+        m0, m1, per unit tau), then ``w = wn dt`` and ``zeta``. The state is
+        ``s = (z / dt^2, z' / dt)`` with z the relative displacement in g s^2,
+        so that ``s' = A s - (0, x)`` in tau with ``A = [[0, 1], [-w^2, -2 zeta w]]``
+        and x the base acceleration [g].
+
+    Notes
+    -----
+    Over one step the input is ``u(tau) = x0 + m0 tau + c2 tau^2 + c3 tau^3``
+    (Hermite form); the oscillator augmented by the chain ``u -> u' -> u'' ->
+    u'''`` is linear and time-invariant, so ``expm`` of the 6x6 block matrix
+    gives the exact map from ``(s, u, u', u'', u''')`` at tau = 0 to s at
+    tau = 1 (Van Loan 1978, "Computing integrals involving the matrix
+    exponential", IEEE TAC 23; Franklin, Powell & Workman, Digital Control of
+    Dynamic Systems, 3rd ed., 1998, triangle hold). All entries are O(1) in
+    normalised time, so the result is accurate to rounding for wn dt << 1.
+    """
+    zeta = 1.0 / (2.0 * q)
+    w = 2.0 * np.pi * np.asarray(fn, float) * dt
+    n = w.size
+    m = np.zeros((n, 6, 6))
+    m[:, 0, 1] = 1.0
+    m[:, 1, 0] = -w * w
+    m[:, 1, 1] = -2.0 * zeta * w
+    m[:, 1, 2] = -1.0
+    m[:, 2, 3] = 1.0
+    m[:, 3, 4] = 1.0
+    m[:, 4, 5] = 1.0
+    e = linalg.expm(m)
+    phi = e[:, :2, :2]
+    g = e[:, :2, 2:6]  # weights of u, u', u'', u''' at tau = 0
+    g0, g1, g2, g3 = g[:, :, 0], g[:, :, 1], g[:, :, 2], g[:, :, 3]
+    # Hermite: u''(0) = 6 (x1 - x0) - 4 m0 - 2 m1, u'''(0) = 12 (x0 - x1) + 6 (m0 + m1)
+    a0 = g0 - 6.0 * g2 + 12.0 * g3
+    a1 = 6.0 * g2 - 12.0 * g3
+    b0 = g1 - 4.0 * g2 + 6.0 * g3
+    b1 = -2.0 * g2 + 6.0 * g3
+    out = np.empty((n, 14))
+    out[:, 0:4] = phi.reshape(n, 4)
+    out[:, 4:6] = a0
+    out[:, 6:8] = a1
+    out[:, 8:10] = b0
+    out[:, 10:12] = b1
+    out[:, 12] = w
+    out[:, 13] = zeta
+    return out
+
+
+def secant_slopes(xp: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Interval slopes of the piecewise-linear model (both ends = the secant).
+
+    Parameters
+    ----------
+    xp : numpy.ndarray
+        Samples [g].
+
+    Returns
+    -------
+    m0, m1 : numpy.ndarray
+        Slope at the start and at the end of each of the ``xp.size - 1``
+        intervals, per unit tau [g].
+    """
+    d = np.diff(xp)
+    return d, d.copy()
+
+
+def limited_slopes(xp: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Slopes of a monotone-limited piecewise-cubic interpolant of the samples.
+
+    Parameters
+    ----------
+    xp : numpy.ndarray
+        Samples [g]; zero is assumed before the first and after the last.
+
+    Returns
+    -------
+    m0, m1 : numpy.ndarray
+        Slope at the start and at the end of each of the ``xp.size - 1``
+        intervals, per unit tau [g] (the same slope serves both intervals that
+        meet at a sample, so the interpolant is C1).
+
+    Notes
+    -----
+    Fourth-order central difference ``(x[k-2] - 8 x[k-1] + 8 x[k+1] - x[k+2]) / 12``
+    (exact for quartics), then the limiter of Fritsch & Carlson (1980): zero
+    at a sampled extremum (secants of opposite sign or zero), otherwise of the
+    sign of the secants and at most three times the smaller of them, which
+    keeps the interpolant monotone where the samples are. Where the samples are
+    linear the slope is the secant and the model is piecewise linear.
+
+    References
+    ----------
+    F. N. Fritsch, R. E. Carlson, "Monotone piecewise cubic interpolation",
+    SIAM J. Numer. Anal. 17 (2), 1980, pp. 238-246.
+    """
+    x = np.concatenate([[0.0, 0.0], xp, [0.0, 0.0]])
+    m = (x[:-4] - 8.0 * x[1:-3] + 8.0 * x[3:-1] - x[4:]) / 12.0
+    d = np.diff(x)[1:-1]  # secants around each sample: d[k] = xp[k] - xp[k-1]
+    dl, dr = d[:-1], d[1:]
+    same = dl * dr > 0.0
+    lim = 3.0 * np.minimum(np.abs(dl), np.abs(dr))
+    sgn = np.sign(dl)
+    mag = np.where(np.sign(m) == sgn, np.abs(m), 0.0)
+    m = np.where(same, sgn * np.minimum(mag, lim), 0.0)
+    return m[:-1], m[1:]
+
+
+if _HAVE_NUMBA:
+
+    @numba.njit(cache=True, fastmath=False)
+    def _hermite_extremum(r0, r1, d0, d1):  # pragma: no cover - compiled
+        """Value at the interior extremum of the cubic with end values and slopes."""
+        c2 = 3.0 * (r1 - r0) - 2.0 * d0 - d1
+        c3 = 2.0 * (r0 - r1) + d0 + d1
+        t = -1.0
+        if abs(c3) <= 1e-12 * (abs(c2) + abs(d0) + abs(d1)):
+            if c2 != 0.0:
+                t = -d0 / (2.0 * c2)
+        else:
+            disc = c2 * c2 - 3.0 * c3 * d0
+            if disc < 0.0:
+                disc = 0.0
+            sq = np.sqrt(disc)
+            qq = -(c2 + sq) if c2 >= 0.0 else -(c2 - sq)
+            t1 = qq / (3.0 * c3)
+            if 0.0 <= t1 <= 1.0:
+                t = t1
+            elif qq != 0.0:
+                t = d0 / qq
+        if t < 0.0:
+            t = 0.0
+        elif t > 1.0:
+            t = 1.0
+        return r0 + t * (d0 + t * (c2 + t * c3))
+
+    @numba.njit(cache=True, inline="always")
+    def _step4(k, xp, m0, m1, c, s0, s1, r, d, hi, lo, between, n_int):  # pragma: no cover
+        """One interval for four oscillators; extremes folded into hi/lo."""
+        if k < n_int:
+            xa = xp[k]
+            xb = xp[k + 1]
+            ma = m0[k]
+            mb = m1[k]
+        else:
+            xa = 0.0
+            xb = 0.0
+            ma = 0.0
+            mb = 0.0
+        for j in range(4):
+            n0 = c[0, j] * s0[j] + c[1, j] * s1[j] + c[4, j] * xa + c[6, j] * xb \
+                + c[8, j] * ma + c[10, j] * mb
+            n1 = c[2, j] * s0[j] + c[3, j] * s1[j] + c[5, j] * xa + c[7, j] * xb \
+                + c[9, j] * ma + c[11, j] * mb
+            s0[j] = n0
+            s1[j] = n1
+            rn = c[14, j] * n0 + c[15, j] * n1
+            dn = c[16, j] * n0 + c[17, j] * n1 + c[18, j] * xb
+            if rn > hi[j]:
+                hi[j] = rn
+            if rn < lo[j]:
+                lo[j] = rn
+            if between and d[j] * dn < 0.0:
+                # cheap bound first: the Hermite cubic exceeds the chord by at
+                # most 4/27 (|d0 - s| + |d1 - s|)
+                sl = rn - r[j]
+                bound = (4.0 / 27.0) * (abs(d[j] - sl) + abs(dn - sl))
+                if max(r[j], rn) + bound > hi[j] or min(r[j], rn) - bound < lo[j]:
+                    pk = _hermite_extremum(r[j], rn, d[j], dn)
+                    if pk > hi[j]:
+                        hi[j] = pk
+                    if pk < lo[j]:
+                        lo[j] = pk
+            r[j] = rn
+            d[j] = dn
+
+    @numba.njit(parallel=True, cache=True, fastmath=False)
+    def _peaks_bank(xp, m0, m1, cf, kind, n_end, n_extra, between, out):  # pragma: no cover
+        """Four oscillators per pass (independent recursions keep the floating-point
+        units busy, as the ramp kernel of sdof_filter); no branch on the phase."""
+        n_fn = cf.shape[0]
+        n_int = xp.shape[0] - 1
+        n_groups = (n_fn + 3) // 4
+        for g in numba.prange(n_groups):
+            i0 = g * 4
+            m = min(4, n_fn - i0)
+            c = np.zeros((19, 4))
+            ext = 0
+            for j in range(m):
+                i = i0 + j
+                for t in range(12):
+                    c[t, j] = cf[i, t]
+                w, zeta = cf[i, 12], cf[i, 13]
+                c1 = 2.0 * zeta * w
+                c0 = w * w
+                if kind == 0:  # absolute acceleration and its tau-derivative
+                    c[14, j] = -c0
+                    c[15, j] = -c1
+                    c[16, j] = c1 * c0
+                    c[17, j] = c1 * c1 - c0
+                    c[18, j] = c1
+                else:  # z / dt^2 and its tau-derivative
+                    c[14, j] = 1.0
+                    c[17, j] = 1.0
+                ext = max(ext, n_extra[i])
+            s0 = np.zeros(4)
+            s1 = np.zeros(4)
+            r = np.zeros(4)
+            d = np.zeros(4)
+            hp = np.zeros(4)
+            lp = np.zeros(4)
+            for k in range(n_end - 1):  # values at samples 1 .. n_end - 1: during
+                _step4(k, xp, m0, m1, c, s0, s1, r, d, hp, lp, between, n_int)
+            hr = np.full(4, -np.inf)
+            lr = np.full(4, np.inf)
+            # interval ending at the last sample of the record: during and after
+            _step4(n_end - 1, xp, m0, m1, c, s0, s1, r, d, hp, lp, between, n_int)
+            for j in range(4):
+                hr[j] = r[j]
+                lr[j] = r[j]
+            for k in range(n_end, n_int + ext):
+                _step4(k, xp, m0, m1, c, s0, s1, r, d, hr, lr, between, n_int)
+            for j in range(m):
+                out[i0 + j, 0] = hp[j]
+                out[i0 + j, 1] = lp[j]
+                out[i0 + j, 2] = hr[j]
+                out[i0 + j, 3] = lr[j]
+
+
+def run_peaks(xp, m0, m1, cf, *, kind: int, n_end: int, n_extra, between: bool = True):
+    """Extremes of each oscillator during a record and in free decay after it.
+
+    Parameters
+    ----------
+    xp : numpy.ndarray
+        Input samples [g]; ``xp[0]`` is the at-rest instant (normally 0 g).
+    m0, m1 : numpy.ndarray
+        Start and end slope of each interval, per unit tau [g]; size
+        ``xp.size - 1``.
+    cf : numpy.ndarray
+        Coefficients from :func:`cubic_hold_coefficients`, shape (n_fn, 14).
+    kind : int
+        :data:`ABS_ACCEL` (absolute acceleration [g]) or :data:`REL_DISP`
+        (``z / dt^2`` [g], scale by ``dt^2`` for g s^2).
+    n_end : int
+        Index in ``xp`` of the last sample of the record: extremes up to it are
+        "during", from it on "after" [samples].
+    n_extra : array_like of int
+        Intervals of zero input run after the end of ``xp``, per oscillator.
+    between : bool
+        Also take the peaks between samples (cubic Hermite of the response).
+
+    Returns
+    -------
+    numpy.ndarray
+        Shape (n_fn, 4): max and min during, max and min after [unit of kind].
+    """
+    xp = np.ascontiguousarray(xp, dtype=float)
+    n_extra = np.ascontiguousarray(np.broadcast_to(n_extra, (cf.shape[0],)), dtype=np.int64)
+    out = np.empty((cf.shape[0], 4))
+    if not _HAVE_NUMBA:  # pragma: no cover
+        raise RuntimeError("the cubic-hold SDOF kernel needs numba")
+    _peaks_bank(xp, np.ascontiguousarray(m0, dtype=float), np.ascontiguousarray(m1, dtype=float),
+                np.ascontiguousarray(cf), int(kind), int(n_end), n_extra, bool(between), out)
+    return out
