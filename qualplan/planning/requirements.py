@@ -17,7 +17,7 @@ from sqlalchemy.orm import Session, selectinload
 
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require
-from qualplan.planning.catalog import get
+from qualplan.planning.catalog import get, name_key, ref_id
 from qualplan.planning.errors import Conflict, NotFound, ValidationFailed, VersionMismatch
 from qualplan.store import models as m
 from qualplan.store.types import utcnow
@@ -91,9 +91,9 @@ def update_requirement(
 
 
 def requirement_ref(session: Session, program: m.Program | None, ref: str | int) -> m.Requirement:
-    if isinstance(ref, int) or str(ref).isdigit():
-        return get(session, m.Requirement, int(ref), "requirement")
-    stmt = select(m.Requirement).where(m.Requirement.key == str(ref))
+    if (rid := ref_id(ref)) is not None:
+        return get(session, m.Requirement, rid, "requirement")
+    stmt = select(m.Requirement).where(m.Requirement.key == name_key(ref))
     if program is not None:
         stmt = stmt.where(m.Requirement.program_id == program.id)
     rows = session.scalars(stmt).all()

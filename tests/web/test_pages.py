@@ -340,7 +340,7 @@ def test_shock_and_sine_plots(browserless, users, world):
     x_pk_pk = 2 * 1.5 * 9.80665 / (2 * 3.141592653589793 * 15.0) ** 2
     r = _upload_json(b, world, "sine", {
         "bands": [{"f_lo_hz": 5.0, "f_hi_hz": 15.0, "quantity": "displacement",
-                   "amplitude": x_pk_pk, "measure": "peak_to_peak"},
+                   "amplitude": x_pk_pk, "unit": "m", "measure": "peak_to_peak"},
                   {"f_lo_hz": 15.0, "f_hi_hz": 100.0, "quantity": "acceleration",
                    "amplitude": 1.5}],
         "sweep": {"rate_oct_per_min": 2.0}}, "engine sine")
