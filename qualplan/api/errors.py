@@ -16,7 +16,7 @@ from fastapi import FastAPI, Request
 from fastapi.encoders import jsonable_encoder
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse
-from sqlalchemy.exc import IntegrityError, OperationalError
+from sqlalchemy.exc import DataError, IntegrityError, OperationalError, StatementError
 from sqlalchemy.orm.exc import StaleDataError
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
@@ -220,8 +220,27 @@ async def operational(request: Request, exc: OperationalError) -> JSONResponse:
             "nothing of yours was saved: reload and try again",
             headers={"Retry-After": "1"},
         )
+    if "full" in text or "no space" in text:
+        return problem_response(
+            507, "storage-full", "Insufficient storage",
+            "the database's disk is full: nothing was saved; free space and try again",
+        )
     return problem_response(
-        503, "database-unavailable", "Service unavailable", "the database could not be used"
+        503, "database-unavailable", "Service unavailable",
+        f"the database could not be used ({type(getattr(exc, 'orig', exc)).__name__})",
+    )
+
+
+async def data_error(_request: Request, exc: StatementError) -> JSONResponse:
+    """A value the database refuses (out of its integer range, a NUL in a text on
+    PostgreSQL): bad input, nothing saved."""
+    orig = getattr(exc, "orig", exc)
+    if not isinstance(exc, DataError) and not isinstance(orig, ValueError | OverflowError):
+        return await unexpected(_request, exc)
+    return problem_response(
+        422, "invalid-input", "Invalid input",
+        f"a value does not fit the database ({str(orig).splitlines()[0][:200]}); "
+        "nothing was saved",
     )
 
 
@@ -254,5 +273,7 @@ def install(app: FastAPI) -> None:
     app.add_exception_handler(StaleDataError, stale_data)
     app.add_exception_handler(IntegrityError, integrity)
     app.add_exception_handler(OperationalError, operational)
+    app.add_exception_handler(DataError, data_error)
+    app.add_exception_handler(StatementError, data_error)
     app.add_exception_handler(StarletteHTTPException, http_error)
     app.add_exception_handler(Exception, unexpected)

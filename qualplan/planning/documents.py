@@ -28,6 +28,7 @@ from qualplan.planning.access import Actor, record, require
 from qualplan.planning.audit import audit
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import Conflict, ValidationFailed
+from qualplan.planning.inputs import check_document_number
 from qualplan.planning.levels import current_test_levels, read_level
 from qualplan.planning.policies import rules_of
 from qualplan.store import models as m
@@ -557,7 +558,8 @@ def specification_content(
                     if policy is not None else None)
         axes.append(AxisCoverage(axis=axis.value, tests=[t[0] for t in tests],
                                  coverage=_coverage(combined)))
-    number = number or f"TLS-{_slug(product.part_number or product.name)}-{GRADE_CODE[grade]}"
+    number = check_document_number(
+        number or f"TLS-{_slug(product.part_number or product.name)}-{GRADE_CODE[grade]}")
     body = {
         "number": number,
         "title": f"{grade.value.capitalize()} test levels: {product.name}",
@@ -634,7 +636,7 @@ def audit_content(
             "waivers": [w.id for w in req.waivers],
         }
     slug = _slug(program.name if anchor is None else (anchor.part_number or anchor.name))
-    number = number or f"MCA-{slug}"
+    number = check_document_number(number or f"MCA-{slug}")
     body = {
         "number": number,
         "title": f"Margin-closure audit: {report.scope}",
