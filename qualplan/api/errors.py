@@ -16,6 +16,7 @@ from fastapi import FastAPI, Request
 from fastapi.encoders import jsonable_encoder
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse
+from pydantic import ValidationError
 from sqlalchemy.exc import DataError, IntegrityError, OperationalError, StatementError
 from sqlalchemy.orm.exc import StaleDataError
 from starlette.exceptions import HTTPException as StarletteHTTPException
@@ -265,6 +266,25 @@ async def unexpected(_request: Request, exc: Exception) -> JSONResponse:
     )
 
 
+async def model_validation(_request: Request, exc: ValidationError) -> JSONResponse:
+    """A command built by a route from form fields refused by its schema: as a request
+    validation failure (422 naming the field)."""
+    errors = [{"field": dotted(e.get("loc", ())), "in": "body",
+               "value": _safe_value(e.get("input")), "rule": e.get("msg", "")}
+              for e in exc.errors()]
+    first = errors[0] if errors else {"field": "body", "value": None, "rule": "invalid"}
+    return problem_response(422, "invalid-input", "Invalid input",
+                            f"{first['field']}: {first['rule']}", field=first["field"],
+                            value=first["value"], has_value=True, errors=errors)
+
+
+async def overflow(_request: Request, exc: OverflowError) -> JSONResponse:
+    return problem_response(
+        422, "invalid-input", "Invalid input",
+        f"a number does not fit the database ({exc}); nothing was saved",
+    )
+
+
 def install(app: FastAPI) -> None:
     """Register the handlers on `app`."""
     app.add_exception_handler(pe.PlanningError, planning_error)
@@ -274,6 +294,8 @@ def install(app: FastAPI) -> None:
     app.add_exception_handler(IntegrityError, integrity)
     app.add_exception_handler(OperationalError, operational)
     app.add_exception_handler(DataError, data_error)
+    app.add_exception_handler(ValidationError, model_validation)
+    app.add_exception_handler(OverflowError, overflow)
     app.add_exception_handler(StatementError, data_error)
     app.add_exception_handler(StarletteHTTPException, http_error)
     app.add_exception_handler(Exception, unexpected)

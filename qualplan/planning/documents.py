@@ -521,6 +521,8 @@ def specification_content(
     axis (X, Y, Z, all) and kind (random, sine, shock). The date is that of the newest
     level shown; stale levels are listed in the warnings.
     """
+    if number is not None:
+        check_document_number(number)
     grade = m.Grade(grade)
     product = get(session, m.Product, product_id, "product")
     if level_ids:
@@ -610,6 +612,8 @@ def audit_content(
     `now` (default: the current time, since an expired waiver no longer counts). The
     report's date is that of the newest recorded change in the database.
     """
+    if number is not None:
+        check_document_number(number)
     report: s.AuditReport = audit(session, program_id, product_id, now=now)
     program = get(session, m.Program, program_id, "program")
     anchor = get(session, m.Product, product_id, "product") if product_id is not None else None

@@ -67,6 +67,16 @@ def text_rule(text: str) -> str:
     return text
 
 
+def _in_range(n: int) -> int:
+    if not -MAX_INT <= n <= MAX_INT:
+        raise ValueError(f"must be at most {MAX_INT} in size (the database's integer)")
+    return n
+
+
+def _bad_id(n: int) -> int:
+    raise ValueError(f"must be an id, 1..{MAX_INT}")
+
+
 def _finite(x: float) -> float:
     if not math.isfinite(x):  # belt and braces: allow_inf_nan=False already refuses
         raise ValueError("must be a finite number")
@@ -78,9 +88,11 @@ def _finite(x: float) -> float:
 #: A finite JSON number (an integer is accepted as a number; a string is not).
 Num = Annotated[float, Field(strict=True, allow_inf_nan=False), AfterValidator(_finite)]
 #: An id of a stored row (1 .. 2^31 - 1).
-Id = Annotated[int, Field(strict=True, ge=1, le=MAX_INT)]
+Id = Annotated[int, Field(strict=True), AfterValidator(
+    lambda n: n if 1 <= n <= MAX_INT else _bad_id(n))]
 #: A whole number that the database stores (|n| <= 2^31 - 1).
-Int = Annotated[int, Field(strict=True, ge=-MAX_INT, le=MAX_INT)]
+#: (The range is a validator, not ge/le, so that a field's own Field(ge=...) still holds.)
+Int = Annotated[int, Field(strict=True), AfterValidator(_in_range)]
 #: A name: one printable line, 1..200 characters.
 Name = Annotated[str, Field(min_length=1, max_length=200), AfterValidator(line_rule)]
 #: A short key or unit: one printable line, 1..80 characters.

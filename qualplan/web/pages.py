@@ -47,6 +47,7 @@ from qualplan.planning.errors import (
     PlanningError,
     ValidationFailed,
 )
+from qualplan.planning.inputs import parse_number
 from qualplan.resources import data_dir
 from qualplan.store import models as m
 from qualplan.web import auth, plots
@@ -287,11 +288,7 @@ def number(form: FormData, name: str, *, integer: bool = False, required: bool =
         if required:
             raise ValidationFailed(name, None, "is required")
         return None
-    try:
-        return int(raw) if integer else float(raw)
-    except ValueError as exc:
-        kind = "a whole number" if integer else "a number"
-        raise ValidationFailed(name, raw, f"is not {kind}") from exc
+    return parse_number(name, raw, integer=integer)
 
 
 def csv_response(rows: list[list[Any]], filename: str) -> Response:
