@@ -14,6 +14,7 @@ from typing import Annotated
 import typer
 from pydantic import ValidationError
 from sqlalchemy.engine import make_url
+from sqlalchemy.exc import DataError
 
 from qualplan import __version__
 from qualplan.cli.output import SafeStream, safe_text
@@ -179,6 +180,10 @@ def main(argv: list[str] | None = None) -> None:
     except (InputError, ValidationError) as exc:
         typer.echo(f"error: {safe_text(_one_line(exc))}", err=True)
         sys.exit(2)
+    except (OverflowError, DataError) as exc:  # a value beyond what the database stores
+        first = str(getattr(exc, "orig", exc)).splitlines()[0][:200]
+        typer.echo(f"error: a value does not fit the database ({safe_text(first)})", err=True)
+        sys.exit(2)
     except OSError as exc:  # disk full, permissions, a missing folder: name the cause
         where = f": {exc.filename}" if exc.filename else ""
         typer.echo(f"error: {safe_text(exc.strerror or str(exc))}{safe_text(str(where))}",
@@ -189,10 +194,9 @@ def main(argv: list[str] | None = None) -> None:
     except typer.Abort:
         typer.echo("aborted", err=True)
         sys.exit(1)
-    except Exception as exc:  # click usage errors
-        import click
-
-        if isinstance(exc, click.ClickException):
+    except Exception as exc:  # click usage errors (click's own or the copy typer bundles)
+        if callable(getattr(exc, "show", None)) and isinstance(getattr(exc, "exit_code", None),
+                                                                int):
             exc.show()
             sys.exit(exc.exit_code)
         raise
