@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import csv
 import io
+import re
 from collections.abc import AsyncIterator, Callable, Iterator
 from dataclasses import dataclass, field
 from datetime import UTC, datetime, time
@@ -54,6 +55,18 @@ from qualplan.web import auth, plots
 
 STATIC = "/static/web"
 templates = Jinja2Templates(directory=str(data_dir("templates")))
+_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f]")
+
+
+def _visible(value: Any) -> Any:
+    """Every text a page shows, with control characters (NUL, escape sequences of a form
+    value echoed back) replaced by U+FFFD."""
+    if not isinstance(value, str) or not _CONTROL.search(value):
+        return value
+    return type(value)(_CONTROL.sub("\ufffd", value))  # keeps Markup as Markup
+
+
+templates.env.finalize = _visible
 router = APIRouter(include_in_schema=False)
 
 K = m.EnvironmentKind
@@ -291,6 +304,11 @@ def number(form: FormData, name: str, *, integer: bool = False, required: bool =
     return parse_number(name, raw, integer=integer)
 
 
+def _or(value, default):
+    """`default` for an empty field only (a typed 0 stays 0, for the schema to judge)."""
+    return default if value is None else value
+
+
 def csv_response(rows: list[list[Any]], filename: str) -> Response:
     buf = io.StringIO()
     csv.writer(buf, lineterminator="\n").writerows(rows)
@@ -419,7 +437,7 @@ async def create_phase(program_id: int, request: Request, ctx: Ctx = CtxDep) -> 
         catalog.create_phase(ctx.db, ctx.actor, s.PhaseCreate(
             program_id=program_id, name=text(form, "name"),
             duration_s=number(form, "duration_s", required=True),
-            occurrences=number(form, "occurrences", integer=True) or 1,
+            occurrences=_or(number(form, "occurrences", integer=True), 1),
             description=text(form, "description")))
         return f"/programs/{program_id}#phases"
 
@@ -503,7 +521,7 @@ async def derive_level(product_id: int, request: Request, ctx: Ctx = CtxDep) -> 
             purpose=text(form, "purpose") or "test", grade=text(form, "grade") or "qualification",
             kind=text(form, "kind"), axis=text(form, "axis"), revision_ids=ids,
             combination=text(form, "combination") or "envelope",
-            max_breakpoints=number(form, "max_breakpoints", integer=True) or 12,
+            max_breakpoints=_or(number(form, "max_breakpoints", integer=True), 12),
             policy_id=number(form, "policy_id", integer=True, required=True),
             load_factor_fn_hz=number(form, "load_factor_fn_hz"),
         )
@@ -750,7 +768,7 @@ async def add_analysis(req_id: int, request: Request, ctx: Ctx = CtxDep) -> Resp
             applied=number(form, "applied", required=True),
             allowable=number(form, "allowable", required=True),
             units=text(form, "units"),
-            factor_of_safety=number(form, "factor_of_safety") or 1.0,
+            factor_of_safety=_or(number(form, "factor_of_safety"), 1.0),
             note=text(form, "note")))
         return f"/requirements/{req_id}"
 
