@@ -16,7 +16,8 @@ from fastapi import FastAPI, Request
 from fastapi.encoders import jsonable_encoder
 from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse
-from sqlalchemy.exc import IntegrityError, OperationalError
+from pydantic import ValidationError
+from sqlalchemy.exc import DataError, IntegrityError, OperationalError, StatementError
 from sqlalchemy.orm.exc import StaleDataError
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
@@ -209,8 +210,27 @@ async def operational(request: Request, exc: OperationalError) -> JSONResponse:
             "nothing of yours was saved: reload and try again",
             headers={"Retry-After": "1"},
         )
+    if "full" in text or "no space" in text:
+        return problem_response(
+            507, "storage-full", "Insufficient storage",
+            "the database's disk is full: nothing was saved; free space and try again",
+        )
     return problem_response(
-        503, "database-unavailable", "Service unavailable", "the database could not be used"
+        503, "database-unavailable", "Service unavailable",
+        f"the database could not be used ({type(getattr(exc, 'orig', exc)).__name__})",
+    )
+
+
+async def data_error(_request: Request, exc: StatementError) -> JSONResponse:
+    """A value the database refuses (out of its integer range, a NUL in a text on
+    PostgreSQL): bad input, nothing saved."""
+    orig = getattr(exc, "orig", exc)
+    if not isinstance(exc, DataError) and not isinstance(orig, ValueError | OverflowError):
+        return await unexpected(_request, exc)
+    return problem_response(
+        422, "invalid-input", "Invalid input",
+        f"a value does not fit the database ({str(orig).splitlines()[0][:200]}); "
+        "nothing was saved",
     )
 
 
@@ -235,6 +255,25 @@ async def unexpected(_request: Request, exc: Exception) -> JSONResponse:
     )
 
 
+async def model_validation(_request: Request, exc: ValidationError) -> JSONResponse:
+    """A command built by a route from form fields refused by its schema: as a request
+    validation failure (422 naming the field)."""
+    errors = [{"field": dotted(e.get("loc", ())), "in": "body",
+               "value": _safe_value(e.get("input")), "rule": e.get("msg", "")}
+              for e in exc.errors()]
+    first = errors[0] if errors else {"field": "body", "value": None, "rule": "invalid"}
+    return problem_response(422, "invalid-input", "Invalid input",
+                            f"{first['field']}: {first['rule']}", field=first["field"],
+                            value=first["value"], has_value=True, errors=errors)
+
+
+async def overflow(_request: Request, exc: OverflowError) -> JSONResponse:
+    return problem_response(
+        422, "invalid-input", "Invalid input",
+        f"a number does not fit the database ({exc}); nothing was saved",
+    )
+
+
 def install(app: FastAPI) -> None:
     """Register the handlers on `app`."""
     app.add_exception_handler(pe.PlanningError, planning_error)
@@ -243,5 +282,9 @@ def install(app: FastAPI) -> None:
     app.add_exception_handler(StaleDataError, stale_data)
     app.add_exception_handler(IntegrityError, integrity)
     app.add_exception_handler(OperationalError, operational)
+    app.add_exception_handler(DataError, data_error)
+    app.add_exception_handler(ValidationError, model_validation)
+    app.add_exception_handler(OverflowError, overflow)
+    app.add_exception_handler(StatementError, data_error)
     app.add_exception_handler(StarletteHTTPException, http_error)
     app.add_exception_handler(Exception, unexpected)

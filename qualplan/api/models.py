@@ -8,6 +8,7 @@ from typing import Any, Generic, TypeVar
 
 from pydantic import BaseModel, ConfigDict, Field
 
+from qualplan.planning.inputs import Id, Line, Num, Text
 from qualplan.planning.schemas import Command, Status, VerificationMethod
 
 T = TypeVar("T")
@@ -29,11 +30,11 @@ class RequirementPatch(Command):
     the other fields are left alone when absent and refused when null.
     """
 
-    text: str = Field(default=None, min_length=1)  # type: ignore[assignment]
-    level_id: int | None = None
+    text: Text = Field(default=None, min_length=1)  # type: ignore[assignment]
+    level_id: Id | None = None
     method: VerificationMethod = None  # type: ignore[assignment]
-    acceptance_criterion: str = None  # type: ignore[assignment]
-    required_margin: float = None  # type: ignore[assignment]
+    acceptance_criterion: Text = None  # type: ignore[assignment]
+    required_margin: Num = None  # type: ignore[assignment]
 
 
 class RequirementStatus(BaseModel):
@@ -44,7 +45,7 @@ class RequirementStatus(BaseModel):
 
 
 class TokenCreate(Command):
-    label: str = Field(default="", max_length=120)
+    label: Line = Field(default="", max_length=120)
 
 
 class TokenCreated(BaseModel):

@@ -12,10 +12,14 @@ from pathlib import Path
 from typing import Annotated
 
 import typer
+from pydantic import ValidationError
 from sqlalchemy.engine import make_url
+from sqlalchemy.exc import DataError
 
 from qualplan import __version__
+from qualplan.cli.output import SafeStream, safe_text
 from qualplan.config import Settings
+from qualplan.dynamics.errors import InputError
 from qualplan.planning.errors import PlanningError
 from qualplan.store import migrate
 from qualplan.store.session import DatabaseUrlError, make_engine, masked, normalise_url
@@ -172,24 +176,49 @@ KNOWN_ERRORS = (
 )
 
 
+def _one_line(exc: Exception) -> str:
+    """A bad value in one line: pydantic's first error as field=value: rule."""
+    if isinstance(exc, ValidationError):
+        errs = exc.errors()
+        first = errs[0] if errs else {}
+        field = ".".join(str(p) for p in first.get("loc", ())) or "input"
+        more = f" (and {len(errs) - 1} more)" if len(errs) > 1 else ""
+        return f"{field}={first.get('input')!r:.80}: {first.get('msg', 'invalid')}{more}"
+    return str(exc)
+
+
 def main(argv: list[str] | None = None) -> None:
     """Console entry point: run the typer app, turn known errors into one line."""
+    out, sys.stdout = sys.stdout, SafeStream(sys.stdout)
     try:
         code = app(args=argv, standalone_mode=False)
     except KNOWN_ERRORS as exc:
-        typer.echo(f"error: {exc}", err=True)
+        typer.echo(f"error: {safe_text(str(exc))}", err=True)
         sys.exit(2)
+    except (InputError, ValidationError) as exc:
+        typer.echo(f"error: {safe_text(_one_line(exc))}", err=True)
+        sys.exit(2)
+    except (OverflowError, DataError) as exc:  # a value beyond what the database stores
+        first = str(getattr(exc, "orig", exc)).splitlines()[0][:200]
+        typer.echo(f"error: a value does not fit the database ({safe_text(first)})", err=True)
+        sys.exit(2)
+    except OSError as exc:  # disk full, permissions, a missing folder: name the cause
+        where = f": {exc.filename}" if exc.filename else ""
+        typer.echo(f"error: {safe_text(exc.strerror or str(exc))}{safe_text(str(where))}",
+                   err=True)
+        sys.exit(1)
     except typer.Exit as exc:
         sys.exit(exc.exit_code)
     except typer.Abort:
         typer.echo("aborted", err=True)
         sys.exit(1)
-    except Exception as exc:  # click usage errors
-        import click
-
-        if isinstance(exc, click.ClickException):
+    except Exception as exc:  # click usage errors (click's own or the copy typer bundles)
+        if callable(getattr(exc, "show", None)) and isinstance(getattr(exc, "exit_code", None),
+                                                                int):
             exc.show()
             sys.exit(exc.exit_code)
         raise
+    finally:
+        sys.stdout = out
     if isinstance(code, int) and code != 0:
         sys.exit(code)

@@ -4,12 +4,39 @@ from __future__ import annotations
 
 import json
 import sys
+import unicodedata
 from collections.abc import Iterable, Sequence
 from contextlib import contextmanager
 from typing import Any
 
 import typer
 from pydantic import BaseModel
+
+
+def safe_text(text: str) -> str:
+    """`text` with every control character but newline and tab shown as an escape
+    (``\\x1b``), so stored names cannot send escape sequences to the terminal."""
+    return "".join(
+        c if c in "\n\t" or unicodedata.category(c) not in ("Cc", "Cs")
+        else c.encode("unicode_escape", "backslashreplace").decode("ascii")
+        for c in text
+    )
+
+
+class SafeStream:
+    """A text stream that writes `safe_text` of what it is given (the CLI's stdout)."""
+
+    def __init__(self, stream) -> None:
+        self._stream = stream
+
+    def write(self, text) -> int:
+        if not isinstance(text, str):  # bytes (binary output): written as they are
+            return self._stream.write(text)
+        self._stream.write(safe_text(text))
+        return len(text)
+
+    def __getattr__(self, name: str):
+        return getattr(self._stream, name)
 
 
 def emit_json(value: Any) -> None:

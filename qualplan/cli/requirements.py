@@ -223,7 +223,8 @@ def evidence_inspection(
 def waive(
     requirement: str,
     rationale: Annotated[str, typer.Option(help="Why.")],
-    days: Annotated[int, typer.Option(help="Days until the waiver expires.")] = 30,
+    days: Annotated[int, typer.Option(min=1, max=requirements.MAX_WAIVER_DAYS,
+                                      help="Days until the waiver expires.")] = 30,
     program: ProgramOption = None,
     db: DbOption = None,
 ) -> None:

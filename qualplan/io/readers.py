@@ -16,7 +16,10 @@ import csv
 import io as _io
 import math
 import os
+import re
+import struct
 import tempfile
+import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 from types import MappingProxyType
@@ -141,8 +144,11 @@ class _Source:
                 raise InputError("path", str(p), "is empty")
             self.path, self.name, self.file = p, name or p.name, p
 
+    def raw(self) -> bytes:
+        return self.path.read_bytes() if self.path is not None else self.file.getvalue()
+
     def text(self) -> str:
-        raw = self.path.read_bytes() if self.path is not None else self.file.getvalue()
+        raw = self.raw()
         try:
             return raw.decode("utf-8-sig")
         except UnicodeDecodeError as exc:
@@ -213,8 +219,30 @@ def _time_history(values, fs, t0, unit, calibration, source, meta, name="values"
 # ---------------------------------------------------------------------------------------------
 
 
+#: A plain decimal literal; float() would also take "2_000", "nan", "inf" and "0x10"-like
+#: forms that no measurement file means.
+_NUMBER = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?")
+#: NaN and infinities are read, then refused by the finite check that names the cell.
+_NON_FINITE = re.compile(r"[+-]?(nan|inf|infinity)", re.IGNORECASE)
+
+
+def _cell_number(cell: str) -> float:
+    """A cell as a number: a plain decimal literal, else ValueError."""
+    text = cell.strip()
+    if not _NUMBER.fullmatch(text) and not _NON_FINITE.fullmatch(text):
+        raise ValueError(cell)
+    return float(text)
+
+
 def _read_table(p: _Source, delimiter: str | None):
-    text = p.text()
+    raw = p.raw()
+    if b"\x00" in raw:
+        raise InputError("path", p.name, "holds NUL bytes: not a text (CSV) file")
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise InputError("path", f"{p.name} byte {exc.start}",
+                         "is not UTF-8 text (save the CSV as UTF-8)") from exc
     lines = [ln for ln in text.splitlines() if ln.strip() and not ln.lstrip().startswith("#")]
     if not lines:
         raise InputError("path", p.name, "has no data rows")
@@ -230,7 +258,7 @@ def _read_table(p: _Source, delimiter: str | None):
             [c.strip() for c in r] for r in reader]
     header = None
     try:
-        [float(c) for c in rows[0]]
+        [_cell_number(c) for c in rows[0]]
     except ValueError:
         header = rows[0]
         rows = rows[1:]
@@ -250,11 +278,12 @@ def _column(header, rows, col, what: str, first_row: int) -> tuple[str, np.ndarr
         j = int(col)
         if not -ncol <= j < ncol:
             raise InputError(what, col, f"is out of range ({ncol} columns)")
-        name = header[j] if header is not None else f"column {j}"
+        named = header is not None and -len(header) <= j < len(header)
+        name = header[j] if named else f"column {j}"
     out = np.empty(len(rows))
     for i, r in enumerate(rows):
         try:
-            out[i] = float(r[j])
+            out[i] = _cell_number(r[j])
         except (ValueError, IndexError) as exc:
             cell = r[j] if j < len(r) else "<missing>"
             raise InputError(f"{name}[row {i + first_row}]", cell, "must be a number") from exc
@@ -316,13 +345,24 @@ def read_csv_time_history(path, *, name: str | None = None, unit: str, value_col
                          "must be finite (no NaN or inf)")
     meta: dict[str, Any] = {"format": "csv", "value_column": vname, "delimiter": delim,
                             "header": header}
+    width = max(len(r) for r in rows)
     if time_column is None:
         if fs_hz is None:
             raise InputError("fs_hz", None, "is required when the file has no time column")
+        if width > 1:
+            named = f" (header {header})" if header is not None else ""
+            raise InputError(
+                "fs_hz", fs_hz,
+                f"is given, but the file has {width} columns{named}: a sample rate is for a "
+                "file of one value column; for a time column and a value column omit it")
         fs, t0 = positive_scalar("fs_hz", fs_hz), 0.0
     else:
         if fs_hz is not None:
             raise InputError("fs_hz", fs_hz, "must be omitted when a time column is read")
+        if width > 2:
+            raise InputError("path", p.name,
+                             f"has {width} columns; a record is read from (time, value): "
+                             "remove the other columns")
         tname, t = _column(header, rows, time_column, "time_column", first)
         _finite_column(tname, t)
         fs, t0 = _check_uniform_time(tname, t, time_tolerance)
@@ -417,8 +457,14 @@ def read_npy_time_history(path, *, name: str | None = None, fs_hz: float, unit: 
     p = _path(path, name)
     try:
         arr = np.load(p.file, allow_pickle=False)
-    except (ValueError, OSError) as exc:
-        raise InputError("path", p.name, f"is not a readable .npy array ({exc})") from exc
+    except Exception as exc:  # numpy raises ValueError, EOFError, BadZipFile, ... on bad files
+        raise InputError("path", p.name, f"is not a readable .npy array "
+                         f"({type(exc).__name__}: {exc})") from exc
+    if not isinstance(arr, np.ndarray):  # an .npz archive (or other) under an .npy name
+        if hasattr(arr, "close"):
+            arr.close()
+        raise InputError("path", p.name, "is not a .npy array (an .npz archive?): save one "
+                         "array with numpy.save")
     if arr.ndim != 1:
         raise InputError("values", f"shape {arr.shape}", "must be a 1-D array")
     if not np.issubdtype(arr.dtype, np.number) or np.iscomplexobj(arr):
@@ -459,10 +505,21 @@ def read_wav_time_history(path, *, name: str | None = None, calibration: float, 
 
     p = _path(path, name)
     cal = _calibration(calibration)
-    try:
-        fs, data = wavfile.read(p.file)
-    except (ValueError, OSError) as exc:
-        raise InputError("path", p.name, f"is not a readable WAV file ({exc})") from exc
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            fs, data = wavfile.read(p.file)
+        except Exception as exc:  # scipy's WAV parser raises many kinds on a corrupt file
+            raise InputError("path", p.name, f"is not a readable WAV file ({exc})") from exc
+    for w in caught:
+        text = str(w.message)
+        if "truncat" in text.lower() or "reached eof" in text.lower() or "not enough" in text:
+            raise InputError("path", p.name, f"is a truncated WAV file ({text})")
+    _check_wav_length(p)
+    if not isinstance(fs, int | np.integer) or fs <= 0:
+        raise InputError("sample_rate", int(fs), "the WAV header's sample rate must be > 0 Hz")
+    if data.ndim not in (1, 2) or data.size == 0:
+        raise InputError("path", p.name, "holds no samples")
     n_ch = 1 if data.ndim == 1 else data.shape[1]
     if not isinstance(channel, int) or not 0 <= channel < n_ch:
         raise InputError("channel", channel, f"must be 0..{n_ch - 1}")
@@ -472,6 +529,25 @@ def read_wav_time_history(path, *, name: str | None = None, calibration: float, 
     return _time_history(x.astype(float), float(fs), 0.0, unit, cal, f"{p.name}[ch {channel}]",
                          {"format": "wav", "dtype": str(data.dtype), "channels": n_ch,
                           "channel": channel})
+
+
+def _check_wav_length(p: _Source) -> None:
+    """Refuse a WAV whose data chunk declares more bytes than the file holds.
+
+    RIFF chunks are (4-byte id, little-endian uint32 size, data); a recorder cut off or a
+    partial copy leaves a `data` chunk shorter than its size (Microsoft RIFF WAVE format).
+    """
+    raw = p.raw()
+    pos = 12
+    while pos + 8 <= len(raw):
+        cid, size = raw[pos:pos + 4], struct.unpack("<I", raw[pos + 4:pos + 8])[0]
+        if cid == b"data":
+            have = len(raw) - pos - 8
+            if size > have:
+                raise InputError("path", p.name, f"is a truncated WAV file: its data chunk "
+                                 f"declares {size} bytes, the file holds {have}")
+            return
+        pos += 8 + size + (size & 1)
 
 
 def read_mat_time_history(path, *, name: str | None = None, variable: str, unit: str,
@@ -513,8 +589,9 @@ def read_mat_time_history(path, *, name: str | None = None, variable: str, unit:
         mat = loadmat(p.file, squeeze_me=True)
     except NotImplementedError as exc:
         raise InputError("path", p.name, "is a v7.3 (HDF5) .mat file; save with -v7") from exc
-    except (ValueError, OSError, TypeError) as exc:
-        raise InputError("path", p.name, f"is not a readable .mat file ({exc})") from exc
+    except Exception as exc:  # scipy's MAT parser raises many kinds on a corrupt file
+        raise InputError("path", p.name, f"is not a readable .mat file "
+                         f"({type(exc).__name__}: {exc})") from exc
     names = sorted(k for k in mat if not k.startswith("__"))
 
     def vector(name: str, what: str) -> np.ndarray:

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import unicodedata
+
 from sqlalchemy import select
 from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
@@ -9,6 +11,7 @@ from sqlalchemy.orm import Session
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require
 from qualplan.planning.errors import Conflict, NotFound, ValidationFailed, VersionMismatch
+from qualplan.planning.inputs import MAX_INT
 from qualplan.store import models as m
 from qualplan.store.repositories import (
     PhaseRepository,
@@ -18,11 +21,35 @@ from qualplan.store.repositories import (
 
 
 def get(session: Session, model: type[m.Base], id_: int, entity: str):
-    """Row `id_` of `model` or NotFound."""
+    """Row `id_` of `model` or NotFound (an id no database row can have is not found,
+    rather than an overflow in the database driver)."""
+    if isinstance(id_, bool) or not isinstance(id_, int) or not 1 <= id_ <= MAX_INT:
+        raise NotFound(entity, id_)
     row = session.get(model, id_)
     if row is None:
         raise NotFound(entity, id_)
     return row
+
+
+def ref_id(ref: str | int) -> int | None:
+    """The id a reference names (an int, or ASCII digits), else None (a name)."""
+    if isinstance(ref, bool):
+        return None
+    if isinstance(ref, int):
+        return ref
+    text = str(ref).strip()
+    if text.isascii() and text.isdigit():
+        return int(text)
+    return None
+
+
+def name_key(ref: str | int) -> str:
+    """A name to look up: a text with a control character (a NUL, which PostgreSQL cannot
+    compare, or a line break) is no stored name, so it is not found."""
+    text = str(ref)
+    if any(unicodedata.category(ch) in ("Cc", "Cs") for ch in text):
+        return "\x01"  # a control character no validated name holds: nothing is found
+    return text
 
 
 def check_version(entity: str, row, expected: int | None) -> None:
@@ -65,9 +92,9 @@ def list_programs(session: Session) -> list[m.Program]:
 
 
 def program_by_name_or_id(session: Session, ref: str | int) -> m.Program:
-    if isinstance(ref, int) or str(ref).isdigit():
-        return get(session, m.Program, int(ref), "program")
-    row = ProgramRepository(session).by_name(str(ref))
+    if (rid := ref_id(ref)) is not None:
+        return get(session, m.Program, rid, "program")
+    row = ProgramRepository(session).by_name(name_key(ref))
     if row is None:
         raise NotFound("program", ref)
     return row
@@ -134,9 +161,9 @@ def product_subtree_ids(session: Session, product_id: int) -> list[int]:
 
 def product_ref(session: Session, program: m.Program | None, ref: str | int) -> m.Product:
     """A product by id, or by name within `program`."""
-    if isinstance(ref, int) or str(ref).isdigit():
-        return get(session, m.Product, int(ref), "product")
-    stmt = select(m.Product).where(m.Product.name == str(ref))
+    if (rid := ref_id(ref)) is not None:
+        return get(session, m.Product, rid, "product")
+    stmt = select(m.Product).where(m.Product.name == name_key(ref))
     if program is not None:
         stmt = stmt.where(m.Product.program_id == program.id)
     rows = session.scalars(stmt).all()

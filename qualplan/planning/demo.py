@@ -257,7 +257,8 @@ def build_demo(session: Session, *, seed: int = 2026) -> DemoSummary:
         unit, flight, "propeller and engine tones", K.sine, "all",
         {"bands": [
             {"f_lo_hz": 10.0, "f_hi_hz": 25.0, "quantity": "displacement",
-             "amplitude": 2 * G0_M_S2 / (2 * math.pi * 25.0) ** 2, "measure": "peak_to_peak"},
+             "amplitude": 2 * G0_M_S2 / (2 * math.pi * 25.0) ** 2, "unit": "m",
+             "measure": "peak_to_peak"},
             {"f_lo_hz": 25.0, "f_hi_hz": 200.0, "quantity": "acceleration", "amplitude": 1.0}],
          "sweep": {"rate_oct_per_min": 1.0, "direction": "up-down", "sweeps": 1}},
         "Tern-4 platform vibration specification PVS-2 (invented)", "run-up and descent")

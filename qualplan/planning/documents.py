@@ -29,6 +29,7 @@ from qualplan.planning.access import Actor, record, require
 from qualplan.planning.audit import audit
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import Conflict, ValidationFailed
+from qualplan.planning.inputs import check_document_number
 from qualplan.planning.levels import read_level, result_of
 from qualplan.planning.lifecycle import current_test_levels
 from qualplan.planning.policies import rules_of
@@ -566,6 +567,8 @@ def specification_content(
     axis (X, Y, Z, all) and kind (random, sine, shock). The date is that of the newest
     level shown; stale levels are listed in the warnings.
     """
+    if number is not None:
+        check_document_number(number)
     grade = m.Grade(grade)
     product = get(session, m.Product, product_id, "product")
     if level_ids:
@@ -603,7 +606,8 @@ def specification_content(
                     if policy is not None else None)
         axes.append(AxisCoverage(axis=axis.value, tests=[t[0] for t in tests],
                                  coverage=_coverage(combined)))
-    number = number or f"TLS-{_slug(product.part_number or product.name)}-{GRADE_CODE[grade]}"
+    number = check_document_number(
+        number or f"TLS-{_slug(product.part_number or product.name)}-{GRADE_CODE[grade]}")
     body = {
         "number": number,
         "title": f"{grade.value.capitalize()} test levels: {product.name}",
@@ -654,6 +658,8 @@ def audit_content(
     `now` (default: the current time, since an expired waiver no longer counts). The
     report's date is that of the newest recorded change in the database.
     """
+    if number is not None:
+        check_document_number(number)
     report: s.AuditReport = audit(session, program_id, product_id, now=now)
     program = get(session, m.Program, program_id, "program")
     anchor = get(session, m.Product, product_id, "product") if product_id is not None else None
@@ -680,7 +686,7 @@ def audit_content(
             "waivers": [w.id for w in req.waivers],
         }
     slug = _slug(program.name if anchor is None else (anchor.part_number or anchor.name))
-    number = number or f"MCA-{slug}"
+    number = check_document_number(number or f"MCA-{slug}")
     body = {
         "number": number,
         "title": f"Margin-closure audit: {report.scope}",

@@ -20,6 +20,7 @@ from qualplan.dynamics import sine as core_sine
 from qualplan.dynamics import srs as core_srs
 from qualplan.dynamics._validate import check_q
 from qualplan.dynamics.errors import InputError
+from qualplan.dynamics.units import G0_M_S2
 from qualplan.planning.errors import ValidationFailed
 from qualplan.store.models import EnvironmentKind
 
@@ -56,16 +57,26 @@ def _floats(data: dict, key: str) -> list[float]:
     return out
 
 
+def _number(field: str, value: Any) -> float:
+    """A JSON number (not a string, not a boolean), finite."""
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        raise ValidationFailed(field, value, "must be a number (not a string or a boolean)")
+    if not math.isfinite(float(value)):
+        raise ValidationFailed(field, value, "must be finite (no NaN or inf)")
+    return float(value)
+
+
+def _positive(field: str, value: Any) -> float:
+    x = _number(field, value)
+    if x <= 0:
+        raise ValidationFailed(field, value, "must be a finite number > 0")
+    return x
+
+
 def _optional_positive(data: dict, key: str) -> float | None:
     if data.get(key) is None:
         return None
-    try:
-        value = float(data[key])
-    except (TypeError, ValueError) as exc:
-        raise ValidationFailed(f"data.{key}", data[key], "must be a number") from exc
-    if not math.isfinite(value) or value <= 0:
-        raise ValidationFailed(f"data.{key}", data[key], "must be a finite number > 0")
-    return value
+    return _positive(f"data.{key}", data[key])
 
 
 def _known_keys(data: dict, allowed: set[str]) -> None:
@@ -98,20 +109,23 @@ def normalise(
         _known_keys(data, {"freq_hz", "accel_g", "q", "count"})
         f, a = _floats(data, "freq_hz"), _floats(data, "accel_g")
         q = _optional_positive(data, "q") or 10.0
+        if q > 1000:
+            raise ValidationFailed("data.q", q, "must be at most 1000 (plausibility)")
         with core_errors():
             core_srs.SrsProfile(f, a)
             check_q(q)
         spec = {"freq_hz": f, "accel_g": a, "q": q}
         if data.get("count") is not None:
             count = data["count"]
-            if isinstance(count, bool) or not isinstance(count, int) or count < 1:
-                raise ValidationFailed("data.count", count, "must be a whole number >= 1")
+            if isinstance(count, bool) or not isinstance(count, int) or not 1 <= count <= 10**6:
+                raise ValidationFailed("data.count", count, "must be a whole number 1..1000000")
             spec["count"] = count
         return spec, None
     if kind is EnvironmentKind.sine:
-        _known_keys(data, {"bands", "sweep", "dwell"})
+        _known_keys(data, {"bands", "sweep"})
         spec = {"bands": _sine_bands(data), "sweep": _sweep(data.get("sweep") or {})}
         sweep_of(spec)  # full check through the core
+        _check_sine_plausible(spec)
         return spec, None
     # time history
     _known_keys(data, {"dt_s", "accel_g", "duration_s"})
@@ -133,33 +147,74 @@ def normalise(
     return spec, samples
 
 
+#: Units a band's amplitude may be given in, per quantity -> factor to the stored unit
+#: (m for displacement, m/s for velocity, g for acceleration). The first is the default,
+#: as the documents print it: displacement in mm, velocity in m/s, acceleration in g.
+SINE_UNITS: dict[str, dict[str, float]] = {
+    "displacement": {"mm": 1e-3, "m": 1.0},
+    "velocity": {"m/s": 1.0, "mm/s": 1e-3},
+    "acceleration": {"g": 1.0, "m/s^2": 1.0 / G0_M_S2},
+}
+STORED_SINE_UNIT = {"displacement": "m", "velocity": "m/s", "acceleration": "g"}
+#: Largest relative step of the peak acceleration where two bands meet (printed
+#: specifications round the crossover and amplitudes to 2-3 digits; common practice).
+SINE_EDGE_TOLERANCE = 0.10
+#: Plausibility limits of a sine environment (common practice: beyond the stroke and force
+#: of test shakers, almost always a unit slip such as metres typed for millimetres).
+SINE_MAX_ACCEL_G = 500.0
+SINE_MAX_DISPLACEMENT_PK_PK_M = 0.5
+SINE_MAX_FREQ_HZ = 100_000.0
+_BAND_KEYS = {"f_lo_hz", "f_hi_hz", "quantity", "amplitude", "measure", "unit"}
+_SWEEP_KEYS = {"rate_oct_per_min", "rate_hz_per_s", "direction", "sweeps"}
+
+
 def _sine_bands(data: dict) -> list[dict[str, Any]]:
     bands = data.get("bands")
     if not isinstance(bands, list) or not bands:
         raise ValidationFailed("data.bands", bands, "must be a non-empty list of bands")
     out = []
     for i, band in enumerate(bands):
+        where = f"data.bands[{i}]"
         if not isinstance(band, dict):
-            raise ValidationFailed(f"data.bands[{i}]", band, "must be an object")
+            raise ValidationFailed(where, band, "must be an object")
+        extra = sorted(set(band) - _BAND_KEYS)
+        if extra:
+            raise ValidationFailed(f"{where}.{extra[0]}", band[extra[0]],
+                                   f"is not a field of a sine band; expected {sorted(_BAND_KEYS)}")
         quantity = band.get("quantity")
-        if quantity not in ("displacement", "velocity", "acceleration"):
+        if quantity not in SINE_UNITS:
             raise ValidationFailed(
-                f"data.bands[{i}].quantity",
+                f"{where}.quantity",
                 quantity,
                 "must be 'displacement', 'velocity' or 'acceleration'",
             )
+        units = SINE_UNITS[quantity]
+        unit = band.get("unit", next(iter(units)))
+        if unit not in units:
+            raise ValidationFailed(f"{where}.unit", unit,
+                                   f"must be one of {list(units)} for a {quantity} band")
         measure = band.get("measure", "peak")
         if quantity == "displacement" and measure not in ("peak", "peak_to_peak"):
             raise ValidationFailed(
-                f"data.bands[{i}].measure",
+                f"{where}.measure",
                 measure,
                 "must say 'peak' or 'peak_to_peak' for a displacement",
             )
+        if quantity != "displacement" and measure != "peak":
+            raise ValidationFailed(f"{where}.measure", measure,
+                                   f"a {quantity} amplitude is a peak value: say 'peak' or omit it")
+        f_lo = _positive(f"{where}.f_lo_hz", band.get("f_lo_hz"))
+        f_hi = _positive(f"{where}.f_hi_hz", band.get("f_hi_hz"))
+        if f_hi > SINE_MAX_FREQ_HZ:
+            raise ValidationFailed(f"{where}.f_hi_hz", f_hi,
+                                   f"must be at most {SINE_MAX_FREQ_HZ:g} Hz (plausibility)")
+        amplitude = _positive(f"{where}.amplitude", band.get("amplitude"))
         item = {
-            "f_lo_hz": band.get("f_lo_hz"),
-            "f_hi_hz": band.get("f_hi_hz"),
+            "f_lo_hz": f_lo,
+            "f_hi_hz": f_hi,
             "quantity": quantity,
-            "amplitude": band.get("amplitude"),
+            "amplitude": amplitude * units[unit],
+            "unit": STORED_SINE_UNIT[quantity],
         }
         if quantity == "displacement":
             item["measure"] = measure
@@ -170,15 +225,68 @@ def _sine_bands(data: dict) -> list[dict[str, Any]]:
 def _sweep(sweep: dict) -> dict[str, Any]:
     if not isinstance(sweep, dict):
         raise ValidationFailed("data.sweep", sweep, "must be an object")
-    out: dict[str, Any] = {
-        "direction": sweep.get("direction", "up"),
-        "sweeps": sweep.get("sweeps", 1),
-    }
+    extra = sorted(set(sweep) - _SWEEP_KEYS)
+    if extra:
+        raise ValidationFailed(f"data.sweep.{extra[0]}", sweep[extra[0]],
+                               f"is not a field of a sweep; expected {sorted(_SWEEP_KEYS)}")
+    direction = sweep.get("direction", "up")
+    if direction not in ("up", "down", "up-down"):
+        raise ValidationFailed("data.sweep.direction", direction,
+                               "must be 'up', 'down' or 'up-down'")
+    sweeps = sweep.get("sweeps", 1)
+    if isinstance(sweeps, bool) or not isinstance(sweeps, int) or not 1 <= sweeps <= 10_000:
+        raise ValidationFailed("data.sweep.sweeps", sweeps, "must be a whole number 1..10000")
+    out: dict[str, Any] = {"direction": direction, "sweeps": sweeps}
+    if "rate_hz_per_s" in sweep and "rate_oct_per_min" in sweep:
+        raise ValidationFailed("data.sweep.rate_hz_per_s", sweep["rate_hz_per_s"],
+                               "give rate_oct_per_min (logarithmic) or rate_hz_per_s "
+                               "(linear), not both")
     if "rate_hz_per_s" in sweep:
-        out["rate_hz_per_s"] = sweep["rate_hz_per_s"]
+        out["rate_hz_per_s"] = _positive("data.sweep.rate_hz_per_s", sweep["rate_hz_per_s"])
     else:
-        out["rate_oct_per_min"] = sweep.get("rate_oct_per_min", 2.0)
+        out["rate_oct_per_min"] = _positive("data.sweep.rate_oct_per_min",
+                                            sweep.get("rate_oct_per_min", 2.0))
     return out
+
+
+def _check_sine_plausible(spec: dict[str, Any]) -> None:
+    """Band-edge continuity and plausibility of a validated sine specification.
+
+    Where two bands meet, both amplitude laws must give the same peak acceleration
+    (the crossover frequency, Harris' Shock and Vibration Handbook, sinusoidal motion:
+    A = (2 pi f)^2 X = 2 pi f V), within SINE_EDGE_TOLERANCE; the peak acceleration and
+    the displacement must stay within what a test can apply.
+    """
+    table = sine_spec_of(spec)
+    for i in range(1, len(table.bands)):
+        a, b = table.bands[i - 1], table.bands[i]
+        edge = b.f_lo_hz
+        left, right = float(a.accel_g(edge)), float(b.accel_g(edge))
+        step = abs(right - left) / max(left, right)
+        if step > SINE_EDGE_TOLERANCE:
+            raise ValidationFailed(
+                f"data.bands[{i}].amplitude", spec["bands"][i]["amplitude"],
+                f"the bands do not meet at {edge:g} Hz: band {i - 1} gives {left:.4g} g peak "
+                f"there and band {i} {right:.4g} g peak (a step of {100 * step:.0f} %, more "
+                f"than {100 * SINE_EDGE_TOLERANCE:.0f} %); check the amplitudes and their "
+                "units (displacement in mm unless 'unit' says 'm')",
+            )
+    freq = np.geomspace(table.f_lo_hz, table.f_hi_hz, 400)
+    freq = np.union1d(freq, table.breaks_hz)
+    peak = float(table.accel_g(freq).max())
+    if peak > SINE_MAX_ACCEL_G:
+        raise ValidationFailed(
+            "data.bands", f"{peak:.4g} g peak",
+            f"is implausible for a sine environment (more than {SINE_MAX_ACCEL_G:g} g peak); "
+            "check the units (displacement in mm unless 'unit' says 'm')",
+        )
+    disp = float(2.0 * table.displacement_m(freq).max())
+    if disp > SINE_MAX_DISPLACEMENT_PK_PK_M:
+        raise ValidationFailed(
+            "data.bands", f"{disp * 1e3:.4g} mm peak-to-peak",
+            f"is implausible for a sine environment (more than "
+            f"{SINE_MAX_DISPLACEMENT_PK_PK_M * 1e3:g} mm peak-to-peak); check the units",
+        )
 
 
 def sine_spec_of(spec: dict[str, Any]) -> core_sine.SineSpec:

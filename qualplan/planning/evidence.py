@@ -305,6 +305,17 @@ def add_similarity(
     other = get(session, m.Requirement, cmd.similar_requirement_id, "requirement")
     if other.id == req.id:
         raise ValidationFailed("similar_requirement_id", other.id, "must be another requirement")
+    seen, hop = {other.id}, other
+    while hop.evidence and hop.evidence[-1].similar_requirement_id is not None:
+        nxt = hop.evidence[-1].similar_requirement_id
+        if nxt == req.id:
+            raise ValidationFailed("similar_requirement_id", other.id,
+                                   f"{other.key} is itself verified by similarity to "
+                                   f"{req.key}: the claim would form a cycle")
+        if nxt in seen:
+            break
+        seen.add(nxt)
+        hop = get(session, m.Requirement, nxt, "requirement")
     st = status_of(session, other)
     if st.status != "verified":
         raise Conflict(

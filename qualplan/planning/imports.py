@@ -11,7 +11,6 @@ from __future__ import annotations
 import csv
 import io
 import json
-import math
 from pathlib import Path
 from typing import Any
 
@@ -21,6 +20,7 @@ from qualplan import io as qio
 from qualplan.io._units import ACCEL_UNITS, ASD_UNITS
 from qualplan.planning.envdata import core_errors
 from qualplan.planning.errors import ValidationFailed
+from qualplan.planning.inputs import parse_number
 from qualplan.store.models import EnvironmentKind
 
 #: Accepted value units per kind, with the factor to the core unit: the io readers' one
@@ -69,11 +69,16 @@ def breakpoints_from_csv(
         raise ValidationFailed("file", f"{len(rows)} data rows", "needs at least 2 breakpoints")
     freq, vals = [], []
     for i, row in enumerate(rows, start=1):
-        if len(row) < 2:
-            raise ValidationFailed(f"row {i}", ",".join(row), "needs two columns: frequency, value")
-        for j, cell in enumerate(row[:2]):
+        while len(row) > 2 and not row[-1].strip():
+            row = row[:-1]  # trailing empty cells of a spreadsheet export
+        if len(row) != 2:
+            raise ValidationFailed(f"row {i}", ",".join(row),
+                                   f"has {len(row)} columns; a breakpoint table has two: "
+                                   "frequency, value")
+        for j, cell in enumerate(row):
             if not _is_number(cell):
-                raise ValidationFailed(f"row {i} column {j + 1}", cell, "is not a number")
+                raise ValidationFailed(f"row {i} column {j + 1}", cell,
+                                       "is not a number (a plain decimal such as 2000 or 2e3)")
         freq.append(float(row[0]) * (1000.0 if freq_units == "kHz" else 1.0))
         vals.append(float(row[1]) * factor)
     data: dict[str, Any] = {"freq_hz": freq, VALUE_KEY[kind]: vals}
@@ -180,15 +185,20 @@ def _time_history(filename: str, content: bytes, *, value_units: str | None,
 
 
 def _text(content: bytes) -> str:
+    nul = content.find(b"\x00")
+    if nul >= 0:
+        raise ValidationFailed("file", f"byte {nul}", "holds a NUL byte: not a text file")
     try:
         return content.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
-        raise ValidationFailed("file", f"byte {exc.start}", "is not UTF-8 text") from exc
+        raise ValidationFailed("file", f"byte {exc.start}",
+                               "is not UTF-8 text (save the file as UTF-8)") from exc
 
 
 def _is_number(cell: str) -> bool:
+    """A plain finite decimal literal (not ``2_000``, ``nan`` or ``inf``)."""
     try:
-        x = float(cell)
-    except ValueError:
+        parse_number("cell", cell)
+    except ValidationFailed:
         return False
-    return math.isfinite(x)
+    return True

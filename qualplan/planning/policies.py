@@ -12,7 +12,7 @@ from sqlalchemy.orm import Session
 
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require
-from qualplan.planning.catalog import _add_unique, check_version, get
+from qualplan.planning.catalog import _add_unique, check_version, get, name_key, ref_id
 from qualplan.planning.errors import NotFound
 from qualplan.store import models as m
 from qualplan.store.repositories import PolicyRepository
@@ -184,9 +184,9 @@ def list_policies(session: Session) -> list[m.MarginPolicy]:
 
 
 def policy_ref(session: Session, ref: str | int) -> m.MarginPolicy:
-    if isinstance(ref, int) or str(ref).isdigit():
-        return get(session, m.MarginPolicy, int(ref), "policy")
-    row = PolicyRepository(session).by_name(str(ref))
+    if (rid := ref_id(ref)) is not None:
+        return get(session, m.MarginPolicy, rid, "policy")
+    row = PolicyRepository(session).by_name(name_key(ref))
     if row is None:
         raise NotFound("policy", ref)
     return row

@@ -9,7 +9,7 @@ changed since), ``failed`` (the newest evidence fails) or ``verified``.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from datetime import UTC, datetime
+from datetime import UTC, datetime, timedelta
 
 from sqlalchemy import func, select
 from sqlalchemy.exc import IntegrityError
@@ -17,7 +17,7 @@ from sqlalchemy.orm import Session, selectinload
 
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require
-from qualplan.planning.catalog import get
+from qualplan.planning.catalog import get, name_key, ref_id
 from qualplan.planning.errors import Conflict, NotFound, ValidationFailed, VersionMismatch
 from qualplan.store import models as m
 from qualplan.store.types import utcnow
@@ -91,9 +91,9 @@ def update_requirement(
 
 
 def requirement_ref(session: Session, program: m.Program | None, ref: str | int) -> m.Requirement:
-    if isinstance(ref, int) or str(ref).isdigit():
-        return get(session, m.Requirement, int(ref), "requirement")
-    stmt = select(m.Requirement).where(m.Requirement.key == str(ref))
+    if (rid := ref_id(ref)) is not None:
+        return get(session, m.Requirement, rid, "requirement")
+    stmt = select(m.Requirement).where(m.Requirement.key == name_key(ref))
     if program is not None:
         stmt = stmt.where(m.Requirement.program_id == program.id)
     rows = session.scalars(stmt).all()
@@ -218,8 +218,10 @@ def status_of(
     *,
     level_stale: dict[int, list[str]] | None = None,
     now: datetime | None = None,
+    _chain: tuple[int, ...] = (),
 ) -> StatusOf:
-    """The requirement's status with the reason an auditor reads."""
+    """The requirement's status with the reason an auditor reads (`_chain`: the
+    requirements whose similarity claims led here, to stop at a cycle)."""
     from qualplan.planning.levels import staleness
 
     waiver = active_waiver(req, now)
@@ -255,7 +257,11 @@ def status_of(
             return StatusOf("stale", "; ".join(reasons), ev)
     if ev.kind is m.EvidenceKind.similarity and ev.similar_requirement_id is not None:
         other = session.get(m.Requirement, ev.similar_requirement_id)
-        inner = status_of(session, other, level_stale=level_stale, now=now)
+        chain = (*_chain, req.id)
+        if other.id in chain:
+            return StatusOf("open", f"similarity claims form a cycle through {other.key}: "
+                            "no requirement of the cycle is verified by it", ev)
+        inner = status_of(session, other, level_stale=level_stale, now=now, _chain=chain)
         if inner.status != "verified":
             return StatusOf(
                 "stale" if inner.status == "stale" else "open",
@@ -281,6 +287,11 @@ def read_requirement(session: Session, req: m.Requirement, **kw) -> s.Requiremen
     return out
 
 
+#: Longest a waiver may run [days] (ten years; common practice: a waiver is temporary and
+#: is reviewed at the program's milestones).
+MAX_WAIVER_DAYS = 3653
+
+
 def waive(session: Session, actor: Actor, requirement_id: int, cmd: s.WaiverIn) -> m.Waiver:
     """An approver waives a requirement until `expires_at`, with a rationale."""
     require(actor, m.Role.approver, "waiving a requirement")
@@ -288,6 +299,9 @@ def waive(session: Session, actor: Actor, requirement_id: int, cmd: s.WaiverIn) 
     expires = cmd.expires_at if cmd.expires_at.tzinfo else cmd.expires_at.replace(tzinfo=UTC)
     if expires <= datetime.now(UTC):
         raise ValidationFailed("expires_at", cmd.expires_at.isoformat(), "must lie in the future")
+    if expires > datetime.now(UTC) + timedelta(days=MAX_WAIVER_DAYS):
+        raise ValidationFailed("expires_at", cmd.expires_at.isoformat(),
+                               f"must lie within {MAX_WAIVER_DAYS} days (a waiver is temporary)")
     w = m.Waiver(
         requirement_id=req.id, approver=actor.name, rationale=cmd.rationale, expires_at=expires
     )

@@ -6,10 +6,11 @@ Units are in the field names (``duration_s``, ``freq_hz``, ``asd_g2_hz``, ``acce
 from __future__ import annotations
 
 from datetime import datetime
-from typing import Any, Literal
+from typing import Annotated, Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field
+from pydantic import BaseModel, ConfigDict, Field, model_validator
 
+from qualplan.planning.inputs import Id, Int, Key, Line, Name, Num, Text
 from qualplan.planning.results import LevelResult
 from qualplan.store.models import (
     Axis,
@@ -37,12 +38,12 @@ class Command(BaseModel):
 
 
 class ProgramCreate(Command):
-    name: str = Field(min_length=1, max_length=200)
-    description: str = ""
+    name: Name
+    description: Text = ""
 
 
 class ProgramUpdate(Command):
-    description: str
+    description: Text
 
 
 class ProgramRead(Read):
@@ -54,12 +55,12 @@ class ProgramRead(Read):
 
 
 class ProductCreate(Command):
-    program_id: int
-    name: str = Field(min_length=1, max_length=200)
-    parent_id: int | None = None
-    part_number: str = ""
-    mass_kg: float | None = Field(default=None, gt=0)
-    description: str = ""
+    program_id: Id
+    name: Name
+    parent_id: Id | None = None
+    part_number: Line = ""
+    mass_kg: Num | None = Field(default=None, gt=0)
+    description: Text = ""
 
 
 class ProductRead(Read):
@@ -79,12 +80,12 @@ class ProductNode(BaseModel):
 
 
 class PhaseCreate(Command):
-    program_id: int
-    name: str = Field(min_length=1, max_length=200)
-    duration_s: float = Field(gt=0, description="Duration of one occurrence [s]")
-    occurrences: int = Field(default=1, ge=1)
-    position: int = 0
-    description: str = ""
+    program_id: Id
+    name: Name
+    duration_s: Num = Field(gt=0, description="Duration of one occurrence [s]")
+    occurrences: Int = Field(default=1, ge=1)
+    position: Int = 0
+    description: Text = ""
 
 
 class PhaseRead(Read):
@@ -102,16 +103,16 @@ class PhaseRead(Read):
 
 
 class EnvironmentCreate(Command):
-    product_id: int
-    phase_id: int | None = None
-    name: str = Field(min_length=1, max_length=200)
+    product_id: Id
+    phase_id: Id | None = None
+    name: Name
     kind: EnvironmentKind
     axis: Axis
-    source: str = ""
-    provenance: str = ""
+    source: Line = ""
+    provenance: Text = ""
     #: The data of the first revision; its form depends on `kind` (see RevisionIn).
     data: dict[str, Any]
-    note: str = ""
+    note: Text = ""
 
 
 class RevisionIn(Command):
@@ -120,14 +121,17 @@ class RevisionIn(Command):
     random: ``{"freq_hz": [...], "asd_g2_hz": [...]}``; optional ``duration_s`` (one
     exposure; default the phase's occurrence duration).
     shock: ``{"freq_hz": [...], "accel_g": [...], "q": 10}``; optional ``count``.
-    sine: ``{"bands": [{"f_lo_hz", "f_hi_hz", "quantity", "amplitude", "measure"}],
-    "sweep": {"rate_oct_per_min" | "rate_hz_per_s", "direction", "sweeps"}}``.
+    sine: ``{"bands": [{"f_lo_hz", "f_hi_hz", "quantity", "amplitude", "unit", "measure"}],
+    "sweep": {"rate_oct_per_min" | "rate_hz_per_s", "direction", "sweeps"}}``; a band's
+    ``unit`` defaults to mm for a displacement (``measure`` peak or peak_to_peak), m/s for a
+    velocity and g for an acceleration; consecutive bands must meet (same peak acceleration
+    at the shared edge, within 10 %); stored amplitudes are in m, m/s and g.
     time_history: ``{"dt_s": ..., "accel_g": [...]}`` (long records go in as files).
     """
 
     data: dict[str, Any]
-    note: str = ""
-    expected_revision: int | None = Field(
+    note: Text = ""
+    expected_revision: Int | None = Field(
         default=None, description="Number of the revision this one replaces (concurrency)"
     )
 
@@ -198,74 +202,113 @@ class RevisionComparison(BaseModel):
 # --- margin policies ------------------------------------------------------------------
 
 
-class RandomRule(BaseModel):
-    margin_db: float = Field(description="Added to the limit level [dB]")
-    duration_s: float | None = Field(
+class Rule(BaseModel):
+    """A part of a margin policy: unknown keys and non-finite numbers are refused."""
+
+    model_config = ConfigDict(extra="forbid")
+
+
+class RandomRule(Rule):
+    margin_db: Num = Field(description="Added to the limit level [dB]")
+    duration_s: Num | None = Field(
         default=None, gt=0, description="Fixed test duration per axis [s]"
     )
-    duration_factor: float | None = Field(
+    duration_factor: Num | None = Field(
         default=None, gt=0, description="Test duration = factor x life exposure"
     )
-    compression_exponent: float | None = Field(
+    compression_exponent: Num | None = Field(
         default=None, gt=0, description="Inverse-power-law exponent m in g rms (time compression)"
     )
-    minimum_profile: dict[str, list[float]] | None = Field(
+    minimum_profile: dict[str, list[Num]] | None = Field(
         default=None, description="Floor PSD {freq_hz, asd_g2_hz} the level may not go below"
     )
-    tolerance_db: float = Field(default=3.0, gt=0, description="+/- band on the ASD [dB]")
-    grms_tolerance_pct: float = Field(default=10.0, gt=0, description="+/- on overall g rms [%]")
-    duration_tolerance_pct: float = Field(
+    tolerance_db: Num = Field(default=3.0, gt=0, description="+/- band on the ASD [dB]")
+    grms_tolerance_pct: Num = Field(default=10.0, gt=0, description="+/- on overall g rms [%]")
+    duration_tolerance_pct: Num = Field(
         default=10.0, ge=0, description="Shortest accepted duration, -x % [%]"
     )
-    basis: str = ""
+    basis: Text = ""
+
+    @model_validator(mode="after")
+    def _profile(self):
+        p = self.minimum_profile
+        if p is not None:
+            if sorted(p) != ["asd_g2_hz", "freq_hz"]:
+                raise ValueError(f"minimum_profile must have exactly the keys freq_hz and "
+                                 f"asd_g2_hz, not {sorted(p)}")
+            from qualplan.dynamics.errors import InputError
+            from qualplan.dynamics.psd import check_psd
+
+            try:
+                check_psd(p["freq_hz"], p["asd_g2_hz"])
+            except InputError as exc:
+                raise ValueError(f"minimum_profile.{exc}") from exc
+        return self
 
 
-class SineRule(BaseModel):
-    factor: float = Field(gt=0, description="Multiplier on the limit amplitude")
-    sweep_rate_oct_per_min: float = Field(gt=0)
+class SineRule(Rule):
+    factor: Num = Field(gt=0, description="Multiplier on the limit amplitude")
+    sweep_rate_oct_per_min: Num = Field(gt=0)
     direction: Literal["up", "down", "up-down"] = "up"
-    sweeps: int = Field(default=1, ge=1)
-    tolerance_pct: float = Field(default=10.0, gt=0, description="+/- on amplitude [%]")
-    basis: str = ""
+    sweeps: Int = Field(default=1, ge=1)
+    tolerance_pct: Num = Field(default=10.0, gt=0, description="+/- on amplitude [%]")
+    basis: Text = ""
 
 
-class ShockRule(BaseModel):
-    margin_db: float = Field(description="Added to the SRS [dB]")
-    shocks_per_direction: int = Field(ge=1, description="Shocks in each loaded direction")
+class ShockRule(Rule):
+    margin_db: Num = Field(description="Added to the SRS [dB]")
+    shocks_per_direction: Int = Field(ge=1, description="Shocks in each loaded direction")
     directions: Literal["one", "both"] = Field(
         default="one", description="Shock along one direction of each axis, or both (+ and -)"
     )
-    lower_db: float = Field(default=-6.0, lt=0, description="Lower tolerance band [dB]")
-    upper_db: float = Field(default=6.0, gt=0, description="Upper tolerance band [dB]")
-    outer_lower_db: float | None = Field(
+    lower_db: Num = Field(default=-6.0, lt=0, description="Lower tolerance band [dB]")
+    upper_db: Num = Field(default=6.0, gt=0, description="Upper tolerance band [dB]")
+    outer_lower_db: Num | None = Field(
         default=None, lt=0, description="Outer band for the points allowed outside"
     )
-    outer_upper_db: float | None = Field(default=None, gt=0)
-    min_share_within_band: float = Field(
+    outer_upper_db: Num | None = Field(default=None, gt=0)
+    min_share_within_band: Num = Field(
         default=1.0, gt=0, le=1, description="Share of points inside the band"
     )
-    min_fraction_above_nominal: float = Field(default=0.5, ge=0, le=1)
-    q: float = Field(default=10.0, gt=0.5)
-    basis: str = ""
+    min_fraction_above_nominal: Num = Field(default=0.5, ge=0, le=1)
+    q: Num = Field(default=10.0, gt=0.5)
+    basis: Text = ""
+
+    @model_validator(mode="after")
+    def _bands(self):
+        if self.outer_lower_db is not None and self.outer_lower_db > self.lower_db:
+            raise ValueError(f"outer_lower_db = {self.outer_lower_db:g} must not lie inside "
+                             f"the band (lower_db = {self.lower_db:g})")
+        if self.outer_upper_db is not None and self.outer_upper_db < self.upper_db:
+            raise ValueError(f"outer_upper_db = {self.outer_upper_db:g} must not lie inside "
+                             f"the band (upper_db = {self.upper_db:g})")
+        return self
 
 
-class AnalysisRule(BaseModel):
-    margin_db: float = Field(default=0.0, description="Analysis margin on the limit level [dB]")
-    basis: str = ""
+class AnalysisRule(Rule):
+    margin_db: Num = Field(default=0.0, description="Analysis margin on the limit level [dB]")
+    basis: Text = ""
 
 
-class EquivalenceRule(BaseModel):
-    q: float = Field(default=10.0, gt=0.5)
-    b: list[float] = Field(default=[8.0], min_length=1)
-    f_lo_hz: float = Field(default=20.0, gt=0)
-    f_hi_hz: float = Field(default=2000.0, gt=0)
-    points_per_octave: int = Field(default=6, ge=1, le=48)
-    fds_margin_db: float = Field(default=0.0, description="Required test/life FDS ratio [dB]")
-    ers_margin_db: float = Field(default=0.0, description="Required test/life ERS ratio [dB]")
-    overtest_limit_db: float = Field(
+class EquivalenceRule(Rule):
+    q: Num = Field(default=10.0, gt=0.5)
+    b: list[Annotated[Num, Field(gt=0, le=50)]] = Field(default=[8.0], min_length=1)
+    f_lo_hz: Num = Field(default=20.0, gt=0)
+    f_hi_hz: Num = Field(default=2000.0, gt=0)
+    points_per_octave: Int = Field(default=6, ge=1, le=48)
+    fds_margin_db: Num = Field(default=0.0, description="Required test/life FDS ratio [dB]")
+    ers_margin_db: Num = Field(default=0.0, description="Required test/life ERS ratio [dB]")
+    overtest_limit_db: Num = Field(
         default=6.0, gt=0, description="Test ERS above life ERS flagged beyond this [dB]"
     )
-    basis: str = ""
+    basis: Text = ""
+
+    @model_validator(mode="after")
+    def _band(self):
+        if self.f_hi_hz <= self.f_lo_hz:
+            raise ValueError(f"f_hi_hz = {self.f_hi_hz:g} must exceed f_lo_hz = "
+                             f"{self.f_lo_hz:g}")
+        return self
 
 
 class PolicyRules(BaseModel):
@@ -288,35 +331,35 @@ class PolicyRead(Read):
 
 
 class PolicyCopy(Command):
-    name: str = Field(min_length=1, max_length=200)
-    description: str | None = None
+    name: Name
+    description: Text | None = None
 
 
 class PolicyUpdate(Command):
     rules: PolicyRules
-    description: str | None = None
+    description: Text | None = None
 
 
 # --- levels ---------------------------------------------------------------------------
 
 
 class LevelRecipe(Command):
-    product_id: int
-    name: str = Field(min_length=1, max_length=200)
+    product_id: Id
+    name: Name
     purpose: LevelPurpose = LevelPurpose.test
     grade: Grade = Grade.qualification
     kind: Literal["random", "sine", "shock"]
     axis: Axis
-    revision_ids: list[int] = Field(min_length=1)
+    revision_ids: list[Id] = Field(min_length=1)
     #: envelope: maximum envelope; p95_50: normal tolerance limit of measured spectra;
     #: fds_equivalent (random test levels): the PSD that in the test duration does the
     #: fatigue damage of the chosen environments (any kinds) over their exposures.
     combination: Literal["envelope", "p95_50", "fds_equivalent"] = "envelope"
-    max_breakpoints: int = Field(default=12, ge=2, le=200)
-    policy_id: int
+    max_breakpoints: Int = Field(default=12, ge=2, le=200)
+    policy_id: Id
     #: Natural frequency and Q for the quick equivalent-static load factor (analysis).
-    load_factor_fn_hz: float | None = Field(default=None, gt=0)
-    load_factor_q: float = Field(default=10.0, gt=0.5)
+    load_factor_fn_hz: Num | None = Field(default=None, gt=0)
+    load_factor_q: Num = Field(default=10.0, gt=0.5)
 
 
 class LevelRead(Read):
@@ -346,23 +389,23 @@ class LevelRead(Read):
 
 
 class RequirementCreate(Command):
-    program_id: int
-    key: str = Field(min_length=1, max_length=80)
-    text: str = Field(min_length=1)
-    product_id: int
-    level_id: int | None = None
+    program_id: Id
+    key: Key
+    text: Text = Field(min_length=1)
+    product_id: Id
+    level_id: Id | None = None
     method: VerificationMethod
-    acceptance_criterion: str = ""
-    required_margin: float = 0.0
+    acceptance_criterion: Text = ""
+    required_margin: Num = 0.0
 
 
 class RequirementUpdate(Command):
-    text: str | None = None
-    level_id: int | None = None
+    text: Text | None = None
+    level_id: Id | None = None
     method: VerificationMethod | None = None
-    acceptance_criterion: str | None = None
-    required_margin: float | None = None
-    expected_version: int = Field(description="The version the edit was made from")
+    acceptance_criterion: Text | None = None
+    required_margin: Num | None = None
+    expected_version: Int = Field(description="The version the edit was made from")
 
 
 class RequirementRead(Read):
@@ -399,33 +442,33 @@ TraceSort = Literal["key", "product", "level", "method", "status", "evidence"]
 
 
 class AnalysisEvidenceIn(Command):
-    applied: float = Field(description="Applied (computed) value, in `units`")
-    allowable: float = Field(description="Allowable value, in `units`")
-    units: str = Field(min_length=1)
-    factor_of_safety: float = Field(default=1.0, gt=0)
-    note: str = ""
+    applied: Num = Field(description="Applied (computed) value, in `units`")
+    allowable: Num = Field(description="Allowable value, in `units`")
+    units: Key
+    factor_of_safety: Num = Field(default=1.0, gt=0)
+    note: Text = ""
 
 
 class TestEvidenceIn(Command):
     """An achieved test record, as arrays (a file reader turns uploads into this)."""
 
-    freq_hz: list[float] = Field(min_length=2)
-    values: list[float] = Field(
+    freq_hz: list[Num] = Field(min_length=2)
+    values: list[Num] = Field(
         min_length=2, description="g^2/Hz (random), g SRS (shock) or g peak (sine)"
     )
-    duration_s: float | None = Field(default=None, gt=0)
-    shocks: int | None = Field(default=None, ge=0)
-    note: str = ""
+    duration_s: Num | None = Field(default=None, gt=0)
+    shocks: Int | None = Field(default=None, ge=0)
+    note: Text = ""
 
 
 class SimilarityEvidenceIn(Command):
-    similar_requirement_id: int
-    rationale: str = Field(min_length=10)
+    similar_requirement_id: Id
+    rationale: Text = Field(min_length=10)
 
 
 class InspectionEvidenceIn(Command):
-    passed: bool
-    note: str = Field(min_length=3)
+    passed: bool = Field(strict=True)
+    note: Text = Field(min_length=3)
 
 
 class EvidenceRead(Read):
@@ -444,7 +487,7 @@ class EvidenceRead(Read):
 
 
 class WaiverIn(Command):
-    rationale: str = Field(min_length=10)
+    rationale: Text = Field(min_length=10)
     expires_at: datetime
 
 
@@ -491,7 +534,7 @@ class AuditReport(BaseModel):
 
 
 class UserCreate(Command):
-    name: str = Field(min_length=1, max_length=120)
+    name: Key
     role: Role
 
 

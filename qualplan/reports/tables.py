@@ -12,6 +12,8 @@ from __future__ import annotations
 import csv
 import io
 import json
+import os
+import unicodedata
 from pathlib import Path
 
 from qualplan.planning.documents import AuditContent, LevelSection, SpecificationContent
@@ -21,13 +23,27 @@ def _num(x: float | None) -> str:
     return "" if x is None else repr(float(x))
 
 
+def _one_line(text) -> str:
+    """A text on one line: control characters and line breaks become spaces, so a name
+    can never end a ``#`` comment line and start a data row."""
+    return "".join(" " if unicodedata.category(c) in ("Cc", "Zl", "Zp") else c
+                   for c in str(text))
+
+
+def _cell(text) -> str:
+    """A text cell that a spreadsheet will not run as a formula: a leading ``= + - @``,
+    tab or carriage return is escaped with a quote (OWASP, CSV injection)."""
+    text = _one_line(text) if text is not None else ""
+    return "'" + text if text[:1] in ("=", "+", "-", "@", "\t", "\r") else text
+
+
 def section_csv(content: SpecificationContent, section: LevelSection) -> str:
     """Breakpoint table of one level: (Hz, g^2/Hz), (Hz, g SRS) or (Hz, g peak)."""
     buf = io.StringIO()
     head = [
-        f"# {content.number} revision {content.revision}: {content.title}",
-        f"# level {section.name} #{section.number}, axis {section.axis}, {section.kind}, "
-        f"hash {section.level_hash}",
+        f"# {content.number} revision {content.revision}: {_one_line(content.title)}",
+        f"# level {_one_line(section.name)} #{section.number}, axis {section.axis}, "
+        f"{section.kind}, hash {section.level_hash}",
     ]
     w = csv.writer(buf, lineterminator="\n")
     if section.kind == "random":
@@ -85,14 +101,15 @@ def force_limit_csv(content: SpecificationContent, section: LevelSection) -> str
 
 def audit_csv(content: AuditContent) -> str:
     buf = io.StringIO()
-    buf.write(f"# {content.number} revision {content.revision}: {content.title}\n")
-    buf.write(f"# {content.verdict}\n")
+    buf.write(f"# {content.number} revision {content.revision}: {_one_line(content.title)}\n")
+    buf.write(f"# {_one_line(content.verdict)}\n")
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(["key", "product", "level", "method", "required_margin", "achieved_margin",
                 "margin_unit", "status", "evidence", "reason"])
     for r in content.items:
-        w.writerow([r.key, r.product, r.level or "", r.method, _num(r.required_margin),
-                    _num(r.achieved_margin), r.margin_unit, r.status, r.evidence, r.reason])
+        w.writerow([_cell(r.key), _cell(r.product), _cell(r.level or ""), _cell(r.method),
+                    _num(r.required_margin), _num(r.achieved_margin), _cell(r.margin_unit),
+                    _cell(r.status), _cell(r.evidence), _cell(r.reason)])
     return buf.getvalue()
 
 
@@ -107,18 +124,33 @@ def section_file_stem(content: SpecificationContent, section: LevelSection) -> s
     return f"{content.number}-r{content.revision}-{section.axis}-{section.kind}-{name}"
 
 
+def _write_atomic(path: Path, text: str) -> None:
+    """Write `text` to `path` whole or not at all: into a temporary file beside it, then
+    renamed over it; on a full disk (or any OSError) the partial file is removed."""
+    tmp = path.with_name(f".{path.name}.tmp")
+    try:
+        with open(tmp, "w", encoding="utf-8") as f:
+            f.write(text)
+            f.flush()
+            os.fsync(f.fileno())
+        os.replace(tmp, path)
+    except OSError:
+        tmp.unlink(missing_ok=True)
+        raise
+
+
 def write_tables(content: SpecificationContent | AuditContent, out_dir: Path) -> list[Path]:
     """Write the JSON and the CSV tables of `content` into `out_dir`; return the paths."""
     out_dir = Path(out_dir)
     stem = f"{content.number}-r{content.revision}"
     paths = []
     p = out_dir / f"{stem}.json"
-    p.write_text(content_json(content), encoding="utf-8")
+    _write_atomic(p, content_json(content))
     paths.append(p)
     if isinstance(content, SpecificationContent):
         for section in content.sections:
             p = out_dir / f"{section_file_stem(content, section)}.csv"
-            p.write_text(section_csv(content, section), encoding="utf-8")
+            _write_atomic(p, section_csv(content, section))
             paths.append(p)
             if getattr(section, "force_limit", None) is not None:
                 p = out_dir / f"{section_file_stem(content, section)}-force-limit.csv"
@@ -126,6 +158,6 @@ def write_tables(content: SpecificationContent | AuditContent, out_dir: Path) ->
                 paths.append(p)
     else:
         p = out_dir / f"{stem}.csv"
-        p.write_text(audit_csv(content), encoding="utf-8")
+        _write_atomic(p, audit_csv(content))
         paths.append(p)
     return paths

@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import csv
 import io
+import re
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
 from typing import Annotated, Any
@@ -33,12 +34,25 @@ from qualplan.planning.errors import (
     PlanningError,
     ValidationFailed,
 )
+from qualplan.planning.inputs import parse_number
 from qualplan.resources import data_dir
 from qualplan.serving import admission, request_session, status_of
 from qualplan.web import auth
 
 STATIC = "/static/web"
 templates = Jinja2Templates(directory=str(data_dir("templates")))
+_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f]")
+
+
+def _visible(value: Any) -> Any:
+    """Every text a page shows, with control characters (NUL, escape sequences of a form
+    value echoed back) replaced by U+FFFD."""
+    if not isinstance(value, str) or not _CONTROL.search(value):
+        return value
+    return type(value)(_CONTROL.sub("\ufffd", value))  # keeps Markup as Markup
+
+
+templates.env.finalize = _visible
 router = APIRouter(include_in_schema=False)
 
 K = s.EnvironmentKind
@@ -258,11 +272,12 @@ def number(form: FormData, name: str, *, integer: bool = False, required: bool =
         if required:
             raise ValidationFailed(name, None, "is required")
         return None
-    try:
-        return int(raw) if integer else float(raw)
-    except ValueError as exc:
-        kind = "a whole number" if integer else "a number"
-        raise ValidationFailed(name, raw, f"is not {kind}") from exc
+    return parse_number(name, raw, integer=integer)
+
+
+def _or(value, default):
+    """`default` for an empty field only (a typed 0 stays 0, for the schema to judge)."""
+    return default if value is None else value
 
 
 def csv_response(rows: list[list[Any]], filename: str) -> Response:

@@ -13,6 +13,7 @@ from qualplan.web import plots
 from qualplan.web.common import (
     Ctx,
     CtxDep,
+    _or,
     _slug,
     action,
     csv_response,
@@ -38,7 +39,7 @@ async def derive_level(product_id: int, request: Request, ctx: Ctx = CtxDep) -> 
             purpose=text(form, "purpose") or "test", grade=text(form, "grade") or "qualification",
             kind=text(form, "kind"), axis=text(form, "axis"), revision_ids=ids,
             combination=text(form, "combination") or "envelope",
-            max_breakpoints=number(form, "max_breakpoints", integer=True) or 12,
+            max_breakpoints=_or(number(form, "max_breakpoints", integer=True), 12),
             policy_id=number(form, "policy_id", integer=True, required=True),
             load_factor_fn_hz=number(form, "load_factor_fn_hz"),
         )

@@ -13,6 +13,7 @@ from qualplan.web.common import (
     Ctx,
     CtxDep,
     K,
+    _or,
     action,
     form_of,
     number,
@@ -90,7 +91,7 @@ async def create_phase(program_id: int, request: Request, ctx: Ctx = CtxDep) -> 
         catalog.create_phase(ctx.db, ctx.actor, s.PhaseCreate(
             program_id=program_id, name=text(form, "name"),
             duration_s=number(form, "duration_s", required=True),
-            occurrences=number(form, "occurrences", integer=True) or 1,
+            occurrences=_or(number(form, "occurrences", integer=True), 1),
             description=text(form, "description")))
         return f"/programs/{program_id}#phases"
 

@@ -15,6 +15,7 @@ from qualplan.planning.errors import ValidationFailed
 from qualplan.web.common import (
     Ctx,
     CtxDep,
+    _or,
     _slug,
     action,
     csv_response,
@@ -143,7 +144,7 @@ async def add_analysis(req_id: int, request: Request, ctx: Ctx = CtxDep) -> Resp
             applied=number(form, "applied", required=True),
             allowable=number(form, "allowable", required=True),
             units=text(form, "units"),
-            factor_of_safety=number(form, "factor_of_safety") or 1.0,
+            factor_of_safety=_or(number(form, "factor_of_safety"), 1.0),
             note=text(form, "note")))
         return f"/requirements/{req_id}"
 

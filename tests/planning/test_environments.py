@@ -76,7 +76,10 @@ def test_sine_and_shock_environments(session, engineer, unit, road):
     sine = envs.create_environment(session, engineer, s.EnvironmentCreate(
         product_id=unit.id, phase_id=road.id, name="engine sine", kind=m.EnvironmentKind.sine,
         axis=m.Axis.X, data={"bands": [
-            {"f_lo_hz": 5.0, "f_hi_hz": 20.0, "quantity": "displacement", "amplitude": 0.01,
+            # 2 g at 20 Hz in mm peak-to-peak, X = 2 A g0 / (2 pi f)^2 (closed form): the
+            # bands meet at the crossover
+            {"f_lo_hz": 5.0, "f_hi_hz": 20.0, "quantity": "displacement",
+             "amplitude": 2e3 * 2.0 * 9.80665 / (2 * 3.141592653589793 * 20.0) ** 2,
              "measure": "peak_to_peak"},
             {"f_lo_hz": 20.0, "f_hi_hz": 100.0, "quantity": "acceleration", "amplitude": 2.0}],
             "sweep": {"rate_oct_per_min": 2.0, "direction": "up", "sweeps": 1}}))

@@ -43,7 +43,7 @@ def build(session: Session) -> dict:
     x_pk_pk = 2 * 1.5 * 9.80665 / (2 * math.pi * 15.0) ** 2
     sine_x = env("engine sine", flight, m.EnvironmentKind.sine, m.Axis.X, {
         "bands": [{"f_lo_hz": 5.0, "f_hi_hz": 15.0, "quantity": "displacement",
-                   "amplitude": x_pk_pk, "measure": "peak_to_peak"},
+                   "amplitude": x_pk_pk, "unit": "m", "measure": "peak_to_peak"},
                   {"f_lo_hz": 15.0, "f_hi_hz": 100.0, "quantity": "acceleration",
                    "amplitude": 1.5}],
         "sweep": {"rate_oct_per_min": 2.0, "direction": "up", "sweeps": 1}})

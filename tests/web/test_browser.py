@@ -7,6 +7,7 @@ every step go to test-artifacts/screenshots/.
 from __future__ import annotations
 
 import re
+import time
 
 from qualplan.planning import environments
 from qualplan.store.session import unit_of_work
@@ -131,7 +132,9 @@ def test_engineer_story(new_page, users, world, shots):
     page.goto(req_url)
     waive = page.locator("#waive")
     waive.get_by_label("Rationale").fill("Shortfall accepted by the customer review board")
-    waive.get_by_label("Expires on").fill("2999-12-31")
+    # a waiver runs at most ten years (requirements.MAX_WAIVER_DAYS): one year from today
+    waive.get_by_label("Expires on").fill(
+        time.strftime("%Y-%m-%d", time.gmtime(time.time() + 365 * 86400)))
     waive.get_by_role("button", name="Waive").click()
     page.wait_for_load_state()
     assert "waived" in page.locator("dl.summary .status").text_content()

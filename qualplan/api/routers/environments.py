@@ -139,10 +139,12 @@ class RecordForm:
         value_units: UnitsIn = None,
         freq_units: Annotated[str, Form(description="Hz or kHz (tables)")] = "Hz",
         sample_rate_hz: Annotated[
-            float | None, Form(gt=0, description="Of a one-column or .npy record [Hz]")
+            float | None,
+            Form(gt=0, allow_inf_nan=False, description="Of a one-column or .npy record [Hz]"),
         ] = None,
         calibration: Annotated[
-            float | None, Form(gt=0, description="Of a .wav record: units per full scale")
+            float | None,
+            Form(gt=0, allow_inf_nan=False, description="Of a .wav record: units per full scale"),
         ] = None,
         variable: Annotated[str | None, Form(description="Of a .mat file")] = None,
     ) -> None:
