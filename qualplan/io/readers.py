@@ -359,7 +359,7 @@ def read_csv_time_history(path, *, name: str | None = None, unit: str, value_col
     else:
         if fs_hz is not None:
             raise InputError("fs_hz", fs_hz, "must be omitted when a time column is read")
-        if width > 2:
+        if width > 2 and value_column == 1:  # a column chosen by name or index is meant
             raise InputError("path", p.name,
                              f"has {width} columns; a record is read from (time, value): "
                              "remove the other columns")

@@ -21,14 +21,14 @@ from typing import Any
 
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field
-from sqlalchemy import func, select
+from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from qualplan.dynamics import modal as core_modal
 from qualplan.dynamics.errors import AccuracyWarning
 from qualplan.dynamics.units import G0_M_S2
 from qualplan.io.modal import read_modal_summary
-from qualplan.planning import envdata
+from qualplan.planning import envdata, estimates
 from qualplan.planning import results as res
 from qualplan.planning.access import Actor, record, require
 from qualplan.planning.catalog import get
@@ -523,26 +523,9 @@ def _json_safe(value):
     return value
 
 
-def estimate_staleness(session: Session, estimate: m.ResponseEstimate | int) -> list[str]:
-    """Why an estimate no longer reflects its inputs (empty when it is current)."""
-    from qualplan.planning.levels import staleness
-
-    est = estimate if isinstance(estimate, m.ResponseEstimate) else \
-        get(session, m.ResponseEstimate, int(estimate), "response estimate")
-    reasons = []
-    rev = est.modal_revision
-    latest = _latest(session, rev.summary_id)
-    if latest is not None and latest.number != rev.number:
-        reasons.append(f"modal summary {rev.summary.name!r} has revision {latest.number}, the "
-                       f"estimate used revision {rev.number}")
-    level = est.level
-    newest = session.scalar(select(func.max(m.Level.number)).where(
-        m.Level.product_id == level.product_id, m.Level.name == level.name))
-    if newest is not None and newest != level.number:
-        reasons.append(f"level {level.name!r} has number {newest}, the estimate used "
-                       f"number {level.number}")
-    reasons.extend(f"level {level.name!r}: {r}" for r in staleness(session, level))
-    return reasons
+def estimate_staleness(session: Session, estimate) -> list[str]:
+    """Why an estimate no longer reflects its inputs (planning.estimates)."""
+    return estimates.estimate_staleness(session, estimate)
 
 
 def read_estimate(session: Session, est: m.ResponseEstimate) -> EstimateRead:

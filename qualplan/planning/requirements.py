@@ -250,7 +250,7 @@ def status_of(
         if cache[req.level_id]:
             return StatusOf("stale", "; ".join(cache[req.level_id]), ev)
     if ev.summary.get("estimate_id") is not None:  # evidence from a response estimate
-        from qualplan.planning.modal import estimate_staleness
+        from qualplan.planning.estimates import estimate_staleness
 
         reasons = estimate_staleness(session, ev.summary["estimate_id"])
         if reasons:

@@ -183,6 +183,8 @@ class SineBand(Value):
     quantity: str
     amplitude: float
     measure: str | None = None
+    #: Unit of the amplitude as stored (m, m/s or g; absent in rows before units were kept).
+    unit: str | None = None
 
 
 class _Result(Value):

@@ -192,7 +192,9 @@ def message_of(exc: Exception) -> str:
         parts = []
         for err in exc.errors()[:3]:
             loc = ".".join(str(x) for x in err["loc"]) or "form"
-            parts.append(f"{loc}: {err['msg']}")
+            value = err.get("input")
+            shown = f" = {value!r}" if isinstance(value, str | int | float) else ""
+            parts.append(f"{loc}{shown}: {err['msg']}")
         return "; ".join(parts)
     if isinstance(exc, ValidationFailed):
         return f"{exc.field} = {exc.value!r}: {exc.rule}"

@@ -17,6 +17,8 @@ ALLOWED_SQLALCHEMY = {
     ("sqlalchemy.orm", "Session"),
     ("sqlalchemy.exc", "IntegrityError"),
     ("sqlalchemy.exc", "OperationalError"),
+    ("sqlalchemy.exc", "DataError"),
+    ("sqlalchemy.exc", "StatementError"),
     ("sqlalchemy.orm.exc", "StaleDataError"),
     ("sqlalchemy.engine", "make_url"),
 }

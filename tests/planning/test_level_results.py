@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 from pydantic import TypeAdapter
 
-from qualplan.planning import demo, documents, levels, results
+from qualplan.planning import demo, levels, results
 from qualplan.store import migrate
 from qualplan.store import models as m
 from qualplan.store.session import make_engine, make_sessionmaker, unit_of_work
@@ -108,35 +108,10 @@ def demo_db(tmp_path_factory):
     db.drop()
 
 
-def test_the_demo_gives_the_same_levels_as_before(demo_db):
-    factory, _ = demo_db
-    with unit_of_work(factory) as session:
-        rows = {lv.id: lv for lv in levels.list_levels(session)}
-        assert len(rows) == len(FIXTURE["levels"])
-        for old in FIXTURE["levels"]:
-            row = rows[old["id"]]
-            assert (row.name, row.number, row.kind.value) == (
-                old["name"], old["number"], old["kind"])
-            assert row.result["schema_version"] == results.SCHEMA_VERSION
-            _same(old["result"], _legacy(row.result), f"level {old['id']}")
-
-
-def test_the_demo_specifications_have_the_same_tables_as_before(demo_db, tmp_path):
-    """Each level section of the demo's specifications has the first release's breakpoint
-    tables, tolerances, durations, inputs and limit level (the words around them, the
-    steps and the verdicts, are new)."""
-    factory, summary = demo_db
-    with unit_of_work(factory) as session:
-        for grade in (m.Grade.qualification, m.Grade.acceptance):
-            content = documents.specification_content(session, summary.unit_id, grade)
-            old = FIXTURE["documents"][content.number]
-            got = {}
-            for sec in content.model_dump(mode="json")["sections"]:
-                got[f"{sec['name']} #{sec['number']}"] = {
-                    k: sec[k] for k in ("random", "sine", "shock") if sec.get(k)} | {
-                    "inputs": sec["derivation"]["inputs"], "limit": sec["derivation"]["limit"]}
-            assert got == old, content.number
-        session.rollback()
+# The typed result was checked against the first release's demo, level by level and
+# table by table (commit "Typed level result"); the demo has since changed on purpose
+# (environments carried down the product tree, a modal summary, sine bands in mm), so the
+# first release's rows are now checked for loading only (above and below).
 
 
 def test_a_version_1_row_in_the_database_reads_as_typed(demo_db):
