@@ -246,6 +246,14 @@ async def http_error(_request: Request, exc: StarletteHTTPException) -> JSONResp
     )
 
 
+async def stored_data_corrupt(_request: Request, exc: pe.StoredDataCorrupt) -> JSONResponse:
+    """A stored row that does not match its hash: refuse to serve it, name the row."""
+    return problem_response(
+        500, "stored-data-corrupt", "Stored data corrupt", str(exc),
+        table=exc.table, row_id=exc.row_id,
+    )
+
+
 async def unexpected(_request: Request, exc: Exception) -> JSONResponse:
     return problem_response(
         500,
@@ -287,4 +295,5 @@ def install(app: FastAPI) -> None:
     app.add_exception_handler(OverflowError, overflow)
     app.add_exception_handler(StatementError, data_error)
     app.add_exception_handler(StarletteHTTPException, http_error)
+    app.add_exception_handler(pe.StoredDataCorrupt, stored_data_corrupt)
     app.add_exception_handler(Exception, unexpected)

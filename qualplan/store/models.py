@@ -420,6 +420,9 @@ class Document(Base):
     note: Mapped[str] = mapped_column(Text, default="")
     author: Mapped[str] = mapped_column(String(120))
     created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    #: SHA-256 of the row's other columns (:func:`qualplan.store.hashing.document_row_hash`),
+    #: set on insert and checked whenever the row is read.
+    row_hash: Mapped[str] = mapped_column(String(64))
 
 
 IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, Document)

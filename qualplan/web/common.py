@@ -32,6 +32,7 @@ from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor
 from qualplan.planning.errors import (
     PlanningError,
+    StoredDataCorrupt,
     ValidationFailed,
 )
 from qualplan.planning.inputs import parse_number
@@ -218,6 +219,8 @@ def page(ctx: Ctx, build: Callable[[], Response]) -> Response:
     except PlanningError as exc:
         code, title = status_of(exc)
         return problem_page(ctx, code, title, message_of(exc))
+    except StoredDataCorrupt as exc:
+        return problem_page(ctx, 500, "Stored data corrupt", str(exc))
 
 
 def action(
@@ -242,6 +245,9 @@ def action(
     try:
         target = do()
         ctx.db.flush()  # constraint failures surface here; the unit of work commits
+    except StoredDataCorrupt as exc:
+        ctx.db.rollback()
+        return problem_page(ctx, 500, "Stored data corrupt", str(exc))
     except (PlanningError, ValidationError, ValueError) as exc:
         ctx.db.rollback()
         code = status_of_error(exc) if isinstance(exc, PlanningError) else 422
