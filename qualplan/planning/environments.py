@@ -106,6 +106,9 @@ def revise_environment(
     """Add a revision; refuse an identical content and a stale `expected_revision`."""
     require(actor, m.Role.engineer, "revising an environment")
     env = get(session, m.Environment, environment_id, "environment")
+    # take the environment's turn first: the latest revision read next is the last
+    # committed one, for the expected-revision and identical-content checks too
+    RevisionRepository(session).lock_environment(env.id)
     latest = RevisionRepository(session).latest(env.id)
     if (
         cmd.expected_revision is not None
