@@ -208,11 +208,10 @@ def test_kill9_of_the_server_during_derivations(db, token, tmp_path):
                   "kind": "random", "axis": "Z", "revision_ids": [rev_id],
                   "policy_id": policy_id}
 
-        def derive():
+        def derive(base=server.base, recipe=recipe, headers=headers):
             for _ in range(20):
                 try:
-                    httpx.post(f"{server.base}/levels", json=recipe, headers=headers,
-                               timeout=60)
+                    httpx.post(f"{base}/levels", json=recipe, headers=headers, timeout=60)
                 except httpx.HTTPError:
                     return
 
