@@ -28,7 +28,7 @@ from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require
 from qualplan.planning.audit import audit
 from qualplan.planning.catalog import get
-from qualplan.planning.errors import Conflict, ValidationFailed
+from qualplan.planning.errors import Conflict, NotFound, ValidationFailed
 from qualplan.planning.inputs import check_document_number
 from qualplan.planning.levels import read_level, result_of
 from qualplan.planning.lifecycle import current_test_levels
@@ -869,6 +869,23 @@ def issue_document(
                revision=doc.revision, content_hash=h, kind=content.kind)
     return IssuedDocument(document_id=doc.id, number=doc.number, revision=doc.revision,
                           content_hash=h, new_revision=not same, files=files)
+
+
+def document_ref(session: Session, number: str, revision: int | None = None) -> m.Document:
+    """An issued document by number and revision (default: its latest revision)."""
+    stmt = select(m.Document).where(m.Document.number == number)
+    if revision is not None:
+        stmt = stmt.where(m.Document.revision == revision)
+    doc = session.scalar(stmt.order_by(m.Document.revision.desc()).limit(1))
+    if doc is None:
+        raise NotFound("document", number if revision is None else f"{number} r{revision}")
+    return doc
+
+
+def approvals_of(session: Session, document_id: int) -> list[ApprovalRow]:
+    """The approval block of an issued revision: each role, who signed and when."""
+    get(session, m.Document, document_id, "document")
+    return _approvals(session, document_id)
 
 
 def list_documents(session: Session, product_id: int | None = None) -> list[m.Document]:
