@@ -9,6 +9,7 @@ from fastapi import APIRouter
 from fastapi.responses import Response
 
 from qualplan.planning import schemas as s
+from qualplan.reports import file_stem
 from qualplan.web.common import Ctx, CtxDep, page, problem_page
 
 router = APIRouter(include_in_schema=False)
@@ -22,7 +23,7 @@ def pdf_response(ctx: Ctx, make_content: Callable[[], Any]) -> Response:
         return problem_page(ctx, 404, "No PDF here",
                             "this service was started without the PDF renderer")
     content = make_content()
-    name = f"{content.number}-r{content.revision}.pdf"
+    name = f"{file_stem(content)}.pdf"
     return Response(ctx.web.pdf(content), media_type="application/pdf",
                     headers={"Content-Disposition": f'attachment; filename="{name}"',
                              "Cache-Control": "no-store"})
@@ -37,7 +38,8 @@ def specification_pdf(product_id: int, ctx: Ctx = CtxDep, grade: str = "qualific
     if grade not in {g.value for g in s.Grade}:
         return page(ctx, lambda: problem_page(ctx, 400, "No such grade", f"grade {grade!r}"))
     return page(ctx, lambda: pdf_response(
-        ctx, lambda: documents.specification_content(ctx.db, product_id, grade)))
+        ctx, lambda: documents.specification_content(ctx.db, product_id, grade,
+                                                     preview=True)))
 
 
 @router.get("/programs/{program_id}/audit.pdf")
@@ -45,4 +47,4 @@ def audit_pdf(program_id: int, ctx: Ctx = CtxDep):
     from qualplan.planning import documents
 
     return page(ctx, lambda: pdf_response(
-        ctx, lambda: documents.audit_content(ctx.db, program_id)))
+        ctx, lambda: documents.audit_content(ctx.db, program_id, preview=True)))

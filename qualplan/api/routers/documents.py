@@ -12,7 +12,7 @@ from pydantic import BaseModel, ConfigDict
 from qualplan.api.deps import ReaderDep, SessionDep
 from qualplan.planning import documents
 from qualplan.planning import schemas as s
-from qualplan.reports import pdf_bytes
+from qualplan.reports import file_stem, pdf_bytes
 
 router = APIRouter(tags=["documents"])
 
@@ -35,7 +35,7 @@ class DocumentRead(BaseModel):
 
 
 def _pdf(content) -> Response:
-    name = f"{content.number}-r{content.revision}.pdf"
+    name = f"{file_stem(content)}.pdf"
     return Response(pdf_bytes(content), media_type="application/pdf",
                     headers={"Content-Disposition": f'inline; filename="{name}"',
                              "X-Content-Hash": content.content_hash()})
@@ -45,16 +45,18 @@ def _pdf(content) -> Response:
             responses={200: {"content": {"application/pdf": {}}}})
 def specification_pdf(session: SessionDep, _: ReaderDep, product_id: int,
                       grade: s.Grade = s.Grade.qualification):
-    """The test-level specification of a product for a grade, as PDF (not issued)."""
-    return _pdf(documents.specification_content(session, product_id, grade))
+    """A preview of the test-level specification of a product for a grade, as PDF: marked
+    "PREVIEW - not issued" on every page, no revision; stale levels shown, marked."""
+    return _pdf(documents.specification_content(session, product_id, grade, preview=True))
 
 
 @router.get("/documents/audit.pdf", response_class=Response,
             responses={200: {"content": {"application/pdf": {}}}})
 def audit_pdf(session: SessionDep, _: ReaderDep, program_id: int,
               product_id: int | None = None):
-    """The margin-closure audit of a program (or a product and its children), as PDF."""
-    return _pdf(documents.audit_content(session, program_id, product_id))
+    """A preview of the margin-closure audit of a program (or a product and its children),
+    as PDF (marked, no revision)."""
+    return _pdf(documents.audit_content(session, program_id, product_id, preview=True))
 
 
 @router.get("/documents", response_model=list[DocumentRead])
