@@ -819,7 +819,7 @@ def issue_document(
     between) is refused with Conflict.
     """
     require(actor, m.Role.engineer, "issuing a document")
-    if content.preview:
+    if getattr(content, "preview", False):  # a loads package has no preview
         raise ValidationFailed("preview", True, f"{content.number} is a preview: a preview "
                                "is not issued; prepare the document without it")
     if isinstance(content, SpecificationContent):
