@@ -118,7 +118,8 @@ def test_same_state_same_content_and_revisions(db, tmp_path):
     assert doc.input_hashes["levels"] == {str(x.id): x.level_hash
                                           for x in data["levels"].values()
                                           if x.grade is m.Grade.qualification}
-    events = session.scalars(select(m.Event).where(m.Event.entity == "document")).all()
+    events = session.scalars(select(m.Event).where(
+        m.Event.entity == "document", m.Event.entity_id == first.document_id)).all()
     assert [e.action for e in events] == ["issue"]
     # A new revision of an input makes the levels on X stale: the default baseline leaves
     # them out, a preview shows them marked, an issue naming them is refused.
