@@ -168,7 +168,7 @@ def pdf_bytes(content: DocumentContent, svgs: dict | None = None) -> bytes:
 
 
 def _stem(content: DocumentContent) -> str:
-    return f"{content.number}-r{content.revision}"
+    return tables.file_stem(content)
 
 
 class PdfRenderer:

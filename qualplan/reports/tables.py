@@ -119,9 +119,16 @@ def content_json(content: SpecificationContent | AuditContent) -> str:
     return json.dumps(data, indent=2, sort_keys=True) + "\n"
 
 
+def file_stem(content) -> str:
+    """``NUMBER-rN`` of an issued revision, ``NUMBER-preview`` of a preview (no revision)."""
+    if getattr(content, "preview", False):
+        return f"{content.number}-preview"
+    return f"{content.number}-r{content.revision}"
+
+
 def section_file_stem(content: SpecificationContent, section: LevelSection) -> str:
     name = "".join(c if c.isalnum() else "-" for c in section.name).strip("-").lower()
-    return f"{content.number}-r{content.revision}-{section.axis}-{section.kind}-{name}"
+    return f"{file_stem(content)}-{section.axis}-{section.kind}-{name}"
 
 
 def _write_atomic(path: Path, text: str) -> None:
@@ -132,7 +139,7 @@ def _write_atomic(path: Path, text: str) -> None:
 def write_tables(content: SpecificationContent | AuditContent, out_dir: Path) -> list[Path]:
     """Write the JSON and the CSV tables of `content` into `out_dir`; return the paths."""
     out_dir = Path(out_dir)
-    stem = f"{content.number}-r{content.revision}"
+    stem = file_stem(content)
     paths = []
     p = out_dir / f"{stem}.json"
     _write_atomic(p, content_json(content))

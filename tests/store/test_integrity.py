@@ -21,12 +21,9 @@ from qualplan.store import migrate
 from qualplan.store import models as m
 from qualplan.store.session import make_engine, make_sessionmaker, unit_of_work
 
-APPEND_ONLY = (
-    "environment_revisions", "levels", "evidence", "events", "documents",
-    "modal_summary_revisions", "response_estimates",
-    "transfer_rule_revisions", "environment_derivations", "level_force_limits",
-    "record_channels", "record_chunks",
-)
+#: Every append-only table: the tables of the models the ORM guard refuses to change
+#: (a new immutable model without database guards fails these tests).
+APPEND_ONLY = tuple(sorted(model.__tablename__ for model in m.IMMUTABLE_MODELS))
 ENGINEER = Actor("eve", m.Role.engineer)
 # GSFC-STD-7000 (GEVS) Table 2.4-3 component acceptance breakpoints (invented use here).
 GEVS_ACC = {"freq_hz": [20.0, 50.0, 800.0, 2000.0], "asd_g2_hz": [0.013, 0.08, 0.08, 0.013]}
