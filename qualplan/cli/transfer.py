@@ -317,7 +317,8 @@ def notch(
     level: Annotated[int, typer.Option(help="Random or sine test level id: the notching is "
                                        "stored with it and printed in its specification.")],
     location: Annotated[str, typer.Option(help="Control or monitor location of the limit.")],
-    source: Annotated[NotchSource, typer.Option(help="Where the transmissibility comes from: a low-level survey or an analysis.")],
+    source: Annotated[NotchSource, typer.Option(
+        help="Where the transmissibility comes from: a low-level survey or an analysis.")],
     limit: Annotated[float | None, typer.Option(
         help="Constant response limit: g peak (sine) or g^2/Hz (random).")] = None,
     limit_table: Annotated[str, typer.Option(
