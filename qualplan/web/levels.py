@@ -7,7 +7,7 @@ from fastapi import APIRouter, Request
 from fastapi.responses import Response
 from starlette.concurrency import run_in_threadpool
 
-from qualplan.planning import catalog, levels, wording
+from qualplan.planning import catalog, levels, notching, transfers, wording
 from qualplan.planning import schemas as s
 from qualplan.web import plots
 from qualplan.web.common import (
@@ -67,6 +67,8 @@ def level(level_id: int, ctx: Ctx = CtxDep) -> Response:
             plot=plots.level_plot(read) if row.kind in plots.QUANTITY else None,
             coverage=plots.coverage_plots(read), worst=plots.worst_margins(read),
             cov=read.result.coverage,
+            force_limit=transfers.level_force_limit(ctx.db, row.id),
+            notched=notching.level_notching(ctx.db, row.id),
         )
 
     return page(ctx, build)
