@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from pathlib import Path
 from typing import Annotated
 
 import typer
@@ -11,6 +12,7 @@ from qualplan.cli.common import JsonOption, ProgramOption, _program, group, loca
 from qualplan.cli.output import emit_json, progress, table
 from qualplan.planning import (
     catalog,
+    documents,
     levels,
     policies,
     wording,
@@ -21,6 +23,7 @@ from qualplan.planning.schemas import (
     Grade,
     LevelPurpose,
 )
+from qualplan.reports import tables
 
 level_app = group("level", "Derived test and analysis levels.")
 
@@ -153,6 +156,32 @@ def level_show(level_id: int, db: DbOption = None, as_json: JsonOption = False) 
         emit_json(out)
     else:
         _print_level(out)
+
+
+@level_app.command("export")
+def level_export(
+    level_id: int,
+    out: Annotated[Path | None, typer.Option(
+        "--out", help="File to write (default: print the table).")] = None,
+    digits: Annotated[int, typer.Option(
+        min=1, max=17, help="Significant figures of the values.")] = wording.SIGNIFICANT,
+    as_json: JsonOption = False,
+    db: DbOption = None,
+) -> None:
+    """Export a level's breakpoint table (CSV with # comment lines, or --json with a
+    caution field): random [Hz, g^2/Hz], shock SRS [Hz, g], sine bands [Hz, mm, g]."""
+    with work(db) as session:
+        export = documents.level_export(session, level_id)
+    text = export.model_dump_json(indent=2) + "\n" if as_json else \
+        tables.level_export_csv(export, digits)
+    if out is None:
+        typer.echo(text, nl=False)
+        return
+    try:
+        out.write_text(text, encoding="utf-8")
+    except OSError as exc:
+        raise CliError(f"--out {out}: cannot write ({exc.strerror})") from exc
+    typer.echo(f"wrote {out}")
 
 
 @level_app.command("list")

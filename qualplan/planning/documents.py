@@ -552,6 +552,22 @@ def _section(session: Session, level: m.Level) -> LevelSection:
     )
 
 
+class LevelExport(Content):
+    """One level as its breakpoint table leaves qualplan outside a document."""
+
+    section: LevelSection
+    grade: str | None
+    caution: str = wording.CAUTION
+
+
+def level_export(session: Session, level_id: int) -> LevelExport:
+    """The section of level `level_id` (tables, tolerances, stale reasons) and its grade,
+    for the web download, the API and ``qualplan level export``."""
+    level = get(session, m.Level, level_id, "level")
+    return LevelExport(section=_section(session, level),
+                       grade=level.grade.value if level.grade else None)
+
+
 def specification_content(
     session: Session,
     product_id: int,

@@ -12,8 +12,6 @@ qualplan.serving's table, the same as the API's.
 
 from __future__ import annotations
 
-import csv
-import io
 import re
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
@@ -282,11 +280,15 @@ def _or(value, default):
     return default if value is None else value
 
 
-def csv_response(rows: list[list[Any]], filename: str) -> Response:
-    buf = io.StringIO()
-    csv.writer(buf, lineterminator="\n").writerows(rows)
+def csv_response(rows: list[list[Any]], filename: str, comments: list[str] | None = None,
+                 *, body: str | None = None) -> Response:
+    """A CSV download in the one export format (reports.tables.plain_csv): ``#`` comments
+    and the caution, the header (``rows[0]``), values to 4 significant figures."""
+    from qualplan.reports import tables
+
+    text = body if body is not None else tables.plain_csv(comments or [], rows[0], rows[1:])
     return Response(
-        buf.getvalue(),
+        text,
         media_type="text/csv; charset=utf-8",
         headers={"Content-Disposition": f'attachment; filename="{filename}"'},
     )

@@ -10,6 +10,7 @@ from starlette.concurrency import run_in_threadpool
 from qualplan.planning import catalog, environments, imports
 from qualplan.planning import schemas as s
 from qualplan.planning.errors import PlanningError
+from qualplan.reports import tables
 from qualplan.web import plots
 from qualplan.web.common import (
     Ctx,
@@ -105,11 +106,10 @@ def revision_csv(env_id: int, number: int, ctx: Ctx = CtxDep) -> Response:
     def build() -> Response:
         env = environments.environment_by_id(ctx.db, env_id)
         rev = environments.revision(ctx.db, env.id, number)
-        xy = plots.revision_xy(env.kind, rev.spec, rev.data)
-        if xy is None:
+        body = tables.revision_csv(env.kind.value, env.name, rev.number, rev.spec)
+        if body is None:
             return problem_page(ctx, 400, "No table", "a time history has no breakpoint table")
-        qty, unit = plots.QUANTITY[env.kind]
-        rows = [["frequency [Hz]", f"{qty} [{unit}]"], *zip(*xy, strict=True)]
-        return csv_response(rows, f"{_slug(env.name)}-r{rev.number}.csv")
+        rows: list = []
+        return csv_response(rows, f"{_slug(env.name)}-r{rev.number}.csv", body=body)
 
     return page(ctx, build)

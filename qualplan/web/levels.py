@@ -7,16 +7,15 @@ from fastapi import APIRouter, Request
 from fastapi.responses import Response
 from starlette.concurrency import run_in_threadpool
 
-from qualplan.planning import catalog, levels, wording
+from qualplan.planning import catalog, documents, levels, wording
 from qualplan.planning import schemas as s
+from qualplan.reports import tables
 from qualplan.web import plots
 from qualplan.web.common import (
     Ctx,
     CtxDep,
     _or,
-    _slug,
     action,
-    csv_response,
     form_of,
     number,
     page,
@@ -74,12 +73,12 @@ def level(level_id: int, ctx: Ctx = CtxDep) -> Response:
 
 @router.get("/levels/{level_id}/breakpoints.csv")
 def level_csv(level_id: int, ctx: Ctx = CtxDep) -> Response:
+    """The level's breakpoint table in the one export format (reports.tables)."""
     def build() -> Response:
-        row = levels.level_by_id(ctx.db, level_id)
-        result = levels.result_of(row)
-        qty, unit = plots.QUANTITY[row.kind]
-        rows = [["frequency [Hz]", f"{qty} [{unit}]"],
-                *zip(result.freq_hz, result.values, strict=True)]
-        return csv_response(rows, f"{_slug(row.name)}-{row.number}.csv")
+        export = documents.level_export(ctx.db, level_id)
+        return Response(
+            tables.level_export_csv(export), media_type="text/csv; charset=utf-8",
+            headers={"Content-Disposition":
+                     f'attachment; filename="{tables.level_file_stem(export)}.csv"'})
 
     return page(ctx, build)
