@@ -22,6 +22,7 @@ from qualplan.cli.output import emit_json, table
 from qualplan.planning import (
     catalog,
     environments,
+    wording,
 )
 from qualplan.planning import schemas as s
 from qualplan.planning.schemas import (
@@ -173,7 +174,8 @@ def env_list(
         table(
             ["id", "name", "kind", "axis", "units", "latest rev", "product id"],
             [
-                (e.id, e.name, e.kind.value, e.axis.value, e.units, e.latest_revision, e.product_id)
+                (e.id, e.name, wording.kind(e.kind), e.axis.value, e.units, e.latest_revision,
+                 e.product_id)
                 for e in rows
             ],
         )
@@ -219,7 +221,7 @@ def env_compare(
     if cmp.max_difference_db is not None:
         typer.echo(
             f"largest difference {cmp.max_difference_db:+.2f} dB at "
-            f"{cmp.max_difference_at_hz:.4g} Hz"
+            f"{wording.frequency(cmp.max_difference_at_hz)}"
         )
     for note in cmp.notes:
         typer.echo(f"note: {note}")

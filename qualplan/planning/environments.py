@@ -207,6 +207,45 @@ def revision(session: Session, environment_id: int, number: int) -> m.Environmen
     raise NotFound("revision", f"{environment_id}/{number}")
 
 
+def revision_ids_of_inputs(session: Session, product_id: int, inputs: str) -> list[int]:
+    """Global revision ids of `inputs`, a comma-separated list of the product's
+    environments by name or id, each with ``@n`` for its revision n (the latest revision
+    without it): ``"flight Z@2,road X"``. A name is tried before an id."""
+    envs = list_environments(session, product_id=product_id)
+    by_name = {e.name: e for e in envs}
+    by_id = {str(e.id): e for e in envs}
+    out: list[int] = []
+    items = [x.strip() for x in str(inputs).split(",") if x.strip()]
+    if not items:
+        raise ValidationFailed("inputs", inputs, "names no environment (give e.g. 'flight Z@2')")
+    for item in items:
+        ref, number = item, None
+        if "@" in item:
+            head, tail = item.rsplit("@", 1)
+            if tail.strip().isdigit():
+                ref, number = head.strip(), int(tail)
+            elif head.strip() not in by_name:
+                raise ValidationFailed("inputs", item, "revision after '@' must be a whole "
+                                       "number, as in 'flight Z@2'")
+        env = by_name.get(ref) or by_id.get(ref)
+        if env is None:
+            known = ", ".join(sorted(by_name)) or "none"
+            raise ValidationFailed("inputs", item, f"is not an environment of the product "
+                                   f"(its environments: {known})")
+        if number is None:
+            latest = RevisionRepository(session).latest(env.id)
+            if latest is None:
+                raise ValidationFailed("inputs", item, "has no revision")
+            out.append(latest.id)
+            continue
+        try:
+            out.append(revision(session, env.id, number).id)
+        except NotFound:
+            raise ValidationFailed("inputs", item, f"environment {env.name!r} has no "
+                                   f"revision {number}") from None
+    return out
+
+
 def compare(session: Session, environment_id: int, a: int, b: int) -> s.RevisionComparison:
     """Compare two revisions: overall measures and the largest difference in dB."""
     env = get(session, m.Environment, environment_id, "environment")
