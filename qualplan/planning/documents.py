@@ -32,7 +32,7 @@ from qualplan.planning.errors import Conflict, ValidationFailed
 from qualplan.planning.inputs import check_document_number
 from qualplan.planning.levels import read_level, result_of
 from qualplan.planning.lifecycle import current_test_levels
-from qualplan.planning.policies import rules_of
+from qualplan.planning.policies import basis_statement, rules_of
 from qualplan.planning.transfers import level_force_limit
 from qualplan.store import models as m
 from qualplan.store.hashing import json_hash
@@ -609,8 +609,8 @@ def specification_content(
     policies = {}
     for lvl in chosen:
         if lvl.policy is not None:
-            policies[lvl.policy.name] = PolicyInfo(name=lvl.policy.name,
-                                                   basis=lvl.policy.basis or "-")
+            policies[lvl.policy.name] = PolicyInfo(
+                name=lvl.policy.name, basis=basis_statement(session, lvl.policy))
     warnings = [f"{sec.name} #{sec.number} is STALE: {r}" for sec in sections
                 for r in sec.stale_reasons]
     axes = []

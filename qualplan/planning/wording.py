@@ -61,6 +61,19 @@ def number(value: float | int | None, digits: int = SIGNIFICANT) -> str:
     return f"{x:.{digits - 1}e}".replace("e-0", "e-").replace("e+0", "e").replace("e+", "e")
 
 
+#: Each requirement status with a symbol, so it reads without colour (web, PDF, CLI).
+STATUS_SYMBOLS = {"verified": "✓", "waived": "⊘", "failed": "✗", "stale": "⟳", "open": "○"}
+
+
+def status(name: str | None) -> str:
+    """A status as symbol and word: "✓ verified", "⊘ waived", "✗ failed"."""
+    if name is None:
+        return "-"
+    name = str(getattr(name, "value", name))
+    symbol = STATUS_SYMBOLS.get(name)
+    return f"{symbol} {name}" if symbol else name
+
+
 def duration(seconds: float | None) -> str:
     """A duration in s below 2 min, min below 2 h, h above: "45 s", "30 min", "474 h"."""
     if seconds is None:

@@ -27,6 +27,7 @@ from starlette.datastructures import FormData, UploadFile
 
 from qualplan import __version__
 from qualplan.planning import schemas as s
+from qualplan.planning import wording
 from qualplan.planning.access import Actor
 from qualplan.planning.errors import (
     PlanningError,
@@ -64,9 +65,7 @@ def _fmt(value: Any, digits: int = 4) -> str:
     if isinstance(value, bool):
         return "yes" if value else "no"
     if isinstance(value, int | float):
-        if 1e4 <= abs(value) < 1e9:  # 10000 Hz, not 1e+04 Hz
-            return f"{float(f'{value:.{digits}g}'):.0f}"
-        return f"{value:.{digits}g}"
+        return wording.number(value, digits)
     if isinstance(value, list | tuple):
         return "–".join(_fmt(v, digits) for v in value)
     return str(value)
@@ -86,6 +85,11 @@ LABELS = {
 
 templates.env.filters["num"] = _fmt
 templates.env.filters["unit"] = _unit
+templates.env.filters["status"] = wording.status
+templates.env.filters["kind"] = wording.kind
+templates.env.filters["hz"] = wording.frequency
+templates.env.filters["duration"] = wording.duration
+templates.env.filters["db"] = wording.decibels
 templates.env.filters["label"] = lambda key: LABELS.get(key, str(key).replace("_", " "))
 templates.env.globals["STATIC"] = STATIC
 templates.env.globals["version"] = __version__
