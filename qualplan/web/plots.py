@@ -11,7 +11,7 @@ from typing import Any
 
 import numpy as np
 
-from qualplan.planning import envdata
+from qualplan.planning import envdata, environments
 from qualplan.planning.schemas import EnvironmentKind
 
 K = EnvironmentKind
@@ -62,6 +62,21 @@ def environment_plot(env, revs: list) -> dict[str, Any] | None:
                               role="main" if i == 0 else "other"))
     return plot(f"{env.name}: {qty}", series, xlabel="frequency", xunit="Hz",
                 ylabel=qty, yunit=unit)
+
+
+def difference_plot(env, ra, rb) -> dict[str, Any] | None:
+    """Revision b against revision a [dB] over their common band (planning's curve), the
+    plot under the overlay of the two revisions."""
+    curve = environments.difference_curve(env.kind, ra, rb)
+    if isinstance(curve, str):
+        return None
+    grid, diff, _, scale = curve
+    return plot(f"{env.name}: revision {rb.number} against revision {ra.number}", [
+        _series(f"r{rb.number} / r{ra.number}", grid.tolist(), diff.tolist()),
+        _series("0 dB: unchanged", [float(grid[0]), float(grid[-1])], [0.0, 0.0], "dashed",
+                "band"),
+    ], xlabel="frequency", xunit="Hz", ylabel="difference", yunit="dB", ylog=False,
+        note=f"dB = {scale:g} log10(b/a) on a 1/24-octave grid")
 
 
 def record_plots(env, rev) -> list[dict[str, Any]]:

@@ -366,7 +366,7 @@ def test_sign_in_never_redirects_off_site(browserless, users, target):
     b.get("/signin")
     r = b.client.post("/signin", data={"csrf": b.csrf, "token": users["viewer"].token,
                                        "next": target}, follow_redirects=False)
-    assert r.status_code == 303 and r.headers["location"] == "/programs"
+    assert r.status_code == 303 and r.headers["location"] == "/dashboard"
 
 
 def test_numbers_for_people():
