@@ -63,7 +63,8 @@ def level(level_id: int, ctx: Ctx = CtxDep) -> Response:
             steps=[wording.step_sentence(st, grade=row.grade.value if row.grade else None,
                                          policy=row.policy.name if row.policy else None)
                    for st in read.result.steps],
-            plot=plots.level_plot(read) if row.kind in plots.QUANTITY else None,
+            plot=plots.level_plot(read, levels.compressed_inputs(ctx.db, row))
+            if row.kind in plots.QUANTITY else None,
             coverage=plots.coverage_plots(read), worst=plots.worst_margins(read),
             cov=read.result.coverage,
         )

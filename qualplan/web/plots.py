@@ -94,8 +94,9 @@ def record_plots(env, rev) -> list[dict[str, Any]]:
     ]
 
 
-def level_plot(level) -> dict[str, Any]:
-    """The level with its tolerance band (dashed) and the limit level it came from.
+def level_plot(level, inputs: list[dict[str, Any]] | None = None) -> dict[str, Any]:
+    """The level with its tolerance band (dashed), the limit level it came from and each
+    of its inputs compressed to the test duration (planning.levels.compressed_inputs).
 
     `level` is planning's LevelRead; the band is the one planning stored with the result.
     """
@@ -113,6 +114,8 @@ def level_plot(level) -> dict[str, Any]:
     series.append(_series("limit level (before margin)", lim.freq_hz,
                           lim.asd_g2_hz if level.kind is K.random else lim.accel_g,
                           "dotted", "other"))
+    for item in inputs or []:
+        series.append(_series(item["name"], item["freq_hz"], item["values"], "dotted", "alt"))
     return plot(f"{level.name} #{level.number}: {qty}", series, xlabel="frequency",
                 xunit="Hz", ylabel=qty, yunit=unit)
 
