@@ -18,7 +18,7 @@ from pypdf import PdfReader
 from sqlalchemy import select
 
 from qualplan.dynamics import psd as core_psd
-from qualplan.planning import audit, documents, environments, imports
+from qualplan.planning import audit, documents, environments, imports, wording
 from qualplan.planning import schemas as s
 from qualplan.planning.errors import Conflict, ValidationFailed
 from qualplan.reports import PdfRenderer, tables
@@ -45,7 +45,9 @@ def test_specification_pdf_shows_the_stored_levels(db, tmp_path):
     for f, a in zip(random["freq_hz"], random["asd_g2_hz"], strict=True):
         assert f"{_num(f)} {_num(a)}" in text  # each breakpoint row: Hz, g^2/Hz
     assert f"{_num(random['grms'])} g rms" in text
-    assert f"{_num(random['duration_s'])} s" in text
+    # durations in s, min or h as fits: GEVS 2 min per axis (120 s) reads "2 min"
+    assert f"{wording.duration(random['duration_s'])} per axis" in text.replace("\n", " ")
+    assert wording.duration(random["duration_s"]) == "2 min"
     shock = data["levels"]["shock"].result
     for f, a in zip(shock["freq_hz"], shock["accel_g"], strict=True):
         assert f"{_num(f)} {_num(a)}" in text
