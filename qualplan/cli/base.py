@@ -26,12 +26,15 @@ from qualplan.store.session import DatabaseUrlError, make_engine, masked, normal
 
 app = typer.Typer(
     name="qualplan",
+    # Plain help: rich markup would take unit hints such as "[s]" or "[kg]" for tags.
+    rich_markup_mode=None,
     help="Qualification planning for dynamic environments (PSD, sine, SRS, FDS, ERS).",
     no_args_is_help=True,
     add_completion=False,
     pretty_exceptions_enable=False,
 )
-db_app = typer.Typer(help="Schema migrations of the database.", no_args_is_help=True)
+db_app = typer.Typer(
+    rich_markup_mode=None, help="Schema migrations of the database.", no_args_is_help=True)
 app.add_typer(db_app, name="db")
 
 DbOption = Annotated[
@@ -73,6 +76,21 @@ def checked_engine(db: str | None):
     engine = make_engine(database_url(db))
     migrate.check_schema(engine)
     return engine
+
+
+def _show_version(value: bool) -> None:
+    if value:
+        typer.echo(__version__)
+        raise typer.Exit(0)
+
+
+@app.callback()
+def _main_options(
+    show_version: Annotated[bool, typer.Option(
+        "--version", help="Print the qualplan version and exit.", is_eager=True,
+        callback=_show_version)] = False,
+) -> None:
+    """Qualification planning for dynamic environments (PSD, sine, SRS, FDS, ERS)."""
 
 
 @app.command()

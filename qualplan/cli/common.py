@@ -30,7 +30,7 @@ ProgramOption = Annotated[str | None, typer.Option("--program", help="Program na
 
 def group(name: str, help: str) -> typer.Typer:
     """A command group (``qualplan NAME ...``) registered on the main app."""
-    sub = typer.Typer(help=help, no_args_is_help=True)
+    sub = typer.Typer(rich_markup_mode=None, help=help, no_args_is_help=True)
     app.add_typer(sub, name=name)
     return sub
 

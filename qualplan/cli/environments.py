@@ -23,6 +23,7 @@ from qualplan.planning import (
     approvals,
     catalog,
     environments,
+    wording,
 )
 from qualplan.planning import schemas as s
 from qualplan.planning.schemas import (
@@ -174,7 +175,7 @@ def env_list(
         table(
             ["id", "name", "kind", "axis", "units", "latest rev", "product id", "withdrawn"],
             [
-                (e.id, e.name, e.kind.value, e.axis.value, e.units, e.latest_revision,
+                (e.id, e.name, wording.kind(e.kind), e.axis.value, e.units, e.latest_revision,
                  e.product_id, e.withdrawn or "")
                 for e in rows
             ],
@@ -236,7 +237,7 @@ def env_compare(
     if cmp.max_difference_db is not None:
         typer.echo(
             f"largest difference {cmp.max_difference_db:+.2f} dB at "
-            f"{cmp.max_difference_at_hz:.4g} Hz"
+            f"{wording.frequency(cmp.max_difference_at_hz)}"
         )
     for note in cmp.notes:
         typer.echo(f"note: {note}")

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from pathlib import Path
 from typing import Annotated
 
 import typer
@@ -12,6 +13,8 @@ from qualplan.cli.output import emit_json, progress, table
 from qualplan.planning import (
     approvals,
     catalog,
+    documents,
+    environments,
     levels,
     policies,
     wording,
@@ -22,6 +25,7 @@ from qualplan.planning.schemas import (
     Grade,
     LevelPurpose,
 )
+from qualplan.reports import tables
 
 level_app = group("level", "Derived test and analysis levels.")
 
@@ -35,7 +39,11 @@ def level_derive(
     product: Annotated[str, typer.Option(help="Product name or id.")],
     kind: Annotated[str, typer.Option(help="random, sine or shock.")],
     axis: Annotated[Axis, typer.Option(help="Axis.")],
-    revisions: Annotated[str, typer.Option(help="Environment revision ids, comma-separated.")],
+    revisions: Annotated[str | None, typer.Option(
+        help="Environment revision ids (global), comma-separated.")] = None,
+    inputs: Annotated[str | None, typer.Option(
+        help="Environments by name or id, each with @n for revision n (latest without): "
+        "'flight Z@2,road X'.")] = None,
     policy: Annotated[str, typer.Option(help="Margin policy name or id.")] = "spaceflight-gevs",
     grade: Annotated[Grade, typer.Option(help="Test grade.")] = Grade.qualification,
     purpose: Annotated[LevelPurpose, typer.Option(help="test or analysis.")] = LevelPurpose.test,
@@ -51,14 +59,20 @@ def level_derive(
     db: DbOption = None,
     as_json: JsonOption = False,
 ) -> None:
-    """Derive a test or analysis level from environment revisions."""
+    """Derive a test or analysis level from environment revisions (--inputs by name,
+    --revisions by id, or both)."""
+    if revisions is None and inputs is None:
+        raise CliError("give the inputs: --inputs 'flight Z@2,road X' or --revisions 3,4")
     try:
-        ids = [int(x) for x in revisions.split(",") if x.strip()]
+        ids = [int(x) for x in (revisions or "").split(",") if x.strip()]
     except ValueError as exc:
         raise CliError(f"--revisions {revisions!r}: give revision ids like 3,4,7") from exc
     with work(db) as session:
         prog = _program(session, program)
         prod = catalog.product_ref(session, prog, product)
+        if inputs is not None:
+            ids += [i for i in environments.revision_ids_of_inputs(session, prod.id, inputs)
+                    if i not in ids]
         pol = policies.policy_ref(session, policy)
         recipe = s.LevelRecipe(
             product_id=prod.id,
@@ -96,38 +110,39 @@ def _print_level(level: s.LevelRead) -> None:
     if r.kind == "random":
         table(["freq [Hz]", "ASD [g^2/Hz]"], zip(r.freq_hz, r.asd_g2_hz, strict=True))
         typer.echo(
-            f"overall {r.grms:.3f} g rms"
+            f"overall {wording.number(r.grms)} g rms"
             + (f", {wording.duration(r.duration_s)} per axis" if r.duration_s is not None
                else "")
         )
     elif r.kind == "shock":
         table(["freq [Hz]", "SRS [g]"], zip(r.freq_hz, r.accel_g, strict=True))
         typer.echo(
-            f"Q {r.q:g}, tolerance {r.lower_db:+g}/{r.upper_db:+g} dB, "
+            f"Q = {wording.number(r.q)}, tolerance {wording.decibels(r.lower_db)} / "
+            f"{wording.decibels(r.upper_db)}, "
             f"{r.shocks_per_axis} shocks per axis"
         )
     else:
         table(["freq [Hz]", "amplitude [g peak]"], zip(r.freq_hz, r.accel_g, strict=True))
         typer.echo(
-            f"{r.sweep_rate_oct_per_min:g} oct/min {r.direction}, "
-            f"{r.sweeps} sweep(s), {r.sweep_time_s:.1f} s"
+            f"{wording.number(r.sweep_rate_oct_per_min)} oct/min {r.direction}, "
+            f"{wording.count(r.sweeps, 'sweep')}, {wording.duration(r.sweep_time_s)}"
         )
     cov = r.coverage
     if cov is not None and cov.fn_hz:
         for b, item in cov.by_b.items():
             typer.echo(
-                f"FDS coverage b = {b}: worst {item.worst_db:+.2f} dB at "
-                f"{item.worst_fn_hz:.4g} Hz ({_covers(item.passed)})"
+                f"FDS coverage b = {b}: worst {wording.decibels(item.worst_db)} at "
+                f"{wording.frequency(item.worst_fn_hz)} ({_covers(item.passed)})"
             )
         if cov.ers is not None:
             typer.echo(
-                f"ERS coverage: worst {cov.ers.worst_db:+.2f} dB at "
-                f"{cov.ers.worst_fn_hz:.4g} Hz ({_covers(cov.ers.passed)})"
+                f"ERS coverage: worst {wording.decibels(cov.ers.worst_db)} at "
+                f"{wording.frequency(cov.ers.worst_fn_hz)} ({_covers(cov.ers.passed)})"
             )
     if r.kind == "random" and r.load_factor is not None:
         lf = r.load_factor
         typer.echo(
-            f"3-sigma load factor at {lf.fn_hz:g} Hz, Q {lf.q:g}: "
+            f"3-sigma load factor at {wording.frequency(lf.fn_hz)}, Q = {wording.number(lf.q)}: "
             f"{lf.three_sigma_g:.2f} g (Miles {lf.miles_grms:.2f} g rms)"
         )
     typer.echo("derivation:")
@@ -211,6 +226,32 @@ def level_show(level_id: int, db: DbOption = None, as_json: JsonOption = False) 
         emit_json(out)
     else:
         _print_level(out)
+
+
+@level_app.command("export")
+def level_export(
+    level_id: int,
+    out: Annotated[Path | None, typer.Option(
+        "--out", help="File to write (default: print the table).")] = None,
+    digits: Annotated[int, typer.Option(
+        min=1, max=17, help="Significant figures of the values.")] = wording.SIGNIFICANT,
+    as_json: JsonOption = False,
+    db: DbOption = None,
+) -> None:
+    """Export a level's breakpoint table (CSV with # comment lines, or --json with a
+    caution field): random [Hz, g^2/Hz], shock SRS [Hz, g], sine bands [Hz, mm, g]."""
+    with work(db) as session:
+        export = documents.level_export(session, level_id)
+    text = export.model_dump_json(indent=2) + "\n" if as_json else \
+        tables.level_export_csv(export, digits)
+    if out is None:
+        typer.echo(text, nl=False)
+        return
+    try:
+        out.write_text(text, encoding="utf-8")
+    except OSError as exc:
+        raise CliError(f"--out {out}: cannot write ({exc.strerror})") from exc
+    typer.echo(f"wrote {out}")
 
 
 @level_app.command("list")

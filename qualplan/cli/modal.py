@@ -23,12 +23,13 @@ from qualplan.cli.base import DbOption, app
 from qualplan.cli.common import JsonOption, ProgramOption, _program, _read_file, local_actor, work
 from qualplan.cli.output import emit_json, progress, table
 from qualplan.cli.report import report_app
-from qualplan.planning import catalog, documents, loads, requirements
+from qualplan.planning import catalog, documents, loads, requirements, wording
 from qualplan.planning import modal as pm
 from qualplan.planning.schemas import Axis
 from qualplan.reports.loads import LoadsRenderer
 
-modal_app = typer.Typer(help="Modal summaries and peak-response estimates.",
+modal_app = typer.Typer(rich_markup_mode=None,
+    help="Modal summaries and peak-response estimates.",
                         no_args_is_help=True)
 app.add_typer(modal_app, name="modal")
 
@@ -310,7 +311,8 @@ def modal_steinberg(
     if as_json:
         emit_json(out)
         return
-    typer.echo(f"mode {out['mode']} at {out['fn_hz']:.4g} Hz, {out['response_grms']:.4g} g rms: "
+    typer.echo(f"mode {out['mode']} at {wording.frequency(out['fn_hz'])}, "
+               f"{wording.number(out['response_grms'])} g rms: "
                f"3-sigma displacement {out['z_3sigma_mm']:.4g} mm, allowable "
                f"{out['z_allow_mm']:.4g} mm, ratio {out['ratio']:.3g} -> "
                f"{'passes' if out['passes'] else 'FAILS'}")

@@ -66,7 +66,9 @@ def _fmt(value: Any) -> str:
     if value is None:
         return "-"
     if isinstance(value, float):
-        return f"{value:.4g}"
+        from qualplan.planning import wording
+
+        return wording.number(value)
     return str(value)
 
 

@@ -74,3 +74,24 @@ def policy_edit(
             session, local_actor(), row.id, s.PolicyUpdate(rules=rules), expected_version
         )
     typer.echo(f"policy {row.name} is at version {row.version}")
+
+
+@policy_app.command("confirm")
+def policy_confirm(
+    policy: str,
+    issue: Annotated[str, typer.Option(
+        help="The issue of the standard you checked the values against, e.g. "
+        "'GSFC-STD-7000B (2021)'.")],
+    expected_version: Annotated[int, typer.Option(help="Version you checked.")],
+    note: Annotated[str, typer.Option(help="What was checked.")] = "",
+    db: DbOption = None,
+) -> None:
+    """Record that a policy's values were checked against the issue in force (issued
+    documents then say so instead of "values from memory")."""
+    with work(db) as session:
+        policies.ensure_default_policies(session, local_actor())
+        row = policies.policy_ref(session, policy)
+        done = policies.confirm_policy(session, local_actor(), row.id, issue, note,
+                                       expected_version)
+        statement = policies.basis_statement(session, row)
+    typer.echo(f"policy {row.name} version {done.policy_version} confirmed: {statement}")

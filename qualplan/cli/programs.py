@@ -12,6 +12,7 @@ from qualplan.cli.output import emit_json, table
 from qualplan.planning import (
     catalog,
     policies,
+    wording,
 )
 from qualplan.planning import schemas as s
 
@@ -118,7 +119,8 @@ def phase_add(
             ),
         )
         typer.echo(
-            f"phase {row.name} added (id {row.id}): {row.duration_s:g} s x {row.occurrences}"
+            f"phase {row.name} added (id {row.id}): {wording.duration(row.duration_s)} x "
+            f"{row.occurrences}"
         )
 
 

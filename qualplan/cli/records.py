@@ -14,9 +14,10 @@ import typer
 from qualplan.cli.base import CliError, DbOption, app
 from qualplan.cli.common import ProgramOption, _program, local_actor, work
 from qualplan.cli.output import emit_json, table
-from qualplan.planning import catalog, records
+from qualplan.planning import catalog, records, wording
 
-record_app = typer.Typer(help="Long multi-channel records stored in chunks.",
+record_app = typer.Typer(rich_markup_mode=None,
+    help="Long multi-channel records stored in chunks.",
                          no_args_is_help=True)
 app.add_typer(record_app, name="record")
 
@@ -37,8 +38,9 @@ def _print(rec: records.RecordRead, as_json: bool) -> None:
         emit_json(rec.model_dump(mode="json"))
         return
     typer.echo(f"environment {rec.environment_id} revision {rec.revision}: "
-               f"{len(rec.channels)} channels x {rec.n_samples} samples at {rec.fs_hz:g} Hz "
-               f"({rec.duration_s:.6g} s), {rec.n_chunks} chunks of {rec.chunk_samples} "
+               f"{len(rec.channels)} channels x {rec.n_samples} samples at "
+               f"{wording.frequency(rec.fs_hz)} ({wording.duration(rec.duration_s)}), "
+               f"{rec.n_chunks} chunks of {rec.chunk_samples} "
                f"samples per channel, hash {rec.content_hash[:12]}")
     table(["channel", "axis", "unit", "rms [g]", "peak [g]", "mean [g]", "factor to g"],
           [[c.name, c.axis, c.unit, c.stats["rms"]["value"], c.stats["peak"]["value"],

@@ -20,7 +20,8 @@ from qualplan.planning.inputs import check_document_number
 from qualplan.planning.schemas import Grade
 from qualplan.reports import PdfRenderer
 
-report_app = typer.Typer(help="Issue test-level specifications and audit reports (PDF, CSV, "
+report_app = typer.Typer(rich_markup_mode=None,
+    help="Issue test-level specifications and audit reports (PDF, CSV, "
                          "JSON).", no_args_is_help=True)
 app.add_typer(report_app, name="report")
 

@@ -91,8 +91,9 @@ def req_list(
         emit_json(rows)
     else:
         table(
-            ["key", "method", "level id", "status", "reason"],
-            [(r.key, r.method.value, r.level_id, r.status, r.status_reason) for r in rows],
+            ["key", "version", "method", "level id", "status", "reason"],
+            [(r.key, r.version, r.method.value, r.level_id, r.status, r.status_reason)
+             for r in rows],
         )
 
 

@@ -23,10 +23,11 @@ from pydantic import ValidationError
 from qualplan.cli.base import CliError, DbOption, app
 from qualplan.cli.common import JsonOption, ProgramOption, _program, local_actor, work
 from qualplan.cli.output import emit_json, table
-from qualplan.planning import catalog, notching, transfers
+from qualplan.planning import catalog, notching, transfers, wording
 from qualplan.planning.schemas import Axis
 
-transfer_app = typer.Typer(help="Environments down the product tree: mountings, transfer "
+transfer_app = typer.Typer(rich_markup_mode=None,
+    help="Environments down the product tree: mountings, transfer "
                            "rules, transferred environments, force limits.",
                            no_args_is_help=True)
 app.add_typer(transfer_app, name="transfer")
@@ -64,7 +65,7 @@ def print_origins(session, product_id: int, as_json: bool) -> None:
     table(
         ["id", "name", "kind", "axis", "units", "latest rev", "origin", "from", "through",
          "state"],
-        [(r.id, r.name, r.kind.value, r.axis.value, r.units, r.latest_revision, r.origin,
+        [(r.id, r.name, wording.kind(r.kind), r.axis.value, r.units, r.latest_revision, r.origin,
           r.from_product, ", ".join(r.through) or "-",
           "stale" if r.stale else ("note" if r.notes else "current")) for r in rows],
     )
@@ -245,7 +246,7 @@ def force_limit(
         emit_json(out)
         return
     typer.echo(f"force limit of {out.environment} (C^2 = {c2:g}, M0 = {mass_kg:g} kg, "
-               f"f0 = {f0_hz:g} Hz, {out.rolloff_db_per_oct:.2f} dB/oct above): "
+               f"f0 = {wording.frequency(f0_hz)}, {out.rolloff_db_per_oct:.2f} dB/oct above): "
                f"{out.force_rms_n:.4g} N rms")
     table(["freq [Hz]", "force limit [N^2/Hz]"], zip(out.freq_hz, out.fsd_n2_hz, strict=True))
     if out.notches:

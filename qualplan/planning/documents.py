@@ -33,7 +33,7 @@ from qualplan.planning.inputs import check_document_number
 from qualplan.planning.levels import read_level, result_of
 from qualplan.planning.lifecycle import current_test_levels
 from qualplan.planning.notching import level_notching, notch_table_rows
-from qualplan.planning.policies import rules_of
+from qualplan.planning.policies import basis_statement, rules_of
 from qualplan.planning.transfers import level_force_limit
 from qualplan.store import models as m
 from qualplan.store.hashing import json_hash
@@ -680,6 +680,20 @@ def document_levels(session: Session, document_id: int) -> list[int]:
     rows = session.scalars(select(m.DocumentLevel).where(
         m.DocumentLevel.document_id == document_id).order_by(m.DocumentLevel.position))
     return [r.level_id for r in rows]
+class LevelExport(Content):
+    """One level as its breakpoint table leaves qualplan outside a document."""
+
+    section: LevelSection
+    grade: str | None
+    caution: str = wording.CAUTION
+
+
+def level_export(session: Session, level_id: int) -> LevelExport:
+    """The section of level `level_id` (tables, tolerances, stale reasons) and its grade,
+    for the web download, the API and ``qualplan level export``."""
+    level = get(session, m.Level, level_id, "level")
+    return LevelExport(section=_section(session, level),
+                       grade=level.grade.value if level.grade else None)
 
 
 def specification_content(
@@ -739,8 +753,8 @@ def specification_content(
     policies = {}
     for lvl in chosen:
         if lvl.policy is not None:
-            policies[lvl.policy.name] = PolicyInfo(name=lvl.policy.name,
-                                                   basis=lvl.policy.basis or "-")
+            policies[lvl.policy.name] = PolicyInfo(
+                name=lvl.policy.name, basis=basis_statement(session, lvl.policy))
     warnings = [f"{sec.name} #{sec.number} is STALE: {r}" for sec in sections
                 for r in sec.stale_reasons]
     warnings += [f"{sec.name} #{sec.number} did NOT converge: {r}" for sec in sections

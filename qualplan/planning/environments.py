@@ -215,6 +215,65 @@ def revision(session: Session, environment_id: int, number: int) -> m.Environmen
     raise NotFound("revision", f"{environment_id}/{number}")
 
 
+def revision_ids_of_inputs(session: Session, product_id: int, inputs: str) -> list[int]:
+    """Global revision ids of `inputs`, a comma-separated list of the product's
+    environments by name or id, each with ``@n`` for its revision n (the latest revision
+    without it): ``"flight Z@2,road X"``. A name is tried before an id."""
+    envs = list_environments(session, product_id=product_id)
+    by_name = {e.name: e for e in envs}
+    by_id = {str(e.id): e for e in envs}
+    out: list[int] = []
+    items = [x.strip() for x in str(inputs).split(",") if x.strip()]
+    if not items:
+        raise ValidationFailed("inputs", inputs, "names no environment (give e.g. 'flight Z@2')")
+    for item in items:
+        ref, number = item, None
+        if "@" in item:
+            head, tail = item.rsplit("@", 1)
+            if tail.strip().isdigit():
+                ref, number = head.strip(), int(tail)
+            elif head.strip() not in by_name:
+                raise ValidationFailed("inputs", item, "revision after '@' must be a whole "
+                                       "number, as in 'flight Z@2'")
+        env = by_name.get(ref) or by_id.get(ref)
+        if env is None:
+            known = ", ".join(sorted(by_name)) or "none"
+            raise ValidationFailed("inputs", item, f"is not an environment of the product "
+                                   f"(its environments: {known})")
+        if number is None:
+            latest = RevisionRepository(session).latest(env.id)
+            if latest is None:
+                raise ValidationFailed("inputs", item, "has no revision")
+            out.append(latest.id)
+            continue
+        try:
+            out.append(revision(session, env.id, number).id)
+        except NotFound:
+            raise ValidationFailed("inputs", item, f"environment {env.name!r} has no "
+                                   f"revision {number}") from None
+    return out
+
+
+def difference_curve(kind: m.EnvironmentKind, ra: m.EnvironmentRevision,
+                     rb: m.EnvironmentRevision):
+    """Revision b against revision a in dB over their common band, on a 1/24-octave grid:
+    10 log10(b/a) for an ASD (power), 20 log10(b/a) for an SRS or sine amplitude.
+    Returns (grid [Hz], dB, (lo, hi) [Hz], scale) or the reason there is no curve."""
+    lo = max(_band(kind, ra.spec)[0], _band(kind, rb.spec)[0])
+    hi = min(_band(kind, ra.spec)[1], _band(kind, rb.spec)[1])
+    if lo >= hi:
+        return "the two revisions share no frequency band"
+    grid = octave_grid(lo, hi, 24)
+    grid = grid[(grid >= lo) & (grid <= hi)]
+    va = envdata.curve(kind, ra.spec, ra.data, grid)
+    vb = envdata.curve(kind, rb.spec, rb.data, grid)
+    ok = (va > 0) & (vb > 0)
+    if not ok.any():
+        return "no common frequency with both curves above zero"
+    scale = 10.0 if kind is m.EnvironmentKind.random else 20.0  # power vs amplitude dB
+    return grid[ok], scale * np.log10(vb[ok] / va[ok]), (lo, hi), scale
+
+
 def compare(session: Session, environment_id: int, a: int, b: int) -> s.RevisionComparison:
     """Compare two revisions: overall measures and the largest difference in dB."""
     env = get(session, m.Environment, environment_id, "environment")
@@ -232,24 +291,14 @@ def compare(session: Session, environment_id: int, a: int, b: int) -> s.Revision
     if env.kind is m.EnvironmentKind.time_history:
         out.notes.append("time histories are compared by their overall measures only")
         return out
-    lo = max(_band(env.kind, ra.spec)[0], _band(env.kind, rb.spec)[0])
-    hi = min(_band(env.kind, ra.spec)[1], _band(env.kind, rb.spec)[1])
-    if lo >= hi:
-        out.notes.append("the two revisions share no frequency band")
+    curve = difference_curve(env.kind, ra, rb)
+    if isinstance(curve, str):
+        out.notes.append(curve)
         return out
-    grid = octave_grid(lo, hi, 24)
-    grid = grid[(grid >= lo) & (grid <= hi)]
-    va = envdata.curve(env.kind, ra.spec, ra.data, grid)
-    vb = envdata.curve(env.kind, rb.spec, rb.data, grid)
-    ok = (va > 0) & (vb > 0)
-    if not ok.any():
-        out.notes.append("no common frequency with both curves above zero")
-        return out
-    scale = 10.0 if env.kind is m.EnvironmentKind.random else 20.0  # power vs amplitude dB
-    diff = scale * np.log10(vb[ok] / va[ok])
+    grid, diff, (lo, hi), scale = curve
     i = int(np.argmax(np.abs(diff)))
     out.max_difference_db = float(diff[i])
-    out.max_difference_at_hz = float(grid[ok][i])
+    out.max_difference_at_hz = float(grid[i])
     out.notes.append(
         f"dB = {'10' if scale == 10 else '20'} log10(b/a) on a 1/24-octave grid, {lo:g}-{hi:g} Hz"
     )

@@ -653,3 +653,35 @@ def rederive_level(session: Session, actor: Actor, level_id: int, *, store: bool
     record(session, actor, "supersede", "level", old.id, name=old.name, number=old.number,
            new_level=new.id, new_number=new.number, overall_db=diff.overall_db)
     return diff.model_copy(update={"stored": True, "new_level_id": new.id})
+def compressed_inputs(session: Session, level: m.Level) -> list[dict[str, Any]]:
+    """The level's inputs, each raised by the level's time-compression gain (the step's
+    dB: x 10^(dB/10) on an ASD, x 10^(dB/20) on an amplitude), so that their envelope
+    shows beside the level: [{"name", "freq_hz", "values"}], values in the level's unit.
+    Time histories and inputs of another kind are left out."""
+    gain_db = sum(st.db or 0.0 for st in result_of(level).steps
+                  if st.step == "time compression")
+    power = level.kind is m.EnvironmentKind.random
+    factor = 10 ** (gain_db / (10.0 if power else 20.0))
+    revs = RevisionRepository(session)
+    out = []
+    for rid in level.recipe.get("revision_ids", []):
+        rev = revs.get(int(rid))
+        if rev is None or rev.environment.kind is not level.kind:
+            continue
+        env = rev.environment
+        if env.kind is m.EnvironmentKind.sine:
+            lo, hi = rev.spec["bands"][0]["f_lo_hz"], rev.spec["bands"][-1]["f_hi_hz"]
+            f = np.unique(np.concatenate([np.geomspace(lo, hi, 160),
+                                          [b["f_lo_hz"] for b in rev.spec["bands"]], [hi]]))
+            v = np.asarray(envdata.curve(env.kind, rev.spec, rev.data, f), float)
+        elif env.kind is m.EnvironmentKind.random:
+            f, v = np.asarray(rev.spec["freq_hz"]), np.asarray(rev.spec["asd_g2_hz"], float)
+        elif env.kind is m.EnvironmentKind.shock:
+            f, v = np.asarray(rev.spec["freq_hz"]), np.asarray(rev.spec["accel_g"], float)
+        else:
+            continue
+        label = f"{env.name} r{rev.number}" + (f", compressed {gain_db:+.2f} dB"
+                                               if gain_db else "")
+        out.append({"name": label, "freq_hz": [float(x) for x in f],
+                    "values": [float(x) for x in v * factor]})
+    return out

@@ -8,12 +8,16 @@ program is contracted to before use.
 
 from __future__ import annotations
 
+import re
+
+from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require
 from qualplan.planning.catalog import _add_unique, check_version, get, name_key, ref_id
-from qualplan.planning.errors import NotFound
+from qualplan.planning.errors import NotFound, ValidationFailed
+from qualplan.planning.inputs import check_line, text_rule
 from qualplan.store import models as m
 from qualplan.store.repositories import PolicyRepository
 from qualplan.store.types import utcnow
@@ -234,3 +238,59 @@ def update_policy(
     session.flush()
     record(session, actor, "update", "policy", row.id, version=row.version)
     return row
+
+
+# --- confirmation against the issue in force ----------------------------------------------
+
+_FROM_MEMORY = re.compile(r"\s*\((?:values )?from memory; verify\)", re.I)
+
+
+def standard_of(policy: m.MarginPolicy) -> str:
+    """The standard a policy's values come from, without the "from memory" remark."""
+    return _FROM_MEMORY.sub("", policy.basis or "").strip() or "its standard"
+
+
+def confirm_policy(session: Session, actor: Actor, policy_id: int, issue: str,
+                   note: str = "", expected_version: int | None = None
+                   ) -> m.PolicyConfirmation:
+    """Record that `actor` checked the policy's values against `issue`, the issue in force
+    of its standard (an approver's decision; applies to the policy's current version:
+    an edit of the rules afterwards needs a new confirmation)."""
+    require(actor, m.Role.approver, "confirming a policy against its standard")
+    row = get(session, m.MarginPolicy, policy_id, "policy")
+    check_version("policy", row, expected_version)
+    issue = check_line("issue", issue or "")
+    if len(issue) > 200:
+        raise ValidationFailed("issue", issue, "must be at most 200 characters")
+    try:
+        note = text_rule(note or "")
+    except ValueError as exc:
+        raise ValidationFailed("note", note, str(exc)) from exc
+    done = m.PolicyConfirmation(policy_id=row.id, policy_version=row.version, issue=issue,
+                                confirmed_by=actor.name, note=note)
+    session.add(done)
+    session.flush()
+    record(session, actor, "confirm", "policy", row.id, version=row.version, issue=issue)
+    return done
+
+
+def confirmation_of(session: Session, policy: m.MarginPolicy) -> m.PolicyConfirmation | None:
+    """The newest confirmation of the policy's current version, if any."""
+    return session.scalar(
+        select(m.PolicyConfirmation)
+        .where(m.PolicyConfirmation.policy_id == policy.id,
+               m.PolicyConfirmation.policy_version == policy.version)
+        .order_by(m.PolicyConfirmation.id.desc()).limit(1))
+
+
+def basis_statement(session: Session, policy: m.MarginPolicy) -> str:
+    """How far a policy's values can be trusted, as the issued documents state it:
+    "<standard>: checked against the issue in force (<issue>): <by>, <date>" once an
+    approver confirmed the current version, else "values from memory of <standard>; to
+    be checked before use"."""
+    standard = standard_of(policy)
+    done = confirmation_of(session, policy)
+    if done is None:
+        return f"values from memory of {standard}; to be checked before use"
+    return (f"{standard}: checked against the issue in force ({done.issue}): "
+            f"{done.confirmed_by}, {done.created_at:%Y-%m-%d}")

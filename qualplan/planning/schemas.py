@@ -356,6 +356,23 @@ class PolicyUpdate(Command):
     description: Text | None = None
 
 
+class PolicyConfirm(Command):
+    """An approver's confirmation that the policy's values match the issue in force."""
+
+    issue: str = Field(description="The issue of the standard checked against, one line")
+    note: str = ""
+
+
+class PolicyConfirmationRead(Read):
+    id: int
+    policy_id: int
+    policy_version: int
+    issue: str
+    confirmed_by: str
+    note: str
+    created_at: datetime
+
+
 # --- levels ---------------------------------------------------------------------------
 
 

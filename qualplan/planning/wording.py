@@ -19,6 +19,23 @@ from qualplan.planning.results import Step
 
 SIGNIFICANT = 4
 
+#: The caution every exported table and JSON carries (a lab types the table into its
+#: controller; the responsible engineer's approval comes first).
+CAUTION = ("CAUTION: a responsible engineer must review and approve this level before use; "
+           "local standards, contracts and licensed engineering practice govern.")
+
+#: A level's kind in words ("time history", not "time_history").
+KIND_WORDS = {"random": "random", "sine": "sine", "shock": "shock",
+              "time_history": "time history", "shock_srs": "shock SRS"}
+
+
+def kind(name: str | None) -> str:
+    """A kind in words: "time history" for ``time_history``; unknown names with spaces."""
+    if name is None:
+        return "-"
+    name = str(getattr(name, "value", name))
+    return KIND_WORDS.get(name, name.replace("_", " "))
+
 
 def number(value: float | int | None, digits: int = SIGNIFICANT) -> str:
     """A number to `digits` significant figures: 0.04965, 1706, 6.786, 1.6e-85."""
@@ -34,12 +51,27 @@ def number(value: float | int | None, digits: int = SIGNIFICANT) -> str:
     if x == 0:
         return "0"
     if 1e-3 <= abs(x) < 1e6:
-        places = max(digits - 1 - math.floor(math.log10(abs(x))), 0)
+        places = digits - 1 - math.floor(math.log10(abs(x)))
+        if places < 0:  # 1706 to 2 figures is 1700, not 1706
+            return str(int(round(x, places)))
         text = f"{round(x, places):.{places}f}"
         if "." in text:
             text = text.rstrip("0").rstrip(".")
         return text
     return f"{x:.{digits - 1}e}".replace("e-0", "e-").replace("e+0", "e").replace("e+", "e")
+
+
+#: Each requirement status with a symbol, so it reads without colour (web, PDF, CLI).
+STATUS_SYMBOLS = {"verified": "✓", "waived": "⊘", "failed": "✗", "stale": "⟳", "open": "○"}
+
+
+def status(name: str | None) -> str:
+    """A status as symbol and word: "✓ verified", "⊘ waived", "✗ failed"."""
+    if name is None:
+        return "-"
+    name = str(getattr(name, "value", name))
+    symbol = STATUS_SYMBOLS.get(name)
+    return f"{symbol} {name}" if symbol else name
 
 
 def duration(seconds: float | None) -> str:

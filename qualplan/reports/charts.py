@@ -17,9 +17,9 @@ import numpy as np  # noqa: E402
 from matplotlib import rc_context  # noqa: E402
 from matplotlib.collections import LineCollection  # noqa: E402
 from matplotlib.figure import Figure  # noqa: E402
-from matplotlib.ticker import FuncFormatter, LogLocator, NullLocator  # noqa: E402
+from matplotlib.ticker import FixedLocator, FuncFormatter, LogLocator, NullLocator  # noqa: E402
 
-from qualplan.planning import results  # noqa: E402
+from qualplan.planning import results, wording  # noqa: E402
 from qualplan.planning.documents import CoverageData, Curve, LevelSection  # noqa: E402
 
 WIDTH_IN, HEIGHT_IN = 6.4, 3.5
@@ -56,6 +56,38 @@ def _decades(ax, *, y: bool = True) -> None:
     if y:
         ax.yaxis.set_major_locator(LogLocator(base=10.0))
         ax.yaxis.set_minor_locator(NullLocator())
+
+
+def tick_labels(values) -> list[str]:
+    """Labels of one axis's ticks in one format: plain numbers (wording.number) when every
+    tick lies in [0.001, 100000), else powers of ten for them all ("10^-4" in mathtext,
+    "2×10^-4" between decades); never a mix of 0.005, 10^-3 and 5e-4 on one axis."""
+    vals = [float(v) for v in values]
+    if all(1e-3 <= abs(v) < 1e5 or v == 0 for v in vals):
+        return [wording.number(v) for v in vals]
+    out = []
+    for v in vals:
+        if v <= 0:
+            out.append(wording.number(v))
+            continue
+        e = int(np.floor(np.log10(v) + 1e-9))
+        k = v / 10.0 ** e
+        mant = wording.number(k, 2)
+        out.append(f"$10^{{{e}}}$" if mant == "1" else f"${mant}\\times10^{{{e}}}$")
+    return out
+
+
+def _one_format(ax) -> None:
+    """Fix the tick labels of each log axis of `ax` to one format (see tick_labels)."""
+    for axis, (lo, hi) in ((ax.xaxis, ax.get_xlim()), (ax.yaxis, ax.get_ylim())):
+        if axis.get_scale() != "log":
+            continue
+        locs = [v for v in axis.get_majorticklocs() if min(lo, hi) <= v <= max(lo, hi)]
+        if not locs:
+            continue
+        labels = dict(zip(locs, tick_labels(locs), strict=True))
+        axis.set_major_locator(FixedLocator(locs))
+        axis.set_major_formatter(FuncFormatter(lambda x, _p, m=labels: m.get(x, "")))
 
 
 def _log_lines(lo: float, hi: float) -> tuple[list[float], list[float]]:
@@ -95,6 +127,7 @@ def _grid(ax) -> None:
                               autolim=False)
     ax.set_xlim(x0, x1)
     ax.set_ylim(y0, y1)
+    _one_format(ax)
 
 
 def _narrow_y(ax) -> None:

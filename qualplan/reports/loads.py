@@ -7,6 +7,7 @@ import io
 import json
 from pathlib import Path
 
+from qualplan.planning import wording
 from qualplan.planning.loads import LoadsContent, LoadsSection
 from qualplan.reports import pdf as _pdf
 from qualplan.reports.files import write_atomic
@@ -31,13 +32,14 @@ def section_csv(content: LoadsContent, section: LoadsSection) -> str:
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(section.keys)
     for r in section.rows:
-        w.writerow([repr(float(x)) for x in r])
+        w.writerow([wording.number(float(x)) for x in r])
     return buf.getvalue()
 
 
 def content_json(content: LoadsContent) -> str:
     data = content.model_dump(mode="json")
     data["content_hash"] = content.content_hash()
+    data.setdefault("caution", content.caution)
     return json.dumps(data, indent=2, sort_keys=True) + "\n"
 
 

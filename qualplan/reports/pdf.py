@@ -19,6 +19,7 @@ from pathlib import Path
 from jinja2 import Environment, FileSystemLoader, StrictUndefined, select_autoescape
 
 from qualplan import __version__
+from qualplan.planning import wording
 from qualplan.planning.documents import DocumentContent, SpecificationContent
 from qualplan.reports import charts, tables
 from qualplan.reports.files import write_atomic
@@ -30,19 +31,10 @@ def _templates() -> Path:
 
 
 def _num(x, digits: int = 4) -> str:
-    """A number in a table cell: 4 significant digits, no exponent for usual values."""
-    if x is None:
+    """A number in a table cell: 4 significant digits (planning.wording.number)."""
+    if x is None or (isinstance(x, float) and not math.isfinite(x)):
         return "-"
-    x = float(x)
-    if not math.isfinite(x):
-        return "-"
-    if x == 0:
-        return "0"
-    if 1e-3 <= abs(x) < 1e5:
-        text = f"{x:.{digits}g}"
-        return text
-    mantissa, exp = f"{x:.{digits - 1}e}".split("e")
-    return f"{mantissa}e{int(exp)}"
+    return wording.number(float(x), digits)
 
 
 def _signed(x, digits: int = 3) -> str:
@@ -73,7 +65,10 @@ def environment() -> Environment:
         trim_blocks=True,
         lstrip_blocks=True,
     )
-    env.filters.update(num=_num, signed=_signed, date=_date, datetime=_datetime)
+    env.filters.update(num=_num, signed=_signed, date=_date, datetime=_datetime,
+                       status=wording.status, kind=wording.kind, hz=wording.frequency,
+                       duration=wording.duration, db=wording.decibels,
+                       count=wording.count)
     env.globals["qualplan_version"] = __version__
     return env
 

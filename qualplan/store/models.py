@@ -444,6 +444,25 @@ class Document(Base):
 IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, Document)
 
 
+class PolicyConfirmation(Base):
+    """A user's confirmation that a margin policy's values were checked against the issue
+    in force of its standard (append-only; applies to the policy version confirmed)."""
+
+    __tablename__ = "policy_confirmations"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    policy_id: Mapped[int] = mapped_column(ForeignKey("margin_policies.id"), index=True)
+    policy_version: Mapped[int] = mapped_column(Integer)
+    #: The issue of the standard checked against, e.g. "GSFC-STD-7000B, 2021".
+    issue: Mapped[str] = mapped_column(Text)
+    confirmed_by: Mapped[str] = mapped_column(String(200))
+    note: Mapped[str] = mapped_column(Text, default="")
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+
+IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, PolicyConfirmation)
+
+
 class ModalSummary(Base):
     """A product's table of modes from a structural model; data live in revisions."""
 

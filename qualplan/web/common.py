@@ -12,9 +12,7 @@ qualplan.serving's table, the same as the API's.
 
 from __future__ import annotations
 
-import csv
 import errno
-import io
 import re
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
@@ -30,6 +28,7 @@ from starlette.datastructures import FormData, UploadFile
 
 from qualplan import __version__
 from qualplan.planning import schemas as s
+from qualplan.planning import wording
 from qualplan.planning.access import Actor
 from qualplan.planning.errors import (
     PlanningError,
@@ -68,9 +67,7 @@ def _fmt(value: Any, digits: int = 4) -> str:
     if isinstance(value, bool):
         return "yes" if value else "no"
     if isinstance(value, int | float):
-        if 1e4 <= abs(value) < 1e9:  # 10000 Hz, not 1e+04 Hz
-            return f"{float(f'{value:.{digits}g}'):.0f}"
-        return f"{value:.{digits}g}"
+        return wording.number(value, digits)
     if isinstance(value, list | tuple):
         return "–".join(_fmt(v, digits) for v in value)
     return str(value)
@@ -90,6 +87,11 @@ LABELS = {
 
 templates.env.filters["num"] = _fmt
 templates.env.filters["unit"] = _unit
+templates.env.filters["status"] = wording.status
+templates.env.filters["kind"] = wording.kind
+templates.env.filters["hz"] = wording.frequency
+templates.env.filters["duration"] = wording.duration
+templates.env.filters["db"] = wording.decibels
 templates.env.filters["label"] = lambda key: LABELS.get(key, str(key).replace("_", " "))
 templates.env.globals["STATIC"] = STATIC
 templates.env.globals["version"] = __version__
@@ -303,11 +305,15 @@ def _or(value, default):
     return default if value is None else value
 
 
-def csv_response(rows: list[list[Any]], filename: str) -> Response:
-    buf = io.StringIO()
-    csv.writer(buf, lineterminator="\n").writerows(rows)
+def csv_response(rows: list[list[Any]], filename: str, comments: list[str] | None = None,
+                 *, body: str | None = None) -> Response:
+    """A CSV download in the one export format (reports.tables.plain_csv): ``#`` comments
+    and the caution, the header (``rows[0]``), values to 4 significant figures."""
+    from qualplan.reports import tables
+
+    text = body if body is not None else tables.plain_csv(comments or [], rows[0], rows[1:])
     return Response(
-        buf.getvalue(),
+        text,
         media_type="text/csv; charset=utf-8",
         headers={"Content-Disposition": f'attachment; filename="{filename}"'},
     )

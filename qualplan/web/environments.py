@@ -10,6 +10,7 @@ from starlette.concurrency import run_in_threadpool
 from qualplan.planning import approvals, catalog, environments, imports
 from qualplan.planning import schemas as s
 from qualplan.planning.errors import PlanningError
+from qualplan.reports import tables
 from qualplan.web import plots
 from qualplan.web.common import (
     Ctx,
@@ -60,21 +61,29 @@ def environment_page(ctx: Ctx, env_id: int, error=None, status=200, form=None):
     env = environments.environment_by_id(ctx.db, env_id)
     hist = environments.history(ctx.db, env.id)
     q = ctx.request.query_params
-    comparison, compare_plot, compare_error = None, None, None
+    comparison, compare_plot, compare_error, compare_diff = None, None, None, None
     if q.get("a") and q.get("b"):
         try:
             a, b = int(q["a"]), int(q["b"])
             comparison = environments.compare(ctx.db, env.id, a, b)
             pair = [r for r in hist if r.number in (a, b)]
             compare_plot = plots.environment_plot(env, sorted(pair, key=lambda r: r.number))
+            compare_diff = plots.difference_plot(env, environments.revision(ctx.db, env.id, a),
+                                                 environments.revision(ctx.db, env.id, b))
         except (ValueError, PlanningError) as exc:
             compare_error = message_of(exc)
+    diff = None
+    if len(hist) >= 2 and env.kind in plots.QUANTITY:
+        diff = plots.difference_plot(
+            env, environments.revision(ctx.db, env.id, hist[-2].number),
+            environments.revision(ctx.db, env.id, hist[-1].number))
     product = catalog.product_by_id(ctx.db, env.product_id)
     return render(
         ctx, "web/environment.html", status, env=env, product=product, history=hist,
         latest=hist[-1] if hist else None, plot=plots.environment_plot(env, hist),
         record_plots=plots.record_plots(env, env.revisions[-1] if env.revisions else None),
         comparison=comparison, compare_plot=compare_plot, compare_error=compare_error,
+        compare_diff=compare_diff, diff_plot=diff,
         value_units=sorted(imports.VALUE_UNITS[env.kind]), error=error, form=form or {},
         withdrawn=environments.read_environment(ctx.db, env).withdrawn,
     )
@@ -118,11 +127,10 @@ def revision_csv(env_id: int, number: int, ctx: Ctx = CtxDep) -> Response:
     def build() -> Response:
         env = environments.environment_by_id(ctx.db, env_id)
         rev = environments.revision(ctx.db, env.id, number)
-        xy = plots.revision_xy(env.kind, rev.spec, rev.data)
-        if xy is None:
+        body = tables.revision_csv(env.kind.value, env.name, rev.number, rev.spec)
+        if body is None:
             return problem_page(ctx, 400, "No table", "a time history has no breakpoint table")
-        qty, unit = plots.QUANTITY[env.kind]
-        rows = [["frequency [Hz]", f"{qty} [{unit}]"], *zip(*xy, strict=True)]
-        return csv_response(rows, f"{_slug(env.name)}-r{rev.number}.csv")
+        rows: list = []
+        return csv_response(rows, f"{_slug(env.name)}-r{rev.number}.csv", body=body)
 
     return page(ctx, build)

@@ -7,16 +7,15 @@ from fastapi import APIRouter, Request
 from fastapi.responses import Response
 from starlette.concurrency import run_in_threadpool
 
-from qualplan.planning import approvals, catalog, levels, notching, transfers, wording
+from qualplan.planning import approvals, catalog, documents, levels, notching, transfers, wording
 from qualplan.planning import schemas as s
+from qualplan.reports import tables
 from qualplan.web import plots
 from qualplan.web.common import (
     Ctx,
     CtxDep,
     _or,
-    _slug,
     action,
-    csv_response,
     form_of,
     number,
     page,
@@ -63,7 +62,8 @@ def level_page(ctx: Ctx, level_id: int, error=None, status=200, form=None) -> Re
             steps=[wording.step_sentence(st, grade=row.grade.value if row.grade else None,
                                          policy=row.policy.name if row.policy else None)
                    for st in read.result.steps],
-            plot=plots.level_plot(read) if row.kind in plots.QUANTITY else None,
+            plot=plots.level_plot(read, levels.compressed_inputs(ctx.db, row))
+            if row.kind in plots.QUANTITY else None,
             coverage=plots.coverage_plots(read), worst=plots.worst_margins(read),
             cov=read.result.coverage,
             force_limit=transfers.level_force_limit(ctx.db, row.id),
@@ -114,12 +114,12 @@ async def rederive(level_id: int, request: Request, ctx: Ctx = CtxDep) -> Respon
 
 @router.get("/levels/{level_id}/breakpoints.csv")
 def level_csv(level_id: int, ctx: Ctx = CtxDep) -> Response:
+    """The level's breakpoint table in the one export format (reports.tables)."""
     def build() -> Response:
-        row = levels.level_by_id(ctx.db, level_id)
-        result = levels.result_of(row)
-        qty, unit = plots.QUANTITY[row.kind]
-        rows = [["frequency [Hz]", f"{qty} [{unit}]"],
-                *zip(result.freq_hz, result.values, strict=True)]
-        return csv_response(rows, f"{_slug(row.name)}-{row.number}.csv")
+        export = documents.level_export(ctx.db, level_id)
+        return Response(
+            tables.level_export_csv(export), media_type="text/csv; charset=utf-8",
+            headers={"Content-Disposition":
+                     f'attachment; filename="{tables.level_file_stem(export)}.csv"'})
 
     return page(ctx, build)

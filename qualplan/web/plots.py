@@ -11,7 +11,7 @@ from typing import Any
 
 import numpy as np
 
-from qualplan.planning import envdata
+from qualplan.planning import envdata, environments
 from qualplan.planning.schemas import EnvironmentKind
 
 K = EnvironmentKind
@@ -64,6 +64,21 @@ def environment_plot(env, revs: list) -> dict[str, Any] | None:
                 ylabel=qty, yunit=unit)
 
 
+def difference_plot(env, ra, rb) -> dict[str, Any] | None:
+    """Revision b against revision a [dB] over their common band (planning's curve), the
+    plot under the overlay of the two revisions."""
+    curve = environments.difference_curve(env.kind, ra, rb)
+    if isinstance(curve, str):
+        return None
+    grid, diff, _, scale = curve
+    return plot(f"{env.name}: revision {rb.number} against revision {ra.number}", [
+        _series(f"r{rb.number} / r{ra.number}", grid.tolist(), diff.tolist()),
+        _series("0 dB: unchanged", [float(grid[0]), float(grid[-1])], [0.0, 0.0], "dashed",
+                "band"),
+    ], xlabel="frequency", xunit="Hz", ylabel="difference", yunit="dB", ylog=False,
+        note=f"dB = {scale:g} log10(b/a) on a 1/24-octave grid")
+
+
 def record_plots(env, rev) -> list[dict[str, Any]]:
     """A time history seen as spectra: its maximax PSD and its maximax SRS (planning)."""
     if env.kind is not K.time_history or rev is None or getattr(rev, "data", None) is None:
@@ -79,8 +94,9 @@ def record_plots(env, rev) -> list[dict[str, Any]]:
     ]
 
 
-def level_plot(level) -> dict[str, Any]:
-    """The level with its tolerance band (dashed) and the limit level it came from.
+def level_plot(level, inputs: list[dict[str, Any]] | None = None) -> dict[str, Any]:
+    """The level with its tolerance band (dashed), the limit level it came from and each
+    of its inputs compressed to the test duration (planning.levels.compressed_inputs).
 
     `level` is planning's LevelRead; the band is the one planning stored with the result.
     """
@@ -98,6 +114,8 @@ def level_plot(level) -> dict[str, Any]:
     series.append(_series("limit level (before margin)", lim.freq_hz,
                           lim.asd_g2_hz if level.kind is K.random else lim.accel_g,
                           "dotted", "other"))
+    for item in inputs or []:
+        series.append(_series(item["name"], item["freq_hz"], item["values"], "dotted", "alt"))
     return plot(f"{level.name} #{level.number}: {qty}", series, xlabel="frequency",
                 xunit="Hz", ylabel=qty, yunit=unit)
 

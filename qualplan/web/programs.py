@@ -7,7 +7,15 @@ from fastapi import APIRouter, Request
 from fastapi.responses import Response
 from starlette.concurrency import run_in_threadpool
 
-from qualplan.planning import catalog, environments, imports, levels, policies, transfers
+from qualplan.planning import (
+    catalog,
+    environments,
+    imports,
+    levels,
+    policies,
+    readiness,
+    transfers,
+)
 from qualplan.planning import schemas as s
 from qualplan.web.common import (
     Ctx,
@@ -29,8 +37,19 @@ router = APIRouter(include_in_schema=False)
 
 
 def programs_page(ctx: Ctx, error: str | None = None, status: int = 200, form=None):
+    rows = readiness.all_programs(ctx.db)
     return render(ctx, "web/programs.html", status, programs=catalog.list_programs(ctx.db),
+                  readiness={r.program_id: r for r in rows}, statuses=readiness.STATUS_ORDER,
                   error=error, form=form or {})
+
+
+@router.get("/dashboard")
+def dashboard(ctx: Ctx = CtxDep) -> Response:
+    """Each program's readiness: counts per status, what blocks release and why, stale
+    levels, documents and their revisions."""
+    return page(ctx, lambda: render(ctx, "web/dashboard.html",
+                                    programs=readiness.all_programs(ctx.db),
+                                    statuses=readiness.STATUS_ORDER))
 
 
 @router.get("/programs")
@@ -124,6 +143,9 @@ def product_page(ctx: Ctx, product_id: int, error=None, status=200, form=None, w
         policies=policies.list_policies(ctx.db), kinds=list(K), all_axes=list(s.Axis),
         value_units={k.value: sorted(v) for k, v in imports.VALUE_UNITS.items()},
         grades=list(s.Grade), purposes=list(s.LevelPurpose),
+        # a specification exists only for a grade with test levels (no error page as .pdf)
+        doc_grades=[g for g in s.Grade if any(x.grade is g and x.purpose is
+                                              s.LevelPurpose.test for x in lv)],
         origins=transfers.environments_for(ctx.db, product.id),
         error=error, where=where, form=form or {},
     )

@@ -68,13 +68,14 @@ def matrix_csv(program_id: int, ctx: Ctx = CtxDep) -> Response:
         program = catalog.program_by_id(ctx.db, program_id)
         rows = [["key", "requirement", "product", "level", "method", "evidence", "verdict",
                  "status", "reason"]]
+        comments = [f"traceability of program {program.name}"]
         for r in matrix_of(ctx, program.id):
             req = r.requirement
             rows.append([req.key, req.text, r.product, r.level, req.method.value,
                          f"{r.evidence_kind.value} {r.evidence_id}" if r.evidence_id else "",
                          r.evidence_verdict.value if r.evidence_id else "", req.status,
                          req.status_reason])
-        return csv_response(rows, f"{_slug(program.name)}-traceability.csv")
+        return csv_response(rows, f"{_slug(program.name)}-traceability.csv", comments)
 
     return page(ctx, build)
 
@@ -206,14 +207,15 @@ def audit_page(program_id: int, ctx: Ctx = CtxDep) -> Response:
 def audit_csv(program_id: int, ctx: Ctx = CtxDep) -> Response:
     def build() -> Response:
         report = audit.audit(ctx.db, program_id)
-        rows = [["key", "product", "level", "method", "status", "required margin",
-                 "achieved margin", "shortfall", "reason"]]
+        rows = [["key", "product", "level", "method", "status", "required_margin",
+                 "achieved_margin", "shortfall", "margin_unit", "reason"]]
         for i in report.items:
             rows.append([i.key, i.product, i.level or "", i.method.value, i.status,
                          i.required_margin, "" if i.achieved_margin is None else i.achieved_margin,
-                         "" if i.shortfall is None else i.shortfall, i.reason])
-        rows.append([])
-        rows.append(["verdict", report.verdict])
-        return csv_response(rows, f"{_slug(report.program)}-audit.csv")
+                         "" if i.shortfall is None else i.shortfall,
+                         i.margin_unit, i.reason])
+        comments = [f"margin-closure audit of program {report.program}", report.verdict,
+                    "margins: dB for a test, MS (margin of safety) for an analysis"]
+        return csv_response(rows, f"{_slug(report.program)}-audit.csv", comments)
 
     return page(ctx, build)

@@ -18,24 +18,24 @@ router = APIRouter(include_in_schema=False)
 
 @router.get("/")
 def home(ctx: Ctx = CtxDep) -> Response:
-    return redirect(ctx, "/programs" if ctx.actor else "/signin")
+    return redirect(ctx, "/dashboard" if ctx.actor else "/signin")
 
 
 def _safe_next(value: str) -> str:
     # Only a path of this site: "//host", or a backslash (browsers read it as "/"), leave it.
     ok = value.startswith("/") and not value.startswith("//") and "\\" not in value
-    return value if ok and "\n" not in value and "\r" not in value else "/programs"
+    return value if ok and "\n" not in value and "\r" not in value else "/dashboard"
 
 
 @router.get("/signin")
-def signin_page(ctx: Ctx = CtxDep, next: str = "/programs") -> Response:
+def signin_page(ctx: Ctx = CtxDep, next: str = "/dashboard") -> Response:
     return render(ctx, "web/signin.html", next=_safe_next(next), error=None)
 
 
 @router.post("/signin")
 async def signin(request: Request, ctx: Ctx = CtxDep) -> Response:
     form, _ = await form_of(request)
-    target = _safe_next(text(form, "next", "/programs"))
+    target = _safe_next(text(form, "next", "/dashboard"))
     if not ctx.web.signer.csrf_ok(ctx.ws, form.get("csrf")):
         return problem_page(ctx, 403, "Form refused",
                             "the sign-in form is out of date (CSRF check); reload the page")

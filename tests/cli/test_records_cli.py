@@ -48,7 +48,8 @@ def test_import_hdf5_with_axes_and_show(db, tmp_path):
         np.sqrt(np.mean(x[:, 1] ** 2)), rel=1e-12)
     code, out, err = db("record", "show", str(rec["revision_id"]))
     assert code == 0, err
-    assert "3 channels x 30001 samples at 5000 Hz" in out
+    # frequencies as engineers write them: 5000 Hz reads "5 kHz" (planning.wording)
+    assert "3 channels x 30001 samples at 5 kHz (6 s)" in out
 
 
 def test_import_errors_are_one_line_exit_2(db, tmp_path):

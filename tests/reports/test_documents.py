@@ -18,10 +18,10 @@ from pypdf import PdfReader
 from sqlalchemy import select
 
 from qualplan.dynamics import psd as core_psd
-from qualplan.planning import audit, documents, environments, imports
+from qualplan.planning import audit, documents, environments, imports, wording
 from qualplan.planning import schemas as s
 from qualplan.planning.errors import Conflict, ValidationFailed
-from qualplan.reports import PdfRenderer
+from qualplan.reports import PdfRenderer, tables
 from qualplan.reports.pdf import _num
 from qualplan.store import models as m
 
@@ -45,7 +45,9 @@ def test_specification_pdf_shows_the_stored_levels(db, tmp_path):
     for f, a in zip(random["freq_hz"], random["asd_g2_hz"], strict=True):
         assert f"{_num(f)} {_num(a)}" in text  # each breakpoint row: Hz, g^2/Hz
     assert f"{_num(random['grms'])} g rms" in text
-    assert f"{_num(random['duration_s'])} s" in text
+    # durations in s, min or h as fits: GEVS 2 min per axis (120 s) reads "2 min"
+    assert f"{wording.duration(random['duration_s'])} per axis" in text.replace("\n", " ")
+    assert wording.duration(random["duration_s"]) == "2 min"
     shock = data["levels"]["shock"].result
     for f, a in zip(shock["freq_hz"], shock["accel_g"], strict=True):
         assert f"{_num(f)} {_num(a)}" in text
@@ -80,11 +82,20 @@ def test_csv_round_trips_into_the_random_core(db, tmp_path):
     (path,) = [p for p in paths if p.suffix == ".csv" and "-random-" in p.name]
     raw = path.read_bytes()
     table = imports.breakpoints_from_csv(m.EnvironmentKind.random, raw, value_units="g^2/Hz")
-    assert table["freq_hz"] == random["freq_hz"]  # exact floats, not rounded copies
-    assert table["asd_g2_hz"] == random["asd_g2_hz"]
-    assert core_psd.grms(table["freq_hz"], table["asd_g2_hz"]) == random["grms"]
+    # The table is written to 4 significant figures (the lab's controller entry): each
+    # value within half a unit of the 4th figure of the stored one, the g rms with it.
+    assert table["freq_hz"] == pytest.approx(random["freq_hz"], rel=5e-4)
+    assert table["asd_g2_hz"] == pytest.approx(random["asd_g2_hz"], rel=5e-4)
+    assert core_psd.grms(table["freq_hz"], table["asd_g2_hz"]) == pytest.approx(
+        random["grms"], rel=1e-3)
     rows = [r for r in csv.reader(io.StringIO(raw.decode())) if r and not r[0].startswith("#")]
     assert rows[0] == ["freq_hz", "asd_g2_hz"]
+    # With 17 significant figures the stored floats come back exactly.
+    section = next(x for x in content.sections if x.kind == "random")
+    exact = tables.section_csv(content, section, digits=17).encode()
+    again = imports.breakpoints_from_csv(m.EnvironmentKind.random, exact, value_units="g^2/Hz")
+    assert again["freq_hz"] == [r.freq_hz for r in section.random.rows]
+    assert again["asd_g2_hz"] == [r.asd_g2_hz for r in section.random.rows]
 
 
 def test_json_carries_the_content_and_its_hash(db, tmp_path):
@@ -97,8 +108,9 @@ def test_json_carries_the_content_and_its_hash(db, tmp_path):
     assert body["content_hash"] == content.content_hash()
     assert body["input_hashes"]["levels"][str(data["levels"]["random"].id)] == \
         data["levels"]["random"].level_hash
+    assert "responsible engineer" in body["caution"]
     assert documents.SpecificationContent.model_validate(
-        {k: v for k, v in body.items() if k != "content_hash"}) == content
+        {k: v for k, v in body.items() if k not in ("content_hash", "caution")}) == content
 
 
 def test_same_state_same_content_and_revisions(db, tmp_path):

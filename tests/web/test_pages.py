@@ -229,7 +229,9 @@ def test_upload_plot_summary_and_downloads(browserless, users, world):
     env_id = int(str(r.url).rstrip("/").split("/")[-1])
     csv = b.get(f"/environments/{env_id}/revisions/1.csv")
     assert csv.headers["content-type"].startswith("text/csv")
-    assert csv.text.splitlines()[1:] == ["20.0,0.01", "80.0,0.04", "500.0,0.04", "2000.0,0.01"]
+    data = [x for x in csv.text.splitlines() if not x.startswith("#")]
+    assert data == ["freq_hz,asd_g2_hz", "20,0.01", "80,0.04", "500,0.04", "2000,0.01"]
+    assert "# CAUTION: a responsible engineer" in csv.text
     # kHz and (m/s^2)^2/Hz are converted at the edge: 0.04 g^2/Hz = 0.04 * 9.80665^2
     r = b.post(f"/environments/{env_id}/revisions", {
         "value_units": "(m/s^2)^2/Hz", "freq_units": "kHz", "note": "same in SI",
@@ -255,7 +257,8 @@ def test_matrix_filters_sorting_and_audit(browserless, users, world, factory):
     assert html.index(">B-2<") < html.index(">A-1<")
     html = b.get(base + "?method=analysis").text
     assert ">B-2<" in html and ">A-1<" not in html
-    csv = b.get(base + ".csv?method=inspection").text.splitlines()
+    csv = [x for x in b.get(base + ".csv?method=inspection").text.splitlines()
+           if not x.startswith("#")]
     assert len(csv) == 2 and csv[1].startswith("A-1,")
     audit = b.get(f"/programs/{world.program_id}/audit").text
     assert "NOT READY: 2 of 2 requirements block release" in audit
@@ -288,8 +291,9 @@ def test_level_page_shows_coverage(browserless, users, world, factory):
     main, upper = level_plot["series"][0], level_plot["series"][1]
     # +3 dB on a PSD: x 10^(3/10) (power ratio, closed form)
     assert upper["y"][0] == pytest.approx(main["y"][0] * 10 ** 0.3)
-    rows = b.get(f"/levels/{level_id}/breakpoints.csv").text.splitlines()
-    assert rows[0] == "frequency [Hz],ASD [g²/Hz]" and len(rows) >= 3
+    rows = [x for x in b.get(f"/levels/{level_id}/breakpoints.csv").text.splitlines()
+            if not x.startswith("#")]
+    assert rows[0] == "freq_hz,asd_g2_hz" and len(rows) >= 3
 
 
 def test_not_found_page(browserless, users):
@@ -369,7 +373,7 @@ def test_sign_in_never_redirects_off_site(browserless, users, target):
     b.get("/signin")
     r = b.client.post("/signin", data={"csrf": b.csrf, "token": users["viewer"].token,
                                        "next": target}, follow_redirects=False)
-    assert r.status_code == 303 and r.headers["location"] == "/programs"
+    assert r.status_code == 303 and r.headers["location"] == "/dashboard"
 
 
 def test_numbers_for_people():

@@ -2,12 +2,16 @@
 
 from __future__ import annotations
 
-from fastapi import APIRouter
+from typing import Annotated
+
+from fastapi import APIRouter, Query
+from fastapi.responses import Response
 
 from qualplan.api.deps import ActorDep, PageDep, ReaderDep, SessionDep
 from qualplan.api.models import Page
-from qualplan.planning import approvals, levels
+from qualplan.planning import approvals, documents, levels
 from qualplan.planning import schemas as s
+from qualplan.reports import tables
 
 router = APIRouter(tags=["levels"])
 
@@ -51,3 +55,16 @@ def rederive(level_id: int, session: SessionDep, actor: ActorDep, store: bool = 
     per breakpoint and overall in dB; with `store=true` the new level is kept and
     supersedes this one (without it nothing is written)."""
     return levels.rederive_level(session, actor, level_id, store=store)
+@router.get("/levels/{level_id}/breakpoints.csv", response_class=Response,
+            responses={200: {"content": {"text/csv": {}}}})
+def level_breakpoints(
+    level_id: int, session: SessionDep, _: ReaderDep,
+    digits: Annotated[int, Query(ge=1, le=17, description="Significant figures.")] = 4,
+):
+    """The level's breakpoint table: `#` lines (level, grade, units, tolerances, hash,
+    STALE, caution), a header with units (`freq_hz,asd_g2_hz`, `freq_hz,accel_g`, or the
+    sine bands `f_lo_hz,f_hi_hz,quantity,amplitude,unit`), values to `digits` figures."""
+    export = documents.level_export(session, level_id)
+    return Response(tables.level_export_csv(export, digits), media_type="text/csv; charset=utf-8",
+                    headers={"Content-Disposition":
+                             f'attachment; filename="{tables.level_file_stem(export)}.csv"'})

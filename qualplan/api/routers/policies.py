@@ -48,3 +48,15 @@ def update_rules(
     row = policies.update_policy(session, actor, policy_id, cmd, version)
     response.headers["ETag"] = etag(row.version)
     return s.PolicyRead.model_validate(row)
+
+
+@router.post("/policies/{policy_id}/confirmations", status_code=201,
+             response_model=s.PolicyConfirmationRead)
+def confirm_policy(
+    policy_id: int, cmd: s.PolicyConfirm, version: VersionDep, session: SessionDep,
+    actor: ActorDep,
+):
+    """Record that the policy's values were checked against the issue in force of its
+    standard (approver). Issued documents then state who checked, and when."""
+    row = policies.confirm_policy(session, actor, policy_id, cmd.issue, cmd.note, version)
+    return s.PolicyConfirmationRead.model_validate(row)
