@@ -1,5 +1,5 @@
 """0011: policy confirmations are append-only (triggers refuse UPDATE and DELETE through
-raw SQL) and downgrade cleanly to 0007."""
+raw SQL) and downgrade cleanly to 0013."""
 
 from __future__ import annotations
 
