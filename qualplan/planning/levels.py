@@ -27,7 +27,7 @@ from qualplan.planning import coverage as cov
 from qualplan.planning import envdata
 from qualplan.planning import results as r
 from qualplan.planning import schemas as s
-from qualplan.planning.access import Actor, record, require
+from qualplan.planning.access import Actor, record, require_for
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import ValidationFailed
 from qualplan.planning.lifecycle import (
@@ -435,8 +435,8 @@ def _with_coverage(result, life: list[LifeItem], rules: s.PolicyRules):
 
 def derive_level(session: Session, actor: Actor, recipe: s.LevelRecipe) -> m.Level:
     """Derive a level from a recipe; store it with its inputs' hashes and coverage."""
-    require(actor, m.Role.engineer, "deriving a level")
     product = get(session, m.Product, recipe.product_id, "product")
+    require_for(session, actor, product, m.Role.engineer, "deriving a level")
     policy = get(session, m.MarginPolicy, recipe.policy_id, "policy")
     rules = rules_of(policy)
     inputs = _inputs(session, recipe, product)
