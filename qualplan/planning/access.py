@@ -437,9 +437,62 @@ def _user_name(session: Session, user_id: int) -> str:
     return user.name if user is not None else f"user {user_id}"
 
 
+def _visible_ids(name: str, ids: list[int]):
+    """A select of the ids of entity `name` that belong to the programs `ids` (Core
+    tables, so the subquery is explicit), or None for an entity without a program."""
+    t = {c.__tablename__: c.__table__ for c in (
+        m.Product, m.Phase, m.Environment, m.Level, m.Requirement, m.Document,
+        m.TransferRule, m.ModalSummary, m.ResponseEstimate, m.Waiver)}
+    products = select(t["products"].c.id).where(t["products"].c.program_id.in_(ids))
+    by_program = {"product": "products", "phase": "phases", "requirement": "requirements",
+                  "document": "documents", "transfer_rule": "transfer_rules"}
+    by_product = {"environment": "environments", "level": "levels",
+                  "modal-summary": "modal_summaries", "response-estimate": "response_estimates"}
+    if name == "program":
+        return ids
+    if name in by_program:
+        tab = t[by_program[name]]
+        return select(tab.c.id).where(tab.c.program_id.in_(ids))
+    if name in by_product:
+        tab = t[by_product[name]]
+        return select(tab.c.id).where(tab.c.product_id.in_(products))
+    if name == "waiver":
+        req = t["requirements"]
+        tab = t["waivers"]
+        return select(tab.c.id).where(tab.c.requirement_id.in_(
+            select(req.c.id).where(req.c.program_id.in_(ids))))
+    return None
+
+
+_EVENT_ENTITIES = ("program", "product", "phase", "environment", "level", "requirement",
+                   "document", "transfer_rule", "modal-summary", "response-estimate",
+                   "waiver")
+
+
 def list_events(session: Session, *, entity: str | None = None, entity_id: int | None = None,
                 offset: int = 0, limit: int | None = 200) -> tuple[list[m.Event], int]:
-    """A page of events, newest first (who did what, when), and the total count."""
-    repo = EventRepository(session)
-    rows = repo.list(entity=entity, entity_id=entity_id, offset=offset, limit=limit)
-    return list(rows), repo.count(entity=entity, entity_id=entity_id)
+    """A page of events, newest first (who did what, when), and the total count.
+
+    A session scoped to some programs (a non-admin caller) sees only the events of rows
+    of those programs (programs, products, phases, environments, levels, requirements,
+    documents, transfer rules, modal summaries, estimates, waivers).
+    """
+    from sqlalchemy import and_, func, or_
+
+    if scope.programs_in_scope(session) is None:
+        repo = EventRepository(session)
+        rows = repo.list(entity=entity, entity_id=entity_id, offset=offset, limit=limit)
+        return list(rows), repo.count(entity=entity, entity_id=entity_id)
+    ids = sorted(scope.programs_in_scope(session))
+    visible = [and_(m.Event.entity == name, m.Event.entity_id.in_(_visible_ids(name, ids)))
+               for name in _EVENT_ENTITIES]
+    stmt = select(m.Event).where(or_(*visible))
+    if entity is not None:
+        stmt = stmt.where(m.Event.entity == entity)
+    if entity_id is not None:
+        stmt = stmt.where(m.Event.entity_id == entity_id)
+    total = session.scalar(select(func.count()).select_from(stmt.subquery()))
+    stmt = stmt.order_by(m.Event.id.desc()).offset(offset)
+    if limit is not None:
+        stmt = stmt.limit(limit)
+    return list(session.scalars(stmt)), int(total or 0)

@@ -108,3 +108,19 @@ def test_membership_role_decides_and_grants_need_an_approver(two, admin):
     # revoking ends a's access at once
     b["api"].request("DELETE", f"/programs/{pid}/members/{a['name']}", expect=204)
     assert a["api"].get(f"/environments/{b['env']['id']}", expect=None).status_code == 404
+
+
+def test_event_log_shows_only_the_callers_programs(two, admin):
+    a, b = two["a"], two["b"]
+    rows = a["api"].get("/events", params={"limit": 500}).json()["items"]
+    seen = {(e["entity"], e["entity_id"]) for e in rows}
+    assert ("program", a["program"]["id"]) in seen
+    assert ("environment", a["env"]["id"]) in seen
+    assert ("program", b["program"]["id"]) not in seen
+    assert ("requirement", b["req"]["id"]) not in seen
+    r = a["api"].get("/events", params={"entity": "program",
+                                        "entity_id": b["program"]["id"]}).json()
+    assert r["total"] == 0 and r["items"] == []
+    every = admin.get("/events", params={"entity": "program",
+                                         "entity_id": b["program"]["id"]}).json()
+    assert every["total"] >= 1

@@ -187,3 +187,37 @@ def test_transfer_tables_are_append_only_and_downgrade_cleanly(fresh_db_url):
     with pytest.raises(DBAPIError, match="immutable"), engine.begin() as conn:
         conn.execute(text("DELETE FROM transfer_rule_revisions"))
     engine.dispose()
+
+
+def test_memberships_upgrade_keeps_everyone_in(fresh_db_url):
+    """0007 -> 0014: every existing non-admin user becomes a member of every existing
+    program with its global role (admins stay global); downgrade drops the two tables."""
+    migrate.upgrade(fresh_db_url, "0007")
+    engine = make_engine(fresh_db_url)
+    with engine.begin() as conn:
+        for name in ("Kestrel", "Osprey"):
+            conn.execute(text("INSERT INTO programs (name, description, created_at, version) "
+                              "VALUES (:n, '', CURRENT_TIMESTAMP, 1)"), {"n": name})
+        for name, role in (("vera", "viewer"), ("ed", "engineer"), ("root", "admin")):
+            conn.execute(text("INSERT INTO users (name, role, active, created_at) "
+                              "VALUES (:n, :r, :a, CURRENT_TIMESTAMP)"),
+                         {"n": name, "r": role, "a": True})
+    migrate.upgrade(fresh_db_url, "0014")
+    with engine.connect() as conn:
+        rows = conn.execute(text(
+            "SELECT u.name, p.name, m.role FROM memberships m JOIN users u ON u.id = m.user_id "
+            "JOIN programs p ON p.id = m.program_id ORDER BY u.name, p.name")).all()
+    assert [tuple(r) for r in rows] == [
+        ("ed", "Kestrel", "engineer"), ("ed", "Osprey", "engineer"),
+        ("vera", "Kestrel", "viewer"), ("vera", "Osprey", "viewer")]
+    with engine.begin() as conn, pytest.raises(DBAPIError):
+        conn.execute(text("INSERT INTO memberships (user_id, program_id, role, created_at) "
+                          "SELECT id, 1, 'admin', CURRENT_TIMESTAMP FROM users "
+                          "WHERE name = 'root'"))
+    migrate.downgrade(fresh_db_url, "0007")
+    engine.dispose()
+    names = inspect(engine).get_table_names()
+    assert "memberships" not in names and "sign_ins" not in names
+    migrate.upgrade(fresh_db_url)
+    assert migrate.check_schema(engine) == migrate.head_revision()
+    engine.dispose()
