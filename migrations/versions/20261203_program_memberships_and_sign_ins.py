@@ -4,7 +4,7 @@ Existing non-admin users become members of every existing program with their cur
 global role, so nobody loses access on upgrade.
 
 Revision ID: 0014
-Revises: 0007
+Revises: 0013
 Create Date: 2026-12-03 06:40:00
 """
 
@@ -16,7 +16,7 @@ import sqlalchemy as sa
 from alembic import op
 
 revision = "0014"
-down_revision = "0007"
+down_revision = "0013"
 branch_labels = None
 depends_on = None
 
