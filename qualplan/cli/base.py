@@ -7,6 +7,8 @@ exit non-zero, without a traceback.
 
 from __future__ import annotations
 
+import getpass
+import os
 import sys
 from pathlib import Path
 from typing import Annotated
@@ -20,9 +22,17 @@ from qualplan import __version__
 from qualplan.cli.output import SafeStream, safe_text
 from qualplan.config import Settings
 from qualplan.dynamics.errors import InputError
+from qualplan.planning import access
 from qualplan.planning.errors import PlanningError, StoredDataCorrupt
 from qualplan.store import migrate
-from qualplan.store.session import DatabaseUrlError, make_engine, masked, normalise_url
+from qualplan.store.session import (
+    DatabaseUrlError,
+    make_engine,
+    make_sessionmaker,
+    masked,
+    normalise_url,
+    unit_of_work,
+)
 
 app = typer.Typer(
     name="qualplan",
@@ -99,14 +109,38 @@ def version() -> None:
     typer.echo(__version__)
 
 
+def default_user_name() -> str:
+    """QUALPLAN_ACTOR, else the login name."""
+    name = os.environ.get("QUALPLAN_ACTOR")
+    if name:
+        return name
+    try:
+        return getpass.getuser()
+    except (KeyError, OSError):
+        return "local"
+
+
 @app.command()
-def init(db: DbOption = None) -> None:
-    """Create the database (if needed) and migrate it to the current schema."""
+def init(
+    db: DbOption = None,
+    admin: Annotated[str | None, typer.Option(
+        "--admin", help="Name of the first admin, made when the database has no user yet "
+        "(default: QUALPLAN_ACTOR or your login name).", show_default=False)] = None,
+) -> None:
+    """Create the database (if needed), migrate it, and make the first admin."""
     url = database_url(db)
     migrate.upgrade(url)
     engine = make_engine(url)
-    typer.echo(f"database {masked(url)} is at schema revision {migrate.check_schema(engine)}")
-    engine.dispose()
+    try:
+        typer.echo(f"database {masked(url)} is at schema revision "
+                   f"{migrate.check_schema(engine)}")
+        with unit_of_work(make_sessionmaker(engine, write=True)) as session:
+            first = access.first_admin(session, admin or default_user_name())
+        if first is not None:
+            typer.echo(f"first admin: {safe_text(first.name)} (the CLI acts as this user "
+                       "under this login name; `qualplan user add` makes more users)")
+    finally:
+        engine.dispose()
 
 
 @db_app.command("upgrade")

@@ -1,26 +1,33 @@
-"""What the work commands share: the local actor, one unit of work per command, and the
+"""What the work commands share: the actor, one unit of work per command, and the
 options every command takes.
 
 Each command opens one unit of work, calls one planning use case and prints a table
-(or JSON with ``--json``). The CLI acts with the rights of a local administrator on
-the database it opens (the file's or server's own access rules guard it); set
-``QUALPLAN_ACTOR`` to record your name on what you change (default: the login name).
+(or JSON with ``--json``). The CLI acts as a stored user of the database, with that
+user's roles (per program; admin is global):
+
+1. the user of the API token given with ``qualplan --token TOKEN ...`` or in
+   ``QUALPLAN_TOKEN`` (any database; what a shared PostgreSQL deployment should use);
+2. otherwise the user named ``QUALPLAN_ACTOR``, else the user with the login name
+   (convenient on the embedded SQLite file: the first ``qualplan init`` makes the
+   login name the admin).
+
+A name that is not an active user of the database is refused (one line, exit 2), so no
+command records a name that is not a user.
 """
 
 from __future__ import annotations
 
-import getpass
-import os
 from contextlib import contextmanager
+from contextvars import ContextVar
 from pathlib import Path
 from typing import Annotated
 
 import typer
 
-from qualplan.cli.base import CliError, app, checked_engine
-from qualplan.planning import catalog
+from qualplan.cli.base import CliError, app, checked_engine, default_user_name
+from qualplan.planning import access, catalog
 from qualplan.planning.access import Actor
-from qualplan.planning.schemas import Role
+from qualplan.planning.errors import NotAuthenticated
 from qualplan.store.session import make_sessionmaker, unit_of_work
 
 JsonOption = Annotated[bool, typer.Option("--json", help="Print JSON instead of a table.")]
@@ -35,25 +42,55 @@ def group(name: str, help: str) -> typer.Typer:
     return sub
 
 
-def local_actor() -> Actor:
-    name = os.environ.get("QUALPLAN_ACTOR") or _login()
-    return Actor(name=name, role=Role.admin)
+_token: ContextVar[str | None] = ContextVar("qualplan_cli_token", default=None)
+_actor: ContextVar[Actor | None] = ContextVar("qualplan_cli_actor", default=None)
 
 
-def _login() -> str:
+@app.callback()
+def _options(
+    token: Annotated[str | None, typer.Option(
+        "--token", envvar="QUALPLAN_TOKEN", show_default=False,
+        help="Act as the user of this API token (default: the user with your login name, "
+        "or QUALPLAN_ACTOR).")] = None,
+) -> None:
+    """Qualification planning for dynamic environments (PSD, sine, SRS, FDS, ERS)."""
+    _token.set(token)
+
+
+def cli_actor(session) -> Actor:
+    """The stored user the command acts as (module docstring); scopes `session` to it."""
+    token = _token.get()
+    if token:
+        return access.authenticate(session, token.strip())
+    name = default_user_name()
     try:
-        return getpass.getuser()
-    except (KeyError, OSError):
-        return "local"
+        return access.actor_for_user(session, name)
+    except NotAuthenticated:
+        raise NotAuthenticated(
+            f"{name!r} is not an active user of this database: give --token (or "
+            "QUALPLAN_TOKEN), set QUALPLAN_ACTOR to your user name, or ask an admin for "
+            f"`qualplan user add {name} ROLE`") from None
+
+
+def local_actor() -> Actor:
+    """The actor of the running command (resolved when its unit of work opened)."""
+    actor = _actor.get()
+    if actor is None:
+        raise CliError("this command acts outside a unit of work (no user known)")
+    return actor
 
 
 @contextmanager
 def work(db: str | None):
-    """One unit of work on a database whose schema matches the code."""
+    """One unit of work on a database whose schema matches the code, as the CLI's user."""
     engine = checked_engine(db)
     try:
         with unit_of_work(make_sessionmaker(engine, write=True)) as session:
-            yield session
+            mark = _actor.set(cli_actor(session))
+            try:
+                yield session
+            finally:
+                _actor.reset(mark)
     finally:
         engine.dispose()
 

@@ -14,12 +14,11 @@ from typing import Annotated
 
 import typer
 
-from qualplan.cli.base import CliError, app
+from qualplan.cli.base import CliError, app, default_user_name
 from qualplan.cli.output import progress
+from qualplan.planning import access, documents, loads
 from qualplan.planning import demo as scenario
-from qualplan.planning import documents, loads
-from qualplan.planning.access import Actor
-from qualplan.planning.schemas import Grade, Role
+from qualplan.planning.schemas import Grade
 from qualplan.reports import PdfRenderer
 from qualplan.reports.loads import LoadsRenderer
 from qualplan.store import migrate
@@ -53,15 +52,15 @@ def demo(
     migrate.upgrade(url)
     engine = make_engine(url)
     docs_dir = out / "documents"
-    actor = Actor(scenario.USER, Role.approver)
     try:
         factory = make_sessionmaker(engine)
         with progress("building the scenario: environments, levels, coverage, evidence"):
             with unit_of_work(factory) as session:
-                summary = scenario.build_demo(session)
+                summary = scenario.build_demo(session, admin_name=default_user_name())
         issued = []
         with progress("writing the documents"):
             with unit_of_work(factory) as session:
+                actor = access.actor_for_user(session, scenario.USER)
                 for grade in (Grade.qualification, Grade.acceptance):
                     content = documents.specification_content(session, summary.unit_id, grade)
                     issued.append(documents.issue_document(

@@ -7,13 +7,14 @@ from typing import Annotated
 import typer
 
 from qualplan.cli.base import DbOption
-from qualplan.cli.common import JsonOption, group, local_actor, work
+from qualplan.cli.common import JsonOption, ProgramOption, _program, group, local_actor, work
 from qualplan.cli.output import emit_json, table
 from qualplan.planning import (
     access,
 )
 from qualplan.planning import schemas as s
 from qualplan.planning.schemas import (
+    ProgramRole,
     Role,
 )
 
@@ -36,8 +37,9 @@ def user_add(
 
 @user_app.command("list")
 def user_list(db: DbOption = None, as_json: JsonOption = False) -> None:
-    """List users."""
+    """List users (admins)."""
     with work(db) as session:
+        access.require(local_actor(), Role.admin, "listing users")
         users = [s.UserRead.model_validate(u) for u in access.list_users(session)]
     if as_json:
         emit_json(users)
@@ -56,6 +58,43 @@ def user_set(name: str,
         user = access.set_user(session, local_actor(), name, role=role, active=active)
         state = "active" if user.active else "inactive"
         typer.echo(f"user {user.name}: {user.role.value}, {state}")
+
+
+@user_app.command("grant")
+def user_grant(
+    name: str,
+    role: Annotated[ProgramRole, typer.Option(help="Role in the program.")],
+    program: ProgramOption = None,
+    db: DbOption = None,
+) -> None:
+    """Give NAME a role in a program (an admin, or an approver of the program)."""
+    with work(db) as session:
+        prog = _program(session, program)
+        access.grant(session, local_actor(), name, prog.id, role.value)
+        typer.echo(f"user {name} is {role.value} in program {prog.name}")
+
+
+@user_app.command("revoke")
+def user_revoke(name: str, program: ProgramOption = None, db: DbOption = None) -> None:
+    """End NAME's membership of a program (an admin, or an approver of the program)."""
+    with work(db) as session:
+        prog = _program(session, program)
+        access.revoke(session, local_actor(), name, prog.id)
+        typer.echo(f"user {name} is no longer a member of program {prog.name}")
+
+
+@user_app.command("members")
+def user_members(program: ProgramOption = None, db: DbOption = None,
+                 as_json: JsonOption = False) -> None:
+    """List the members of a program and their roles."""
+    with work(db) as session:
+        prog = _program(session, program)
+        rows = [s.MemberRead(user=n, role=r.value)
+                for n, r in access.members(session, local_actor(), prog.id)]
+    if as_json:
+        emit_json(rows)
+    else:
+        table(["user", "role"], [(r.user, r.role.value) for r in rows])
 
 
 @token_app.command("list")

@@ -12,6 +12,7 @@ from sqlalchemy.orm import Session, selectinload
 
 from qualplan.planning import schemas as s
 from qualplan.planning.catalog import get
+from qualplan.planning.errors import ValidationFailed
 from qualplan.planning.requirements import status_of
 from qualplan.store import models as m
 from qualplan.store.repositories import ProductRepository
@@ -43,6 +44,9 @@ def audit(
     scope = f"program {program.name}"
     if product_id is not None:
         product = get(session, m.Product, product_id, "product")
+        if product.program_id != program.id:
+            raise ValidationFailed("product_id", product_id,
+                                   f"the product belongs to another program than {program.name!r}")
         ids = ProductRepository(session).subtree_ids(product.id)
         stmt = stmt.where(m.Requirement.product_id.in_(ids))
         scope = f"product {product.name} and its children"

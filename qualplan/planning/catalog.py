@@ -9,7 +9,7 @@ from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
 from qualplan.planning import schemas as s
-from qualplan.planning.access import Actor, record, require
+from qualplan.planning.access import Actor, joined, record, require, require_in
 from qualplan.planning.errors import Conflict, NotFound, ValidationFailed, VersionMismatch
 from qualplan.planning.inputs import MAX_INT
 from qualplan.store import models as m
@@ -75,6 +75,7 @@ def create_program(session: Session, actor: Actor, cmd: s.ProgramCreate) -> m.Pr
     program = _add_unique(
         session, m.Program(name=cmd.name, description=cmd.description), f"program {cmd.name!r}"
     )
+    joined(session, actor, program.id)
     record(session, actor, "create", "program", program.id, name=cmd.name)
     return program
 
@@ -107,8 +108,8 @@ def update_program(
     cmd: s.ProgramUpdate,
     expected_version: int | None,
 ) -> m.Program:
-    require(actor, m.Role.engineer, "editing a program")
     program = get(session, m.Program, program_id, "program")
+    require_in(session, actor, program.id, m.Role.engineer, "editing a program")
     check_version("program", program, expected_version)
     program.description = cmd.description
     session.flush()
@@ -120,8 +121,8 @@ def update_program(
 
 
 def create_product(session: Session, actor: Actor, cmd: s.ProductCreate) -> m.Product:
-    require(actor, m.Role.engineer, "creating a product")
     get(session, m.Program, cmd.program_id, "program")
+    require_in(session, actor, cmd.program_id, m.Role.engineer, "creating a product")
     if cmd.parent_id is not None:
         parent = get(session, m.Product, cmd.parent_id, "product")
         if parent.program_id != cmd.program_id:
@@ -180,8 +181,8 @@ def product_ref(session: Session, program: m.Program | None, ref: str | int) -> 
 
 
 def create_phase(session: Session, actor: Actor, cmd: s.PhaseCreate) -> m.Phase:
-    require(actor, m.Role.engineer, "creating a phase")
     get(session, m.Program, cmd.program_id, "program")
+    require_in(session, actor, cmd.program_id, m.Role.engineer, "creating a phase")
     phase = _add_unique(session, m.Phase(**cmd.model_dump()), f"phase {cmd.name!r}")
     record(
         session,

@@ -37,7 +37,7 @@ from qualplan.planning import (
 )
 from qualplan.planning import modal as pm
 from qualplan.planning import schemas as s
-from qualplan.planning.access import Actor
+from qualplan.planning.errors import Conflict
 from qualplan.store import models as m
 
 PROGRAM = "Tern-4 coastal survey aircraft"
@@ -164,11 +164,21 @@ mode,fn_hz,zeta,meff_x_kg,meff_y_kg,meff_z_kg
 INSERT_PULL_OUT_N = 1000.0
 
 
-def build_demo(session: Session, *, seed: int = 2026) -> DemoSummary:
-    """Build the scenario in `session` (an empty database with the schema)."""
-    admin = Actor("demo-setup", m.Role.admin)
+#: The first admin of the demo database when the caller names none.
+ADMIN = "demo-admin"
+
+
+def build_demo(session: Session, *, seed: int = 2026, admin_name: str = ADMIN) -> DemoSummary:
+    """Build the scenario in `session` (an empty database with the schema).
+
+    The first user is the admin `admin_name`; it adds the demo user (an approver), who
+    builds the scenario and so becomes a member of its program.
+    """
+    admin = access.first_admin(session, admin_name)
+    if admin is None:
+        raise Conflict("the demo needs an empty database (it has users already)")
     access.create_user(session, admin, USER, m.Role.approver)
-    me = Actor(USER, m.Role.approver)
+    me = access.actor_for_user(session, USER)
     token = access.create_token(session, me, USER, "demo web pages")
     rng = np.random.default_rng(seed)
 

@@ -25,7 +25,7 @@ from sqlalchemy.orm import Session
 from qualplan.planning import coverage, wording
 from qualplan.planning import results as res
 from qualplan.planning import schemas as s
-from qualplan.planning.access import Actor, record, require
+from qualplan.planning.access import Actor, record, require_in
 from qualplan.planning.audit import audit
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import Conflict, NotFound, ValidationFailed
@@ -888,7 +888,8 @@ def issue_document(
     nothing new. Content built for another revision than the next (someone issued in
     between) is refused with Conflict.
     """
-    require(actor, m.Role.engineer, "issuing a document")
+    get(session, m.Program, content.program_id, "program")
+    require_in(session, actor, content.program_id, m.Role.engineer, "issuing a document")
     if getattr(content, "preview", False):  # a loads package has no preview
         raise ValidationFailed("preview", True, f"{content.number} is a preview: a preview "
                                "is not issued; prepare the document without it")

@@ -10,7 +10,7 @@ from sqlalchemy.orm import Session
 from qualplan.dynamics.srs import octave_grid
 from qualplan.planning import envdata
 from qualplan.planning import schemas as s
-from qualplan.planning.access import Actor, record, require
+from qualplan.planning.access import Actor, record, require_for
 from qualplan.planning.catalog import _add_unique, get
 from qualplan.planning.errors import Conflict, NotFound, ValidationFailed, VersionMismatch
 from qualplan.planning.withdrawals import describe, environment_withdrawal
@@ -23,8 +23,8 @@ def create_environment(
     session: Session, actor: Actor, cmd: s.EnvironmentCreate, array: np.ndarray | None = None
 ) -> m.Environment:
     """Create an environment with its first revision (data validated for its kind)."""
-    require(actor, m.Role.engineer, "creating an environment")
     product = get(session, m.Product, cmd.product_id, "product")
+    require_for(session, actor, product, m.Role.engineer, "creating an environment")
     if cmd.phase_id is not None:
         phase = get(session, m.Phase, cmd.phase_id, "phase")
         if phase.program_id != product.program_id:
@@ -72,7 +72,8 @@ def create_environment_from_file(session: Session, actor: Actor, cmd: s.Environm
                                  filename: str, content: bytes) -> m.Environment:
     """Create an environment from a file's content (the one use case behind the API's
     upload, the web form and ``qualplan env add --file``)."""
-    require(actor, m.Role.engineer, "creating an environment")
+    product = get(session, m.Product, cmd.product_id, "product")
+    require_for(session, actor, product, m.Role.engineer, "creating an environment")
     if not filename:
         raise ValidationFailed("file", None, "choose a file to upload")
     data, array = _file_data(cmd.kind, filename, content, cmd.reading)
@@ -88,10 +89,10 @@ def revise_environment_from_file(session: Session, actor: Actor, environment_id:
                                  note: str = "", expected_revision: int | None = None
                                  ) -> m.EnvironmentRevision:
     """A new revision read from a file's content (API upload, web form, CLI)."""
-    require(actor, m.Role.engineer, "revising an environment")
     if not filename:
         raise ValidationFailed("file", None, "choose a file to upload")
     env = get(session, m.Environment, environment_id, "environment")
+    require_for(session, actor, env, m.Role.engineer, "revising an environment")
     data, array = _file_data(env.kind, filename, content, how)
     return revise_environment(session, actor, env.id, s.RevisionIn(
         data=data, note=note, expected_revision=expected_revision), array)
@@ -105,8 +106,8 @@ def revise_environment(
     array: np.ndarray | None = None,
 ) -> m.EnvironmentRevision:
     """Add a revision; refuse an identical content and a stale `expected_revision`."""
-    require(actor, m.Role.engineer, "revising an environment")
     env = get(session, m.Environment, environment_id, "environment")
+    require_for(session, actor, env, m.Role.engineer, "revising an environment")
     # take the environment's turn first: the latest revision read next is the last
     # committed one, for the expected-revision and identical-content checks too
     RevisionRepository(session).lock_environment(env.id)

@@ -18,7 +18,7 @@ from qualplan.dynamics.units import db_amplitude
 from qualplan.planning import envdata, imports
 from qualplan.planning import results as res
 from qualplan.planning import schemas as s
-from qualplan.planning.access import Actor, record, require
+from qualplan.planning.access import Actor, record, require_for
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import Conflict, ValidationFailed
 from qualplan.planning.levels import result_of
@@ -74,8 +74,8 @@ def add_analysis(
     session: Session, actor: Actor, requirement_id: int, cmd: s.AnalysisEvidenceIn
 ) -> m.Evidence:
     """An analysis result: margin of safety MS = allowable / (FS x applied) - 1."""
-    require(actor, m.Role.engineer, "adding evidence")
     req = get(session, m.Requirement, requirement_id, "requirement")
+    require_for(session, actor, req, m.Role.engineer, "adding evidence")
     if cmd.applied <= 0:
         raise ValidationFailed(
             "applied", cmd.applied, "must be > 0 (same sign convention as the allowable)"
@@ -108,8 +108,8 @@ def add_test_record(
     session: Session, actor: Actor, requirement_id: int, cmd: s.TestEvidenceIn
 ) -> m.Evidence:
     """An achieved control spectrum checked against the requirement's level."""
-    require(actor, m.Role.engineer, "adding evidence")
     req = get(session, m.Requirement, requirement_id, "requirement")
+    require_for(session, actor, req, m.Role.engineer, "adding evidence")
     if req.level is None:
         raise ValidationFailed("requirement", req.key, "points at no level to test against")
     level = req.level
@@ -153,8 +153,8 @@ def add_test_record_file(
     note: str = "",
 ) -> m.Evidence:
     """A test record uploaded as a file: CSV (Hz, value) in declared units, or JSON."""
-    require(actor, m.Role.engineer, "adding evidence")
     req = get(session, m.Requirement, requirement_id, "requirement")
+    require_for(session, actor, req, m.Role.engineer, "adding evidence")
     if req.level is None:
         raise ValidationFailed("requirement", req.key, "points at no level to test against")
     data, _ = imports.environment_data_from_file(
@@ -300,8 +300,8 @@ def add_similarity(
     session: Session, actor: Actor, requirement_id: int, cmd: s.SimilarityEvidenceIn
 ) -> m.Evidence:
     """Claim similarity to another product's requirement (it must be verified now)."""
-    require(actor, m.Role.engineer, "adding evidence")
     req = get(session, m.Requirement, requirement_id, "requirement")
+    require_for(session, actor, req, m.Role.engineer, "adding evidence")
     other = get(session, m.Requirement, cmd.similar_requirement_id, "requirement")
     if other.id == req.id:
         raise ValidationFailed("similar_requirement_id", other.id, "must be another requirement")
@@ -342,8 +342,8 @@ def add_similarity(
 def add_inspection(
     session: Session, actor: Actor, requirement_id: int, cmd: s.InspectionEvidenceIn
 ) -> m.Evidence:
-    require(actor, m.Role.engineer, "adding evidence")
     req = get(session, m.Requirement, requirement_id, "requirement")
+    require_for(session, actor, req, m.Role.engineer, "adding evidence")
     summary = {"reason": f"inspection {'passed' if cmd.passed else 'failed'}: {cmd.note}"}
     return _add(
         session,

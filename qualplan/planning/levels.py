@@ -27,7 +27,7 @@ from qualplan.planning import coverage as cov
 from qualplan.planning import envdata
 from qualplan.planning import results as r
 from qualplan.planning import schemas as s
-from qualplan.planning.access import Actor, record, require
+from qualplan.planning.access import Actor, record, require_for
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import Conflict, ValidationFailed
 from qualplan.planning.lifecycle import (
@@ -443,8 +443,8 @@ def _with_coverage(result, life: list[LifeItem], rules: s.PolicyRules):
 
 def derive_level(session: Session, actor: Actor, recipe: s.LevelRecipe) -> m.Level:
     """Derive a level from a recipe; store it with its inputs' hashes and coverage."""
-    require(actor, m.Role.engineer, "deriving a level")
     product = get(session, m.Product, recipe.product_id, "product")
+    require_for(session, actor, product, m.Role.engineer, "deriving a level")
     policy = get(session, m.MarginPolicy, recipe.policy_id, "policy")
     rules = rules_of(policy)
     inputs = _inputs(session, recipe, product)
@@ -615,8 +615,8 @@ def rederive_level(session: Session, actor: Actor, level_id: int, *, store: bool
     With ``store`` the new level is kept (the next number of its name) and supersedes
     the old one, which becomes stale; without it nothing is written.
     """
-    require(actor, m.Role.engineer, "re-deriving a level")
     old = level_by_id(session, level_id)
+    require_for(session, actor, old, m.Role.engineer, "re-deriving a level")
     if (sup := superseded_by(session, old.id)) is not None:
         newer = session.get(m.Level, sup.new_level_id)
         raise Conflict(f"level {old.name} #{old.number} is superseded already by "

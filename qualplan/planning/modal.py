@@ -30,7 +30,7 @@ from qualplan.dynamics.units import G0_M_S2
 from qualplan.io.modal import read_modal_summary
 from qualplan.planning import envdata, estimates
 from qualplan.planning import results as res
-from qualplan.planning.access import Actor, record, require
+from qualplan.planning.access import Actor, record, require_for
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import Conflict, ValidationFailed, VersionMismatch
 from qualplan.planning.levels import result_of
@@ -203,8 +203,8 @@ def import_modal_summary(
 
     The first import creates the summary; an identical content is refused.
     """
-    require(actor, m.Role.engineer, "importing a modal summary")
     product = get(session, m.Product, product_id, "product")
+    require_for(session, actor, product, m.Role.engineer, "importing a modal summary")
     name = name.strip()
     if not name:
         raise ValidationFailed("name", name, "must not be empty")
@@ -442,8 +442,8 @@ def _estimate_sine(curve: LevelCurve, fn, zeta, meff, residual: float, notes: li
 
 def make_estimate(session: Session, actor: Actor, cmd: EstimateIn) -> m.ResponseEstimate:
     """Compute and store a peak-response estimate from a modal revision and a level."""
-    require(actor, m.Role.engineer, "making a response estimate")
     rev = revision_by_id(session, cmd.modal_revision_id)
+    require_for(session, actor, rev, m.Role.engineer, "making a response estimate")
     level = get(session, m.Level, cmd.level_id, "level")
     summary = rev.summary
     if level.product_id != summary.product_id:
@@ -554,8 +554,8 @@ def record_as_evidence(session: Session, actor: Actor, requirement_id: int,
     """Close an analysis requirement with an estimate: MS = allowable / (FS x applied) - 1."""
     from qualplan.planning.evidence import _add
 
-    require(actor, m.Role.engineer, "adding evidence")
     req = get(session, m.Requirement, requirement_id, "requirement")
+    require_for(session, actor, req, m.Role.engineer, "adding evidence")
     est = estimate_by_id(session, cmd.estimate_id)
     if req.product_id != est.product_id:
         raise ValidationFailed("estimate_id", est.id, "the estimate is of another product")

@@ -25,7 +25,7 @@ from sqlalchemy.orm import Session
 
 from qualplan.dynamics import streaming
 from qualplan.io.streams import RecordSource, open_record
-from qualplan.planning.access import Actor, record, require
+from qualplan.planning.access import Actor, record, require_for
 from qualplan.planning.catalog import _add_unique, get
 from qualplan.planning.envdata import core_errors
 from qualplan.planning.errors import Conflict, ValidationFailed
@@ -132,7 +132,13 @@ def import_record(session: Session, actor: Actor, cmd: RecordImport, src: Record
     Conflict for a record identical to the latest revision. Nothing is written before
     the whole file has been read once and checked.
     """
-    require(actor, m.Role.engineer, "importing a record")
+    if cmd.environment_id is not None:
+        target = get(session, m.Environment, cmd.environment_id, "environment")
+    elif cmd.product_id is not None:
+        target = get(session, m.Product, cmd.product_id, "product")
+    else:
+        raise ValidationFailed("name", cmd.name, "a new environment needs product_id and name")
+    require_for(session, actor, target, m.Role.engineer, "importing a record")
     if not isinstance(chunk_samples, int) or not 256 <= chunk_samples <= 2 ** 22:
         raise ValidationFailed("chunk_samples", chunk_samples, "must be 256 to 4194304")
     axes = parse_axes(cmd.channel_axes)

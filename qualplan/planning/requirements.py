@@ -17,7 +17,7 @@ from sqlalchemy.orm import Session, selectinload
 
 from qualplan.planning import approvals
 from qualplan.planning import schemas as s
-from qualplan.planning.access import Actor, record, require
+from qualplan.planning.access import Actor, record, require_for, require_in
 from qualplan.planning.catalog import get, name_key, ref_id
 from qualplan.planning.errors import Conflict, NotFound, ValidationFailed, VersionMismatch
 from qualplan.store import models as m
@@ -33,8 +33,8 @@ class StatusOf:
 
 
 def create_requirement(session: Session, actor: Actor, cmd: s.RequirementCreate) -> m.Requirement:
-    require(actor, m.Role.engineer, "creating a requirement")
     get(session, m.Program, cmd.program_id, "program")
+    require_in(session, actor, cmd.program_id, m.Role.engineer, "creating a requirement")
     product = get(session, m.Product, cmd.product_id, "product")
     if product.program_id != cmd.program_id:
         raise ValidationFailed("product_id", cmd.product_id, "belongs to another program")
@@ -64,8 +64,8 @@ def update_requirement(
     session: Session, actor: Actor, requirement_id: int, cmd: s.RequirementUpdate
 ) -> m.Requirement:
     """Edit a requirement made from version `cmd.expected_version` (else VersionMismatch)."""
-    require(actor, m.Role.engineer, "editing a requirement")
     req = get(session, m.Requirement, requirement_id, "requirement")
+    require_for(session, actor, req, m.Role.engineer, "editing a requirement")
     if req.version != cmd.expected_version:
         raise VersionMismatch("requirement", req.key, cmd.expected_version, req.version)
     changes = cmd.model_dump(exclude_unset=True, exclude={"expected_version"})
@@ -297,8 +297,8 @@ def waive(session: Session, actor: Actor, requirement_id: int, cmd: s.WaiverIn) 
 
 
 def revoke_waiver(session: Session, actor: Actor, waiver_id: int) -> m.Waiver:
-    require(actor, m.Role.approver, "revoking a waiver")
     w = get(session, m.Waiver, waiver_id, "waiver")
+    require_for(session, actor, w, m.Role.approver, "revoking a waiver")
     if w.revoked_at is not None:
         raise Conflict(f"waiver {waiver_id} is revoked already")
     w.revoked_at = utcnow()

@@ -5,6 +5,7 @@ Units are in the field names (``duration_s``, ``freq_hz``, ``asd_g2_hz``, ``acce
 
 from __future__ import annotations
 
+import enum
 from datetime import datetime
 from typing import Annotated, Any, Literal
 
@@ -653,3 +654,23 @@ class Page(BaseModel):
     total: int
     offset: int
     limit: int
+
+
+# --- program memberships --------------------------------------------------------------
+
+
+class ProgramRole(enum.StrEnum):
+    """A role held in one program (admin is global, never a program role)."""
+
+    viewer = "viewer"
+    engineer = "engineer"
+    approver = "approver"
+
+
+class MemberGrant(Command):
+    role: ProgramRole
+
+
+class MemberRead(BaseModel):
+    user: str
+    role: ProgramRole

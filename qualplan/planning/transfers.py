@@ -25,7 +25,7 @@ from sqlalchemy.orm import Session
 from qualplan.dynamics import transfer as core_tr
 from qualplan.planning import envdata
 from qualplan.planning import schemas as s
-from qualplan.planning.access import Actor, record, require
+from qualplan.planning.access import Actor, record, require_for, require_in
 from qualplan.planning.catalog import _add_unique, get
 from qualplan.planning.environments import _append_revision
 from qualplan.planning.errors import Conflict, ValidationFailed
@@ -141,8 +141,8 @@ def _frame_json(cmd: MountingIn) -> dict[str, Any]:
 def set_mounting(session: Session, actor: Actor, product_id: int, cmd: MountingIn
                  ) -> m.Mounting:
     """State (or change) a product's orientation in its parent."""
-    require(actor, m.Role.engineer, "setting a mounting")
     product = get(session, m.Product, product_id, "product")
+    require_for(session, actor, product, m.Role.engineer, "setting a mounting")
     if product.parent_id is None:
         raise ValidationFailed("product_id", product_id,
                                f"product {product.name!r} has no parent to be mounted in")
@@ -244,8 +244,8 @@ def _append_rule_revision(session, actor, rule, spec, basis, provenance, note):
 
 def create_rule(session: Session, actor: Actor, cmd: RuleCreate) -> m.TransferRule:
     """Create a transfer rule with its first revision."""
-    require(actor, m.Role.engineer, "creating a transfer rule")
     get(session, m.Program, cmd.program_id, "program")
+    require_in(session, actor, cmd.program_id, m.Role.engineer, "creating a transfer rule")
     spec = _check_rule_spec(cmd.kind, cmd.spec)
     rule = _add_unique(session, m.TransferRule(program_id=cmd.program_id, name=cmd.name,
                                                kind=cmd.kind), f"transfer rule {cmd.name!r}")
@@ -257,8 +257,8 @@ def create_rule(session: Session, actor: Actor, cmd: RuleCreate) -> m.TransferRu
 def revise_rule(session: Session, actor: Actor, rule_id: int, cmd: RuleRevisionIn
                 ) -> m.TransferRuleRevision:
     """Add a revision to a rule (identical content is refused)."""
-    require(actor, m.Role.engineer, "revising a transfer rule")
     rule = get(session, m.TransferRule, rule_id, "transfer rule")
+    require_for(session, actor, rule, m.Role.engineer, "revising a transfer rule")
     spec = _check_rule_spec(rule.kind, cmd.spec)
     latest = _latest_rule_revision(session, rule.id)
     if latest is not None and latest.content_hash == _rule_revision_hash(
@@ -405,8 +405,8 @@ def derive_transferred(session: Session, actor: Actor, cmd: TransferCreate
     (no mounting: aligned with the parent), then the rules are applied in the order
     given. The result is a new environment (first derivation) or its next revision.
     """
-    require(actor, m.Role.engineer, "deriving a transferred environment")
     product = get(session, m.Product, cmd.product_id, "product")
+    require_for(session, actor, product, m.Role.engineer, "deriving a transferred environment")
     if product.parent_id is None:
         raise ValidationFailed("product_id", cmd.product_id,
                                f"product {product.name!r} has no parent to take environments from")
@@ -753,8 +753,8 @@ def _level_asd(level: m.Level) -> tuple[list[float], list[float]]:
 def set_level_force_limit(session: Session, actor: Actor, level_id: int, cmd: ForceLimitIn
                           ) -> m.LevelForceLimit:
     """Set the force limit of a random test level (a new row; the newest applies)."""
-    require(actor, m.Role.engineer, "setting a force limit")
     level = get(session, m.Level, level_id, "level")
+    require_for(session, actor, level, m.Role.engineer, "setting a force limit")
     if level.kind is not K.random or level.purpose is not m.LevelPurpose.test:
         raise ValidationFailed("level_id", level_id, f"level {level.name!r} is a "
                                f"{level.kind.value} {level.purpose.value} level; force limits "
@@ -781,7 +781,8 @@ def accept_notches(session: Session, actor: Actor, level_id: int, rationale: str
                    ) -> m.LevelForceLimit:
     """An approver accepts the notches of a level's force limit that are deeper than the
     policy allows: recorded as the level's next force-limit row and an event."""
-    require(actor, m.Role.approver, "accepting notches deeper than the policy allows")
+    require_for(session, actor, get(session, m.Level, level_id, "level"), m.Role.approver,
+                "accepting notches deeper than the policy allows")
     if not rationale.strip():
         raise ValidationFailed("rationale", rationale, "must say why the notches are accepted")
     row = session.scalar(select(m.LevelForceLimit).where(m.LevelForceLimit.level_id == level_id)

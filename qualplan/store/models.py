@@ -126,6 +126,43 @@ class ApiToken(Base):
     user: Mapped[User] = relationship(back_populates="tokens")
 
 
+class Membership(Base):
+    """A user's role in one program (viewer, engineer or approver; admin is global)."""
+
+    __tablename__ = "memberships"
+    __table_args__ = (
+        UniqueConstraint("user_id", "program_id"),
+        CheckConstraint("role <> 'admin'", name="not_admin"),
+    )
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    user_id: Mapped[int] = mapped_column(ForeignKey("users.id", ondelete="CASCADE"), index=True)
+    program_id: Mapped[int] = mapped_column(
+        ForeignKey("programs.id", ondelete="CASCADE"), index=True
+    )
+    role: Mapped[Role] = mapped_column(_enum(Role, "membership_role"))
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+
+class SignIn(Base):
+    """A server-side browser session: the cookie carries a random key whose SHA-256 is here.
+
+    Sign-out sets ``ended_at``; revoking the token it was opened with ends it as well.
+    """
+
+    __tablename__ = "sign_ins"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    key_hash: Mapped[str] = mapped_column(String(64), unique=True)
+    user_id: Mapped[int] = mapped_column(ForeignKey("users.id", ondelete="CASCADE"), index=True)
+    token_id: Mapped[int | None] = mapped_column(
+        ForeignKey("api_tokens.id", ondelete="CASCADE"), index=True
+    )
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    expires_at: Mapped[datetime] = mapped_column(UtcDateTime())
+    ended_at: Mapped[datetime | None] = mapped_column(UtcDateTime())
+
+
 class Program(Base):
     __tablename__ = "programs"
 

@@ -1,24 +1,26 @@
-"""The browser session: a signed cookie, CSRF tokens, and the Actor behind them.
+"""The browser session: a signed cookie naming a server-side sign-in, CSRF tokens, and
+the Actor behind them.
 
-The cookie holds ``{"n": nonce, "t": sha256 of the API token or null, "e": expiry}``
-as base64 JSON with an HMAC-SHA256 signature (the token itself never leaves the
-sign-in request). Every request looks the token hash up again, so a revoked token or
-a deactivated user is signed out at once. The CSRF token of a form is
-HMAC(secret, "csrf:" + nonce): a page of another site can neither read it nor forge it.
-The nonce changes at sign-in and sign-out (no session fixation).
+The cookie holds ``{"n": nonce, "k": sign-in key or null}`` signed with a timestamp by
+itsdangerous (``URLSafeTimedSerializer``, the signing Starlette's sessions use); a cookie
+older than the sign-in lifetime, or with a wrong signature, is refused. The sign-in key is
+random; only its SHA-256 is stored (table ``sign_ins``), with its user, the API token it
+was opened with and its end. Every request looks the sign-in up again: sign-out, revoking
+the token and deactivating the user end it at once, so a copied cookie is refused after
+any of them. The API token itself never leaves the sign-in request.
+
+The CSRF token of a form is the itsdangerous signature of the nonce (salt
+``qualplan-csrf``): a page of another site can neither read it nor forge it. The nonce
+changes at sign-in and sign-out (no session fixation).
 """
 
 from __future__ import annotations
 
-import base64
-import hashlib
-import hmac
-import json
 import os
 import secrets
-import time
 from dataclasses import dataclass
 
+import itsdangerous
 from sqlalchemy.orm import Session
 
 from qualplan.planning import access
@@ -26,8 +28,8 @@ from qualplan.planning.access import Actor
 from qualplan.planning.errors import NotAuthenticated
 
 COOKIE = "qp_session"
-#: Session lifetime [s]: a working day.
-MAX_AGE_S = 12 * 3600
+#: Session lifetime [s]: a working day (the server-side sign-in ends at the same age).
+MAX_AGE_S = access.SIGN_IN_MAX_AGE_S
 SECRET_ENV = "QUALPLAN_WEB_SECRET"
 
 
@@ -43,62 +45,70 @@ def secret_from_settings(settings) -> bytes:
 
 @dataclass(frozen=True)
 class WebSession:
+    """What the cookie carries: a nonce (for CSRF) and the key of a sign-in, or None."""
+
     nonce: str
-    token_hash: str | None
-    expires: int
+    key: str | None = None
 
     @classmethod
-    def new(cls, token_hash: str | None = None) -> WebSession:
-        return cls(secrets.token_urlsafe(18), token_hash, int(time.time()) + MAX_AGE_S)
+    def new(cls, key: str | None = None) -> WebSession:
+        return cls(secrets.token_urlsafe(18), key)
 
 
 class Signer:
-    def __init__(self, secret: bytes) -> None:
-        self._key = hashlib.sha256(b"qualplan-web-cookie:" + secret).digest()
+    """Signs and checks the cookie and the CSRF tokens (itsdangerous)."""
 
-    def _mac(self, data: bytes) -> str:
-        digest = hmac.new(self._key, data, hashlib.sha256).digest()
-        return base64.urlsafe_b64encode(digest).decode().rstrip("=")
+    def __init__(self, secret: bytes, max_age_s: int = MAX_AGE_S) -> None:
+        self._cookie = itsdangerous.URLSafeTimedSerializer(secret, salt="qualplan-web-cookie")
+        self._csrf = itsdangerous.Signer(secret, salt="qualplan-csrf")
+        self.max_age_s = max_age_s
 
     def dump(self, ws: WebSession) -> str:
-        body = json.dumps({"n": ws.nonce, "t": ws.token_hash, "e": ws.expires}).encode()
-        payload = base64.urlsafe_b64encode(body).decode().rstrip("=")
-        return f"{payload}.{self._mac(payload.encode())}"
+        return self._cookie.dumps({"n": ws.nonce, "k": ws.key})
 
     def load(self, value: str | None) -> WebSession | None:
-        """The session in a cookie value; None when missing, forged or expired."""
-        if not value or value.count(".") != 1:
-            return None
-        payload, mac = value.split(".")
-        if not hmac.compare_digest(mac, self._mac(payload.encode())):
+        """The session in a cookie value; None when missing, forged or older than max age."""
+        if not value:
             return None
         try:
-            raw = json.loads(base64.urlsafe_b64decode(payload + "=" * (-len(payload) % 4)))
-            ws = WebSession(str(raw["n"]), raw["t"], int(raw["e"]))
-        except (ValueError, KeyError, TypeError):
+            raw = self._cookie.loads(value, max_age=self.max_age_s)
+            nonce, key = raw["n"], raw["k"]
+        except (itsdangerous.BadData, KeyError, TypeError):
             return None
-        if ws.expires < time.time():
+        if not isinstance(nonce, str) or not (key is None or isinstance(key, str)):
             return None
-        return ws
+        return WebSession(nonce, key)
 
     def csrf(self, ws: WebSession) -> str:
-        return self._mac(b"csrf:" + ws.nonce.encode())
+        return self._csrf.get_signature(ws.nonce).decode()
 
     def csrf_ok(self, ws: WebSession, token: str | None) -> bool:
-        return bool(token) and hmac.compare_digest(str(token), self.csrf(ws))
+        if not token:
+            return False
+        try:
+            return self._csrf.verify_signature(ws.nonce, str(token))
+        except (itsdangerous.BadData, UnicodeError):
+            return False
 
 
 def actor_of(session: Session, ws: WebSession | None) -> Actor | None:
-    """The Actor behind a session cookie (None when signed out, revoked or inactive)."""
-    if ws is None or not ws.token_hash:
+    """The Actor behind a session cookie (None when signed out, ended, revoked, inactive)."""
+    if ws is None or not ws.key:
         return None
     try:
-        return access.authenticate_hash(session, ws.token_hash)
+        return access.actor_of_sign_in(session, ws.key)
     except NotAuthenticated:
         return None
 
 
 def sign_in(session: Session, token: str) -> tuple[Actor, WebSession]:
-    """Check `token` with planning.access.authenticate; a fresh session holding its hash."""
-    actor = access.authenticate(session, token.strip())
-    return actor, WebSession.new(access.hash_token(token.strip()))
+    """Check `token`, open a server-side sign-in; a fresh session holding its key."""
+    actor, key = access.open_sign_in(session, token)
+    return actor, WebSession.new(key)
+
+
+def sign_out(session: Session, ws: WebSession | None) -> WebSession:
+    """End the sign-in of `ws` on the server; a fresh, signed-out session."""
+    if ws is not None and ws.key:
+        access.close_sign_in(session, ws.key)
+    return WebSession.new()

@@ -146,7 +146,7 @@ def ctx_dep(
     if fresh:
         ws = auth.WebSession.new()
     actor = auth.actor_of(db, ws)
-    if actor is None and ws.token_hash:  # revoked or expired: drop it
+    if actor is None and ws.key:  # ended, revoked or expired: drop it
         ws, fresh = auth.WebSession.new(), True
     return Ctx(request, db, web, ws, actor, set_cookie=fresh)
 
@@ -171,13 +171,14 @@ def _cookie(ctx: Ctx, response: Response) -> Response:
 def render(ctx: Ctx, name: str, status: int = 200, **values) -> Response:
     if ctx.extra.get("error_on_top"):
         values["where"] = None
-    values.update(
-        pdf_available=ctx.web.pdf is not None,
-        actor=ctx.actor,
-        csrf=ctx.csrf,
-        can_edit=ctx.can(Role.engineer),
-        can_waive=ctx.can(Role.approver),
-    )
+    values = {
+        "can_edit": ctx.can(Role.engineer),  # a page of one program passes its own
+        "can_waive": ctx.can(Role.approver),
+        **values,
+        "pdf_available": ctx.web.pdf is not None,
+        "actor": ctx.actor,
+        "csrf": ctx.csrf,
+    }
     response = templates.TemplateResponse(ctx.request, name, values, status_code=status)
     response.headers["Cache-Control"] = "no-store"
     return _cookie(ctx, response)

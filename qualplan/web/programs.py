@@ -8,6 +8,7 @@ from fastapi.responses import Response
 from starlette.concurrency import run_in_threadpool
 
 from qualplan.planning import (
+    access,
     catalog,
     environments,
     imports,
@@ -17,6 +18,7 @@ from qualplan.planning import (
     transfers,
 )
 from qualplan.planning import schemas as s
+from qualplan.planning.schemas import Role
 from qualplan.web.common import (
     Ctx,
     CtxDep,
@@ -77,8 +79,38 @@ def program_page(ctx: Ctx, program_id: int, error=None, status=200, form=None, w
         tree=catalog.product_tree(ctx.db, program.id),
         products=catalog.list_products(ctx.db, program.id),
         phases=catalog.list_phases(ctx.db, program.id),
+        members=access.members(ctx.db, ctx.actor, program.id),
+        roles=[r.value for r in s.ProgramRole],
+        can_edit=access.can_in(ctx.db, ctx.actor, program.id, Role.engineer),
+        can_manage=access.can_in(ctx.db, ctx.actor, program.id, Role.approver),
         error=error, where=where, form=form or {},
     )
+
+
+@router.post("/programs/{program_id}/members")
+async def grant_member(program_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
+    form, _ = await form_of(request)
+
+    def do() -> str:
+        access.grant(ctx.db, ctx.actor, text(form, "user"), program_id, text(form, "role"))
+        return f"/programs/{program_id}#members"
+
+    return await run_in_threadpool(
+        action, ctx, form, do,
+        lambda msg, code: program_page(ctx, program_id, msg, code, form, "members"))
+
+
+@router.post("/programs/{program_id}/members/revoke")
+async def revoke_member(program_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
+    form, _ = await form_of(request)
+
+    def do() -> str:
+        access.revoke(ctx.db, ctx.actor, text(form, "user"), program_id)
+        return f"/programs/{program_id}#members"
+
+    return await run_in_threadpool(
+        action, ctx, form, do,
+        lambda msg, code: program_page(ctx, program_id, msg, code, form, "members"))
 
 
 @router.get("/programs/{program_id}")

@@ -56,6 +56,7 @@ async def signout(request: Request, ctx: Ctx = CtxDep) -> Response:
     form, _ = await form_of(request)
     if not ctx.web.signer.csrf_ok(ctx.ws, form.get("csrf")):
         return problem_page(ctx, 403, "Form refused", "reload the page and sign out again")
-    ctx.ws, ctx.set_cookie, ctx.actor = auth.WebSession.new(), True, None
+    ws = await run_in_threadpool(auth.sign_out, ctx.db, ctx.ws)  # ends it on the server
+    ctx.ws, ctx.set_cookie, ctx.actor = ws, True, None
     response = redirect(ctx, "/signin")
     return response

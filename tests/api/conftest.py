@@ -83,7 +83,21 @@ def callers(factory) -> dict[str, Caller]:
     out["revoked"] = Caller(name, token)
     out["none"] = Caller("nobody", None)
     out["garbage"] = Caller("nobody", "qp_not-a-real-token")
+    CALLERS.update(out)
     return out
+
+
+#: The callers of the run (filled by the `callers` fixture) for :func:`share`.
+CALLERS: dict[str, Caller] = {}
+
+
+def share(api: Api, program_id: int) -> None:
+    """Make the approver and the viewer callers members of a program with their roles
+    (the engineer who created it is a member already); granted by the admin."""
+    admin = Api(api.client, CALLERS["admin"])
+    for role in ("approver", "viewer"):
+        admin.put(f"/programs/{program_id}/members/{CALLERS[role].name}", {"role": role},
+                  expect=200)
 
 
 class Api:
@@ -133,9 +147,14 @@ def admin(client, callers) -> Api:
 
 
 @pytest.fixture
-def world(eng) -> dict:
-    """A program with a unit, a phase and a random environment, made through the API."""
+def world(eng, callers) -> dict:
+    """A program with a unit, a phase and a random environment, made through the API.
+
+    The engineer creates it (and so is its member); the admin makes the approver and the
+    viewer members with their roles (:func:`share`).
+    """
     program = eng.post("/programs", {"name": unique("program")}).json()
+    share(eng, program["id"])
     unit = eng.post("/products", {"program_id": program["id"], "name": "unit",
                                   "part_number": "U-1", "mass_kg": 2.0}).json()
     phase = eng.post("/phases", {"program_id": program["id"], "name": "launch",

@@ -13,7 +13,7 @@ from datetime import UTC, datetime, timedelta
 
 import pytest
 
-from tests.api.conftest import GEVS_ACC, Api, unique
+from tests.api.conftest import GEVS_ACC, Api, share, unique
 from tests.corpus import changed, db_state, npy_bytes, npz_bytes, wav_bytes
 
 PROBLEM = "application/problem+json"
@@ -26,6 +26,7 @@ PROBLEM = "application/problem+json"
 def w(client, callers):
     eng = Api(client, callers["engineer"])
     program = eng.post("/programs", {"name": unique("corpus")}).json()
+    share(eng, program["id"])
     unit = eng.post("/products", {"program_id": program["id"], "name": "unit"}).json()
     phase = eng.post("/phases", {"program_id": program["id"], "name": "launch",
                                  "duration_s": 120.0}).json()

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from tests.api.conftest import API, GEVS_QUAL, MAX_UPLOAD, Api, unique
+from tests.api.conftest import API, GEVS_QUAL, MAX_UPLOAD, Api, share, unique
 
 
 def test_health_is_open_and_requirements_need_a_token(client, callers):
@@ -31,6 +31,7 @@ def test_openapi_and_docs_under_api_v1(client):
 
 def test_pagination(eng):
     program = eng.post("/programs", {"name": unique("paged")}).json()
+    share(eng, program["id"])
     for i in range(7):
         eng.post("/phases", {"program_id": program["id"], "name": f"phase {i}",
                              "duration_s": 10.0 + i, "position": i})
@@ -44,6 +45,7 @@ def test_pagination(eng):
 
 def test_program_etag_and_if_match(eng):
     program = eng.post("/programs", {"name": unique("etag")}).json()
+    share(eng, program["id"])
     path = f"/programs/{program['id']}"
     r = eng.get(path)
     assert r.headers["ETag"] == '"1"'
@@ -121,6 +123,7 @@ def test_traceability_matrix_offers_the_web_filters(eng):
     """GET /programs/{id}/traceability filters by status and orders by key descending,
     as the web's matrix does (both call planning's traceability)."""
     prog = eng.post("/programs", {"name": unique("trace")}).json()
+    share(eng, prog["id"])
     prod = eng.post("/products", {"program_id": prog["id"], "name": "box"}).json()
     for key in ("T-1", "T-2", "T-3"):
         eng.post("/requirements", {"program_id": prog["id"], "key": key,

@@ -3,7 +3,7 @@ stale after a new revision, problem+json on bad input, roles."""
 
 from __future__ import annotations
 
-from tests.api.conftest import unique
+from tests.api.conftest import share, unique
 
 MODES = (b"mode,fn_hz,zeta,meff_x_kg,meff_y_kg,meff_z_kg\n"
          b"1,180,0.03,0.1,0.2,1.5\n2,240,0.05,0.05,0.9,0.4\n3,610,0.05,0.6,0.1,0.2\n")
@@ -18,6 +18,7 @@ def _upload(api, unit, content=MODES, name="FEM A", expect=201):
 
 def test_modal_upload_estimate_evidence_and_stale(eng, viewer):
     program = eng.post("/programs", {"name": unique("modal")}).json()
+    share(eng, program["id"])
     unit = eng.post("/products", {"program_id": program["id"], "name": "unit",
                                   "mass_kg": 2.4}).json()
     road = eng.post("/phases", {"program_id": program["id"], "name": "road",

@@ -9,6 +9,7 @@ import logging
 import pytest
 
 from qualplan.api import requestlog
+from tests.api.conftest import share
 
 
 class Collect(logging.Handler):
@@ -30,6 +31,7 @@ def records():
 
 def test_each_request_logged_with_id_user_route_status_duration(eng, viewer, records):
     program = eng.post("/programs", {"name": "log test program"}).json()
+    share(eng, program["id"])
     r = viewer.get(f"/programs/{program['id']}")
     rec = records[-1]
     assert rec.request_id == r.headers["x-request-id"]
@@ -37,8 +39,10 @@ def test_each_request_logged_with_id_user_route_status_duration(eng, viewer, rec
     assert rec.method == "GET" and rec.status == 200
     assert rec.route == "/api/v1/programs/{program_id}"  # the route, not the path
     assert rec.duration_ms >= 0
-    assert records[-2].method == "POST" and records[-2].status == 201
-    assert records[-2].user == eng.caller.name
+    created = records[-4]  # before it: the two grants of share() (PUT)
+    assert [r.method for r in records[-3:-1]] == ["PUT", "PUT"]
+    assert created.method == "POST" and created.status == 201
+    assert created.user == eng.caller.name
 
 
 def test_unauthenticated_request_and_incoming_id(client, records):

@@ -14,7 +14,7 @@ from datetime import UTC, datetime, timedelta
 
 import pytest
 
-from tests.api.conftest import API, GEVS_ACC, Api, unique
+from tests.api.conftest import API, GEVS_ACC, Api, share, unique
 
 RANK = {"viewer": 0, "engineer": 1, "approver": 2, "admin": 3}
 WHO = ("none", "revoked", "viewer", "engineer", "approver", "admin")
@@ -32,6 +32,7 @@ def base(client, callers) -> dict:
     """Rows every case may point at, made once by an engineer."""
     eng = Api(client, callers["engineer"])
     program = eng.post("/programs", {"name": unique("roles")}).json()
+    share(eng, program["id"])
     pid = program["id"]
     unit = eng.post("/products", {"program_id": pid, "name": "unit"}).json()
     phase = eng.post("/phases", {"program_id": pid, "name": "launch",
@@ -74,6 +75,7 @@ class Case:
 
 def _new_program(b):
     p = b["eng"].post("/programs", {"name": unique("edit")}).json()
+    share(b["eng"], p["id"])
     return f"/programs/{p['id']}", {"json": {"description": "x"}, "headers": {"If-Match": '"1"'}}
 
 
@@ -463,6 +465,24 @@ CASES.update({
         f"/levels/{b['test_level']['id']}/force-limit", {"json": _FORCE}), 201),
     "notch acceptance": Case("POST", "/levels/{level_id}/force-limit/acceptance", "approver",
                              _deep_notch_level, 201),
+})
+
+def _member(b, granted: bool):
+    name = unique("member")
+    b["admin"].post("/users", {"name": name, "role": "viewer"})
+    if granted:
+        b["admin"].put(f"/programs/{P(b)}/members/{name}", {"role": "viewer"})
+    return name
+
+
+CASES.update({
+    "members list": Case("GET", "/programs/{program_id}/members", "viewer", lambda b: (
+        f"/programs/{P(b)}/members", {})),
+    "member grant": Case("PUT", "/programs/{program_id}/members/{user_name}", "approver",
+                         lambda b: (f"/programs/{P(b)}/members/{_member(b, False)}",
+                                    {"json": {"role": "engineer"}})),
+    "member revoke": Case("DELETE", "/programs/{program_id}/members/{user_name}", "approver",
+                          lambda b: (f"/programs/{P(b)}/members/{_member(b, True)}", {}), 204),
 })
 
 @pytest.mark.parametrize("name, who", list(_params()))

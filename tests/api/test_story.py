@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 
 from qualplan.dynamics import psd
-from tests.api.conftest import GEVS_ACC, GEVS_QUAL, unique
+from tests.api.conftest import GEVS_ACC, GEVS_QUAL, share, unique
 
 # Invented environments of a demo unit (the same shapes as tests/planning/test_story.py).
 ROAD_Z = {"freq_hz": [10.0, 40.0, 500.0], "asd_g2_hz": [0.015, 0.015, 0.00015]}
@@ -22,6 +22,7 @@ FLIGHT_Z2 = {**FLIGHT_Z, "asd_g2_hz": [0.003, 0.015, 0.015, 0.0015]}
 def drone(eng):
     """A program, a unit, two phases and two random environments on Z."""
     program = eng.post("/programs", {"name": unique("drone")}).json()
+    share(eng, program["id"])
     pid = program["id"]
     unit = eng.post("/products", {"program_id": pid, "name": "camera electronics",
                                   "mass_kg": 2.4}).json()

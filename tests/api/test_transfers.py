@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import pytest
 
-from tests.api.conftest import unique
+from tests.api.conftest import share, unique
 
 FLAT = {"freq_hz": [20.0, 2000.0], "asd_g2_hz": [0.04, 0.04]}
 
@@ -13,6 +13,7 @@ FLAT = {"freq_hz": [20.0, 2000.0], "asd_g2_hz": [0.04, 0.04]}
 @pytest.fixture
 def pod(eng):
     program = eng.post("/programs", {"name": unique("pod program")}).json()
+    share(eng, program["id"])
     pid = program["id"]
     pod = eng.post("/products", {"program_id": pid, "name": "pod", "mass_kg": 45.0}).json()
     unit = eng.post("/products", {"program_id": pid, "name": "computer",

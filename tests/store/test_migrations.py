@@ -189,6 +189,39 @@ def test_transfer_tables_are_append_only_and_downgrade_cleanly(fresh_db_url):
     engine.dispose()
 
 
+def test_memberships_upgrade_keeps_everyone_in(fresh_db_url):
+    """0011 -> 0014: every existing non-admin user becomes a member of every existing
+    program with its global role (admins stay global); downgrade drops the two tables."""
+    migrate.upgrade(fresh_db_url, "0011")
+    engine = make_engine(fresh_db_url)
+    with engine.begin() as conn:
+        for name in ("Kestrel", "Osprey"):
+            conn.execute(text("INSERT INTO programs (name, description, created_at, version) "
+                              "VALUES (:n, '', CURRENT_TIMESTAMP, 1)"), {"n": name})
+        for name, role in (("vera", "viewer"), ("ed", "engineer"), ("root", "admin")):
+            conn.execute(text("INSERT INTO users (name, role, active, created_at) "
+                              "VALUES (:n, :r, :a, CURRENT_TIMESTAMP)"),
+                         {"n": name, "r": role, "a": True})
+    migrate.upgrade(fresh_db_url, "0014")
+    with engine.connect() as conn:
+        rows = conn.execute(text(
+            "SELECT u.name, p.name, m.role FROM memberships m JOIN users u ON u.id = m.user_id "
+            "JOIN programs p ON p.id = m.program_id ORDER BY u.name, p.name")).all()
+    assert [tuple(r) for r in rows] == [
+        ("ed", "Kestrel", "engineer"), ("ed", "Osprey", "engineer"),
+        ("vera", "Kestrel", "viewer"), ("vera", "Osprey", "viewer")]
+    with engine.begin() as conn, pytest.raises(DBAPIError):
+        conn.execute(text("INSERT INTO memberships (user_id, program_id, role, created_at) "
+                          "SELECT id, 1, 'admin', CURRENT_TIMESTAMP FROM users "
+                          "WHERE name = 'root'"))
+    migrate.downgrade(fresh_db_url, "0011")
+    engine.dispose()
+    names = inspect(engine).get_table_names()
+    assert "memberships" not in names and "sign_ins" not in names
+    migrate.upgrade(fresh_db_url)
+    assert migrate.check_schema(engine) == migrate.head_revision()
+
+
 def test_withdrawals_and_signoffs_are_append_only_and_downgrade_keeps_waivers(fresh_db_url):
     """0009: withdrawals, supersessions, document levels, sign-offs and waiver requests
     refuse UPDATE and DELETE (triggers); a withdrawal names exactly one target; downgrading

@@ -102,6 +102,9 @@ def world(factory, users) -> World:
             program_id=prog.id, name="Camera electronics", part_number="RSD-CE-01", mass_kg=2.4))
         phase = catalog.create_phase(session, SETUP, s.PhaseCreate(
             program_id=prog.id, name="survey flight", duration_s=1800.0, occurrences=100))
+        for role, user in users.items():  # every test user holds its role in the program
+            if role != Role.admin.value:
+                access.grant(session, SETUP, user.name, prog.id, role)
         return World(prog.id, prog.name, unit.id, unit.name, phase.id, phase.name)
 
 

@@ -84,7 +84,7 @@ def test_wrong_token_gives_a_message(browserless):
 def test_tampered_cookie_is_signed_out(browserless, users):
     b = browserless(users["engineer"])
     value = b.client.cookies[auth.COOKIE]
-    payload, mac = value.split(".")
+    payload, mac = value.rsplit(".", 1)
     b.client.cookies.set(auth.COOKIE, payload + "." + mac[::-1])
     r = b.client.get("/programs", follow_redirects=False)
     assert r.status_code == 303 and r.headers["location"].startswith("/signin")
@@ -113,16 +113,46 @@ def test_sign_out_clears_the_session(browserless, users):
     assert r.status_code == 303
 
 
-def test_signer_refuses_forgery_and_expiry():
+def test_signer_refuses_forgery_and_expiry(monkeypatch):
     signer = auth.Signer(b"k1")
     ws = auth.WebSession.new("ab" * 32)
     assert signer.load(signer.dump(ws)) == ws
     assert auth.Signer(b"k2").load(signer.dump(ws)) is None
-    old = auth.WebSession(ws.nonce, ws.token_hash, int(time.time()) - 1)
-    assert signer.load(signer.dump(old)) is None
+    # a cookie signed longer ago than the lifetime is refused (itsdangerous max_age)
+    real = time.time
+    monkeypatch.setattr(time, "time", lambda: real() - auth.MAX_AGE_S - 5)
+    old = signer.dump(ws)
+    monkeypatch.setattr(time, "time", real)
+    assert signer.load(old) is None
     assert signer.csrf_ok(ws, signer.csrf(ws))
     assert not signer.csrf_ok(ws, signer.csrf(auth.WebSession.new()))
     assert not signer.csrf_ok(ws, None)
+    assert not signer.csrf_ok(ws, "not.a-signature")
+
+
+def test_copied_cookie_is_refused_after_sign_out(browserless, users):
+    b = browserless(users["viewer"])
+    assert b.client.get("/programs").status_code == 200
+    copied = b.client.cookies[auth.COOKIE]
+    b.post("/signout", {})
+    other = browserless()
+    other.client.cookies.set(auth.COOKIE, copied)
+    r = other.client.get("/programs", follow_redirects=False)
+    assert r.status_code == 303 and r.headers["location"].startswith("/signin")
+
+
+def test_deactivating_a_user_ends_its_sign_ins(browserless, factory):
+    name = unique("eng")
+    with unit_of_work(factory) as session:
+        access.create_user(session, SETUP, name, m.Role.engineer)
+        token = access.create_token(session, SETUP, name, "web")
+    b = browserless()
+    b.sign_in(token)
+    assert b.client.get("/programs").status_code == 200
+    with unit_of_work(factory) as session:
+        access.set_user(session, SETUP, name, active=False)
+    r = b.client.get("/programs", follow_redirects=False)
+    assert r.status_code == 303 and r.headers["location"].startswith("/signin")
 
 
 # --- CSRF and roles ---------------------------------------------------------------------------

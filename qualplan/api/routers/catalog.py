@@ -6,7 +6,7 @@ from fastapi import APIRouter, Response
 
 from qualplan.api.deps import ActorDep, PageDep, ReaderDep, SessionDep, VersionDep, etag
 from qualplan.api.models import Page
-from qualplan.planning import catalog
+from qualplan.planning import access, catalog
 from qualplan.planning import schemas as s
 
 router = APIRouter(tags=["programs"])
@@ -94,3 +94,31 @@ def list_phases(program_id: int, session: SessionDep, _: ReaderDep, page: PageDe
     rows = catalog.list_phases(session, program_id)
     items = [s.PhaseRead.model_validate(r) for r in page.window(rows)]
     return Page(items=items, total=len(rows), offset=page.offset, limit=page.limit)
+
+
+# --- members ------------------------------------------------------------------------------
+
+
+@router.get("/programs/{program_id}/members", response_model=list[s.MemberRead],
+            tags=["members"])
+def list_members(program_id: int, session: SessionDep, actor: ReaderDep):
+    """Who holds which role in the program (members of the program and admins)."""
+    return [s.MemberRead(user=name, role=role.value)
+            for name, role in access.members(session, actor, program_id)]
+
+
+@router.put("/programs/{program_id}/members/{user_name}", response_model=s.MemberRead,
+            tags=["members"])
+def grant_member(program_id: int, user_name: str, cmd: s.MemberGrant, session: SessionDep,
+                 actor: ActorDep):
+    """Give a user a role in the program (an admin or an approver of the program)."""
+    row = access.grant(session, actor, user_name, program_id, cmd.role.value)
+    return s.MemberRead(user=user_name, role=row.role.value)
+
+
+@router.delete("/programs/{program_id}/members/{user_name}", status_code=204,
+               tags=["members"])
+def revoke_member(program_id: int, user_name: str, session: SessionDep, actor: ActorDep):
+    """End a user's membership of the program (an admin or an approver of the program)."""
+    access.revoke(session, actor, user_name, program_id)
+    return Response(status_code=204)
