@@ -27,7 +27,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from qualplan.planning import schemas as s
-from qualplan.planning.access import Actor, record, require
+from qualplan.planning.access import Actor, record, require_for
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import Conflict, PermissionDenied, ValidationFailed
 from qualplan.planning.policies import rules_of
@@ -49,9 +49,11 @@ ROLES: dict[str, m.Role] = {
 SIGNOFF_ORDER = (m.SignoffRole.prepared, m.SignoffRole.checked, m.SignoffRole.approved)
 
 
-def check(actor: Actor, action: str) -> None:
-    """PermissionDenied unless `actor` may do `action` (a key of :data:`ROLES`)."""
-    require(actor, ROLES[action], action)
+def check(session: Session, actor: Actor, row, action: str) -> None:
+    """Unless `actor` may do `action` (a key of :data:`ROLES`) in the program of the
+    stored `row`: NotFound for a non-member, PermissionDenied for a lower role
+    (:func:`qualplan.planning.access.require_for`)."""
+    require_for(session, actor, row, ROLES[action], action)
 
 
 def _reason(field: str, text: str) -> str:
@@ -67,8 +69,8 @@ def _reason(field: str, text: str) -> str:
 def withdraw_environment(session: Session, actor: Actor, environment_id: int, reason: str
                          ) -> m.Withdrawal:
     """Withdraw an environment (all its revisions) from the life cycle, with a reason."""
-    check(actor, "withdrawing an environment")
     env = get(session, m.Environment, environment_id, "environment")
+    check(session, actor, env, "withdrawing an environment")
     reason = _reason("reason", reason)
     if (w := environment_withdrawal(session, env.id)) is not None:
         raise Conflict(f"environment {env.name!r} is {describe(w)}")
@@ -81,8 +83,8 @@ def withdraw_environment(session: Session, actor: Actor, environment_id: int, re
 
 def withdraw_level(session: Session, actor: Actor, level_id: int, reason: str) -> m.Withdrawal:
     """Withdraw a level from the baselines and the derivations, with a reason."""
-    check(actor, "withdrawing a level")
     level = get(session, m.Level, level_id, "level")
+    check(session, actor, level, "withdrawing a level")
     reason = _reason("reason", reason)
     if (w := level_withdrawal(session, level.id)) is not None:
         raise Conflict(f"level {level.name} #{level.number} is {describe(w)}")
@@ -104,8 +106,8 @@ def withdrawals(session: Session) -> list[m.Withdrawal]:
 def request_waiver(session: Session, actor: Actor, requirement_id: int,
                    cmd: s.WaiverRequestIn) -> m.WaiverRequest:
     """An engineer asks that a requirement be waived (an approver decides)."""
-    check(actor, "requesting a waiver")
     req = get(session, m.Requirement, requirement_id, "requirement")
+    check(session, actor, req, "requesting a waiver")
     row = m.WaiverRequest(requirement_id=req.id, requested_by=actor.name,
                           reason=_reason("reason", cmd.reason))
     session.add(row)
@@ -142,8 +144,8 @@ def two_person_applies(rule: s.ApprovalRule, grade: str | None) -> bool:
 def waive(session: Session, actor: Actor, requirement_id: int, cmd: s.WaiverIn) -> m.Waiver:
     """An approver waives a requirement until `expires_at` (within the policy's
     ``max_waiver_days``), with a rationale; see the module docstring for the rules."""
-    check(actor, "waiving a requirement")
     req = get(session, m.Requirement, requirement_id, "requirement")
+    check(session, actor, req, "waiving a requirement")
     rationale = _reason("rationale", cmd.rationale)
     rule, grade = approval_rule(session, req)
     now = datetime.now(UTC)
@@ -167,7 +169,7 @@ def waive(session: Session, actor: Actor, requirement_id: int, cmd: s.WaiverIn) 
     without_evidence = not req.evidence
     if without_evidence:
         try:
-            check(actor, "waiving a requirement that has no evidence")
+            check(session, actor, req, "waiving a requirement that has no evidence")
         except PermissionDenied as exc:
             raise PermissionDenied(f"requirement {req.key} has no evidence at all: {exc}") from exc
     if two_person_applies(rule, grade):
@@ -212,8 +214,8 @@ def sign_document(session: Session, actor: Actor, document_id: int,
         role = m.SignoffRole(role)
     except ValueError as exc:
         raise ValidationFailed("role", role, "must be prepared, checked or approved") from exc
-    check(actor, f"signing a document as {role.value}")
     doc = get(session, m.Document, document_id, "document")
+    check(session, actor, doc, f"signing a document as {role.value}")
     latest = session.scalar(select(m.Document).where(m.Document.number == doc.number)
                             .order_by(m.Document.revision.desc()).limit(1))
     if latest.id != doc.id:

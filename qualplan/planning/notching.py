@@ -34,7 +34,7 @@ from qualplan.dynamics import sine as core_sine
 from qualplan.dynamics import transfer as core_tr
 from qualplan.planning import envdata
 from qualplan.planning import schemas as s
-from qualplan.planning.access import Actor, record, require
+from qualplan.planning.access import Actor, record, require_for
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import Conflict, ValidationFailed
 from qualplan.store import models as m
@@ -154,8 +154,8 @@ def set_notching(session: Session, actor: Actor, level_id: int, cmd: NotchingIn
                  ) -> m.LevelNotching:
     """Notch a random or sine test level against a response limit (a new row; the newest
     applies). Nothing is stored when an input is refused."""
-    require(actor, m.Role.engineer, "notching a level")
     level = get(session, m.Level, level_id, "level")
+    require_for(session, actor, level, m.Role.engineer, "notching a level")
     if level.kind not in (K.random, K.sine) or level.purpose is not m.LevelPurpose.test:
         raise ValidationFailed("level_id", level_id, f"level {level.name!r} is a "
                                f"{level.kind.value} {level.purpose.value} level; response-limit "
@@ -215,10 +215,10 @@ def accept_notching(session: Session, actor: Actor, level_id: int, rationale: st
                     ) -> m.LevelNotching:
     """An approver accepts the notches deeper than allowed: the level's next row and an
     event (who, when, why)."""
-    require(actor, m.Role.approver, "accepting notches deeper than allowed")
+    level = get(session, m.Level, level_id, "level")
+    require_for(session, actor, level, m.Role.approver, "accepting notches deeper than allowed")
     if not rationale.strip():
         raise ValidationFailed("rationale", rationale, "must say why the notches are accepted")
-    get(session, m.Level, level_id, "level")
     row = _latest_row(session, level_id)
     if row is None:
         raise ValidationFailed("level_id", level_id, "the level has no response-limit notching")

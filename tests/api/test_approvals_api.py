@@ -12,7 +12,7 @@ import pytest
 from pypdf import PdfReader
 
 from qualplan.store.models import Role
-from tests.api.conftest import Api, make_token, unique
+from tests.api.conftest import Api, make_token, share, unique
 
 FLAT = {"freq_hz": [20.0, 2000.0], "asd_g2_hz": [0.2, 0.2]}
 
@@ -20,6 +20,7 @@ FLAT = {"freq_hz": [20.0, 2000.0], "asd_g2_hz": [0.2, 0.2]}
 @pytest.fixture
 def unit(eng):
     program = eng.post("/programs", {"name": unique("ridge")}).json()
+    share(eng, program["id"])  # the approver and the viewer are members of the program
     unit = eng.post("/products", {"program_id": program["id"], "name": "camera"}).json()
     phase = eng.post("/phases", {"program_id": program["id"], "name": "flight",
                                  "duration_s": 1800.0}).json()
@@ -74,7 +75,7 @@ def test_preview_pdf_is_marked_on_every_page(viewer, unit):
     assert not any(re.search(r"revision\s+\d", t) for t in pages)
 
 
-def test_two_person_waiver_and_sign_off_over_http(client, factory, eng, approver, unit):
+def test_two_person_waiver_and_sign_off_over_http(client, factory, eng, approver, admin, unit):
     req = eng.post("/requirements", {
         "program_id": unit["program"]["id"], "key": "INS-7", "text": "Connector savers",
         "product_id": unit["unit"]["id"], "method": "inspection"}).json()
@@ -85,6 +86,8 @@ def test_two_person_waiver_and_sign_off_over_http(client, factory, eng, approver
     r = approver.post(f"/requirements/{req['id']}/waivers", body, expect=403)
     assert "recorded evidence" in r.json()["detail"]
     other = Api(client, type(approver.caller)(*make_token(factory, Role.approver)))
+    admin.put(f"/programs/{unit['program']['id']}/members/{other.caller.name}",
+              {"role": "approver"})  # a second approver of the program
     r = other.post(f"/requirements/{req['id']}/waivers",
                    {**body, "expires_at": (datetime.now(UTC) + timedelta(days=400)).isoformat()},
                    expect=422)
