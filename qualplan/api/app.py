@@ -76,7 +76,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         redoc_url=None,
     )
     errors.install(app)
-    app.add_middleware(BodySizeLimit, max_bytes=settings.max_upload_bytes)
+    app.add_middleware(BodySizeLimit, max_bytes=settings.max_upload_bytes,
+                       record_max_bytes=settings.max_record_upload_bytes)
     app.add_middleware(RequestLog)  # outermost: logs refused uploads too
     install_handler()
 
