@@ -164,11 +164,7 @@ def cancel_job(session: Session, actor: Actor, job_id: int) -> Job:
 
 def after_commit(session: Session, fn: Callable[[], None]) -> None:
     """Call `fn` once, after `session`'s transaction has committed (never on rollback)."""
-    def hook(_session: Session) -> None:
-        event.remove(session, "after_commit", hook)
-        fn()
-
-    event.listen(session, "after_commit", hook)
+    event.listen(session, "after_commit", lambda _session: fn(), once=True)
 
 
 # --- running ---------------------------------------------------------------------------
