@@ -26,7 +26,7 @@ import uuid
 from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
-from datetime import datetime
+from datetime import datetime, timedelta
 from typing import Any
 
 from pydantic import BaseModel, ConfigDict
@@ -143,6 +143,17 @@ def queue_depth(session: Session) -> dict[str, int]:
     for (status,) in rows:
         out[status] += 1
     return out
+
+
+def recent_durations(session: Session, hours: float = 1.0) -> dict[str, float]:
+    """Mean run time [s] of the jobs finished in the last `hours`, by kind."""
+    since = utcnow() - timedelta(hours=hours)
+    rows = session.execute(select(Job.kind, Job.started_at, Job.finished_at).where(
+        Job.finished_at >= since, Job.started_at.is_not(None)))
+    sums: dict[str, list[float]] = {}
+    for kind_name, start, end in rows:
+        sums.setdefault(kind_name, []).append((end - start).total_seconds())
+    return {k: sum(v) / len(v) for k, v in sums.items()}
 
 
 def cancel_job(session: Session, actor: Actor, job_id: int) -> Job:
