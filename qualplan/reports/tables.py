@@ -12,11 +12,11 @@ from __future__ import annotations
 import csv
 import io
 import json
-import os
 import unicodedata
 from pathlib import Path
 
 from qualplan.planning.documents import AuditContent, LevelSection, SpecificationContent
+from qualplan.reports.files import write_atomic
 
 
 def _num(x: float | None) -> str:
@@ -119,30 +119,27 @@ def content_json(content: SpecificationContent | AuditContent) -> str:
     return json.dumps(data, indent=2, sort_keys=True) + "\n"
 
 
+def file_stem(content) -> str:
+    """``NUMBER-rN`` of an issued revision, ``NUMBER-preview`` of a preview (no revision)."""
+    if getattr(content, "preview", False):
+        return f"{content.number}-preview"
+    return f"{content.number}-r{content.revision}"
+
+
 def section_file_stem(content: SpecificationContent, section: LevelSection) -> str:
     name = "".join(c if c.isalnum() else "-" for c in section.name).strip("-").lower()
-    return f"{content.number}-r{content.revision}-{section.axis}-{section.kind}-{name}"
+    return f"{file_stem(content)}-{section.axis}-{section.kind}-{name}"
 
 
 def _write_atomic(path: Path, text: str) -> None:
-    """Write `text` to `path` whole or not at all: into a temporary file beside it, then
-    renamed over it; on a full disk (or any OSError) the partial file is removed."""
-    tmp = path.with_name(f".{path.name}.tmp")
-    try:
-        with open(tmp, "w", encoding="utf-8") as f:
-            f.write(text)
-            f.flush()
-            os.fsync(f.fileno())
-        os.replace(tmp, path)
-    except OSError:
-        tmp.unlink(missing_ok=True)
-        raise
+    """Write `text` to `path` whole or not at all (:func:`qualplan.reports.files.write_atomic`)."""
+    write_atomic(path, text)
 
 
 def write_tables(content: SpecificationContent | AuditContent, out_dir: Path) -> list[Path]:
     """Write the JSON and the CSV tables of `content` into `out_dir`; return the paths."""
     out_dir = Path(out_dir)
-    stem = f"{content.number}-r{content.revision}"
+    stem = file_stem(content)
     paths = []
     p = out_dir / f"{stem}.json"
     _write_atomic(p, content_json(content))
@@ -154,7 +151,7 @@ def write_tables(content: SpecificationContent | AuditContent, out_dir: Path) ->
             paths.append(p)
             if getattr(section, "force_limit", None) is not None:
                 p = out_dir / f"{section_file_stem(content, section)}-force-limit.csv"
-                p.write_text(force_limit_csv(content, section), encoding="utf-8")
+                _write_atomic(p, force_limit_csv(content, section))
                 paths.append(p)
     else:
         p = out_dir / f"{stem}.csv"
