@@ -17,9 +17,8 @@ from qualplan.api.deps import (
 from qualplan.api.errors import Problem
 from qualplan.api.limits import too_large_detail
 from qualplan.api.models import Page
-from qualplan.planning import approvals
+from qualplan.planning import approvals, records
 from qualplan.planning import environments as envs
-from qualplan.planning import records
 from qualplan.planning import schemas as s
 
 router = APIRouter(tags=["environments"])
