@@ -2,7 +2,7 @@
 PostgreSQL also procrastinate's own schema, the queue its workers share
 
 Revision ID: 0012
-Revises: 0009
+Revises: 0013
 Create Date: 2026-12-03 06:50:00
 """
 
@@ -12,7 +12,7 @@ import sqlalchemy as sa
 from alembic import op
 
 revision = "0012"
-down_revision = "0009"
+down_revision = "0013"
 branch_labels = None
 depends_on = None
 

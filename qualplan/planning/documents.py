@@ -32,6 +32,7 @@ from qualplan.planning.errors import Conflict, NotFound, ValidationFailed
 from qualplan.planning.inputs import check_document_number
 from qualplan.planning.levels import read_level, result_of
 from qualplan.planning.lifecycle import current_test_levels
+from qualplan.planning.notching import level_notching, notch_table_rows
 from qualplan.planning.policies import rules_of
 from qualplan.planning.transfers import level_force_limit
 from qualplan.store import models as m
@@ -207,6 +208,38 @@ class ForceLimitTable(Content):
     acceptance_rationale: str = ""
 
 
+class NotchingPoint(Content):
+    freq_hz: float
+    level: float
+    notched: float
+
+
+class NotchingTable(Content):
+    """Response-limit notching of a random or sine level (planning.notching)."""
+
+    notching_id: int
+    method: str
+    location: str
+    limit: str
+    value_unit: str
+    transmissibility_source: str
+    transmissibility_note: str
+    max_notch_db: float | None
+    notches: list[ForceLimitNotch]
+    #: The notched input where it differs from the level (thinned; the CSV has all).
+    points: list[NotchingPoint]
+    #: Every point of the notched input (for the CSV).
+    freq_hz: list[float]
+    original: list[float]
+    notched: list[float]
+    grms_before: float | None
+    grms_after: float | None
+    needs_acceptance: bool
+    accepted_by: str | None = None
+    acceptance_rationale: str = ""
+    author: str
+
+
 class LevelSection(Content):
     level_id: int
     name: str
@@ -224,6 +257,7 @@ class LevelSection(Content):
     sine: SineTable | None = None
     shock: ShockTable | None = None
     force_limit: ForceLimitTable | None = None
+    notching: NotchingTable | None = None
     derivation: Derivation
 
 
@@ -552,6 +586,22 @@ def _force_limit(session: Session, level: m.Level) -> ForceLimitTable | None:
         accepted_by=fl.accepted_by, acceptance_rationale=fl.acceptance_rationale)
 
 
+def _notching(session: Session, level: m.Level) -> NotchingTable | None:
+    n = level_notching(session, level.id)
+    if n is None:
+        return None
+    return NotchingTable(
+        notching_id=n.id, method=n.method, location=n.location, limit=n.limit,
+        value_unit=n.value_unit, transmissibility_source=n.transmissibility_source,
+        transmissibility_note=n.transmissibility_note, max_notch_db=n.max_notch_db,
+        notches=[ForceLimitNotch(**x.model_dump()) for x in n.notches],
+        points=[NotchingPoint(freq_hz=f, level=a, notched=b) for f, a, b in notch_table_rows(n)],
+        freq_hz=n.freq_hz, original=n.original, notched=n.notched, grms_before=n.grms_before,
+        grms_after=n.grms_after, needs_acceptance=n.needs_acceptance,
+        accepted_by=n.accepted_by, acceptance_rationale=n.acceptance_rationale,
+        author=n.author)
+
+
 def _section(session: Session, level: m.Level) -> LevelSection:
     read = read_level(session, level)
     r = read.result
@@ -574,6 +624,8 @@ def _section(session: Session, level: m.Level) -> LevelSection:
         tables["shock"] = _shock_table(r)
     if kind == "random":
         tables["force_limit"] = _force_limit(session, level)
+    if kind in ("random", "sine"):
+        tables["notching"] = _notching(session, level)
     return LevelSection(
         level_id=level.id, name=level.name, number=level.number, kind=kind,
         axis=level.axis.value, level_hash=level.level_hash, derived_at=level.created_at,
@@ -693,6 +745,10 @@ def specification_content(
                 for r in sec.stale_reasons]
     warnings += [f"{sec.name} #{sec.number} did NOT converge: {r}" for sec in sections
                  if not sec.verdicts.converged for r in sec.verdicts.reasons]
+    warnings += [f"{sec.name} #{sec.number}: a response-limit notch is deeper than "
+                 f"{sec.notching.max_notch_db:g} dB and has no approver's acceptance"
+                 for sec in sections if sec.notching is not None
+                 and sec.notching.needs_acceptance and not sec.notching.accepted_by]
     axes = []
     for axis in sorted({lvl.axis for lvl in chosen}, key=lambda a: AXIS_ORDER[a.value]):
         on_axis = [lvl for lvl in chosen if lvl.axis is axis]

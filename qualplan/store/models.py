@@ -682,8 +682,28 @@ class Signoff(Base):
 IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, WaiverRequest, Withdrawal, LevelSupersession,
                     DocumentLevel, Signoff)
 
+class LevelNotching(Base):
+    """Response-limit notching of a random or sine test level: the response limit at a
+    control or monitor location, the transmissibility it is reached through (with its
+    source), the notched input and each notch; the newest row of a level applies (an
+    approver's acceptance of notches deeper than allowed is the next row). Append-only."""
+
+    __tablename__ = "level_notchings"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    level_id: Mapped[int] = mapped_column(ForeignKey("levels.id"), index=True)
+    #: The inputs: location, limit (constant or table), transmissibility table and its
+    #: source, max_notch_db.
+    params: Mapped[dict[str, Any]] = mapped_column(JSON)
+    #: The notched input [Hz; g^2/Hz or g peak], the notches, acceptance.
+    result: Mapped[dict[str, Any]] = mapped_column(JSON)
+    level_hash: Mapped[str] = mapped_column(String(64))
+    author: Mapped[str] = mapped_column(String(120))
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+
 IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, TransferRuleRevision, EnvironmentDerivation,
-                    LevelForceLimit)
+                    LevelForceLimit, LevelNotching)
 
 
 # Chunked multi-channel records (their own module; append-only like revisions).

@@ -7,7 +7,7 @@ from fastapi import APIRouter, Request
 from fastapi.responses import Response
 from starlette.concurrency import run_in_threadpool
 
-from qualplan.planning import approvals, catalog, levels, wording
+from qualplan.planning import approvals, catalog, levels, notching, transfers, wording
 from qualplan.planning import schemas as s
 from qualplan.web import plots
 from qualplan.web.common import (
@@ -66,6 +66,8 @@ def level_page(ctx: Ctx, level_id: int, error=None, status=200, form=None) -> Re
             plot=plots.level_plot(read) if row.kind in plots.QUANTITY else None,
             coverage=plots.coverage_plots(read), worst=plots.worst_margins(read),
             cov=read.result.coverage,
+            force_limit=transfers.level_force_limit(ctx.db, row.id),
+            notched=notching.level_notching(ctx.db, row.id),
         )
 
 
