@@ -32,6 +32,9 @@ class Settings(BaseSettings):
     database_url: str = Field(default_factory=default_database_url)
     #: Largest accepted upload (environment files, test records) [bytes].
     max_upload_bytes: int = 50 * 1024 * 1024
+    #: Largest accepted record upload (a file sent with ``channel_axes`` to the upload
+    #: routes, stored in chunks) [bytes]; every other body keeps ``max_upload_bytes``.
+    max_record_upload_bytes: int = 4 * 1024 ** 3
     #: Treat the service as served over TLS (sets the Secure flag on cookies).
     behind_tls: bool = False
     #: Secret that signs the web pages' session cookies; random per process when unset

@@ -19,6 +19,7 @@ from qualplan.api.routers import (
     environments,
     events,
     evidence,
+    jobs,
     levels,
     modal,
     policies,
@@ -44,7 +45,19 @@ ROUTERS = (
     transfers.router,
     events.router,
     modal.router,
+    jobs.router,
 )
+
+
+def job_runner(engine, settings: Settings):
+    """Jobs in a thread of this process on SQLite, through procrastinate on PostgreSQL."""
+    if engine.dialect.name == "sqlite":
+        from qualplan.planning.jobs import ThreadRunner
+
+        return ThreadRunner(make_sessionmaker(engine))
+    from qualplan.planning.queue import QueueRunner
+
+    return QueueRunner(settings.database_url)
 
 
 def create_app(settings: Settings | None = None) -> FastAPI:
@@ -61,7 +74,9 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         app.state.settings = settings
         app.state.write_lock = anyio.Lock() if engine.dialect.name == "sqlite" else None
         app.state.read_slots = anyio.Semaphore(READ_SLOTS)
+        app.state.jobs = job_runner(engine, settings)
         yield
+        app.state.jobs.close()
         engine.dispose()
 
     app = FastAPI(
@@ -76,17 +91,20 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         redoc_url=None,
     )
     errors.install(app)
-    app.add_middleware(BodySizeLimit, max_bytes=settings.max_upload_bytes)
+    app.add_middleware(BodySizeLimit, max_bytes=settings.max_upload_bytes,
+                       record_max_bytes=settings.max_record_upload_bytes)
     app.add_middleware(RequestLog)  # outermost: logs refused uploads too
     install_handler()
 
     @app.get(f"{PREFIX}/health", tags=["service"])
     def health(request: Request) -> dict:
-        """Package version and the database schema revision."""
+        """Package version, the database schema revision and the job queue's readiness."""
+        runner = request.app.state.jobs
         return {
             "status": "ok",
             "version": __version__,
             "schema_revision": request.app.state.schema_revision,
+            "jobs": {"runner": runner.name, "ready": runner.ready()},
         }
 
     for router in ROUTERS:

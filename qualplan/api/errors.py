@@ -42,10 +42,12 @@ class Problem(Exception):
         field: str | None = None,
         value: Any = None,
         headers: dict[str, str] | None = None,
+        extra: dict[str, Any] | None = None,
     ) -> None:
         super().__init__(detail)
         self.status, self.code, self.title, self.detail = status, code, title, detail
         self.field, self.value, self.headers = field, value, headers or {}
+        self.extra = extra or {}
 
 
 def problem_type(code: str) -> str:
@@ -150,6 +152,7 @@ async def api_problem(_request: Request, exc: Problem) -> JSONResponse:
         value=exc.value,
         has_value=exc.field is not None,
         headers=exc.headers or None,
+        **exc.extra,
     )
 
 

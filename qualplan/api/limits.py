@@ -2,13 +2,16 @@
 
 The limit is checked on Content-Length before anything is read, and counted on the
 stream for chunked bodies, so an oversize request never reaches a use case and
-nothing is stored.
+nothing is stored. The upload routes that take long records (``record_paths``) have
+the larger record limit here; the route itself then holds a file that is not a record
+to the ordinary limit (:func:`refuse_unless_record`).
 """
 
 from __future__ import annotations
 
 import html
 import json
+import re
 
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
@@ -19,14 +22,40 @@ class BodyTooLarge(Exception):
     pass
 
 
+#: The upload routes (API and web) through which a long record may be sent.
+RECORD_PATHS = re.compile(
+    r"^(/api/v1/environments/upload|/api/v1/environments/\d+/revisions/upload"
+    r"|/products/\d+/environments|/environments/\d+/revisions)$")
+
+
 class BodySizeLimit:
-    def __init__(self, app: ASGIApp, max_bytes: int) -> None:
-        self.app, self.max_bytes = app, max_bytes
+    def __init__(self, app: ASGIApp, max_bytes: int, record_max_bytes: int | None = None,
+                 record_paths: re.Pattern = RECORD_PATHS) -> None:
+        self.app, self.general_max_bytes = app, max_bytes
+        self.record_max_bytes = max(max_bytes, record_max_bytes or max_bytes)
+        self.record_paths = record_paths
 
     async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
         if scope["type"] != "http":
             await self.app(scope, receive, send)
             return
+        record_route = (scope.get("method") == "POST"
+                        and self.record_paths.match(scope.get("path", "")) is not None)
+        limit = self.record_max_bytes if record_route else self.general_max_bytes
+        await _Limited(self.app, limit, "QUALPLAN_MAX_RECORD_UPLOAD_BYTES" if record_route
+                       else "QUALPLAN_MAX_UPLOAD_BYTES")(scope, receive, send)
+
+
+def too_large_detail(limit: int, setting: str) -> str:
+    return (f"the request body is larger than the limit of {limit} bytes ({setting}); "
+            "nothing was stored")
+
+
+class _Limited:
+    def __init__(self, app: ASGIApp, max_bytes: int, setting: str) -> None:
+        self.app, self.max_bytes, self.setting = app, max_bytes, setting
+
+    async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
         headers = dict(scope.get("headers") or [])
         length = headers.get(b"content-length")
         if length is not None:
@@ -69,8 +98,7 @@ class BodySizeLimit:
                 await self._refuse(send, received, scope)
 
     async def _refuse(self, send: Send, size: int, scope: Scope) -> None:
-        detail = (f"the request body is larger than the limit of {self.max_bytes} bytes "
-                  "(QUALPLAN_MAX_UPLOAD_BYTES); nothing was stored")
+        detail = too_large_detail(self.max_bytes, self.setting)
         headers = dict(scope.get("headers") or [])
         if not scope.get("path", "").startswith("/api/") and \
                 b"text/html" in headers.get(b"accept", b""):

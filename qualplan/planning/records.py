@@ -13,10 +13,14 @@ from __future__ import annotations
 import hashlib
 import math
 import os
+import re
+import shutil
+import tempfile
 from collections.abc import Callable, Iterator, Sequence
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
-from typing import Any
+from pathlib import Path
+from typing import Any, BinaryIO
 
 import numpy as np
 from pydantic import BaseModel, Field
@@ -28,7 +32,7 @@ from qualplan.io.streams import RecordSource, open_record
 from qualplan.planning.access import Actor, record, require_for
 from qualplan.planning.catalog import _add_unique, get
 from qualplan.planning.envdata import core_errors
-from qualplan.planning.errors import Conflict, ValidationFailed
+from qualplan.planning.errors import Conflict, ValidationFailed, VersionMismatch
 from qualplan.store import models as m
 from qualplan.store.records import (
     CHUNK_SAMPLES,
@@ -54,6 +58,9 @@ class RecordImport(BaseModel):
     phase_id: int | None = None
     #: A new revision of this time-history environment instead of a new environment.
     environment_id: int | None = None
+    #: With `environment_id`: the revision the uploader saw as the latest (refused when
+    #: another one was added since).
+    expected_revision: int | None = None
     #: One axis per channel, in the file's channel order (e.g. ["X", "Y", "Z"]).
     channel_axes: list[str]
     source: str = ""
@@ -82,6 +89,90 @@ class RecordRead(BaseModel):
     n_chunks: int
     content_hash: str
     channels: list[ChannelRead]
+
+
+class RecordReading(BaseModel):
+    """How to read an uploaded record file (the fields beside the file in the API and web)."""
+
+    #: Unit of the file's values (g, m/s^2, ...).
+    unit: str | None = None
+    #: Sample rate [Hz] (.npy, .mat, .h5, CSV without a time column).
+    fs_hz: float | None = Field(default=None, gt=0, allow_inf_nan=False)
+    #: Calibration factor (one for every channel; a .wav file: units per full scale).
+    calibration: float | None = Field(default=None, gt=0, allow_inf_nan=False)
+    #: Variable of a .mat file.
+    variable: str | None = None
+    #: Dataset of an HDF5 file.
+    dataset: str | None = None
+
+
+#: File name endings a chunked record may have.
+RECORD_EXTENSIONS = (".csv", ".txt", ".npy", ".wav", ".mat", ".h5", ".hdf5", ".uff", ".unv")
+
+#: Bytes copied at a time while an upload is spooled to its temporary file.
+_COPY_BYTES = 1 << 20
+
+
+def record_options(filename: str, how: RecordReading) -> dict[str, Any]:
+    """The reader options of :func:`qualplan.io.streams.open_record` for a file name.
+
+    Raises ValidationFailed naming the missing or unknown field.
+    """
+    ext = Path(filename or "").suffix.lower()
+    if ext not in RECORD_EXTENSIONS:
+        raise ValidationFailed("file", filename, "a record must be one of "
+                               + ", ".join(RECORD_EXTENSIONS))
+    if not how.unit:
+        raise ValidationFailed("value_units", how.unit,
+                               "give the unit of the record's values (g or m/s^2)")
+    options: dict[str, Any] = {"unit": how.unit}
+    if ext == ".wav":
+        options["calibration"] = how.calibration if how.calibration is not None else 1.0
+    elif how.calibration is not None:
+        options["calibration"] = how.calibration
+    if ext in (".csv", ".txt"):
+        if how.fs_hz is not None:
+            options.update(fs_hz=how.fs_hz, time_column=None)
+    elif ext not in (".wav", ".uff", ".unv"):
+        if how.fs_hz is None:
+            raise ValidationFailed("sample_rate_hz", None, f"is required for a {ext} record")
+        options["fs_hz"] = how.fs_hz
+    if ext == ".mat":
+        if not how.variable:
+            raise ValidationFailed("variable", how.variable, "is required for a .mat record")
+        options["variable"] = how.variable
+    if ext in (".h5", ".hdf5"):
+        if not how.dataset:
+            raise ValidationFailed("dataset", how.dataset, "is required for an HDF5 record")
+        options["dataset"] = how.dataset
+    return options
+
+
+def import_record_upload(session: Session, actor: Actor, cmd: RecordImport, filename: str,
+                         stream: BinaryIO, how: RecordReading, *,
+                         chunk_samples: int = CHUNK_SAMPLES,
+                         progress: Progress | None = None) -> RecordRead:
+    """Import an uploaded record (the use case behind the API's and the web's upload).
+
+    The upload is copied 1 MiB at a time to a temporary file named like the upload (the
+    readers memory-map .npy and .wav files and read the file twice, see
+    :func:`import_record`), then imported in chunks; memory stays a few chunks whatever
+    the file's size. The temporary file is removed afterwards.
+    """
+    _check_import(session, actor, cmd)  # before the upload is copied
+    options = record_options(filename, how)
+    parse_axes(cmd.channel_axes)
+    with tempfile.TemporaryDirectory(prefix="qualplan-record-") as folder:
+        # the upload's own name (its characters made safe): the readers name the source
+        base = re.sub(r"[^A-Za-z0-9._-]", "_", Path(filename).name)[-120:].lstrip(".")
+        path = Path(folder) / (Path(base).stem + Path(filename).suffix.lower())
+        with open(path, "wb") as out:
+            shutil.copyfileobj(stream, out, _COPY_BYTES)
+        src = open_record_file(path, **options)
+        if not cmd.source:
+            cmd = cmd.model_copy(update={"source": Path(filename).name})
+        return import_record(session, actor, cmd, src, chunk_samples=chunk_samples,
+                             progress=progress)
 
 
 def open_record_file(path, **options) -> RecordSource:
@@ -122,6 +213,17 @@ def _stats_dict(st: streaming.RecordStats) -> dict[str, Any]:
     }
 
 
+def _check_import(session: Session, actor: Actor, cmd: RecordImport) -> None:
+    """The actor may import into the environment or product of `cmd` (engineer there)."""
+    if cmd.environment_id is not None:
+        target = get(session, m.Environment, cmd.environment_id, "environment")
+    elif cmd.product_id is not None:
+        target = get(session, m.Product, cmd.product_id, "product")
+    else:
+        raise ValidationFailed("name", cmd.name, "a new environment needs product_id and name")
+    require_for(session, actor, target, m.Role.engineer, "importing a record")
+
+
 def import_record(session: Session, actor: Actor, cmd: RecordImport, src: RecordSource, *,
                   chunk_samples: int = CHUNK_SAMPLES,
                   progress: Progress | None = None) -> RecordRead:
@@ -132,13 +234,7 @@ def import_record(session: Session, actor: Actor, cmd: RecordImport, src: Record
     Conflict for a record identical to the latest revision. Nothing is written before
     the whole file has been read once and checked.
     """
-    if cmd.environment_id is not None:
-        target = get(session, m.Environment, cmd.environment_id, "environment")
-    elif cmd.product_id is not None:
-        target = get(session, m.Product, cmd.product_id, "product")
-    else:
-        raise ValidationFailed("name", cmd.name, "a new environment needs product_id and name")
-    require_for(session, actor, target, m.Role.engineer, "importing a record")
+    _check_import(session, actor, cmd)
     if not isinstance(chunk_samples, int) or not 256 <= chunk_samples <= 2 ** 22:
         raise ValidationFailed("chunk_samples", chunk_samples, "must be 256 to 4194304")
     axes = parse_axes(cmd.channel_axes)
@@ -190,6 +286,9 @@ def import_record(session: Session, actor: Actor, cmd: RecordImport, src: Record
             raise ValidationFailed("environment_id", cmd.environment_id,
                                    f"is a {env.kind.value} environment, not a time history")
         latest = RevisionRepository(session).latest(env.id)
+        if cmd.expected_revision is not None and latest is not None \
+                and latest.number != cmd.expected_revision:
+            raise VersionMismatch("environment", env.id, cmd.expected_revision, latest.number)
         if latest is not None and latest.content_hash == content_hash:
             raise Conflict(f"the record is identical to revision {latest.number}; "
                            "nothing to revise")

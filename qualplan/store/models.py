@@ -766,3 +766,6 @@ IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, TransferRuleRevision, EnvironmentDerivati
 from qualplan.store.records import RECORD_MODELS  # noqa: E402
 
 IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, *RECORD_MODELS)
+
+# Jobs (editable state of long work; its own module).
+from qualplan.store.jobs import Job  # noqa: E402, F401

@@ -16,7 +16,7 @@ import errno
 import re
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
-from typing import Annotated, Any
+from typing import Annotated, Any, BinaryIO
 from urllib.parse import quote
 
 from fastapi import APIRouter, Depends, Request
@@ -107,6 +107,8 @@ class WebState:
     signer: auth.Signer
     secure: bool
     pdf: PdfRenderer | None = None
+    #: Largest upload that is not a chunked record [bytes] (QUALPLAN_MAX_UPLOAD_BYTES).
+    max_upload_bytes: int = 50 * 1024 * 1024
 
 
 @dataclass
@@ -277,14 +279,36 @@ def action(
     return redirect(ctx, target)
 
 
-async def form_of(request: Request) -> tuple[FormData, dict[str, tuple[str, bytes]]]:
-    """The form fields and the uploaded files as (filename, content)."""
+async def form_of(request: Request, *, keep_records: bool = False
+                  ) -> tuple[FormData, dict[str, tuple[str, bytes]]]:
+    """The form fields and the uploaded files as (filename, content).
+
+    With `keep_records`, a form that gives ``channel_axes`` (a long record, stored in
+    chunks) keeps its files on disk: read them with :func:`record_file_of`. Any other
+    file is held to the ordinary upload limit (ValidationFailed naming the file).
+    """
     form = await request.form()
     files = {}
+    if keep_records and text(form, "channel_axes"):
+        return form, files
+    limit = request.app.state.web.max_upload_bytes
     for key, value in form.multi_items():
         if isinstance(value, UploadFile):
+            if value.size is not None and value.size > limit:
+                raise ValidationFailed(key, f"{value.filename} ({value.size} bytes)",
+                                       f"is larger than the upload limit of {limit} bytes; "
+                                       "a long record is stored in chunks when its channel "
+                                       "axes are given")
             files[key] = (value.filename or "", await value.read())
     return form, files
+
+
+def record_file_of(form: FormData, name: str = "file") -> tuple[str, BinaryIO]:
+    """The uploaded record file as (filename, binary stream), spooled on disk by Starlette."""
+    value = form.get(name)
+    if not isinstance(value, UploadFile) or not value.filename:
+        raise ValidationFailed(name, None, "choose the record file to upload")
+    return value.filename, value.file
 
 
 def text(form: FormData, name: str, default: str = "") -> str:

@@ -7,9 +7,9 @@ from fastapi import APIRouter, Request
 from fastapi.responses import Response
 from starlette.concurrency import run_in_threadpool
 
-from qualplan.planning import approvals, catalog, environments, imports
+from qualplan.planning import approvals, catalog, environments, imports, records
 from qualplan.planning import schemas as s
-from qualplan.planning.errors import PlanningError
+from qualplan.planning.errors import PlanningError, ValidationFailed
 from qualplan.reports import tables
 from qualplan.web import plots
 from qualplan.web.common import (
@@ -23,6 +23,7 @@ from qualplan.web.common import (
     number,
     page,
     problem_page,
+    record_file_of,
     render,
     text,
 )
@@ -37,11 +38,46 @@ def _reading(form) -> s.FileReading:
                          sample_rate_hz=number(form, "sample_rate_hz"))
 
 
+def _record_reading(form) -> records.RecordReading:
+    return records.RecordReading(unit=text(form, "value_units") or None,
+                                 fs_hz=number(form, "sample_rate_hz"),
+                                 calibration=number(form, "calibration"),
+                                 variable=text(form, "variable") or None,
+                                 dataset=text(form, "dataset") or None)
+
+
+async def _form(ctx: Ctx, request: Request, again):
+    try:
+        return await form_of(request, keep_records=True)
+    except PlanningError as exc:
+        return None, problem_page(ctx, 413, "File too large",
+                                  f"Not saved: {message_of(exc)}. Go back to the form and "
+                                  "choose a smaller file.")
+
+
 @router.post("/products/{product_id}/environments")
 async def upload_environment(product_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
-    form, files = await form_of(request)
+    def again(msg, code, form=None):
+        return product_page(ctx, product_id, msg, code, form or {}, "upload")
+
+    form, files = await _form(ctx, request, again)
+    if form is None:
+        return files
 
     def do() -> str:
+        if text(form, "channel_axes"):  # a long record, stored in chunks
+            if text(form, "kind") != "time_history":
+                raise ValidationFailed("channel_axes", text(form, "channel_axes"),
+                                       "is for a record: choose the kind time history")
+            filename, stream = record_file_of(form)
+            rec = records.import_record_upload(
+                ctx.db, ctx.actor, records.RecordImport(
+                    product_id=product_id, phase_id=number(form, "phase_id", integer=True),
+                    name=text(form, "name"), channel_axes=records.parse_axes(
+                        text(form, "channel_axes")), source=text(form, "source"),
+                    provenance=text(form, "provenance") or f"uploaded file {filename}",
+                    note=text(form, "note")), filename, stream, _record_reading(form))
+            return f"/environments/{rec.environment_id}"
         filename, content = files.get("file", ("", b""))
         env = environments.create_environment_from_file(ctx.db, ctx.actor, s.EnvironmentFromFile(
             product_id=product_id, phase_id=number(form, "phase_id", integer=True),
@@ -50,8 +86,8 @@ async def upload_environment(product_id: int, request: Request, ctx: Ctx = CtxDe
             note=text(form, "note"), reading=_reading(form)), filename, content)
         return f"/environments/{env.id}"
 
-    return await run_in_threadpool(action, ctx, form, do, lambda msg, code: product_page(
-        ctx, product_id, msg, code, form, "upload"))
+    return await run_in_threadpool(action, ctx, form, do,
+                                   lambda msg, code: again(msg, code, form))
 
 
 # --- an environment: plot, history, comparison, new revision -----------------------------
@@ -96,9 +132,23 @@ def environment(env_id: int, ctx: Ctx = CtxDep) -> Response:
 
 @router.post("/environments/{env_id}/revisions")
 async def revise_environment(env_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
-    form, files = await form_of(request)
+    def again(msg, code, form=None):
+        return environment_page(ctx, env_id, msg, code, form or {})
+
+    form, files = await _form(ctx, request, again)
+    if form is None:
+        return files
 
     def do() -> str:
+        if text(form, "channel_axes"):  # a long record, stored in chunks
+            filename, stream = record_file_of(form)
+            records.import_record_upload(
+                ctx.db, ctx.actor, records.RecordImport(
+                    environment_id=env_id,
+                    expected_revision=number(form, "expected_revision", integer=True),
+                    channel_axes=records.parse_axes(text(form, "channel_axes")),
+                    note=text(form, "note")), filename, stream, _record_reading(form))
+            return f"/environments/{env_id}"
         filename, content = files.get("file", ("", b""))
         environments.revise_environment_from_file(
             ctx.db, ctx.actor, env_id, filename, content, _reading(form),
@@ -106,8 +156,8 @@ async def revise_environment(env_id: int, request: Request, ctx: Ctx = CtxDep) -
             expected_revision=number(form, "expected_revision", integer=True))
         return f"/environments/{env_id}"
 
-    return await run_in_threadpool(action, ctx, form, do, lambda msg, code: environment_page(
-        ctx, env_id, msg, code, form))
+    return await run_in_threadpool(action, ctx, form, do,
+                                   lambda msg, code: again(msg, code, form))
 
 
 @router.post("/environments/{env_id}/withdrawal")

@@ -47,6 +47,7 @@ def mount(
         signer=auth.Signer(secret or auth.secret_from_settings(settings)),
         secure=bool(getattr(settings, "behind_tls", False)),
         pdf=pdf,
+        max_upload_bytes=int(getattr(settings, "max_upload_bytes", 50 * 1024 * 1024)),
     )
     for router in ROUTERS:
         app.include_router(router)

@@ -353,6 +353,39 @@ def _modal(b) -> dict:
     return b["modal"]
 
 
+def _record_revision(b) -> int:
+    """A stored 2-channel record of the base rows (through the record upload), made once."""
+    if "record" not in b:
+        import io
+
+        import numpy as np
+        buf = io.BytesIO()
+        np.save(buf, np.column_stack([np.sin(np.arange(2000) * 0.3)] * 2))
+        env = b["eng"].request("POST", "/environments/upload", 201, files={
+            "file": ("r.npy", buf.getvalue(), "application/octet-stream")}, data={
+            "product_id": str(U(b)), "kind": "time_history", "axis": "all",
+            "value_units": "g", "sample_rate_hz": "1000", "channel_axes": "X,Y",
+            "name": unique("rec")}).json()
+        b["record"] = b["eng"].get(f"/environments/{env['id']}/revisions").json(
+            )["items"][0]["id"]
+    return b["record"]
+
+
+def _finished_job(b) -> int:
+    """A job submitted by the approver and run to its end (made once)."""
+    if "job" not in b:
+        import time
+        job = b["approver"].request("POST", "/jobs", 202, json={
+            "kind": "record_analysis", "params": {"revision_id": _record_revision(b),
+                                                  "resolution_hz": 10.0}}).json()
+        deadline = time.monotonic() + 60
+        while b["eng"].get(f"/jobs/{job['id']}").json()["status"] in ("queued", "running"):
+            assert time.monotonic() < deadline
+            time.sleep(0.1)
+        b["job"] = job["id"]
+    return b["job"]
+
+
 def _upload(b):
     kw = _upload_kw()
     kw["data"]["product_id"] = str(U(b))
@@ -395,6 +428,13 @@ CASES.update({
                               "engineer", _estimate_evidence, 201),
     "loads pdf": Case("GET", "/documents/loads.pdf", "viewer", lambda b: (
         "/documents/loads.pdf", {"params": {"product_id": U(b)}})),
+    "job submit": Case("POST", "/jobs", "viewer", lambda b: ("/jobs", {"json": {
+        "kind": "record_analysis", "params": {"revision_id": _record_revision(b)}}}), 202),
+    "job get": Case("GET", "/jobs/{job_id}", "viewer", lambda b: (
+        f"/jobs/{_finished_job(b)}", {})),
+    # the approver's job: cancelled by its submitter or an admin; it has ended: 409
+    "job cancel": Case("POST", "/jobs/{job_id}/cancel", "approver", lambda b: (
+        f"/jobs/{_finished_job(b)}/cancel", {}), 409),
 })
 
 
@@ -511,7 +551,8 @@ def test_nothing_readable_without_a_token(client, callers, base):
     spec = client.get(f"{API}/openapi.json").json()
     fill = {"program_id": P(base), "product_id": U(base), "environment_id": E(base),
             "policy_id": base["policy"]["id"], "level_id": base["test_level"]["id"],
-            "requirement_id": R(base), "summary_id": 1, "estimate_id": 1, "document_id": 1}
+            "requirement_id": R(base), "summary_id": 1, "estimate_id": 1, "document_id": 1,
+            "job_id": 1}
     for path, ops in spec["paths"].items():
         if "get" not in ops or path.endswith(("/health", "/openapi.json", "/docs")):
             continue

@@ -455,3 +455,44 @@ def test_time_history_page_shows_its_psd_and_srs(browserless, users, world, fact
     # the 1/6-octave grid (anchored at 1 kHz) ends below min(10 kHz, fs/10) at 8.98 kHz
     assert 8000.0 < srs["x"][-1] <= 10_000.0
     assert srs["y"][-1] == pytest.approx(50.0, rel=0.03)
+
+
+def test_long_record_upload_through_the_form_is_stored_in_chunks(browserless, users, world,
+                                                                  factory):
+    """A 3-channel .npy record over the ordinary 256 KiB limit, sent through the product's
+    upload form with its channel axes: stored in chunks (RMS of a sine of peak A is
+    A / sqrt(2) over whole periods, closed form)."""
+    import io
+    import math
+
+    import numpy as np
+
+    from qualplan.planning import records
+
+    fs, n = 8000.0, 16_000
+    t = np.arange(n) / fs
+    x = np.column_stack([a * np.sin(2 * np.pi * 250.0 * t) for a in (1.0, 2.0, 4.0)])
+    buf = io.BytesIO()
+    np.save(buf, x)
+    assert buf.tell() > 256 * 1024
+    b = browserless(users["engineer"])
+    b.get(f"/products/{world.product_id}")
+    r = b.post(f"/products/{world.product_id}/environments",
+               {"name": unique("road"), "kind": "time_history", "axis": "all",
+                "value_units": "g", "sample_rate_hz": "8000", "channel_axes": "X,Y,Z"},
+               files={"file": ("road.npy", buf.getvalue(), "application/octet-stream")})
+    assert r.status_code == 200 and "/environments/" in str(r.url), alert(r.text) or r.text[:300]
+    env_id = int(str(r.url).rstrip("/").split("/")[-1])
+    with unit_of_work(factory) as session:
+        rev = environments.revision(session, env_id, 1)
+        rec = records.read_record(session, rev.id)
+    assert [c.axis for c in rec.channels] == ["X", "Y", "Z"] and rec.n_samples == n
+    assert rec.channels[2].stats["rms"]["value"] == pytest.approx(4 / math.sqrt(2), rel=1e-9)
+    # a bad axis list names the field on the form's page, and nothing is stored
+    before = env_count(factory, world.product_id)
+    r = b.post(f"/products/{world.product_id}/environments",
+               {"name": unique("road"), "kind": "time_history", "axis": "all",
+                "value_units": "g", "sample_rate_hz": "8000", "channel_axes": "X,Y"},
+               files={"file": ("road.npy", buf.getvalue(), "application/octet-stream")})
+    assert r.status_code == 422 and "channel_axes" in alert(r.text)
+    assert env_count(factory, world.product_id) == before

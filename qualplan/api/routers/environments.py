@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Annotated
 
-from fastapi import APIRouter, Depends, File, Form, Query, Response, UploadFile
+from fastapi import APIRouter, Depends, File, Form, Query, Request, Response, UploadFile
 
 from qualplan.api.deps import (
     ActorDep,
@@ -15,8 +15,9 @@ from qualplan.api.deps import (
     etag,
 )
 from qualplan.api.errors import Problem
+from qualplan.api.limits import too_large_detail
 from qualplan.api.models import Page
-from qualplan.planning import approvals
+from qualplan.planning import approvals, records
 from qualplan.planning import environments as envs
 from qualplan.planning import schemas as s
 
@@ -158,6 +159,11 @@ class RecordForm:
             Form(gt=0, allow_inf_nan=False, description="Of a .wav record: units per full scale"),
         ] = None,
         variable: Annotated[str | None, Form(description="Of a .mat file")] = None,
+        dataset: Annotated[str | None, Form(description="Of an HDF5 record")] = None,
+        channel_axes: Annotated[str | None, Form(
+            description="A long multi-channel record stored in chunks: one axis per channel "
+            "in file order, e.g. X,Y,Z (kind time_history; the record upload limit "
+            "applies)")] = None,
     ) -> None:
         self.value_units, self.freq_units = value_units, freq_units
         self.sample_rate_hz, self.calibration, self.variable = (
@@ -165,9 +171,27 @@ class RecordForm:
             calibration,
             variable,
         )
+        self.dataset = dataset or None
+        self.channel_axes = (channel_axes or "").strip() or None
+
+    def record_reading(self) -> records.RecordReading:
+        return records.RecordReading(unit=self.value_units, fs_hz=self.sample_rate_hz,
+                                     calibration=self.calibration, variable=self.variable,
+                                     dataset=self.dataset)
 
 
 RecordFormDep = Annotated[RecordForm, Depends()]
+
+
+def _ordinary_size(request: Request, file: UploadFile) -> None:
+    """A file that is not a chunked record keeps the ordinary upload limit (413)."""
+    limit = request.app.state.settings.max_upload_bytes
+    if file.size is not None and file.size > limit:
+        raise Problem(413, "too-large", "Content too large",
+                      too_large_detail(limit, "QUALPLAN_MAX_UPLOAD_BYTES")
+                      + "; a long record is stored in chunks when channel_axes is given",
+                      field="body", value=f"{file.size} bytes",
+                      extra={"limit_bytes": limit})
 
 
 def _reading(how: RecordForm) -> s.FileReading:
@@ -178,6 +202,7 @@ def _reading(how: RecordForm) -> s.FileReading:
 
 @router.post("/environments/upload", status_code=201, response_model=s.EnvironmentRead)
 def upload_environment(
+    request: Request,
     session: SessionDep,
     actor: ActorDep,
     response: Response,
@@ -192,7 +217,23 @@ def upload_environment(
     note: Annotated[str, Form()] = "",
     how: RecordFormDep = None,  # type: ignore[assignment]
 ):
-    """Create an environment from an uploaded file (multipart), within the upload limit."""
+    """Create an environment from an uploaded file (multipart), within the upload limit.
+
+    With `channel_axes`, the file is a long multi-channel record (kind time_history):
+    it is read in chunks and stored in chunks, within the record upload limit."""
+    if how.channel_axes is not None:
+        if kind is not s.EnvironmentKind.time_history:
+            raise Problem(422, "invalid", "Invalid input", "channel_axes is for a record: "
+                          "give kind time_history", field="channel_axes",
+                          value=how.channel_axes)
+        rec = records.import_record_upload(
+            session, actor, records.RecordImport(
+                product_id=product_id, phase_id=phase_id, name=name,
+                channel_axes=records.parse_axes(how.channel_axes), source=source,
+                provenance=provenance or f"uploaded file {file.filename}", note=note),
+            file.filename or "upload", file.file, how.record_reading())
+        return _read(session, _environment(session, rec.environment_id), response)
+    _ordinary_size(request, file)
     cmd = s.EnvironmentFromFile(
         product_id=product_id, phase_id=phase_id, name=name, kind=kind, axis=axis,
         source=source, provenance=provenance, note=note, reading=_reading(how))
@@ -207,6 +248,7 @@ def upload_environment(
     response_model=s.RevisionRead,
 )
 def upload_revision(
+    request: Request,
     environment_id: int,
     session: SessionDep,
     actor: ActorDep,
@@ -217,8 +259,22 @@ def upload_revision(
     expected_revision: Annotated[int | None, Form()] = None,
     how: RecordFormDep = None,  # type: ignore[assignment]
 ):
-    """Add a revision from an uploaded file; If-Match or `expected_revision` as for JSON."""
+    """Add a revision from an uploaded file; If-Match or `expected_revision` as for JSON.
+
+    With `channel_axes`, the file is a long record stored in chunks (see the upload of a
+    new environment)."""
     env = _environment(session, environment_id)
+    if how.channel_axes is not None:
+        rec = records.import_record_upload(
+            session, actor, records.RecordImport(
+                environment_id=environment_id,
+                expected_revision=version if version is not None else expected_revision,
+                channel_axes=records.parse_axes(how.channel_axes), note=note),
+            file.filename or "upload", file.file, how.record_reading())
+        response.headers["ETag"] = etag(rec.revision)
+        return envs.read_revision(envs.revision(session, environment_id, rec.revision),
+                                  env.kind)
+    _ordinary_size(request, file)
     rev = envs.revise_environment_from_file(
         session, actor, environment_id, file.filename or "upload", file.file.read(),
         _reading(how), note=note,
