@@ -29,6 +29,8 @@ class StatusOf:
     reason: str
     evidence: m.Evidence | None
     waiver: m.Waiver | None = None
+    #: The evidence's margins split by cause (``planning.margins``), when computed.
+    margins: object | None = None
 
 
 def create_requirement(session: Session, actor: Actor, cmd: s.RequirementCreate) -> m.Requirement:
@@ -218,11 +220,19 @@ def status_of(
     *,
     level_stale: dict[int, list[str]] | None = None,
     now: datetime | None = None,
+    coverage_cache: dict | None = None,
     _chain: tuple[int, ...] = (),
 ) -> StatusOf:
     """The requirement's status with the reason an auditor reads (`_chain`: the
-    requirements whose similarity claims led here, to stop at a cycle)."""
+    requirements whose similarity claims led here, to stop at a cycle).
+
+    A test requirement is verified only when its newest evidence passes the level's
+    tolerance, its achieved level over the limit (time compression excluded) meets the
+    required margin, and, where the policy asks it for the level's grade, the test
+    sequence of the level's axis covers the life (``planning.margins``).
+    """
     from qualplan.planning.levels import staleness
+    from qualplan.planning.margins import margins_of
 
     waiver = active_waiver(req, now)
     if waiver is not None:
@@ -261,23 +271,33 @@ def status_of(
         if other.id in chain:
             return StatusOf("open", f"similarity claims form a cycle through {other.key}: "
                             "no requirement of the cycle is verified by it", ev)
-        inner = status_of(session, other, level_stale=level_stale, now=now, _chain=chain)
+        inner = status_of(session, other, level_stale=level_stale, now=now,
+                          coverage_cache=coverage_cache, _chain=chain)
         if inner.status != "verified":
             return StatusOf(
                 "stale" if inner.status == "stale" else "open",
                 f"similar requirement {other.key} is {inner.status}",
                 ev,
             )
+    mg = margins_of(session, req, ev, coverage_cache if coverage_cache is not None else {})
     if ev.verdict is m.Verdict.failed:
-        return StatusOf("failed", ev.summary.get("reason", "the evidence fails"), ev)
-    if ev.achieved_margin is not None and ev.achieved_margin < req.required_margin:
+        return StatusOf("failed", ev.summary.get("reason", "the evidence fails"), ev,
+                        margins=mg)
+    if mg.analysis_ms is not None and mg.analysis_ms < req.required_margin:
+        return StatusOf("failed", f"analysis MS {mg.analysis_ms:+.3f} is below the "
+                        f"required {req.required_margin:+.3f}", ev, margins=mg)
+    got = mg.achieved_over_limit_db
+    if got is not None and got < req.required_margin:
         return StatusOf(
             "failed",
-            f"achieved margin {ev.achieved_margin:.3g} is below the "
-            f"required {req.required_margin:.3g}",
-            ev,
+            f"achieved level {got:+.2f} dB over the limit (time compression excluded) is "
+            f"below the required {req.required_margin:+.2f} dB",
+            ev, margins=mg,
         )
-    return StatusOf("verified", ev.summary.get("reason", "evidence passes"), ev)
+    if mg.coverage_required and mg.covers_life is False:
+        return StatusOf("open", "; ".join(mg.coverage_reasons)
+                        or "level does not cover the life", ev, margins=mg)
+    return StatusOf("verified", ev.summary.get("reason", "evidence passes"), ev, margins=mg)
 
 
 def read_requirement(session: Session, req: m.Requirement, **kw) -> s.RequirementRead:
