@@ -31,6 +31,7 @@ from sqlalchemy.orm import Session
 
 from qualplan.planning import coverage as cov
 from qualplan.planning import results as r
+from qualplan.planning import wording as w
 from qualplan.planning.levels import result_of
 from qualplan.planning.policies import rules_of
 from qualplan.store import models as m
@@ -214,3 +215,49 @@ def margins_of(session: Session, req: m.Requirement, ev: m.Evidence | None,
     required = coverage_required(rules_of(level.policy), level.grade)
     out.update(_coverage_block(sequence_coverage(session, level, cache), required))
     return Margins(**out)
+
+
+# --- the columns every interface shows ----------------------------------------------------
+
+#: Column headers of the margins, each naming its unit (CLI, web, PDF and CSV alike).
+COLUMNS = (
+    "level over limit [dB]",
+    "time compression [dB, not a margin]",
+    "achieved over limit [dB]",
+    "tolerance of the record",
+    "fatigue coverage FDS test/life [dB at Hz, per b]",
+    "peak coverage ERS test/life [dB at Hz]",
+    "over-test ERS [dB at Hz, ceiling]",
+    "analysis MS [-]",
+)
+
+
+def cells(value: Margins | dict) -> list[str]:
+    """The margins as the texts of :data:`COLUMNS`, in the same order ("-" when empty)."""
+    mg = value if isinstance(value, Margins) else Margins.model_validate(value)
+    fatigue = "; ".join(
+        f"{w.decibels(f.worst_db)} at {w.frequency(f.worst_fn_hz)} (b = {f.b})"
+        + ("" if f.passed else " short")
+        for f in mg.fatigue) or "-"
+    peak = over = "-"
+    if mg.peak is not None:
+        p = mg.peak
+        peak = (f"{w.decibels(p.worst_db)} at {w.frequency(p.worst_fn_hz)}"
+                + ("" if p.passed else " short"))
+        over = (f"{w.decibels(p.overtest_db)} at {w.frequency(p.overtest_fn_hz)} "
+                f"(ceiling {w.decibels(p.overtest_limit_db)})"
+                + ("" if p.overtest_passed else " beyond the ceiling") if p.overtest_db is not None
+                else f"none (ceiling {w.decibels(p.overtest_limit_db)})")
+    if mg.coverage_required is False and mg.fatigue:
+        fatigue += " (not asked for this grade)"
+    return [
+        w.decibels(mg.level_over_limit_db) if mg.level_over_limit_db is not None else "-",
+        w.decibels(mg.compression_db) if mg.compression_db is not None else "-",
+        w.decibels(mg.achieved_over_limit_db) if mg.achieved_over_limit_db is not None
+        else "-",
+        mg.tolerance or "-",
+        fatigue,
+        peak,
+        over,
+        f"{mg.analysis_ms:+.3f}" if mg.analysis_ms is not None else "-",
+    ]

@@ -268,15 +268,20 @@ def status_of(
     if ev.kind is m.EvidenceKind.similarity and ev.similar_requirement_id is not None:
         other = session.get(m.Requirement, ev.similar_requirement_id)
         chain = (*_chain, req.id)
-        if other.id in chain:
-            return StatusOf("open", f"similarity claims form a cycle through {other.key}: "
-                            "no requirement of the cycle is verified by it", ev)
+        cycle = similarity_cycle(session, req)
+        if cycle:
+            return StatusOf("open", "similarity claims form a cycle ("
+                            + " -> ".join(cycle) + "): no requirement of the cycle is "
+                            "verified by it; record other evidence for one of them", ev)
+        if other.id in chain:  # a cycle further down the claims, reported where it closes
+            return StatusOf("open", f"its similarity claims lead into a cycle through "
+                            f"{other.key}", ev)
         inner = status_of(session, other, level_stale=level_stale, now=now,
                           coverage_cache=coverage_cache, _chain=chain)
         if inner.status != "verified":
             return StatusOf(
                 "stale" if inner.status == "stale" else "open",
-                f"similar requirement {other.key} is {inner.status}",
+                f"similar requirement {other.key} is {inner.status} ({inner.reason})",
                 ev,
             )
     mg = margins_of(session, req, ev, coverage_cache if coverage_cache is not None else {})
@@ -298,6 +303,24 @@ def status_of(
         return StatusOf("open", "; ".join(mg.coverage_reasons)
                         or "level does not cover the life", ev, margins=mg)
     return StatusOf("verified", ev.summary.get("reason", "evidence passes"), ev, margins=mg)
+
+
+def similarity_cycle(session: Session, req: m.Requirement) -> list[str] | None:
+    """The keys of the cycle the newest similarity claims form from `req` back to it
+    (["A", "B", "A"]), or None; walked iteratively, so a long chain cannot overflow."""
+    keys, seen, hop = [req.key], {req.id}, req
+    while hop.evidence and hop.evidence[-1].similar_requirement_id is not None:
+        nxt = session.get(m.Requirement, hop.evidence[-1].similar_requirement_id)
+        if nxt is None:
+            return None
+        keys.append(nxt.key)
+        if nxt.id == req.id:
+            return keys
+        if nxt.id in seen:  # a cycle that does not pass through req
+            return None
+        seen.add(nxt.id)
+        hop = nxt
+    return None
 
 
 def read_requirement(session: Session, req: m.Requirement, **kw) -> s.RequirementRead:
