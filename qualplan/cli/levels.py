@@ -12,6 +12,7 @@ from qualplan.cli.output import emit_json, progress, table
 from qualplan.planning import (
     catalog,
     levels,
+    margins,
     policies,
     wording,
 )
@@ -134,10 +135,7 @@ def _print_level(level: s.LevelRead) -> None:
         typer.echo("  " + wording.step_sentence(st, grade=level.grade.value if level.grade
                                                 else None, policy=level.policy_name))
     v = r.verdicts
-    controllable = ("not applicable (analysis level)" if v.controllable is None
-                    else "controllable" if v.controllable else "NOT controllable")
-    typer.echo(f"numeric method: {'converged' if v.converged else 'NOT converged'}; "
-               f"controller: {controllable}")
+    typer.echo("verdicts: " + "; ".join(margins.verdict_words(v)))
     for reason in v.reasons:
         typer.echo(f"  {reason}")
     for reason in level.stale_reasons:

@@ -261,3 +261,16 @@ def cells(value: Margins | dict) -> list[str]:
         over,
         f"{mg.analysis_ms:+.3f}" if mg.analysis_ms is not None else "-",
     ]
+
+
+def verdict_words(verdicts: r.Verdicts | dict) -> list[str]:
+    """A level's verdicts in the words every interface prints (CLI derive/show, the web
+    level page and the specification PDF): "numeric method: converged", "controller:
+    controllable", "FDS b = 4: does NOT cover the life", ..."""
+    v = verdicts if isinstance(verdicts, r.Verdicts) else r.Verdicts.model_validate(verdicts)
+    words = [f"numeric method: {'converged' if v.converged else 'NOT converged'}",
+             "controller: " + ("not applicable" if v.controllable is None
+                               else "controllable" if v.controllable else "NOT controllable")]
+    words += [f"{what}: {'covers the life' if ok else 'does NOT cover the life'}"
+              for what, ok in v.covers_life.items()]
+    return words

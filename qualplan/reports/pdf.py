@@ -19,6 +19,7 @@ from pathlib import Path
 from jinja2 import Environment, FileSystemLoader, StrictUndefined, select_autoescape
 
 from qualplan import __version__
+from qualplan.planning import margins
 from qualplan.planning.documents import DocumentContent, SpecificationContent
 from qualplan.reports import charts, tables
 from qualplan.resources import data_dir
@@ -72,7 +73,8 @@ def environment() -> Environment:
         trim_blocks=True,
         lstrip_blocks=True,
     )
-    env.filters.update(num=_num, signed=_signed, date=_date, datetime=_datetime)
+    env.filters.update(num=_num, signed=_signed, date=_date, datetime=_datetime,
+                       verdict_words=margins.verdict_words)
     env.globals["qualplan_version"] = __version__
     return env
 

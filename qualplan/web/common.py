@@ -28,6 +28,7 @@ from sqlalchemy.orm import Session
 from starlette.datastructures import FormData, UploadFile
 
 from qualplan import __version__
+from qualplan.planning import margins
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor
 from qualplan.planning.errors import (
@@ -87,6 +88,7 @@ LABELS = {
 }
 
 templates.env.filters["num"] = _fmt
+templates.env.filters["verdict_words"] = margins.verdict_words
 templates.env.filters["unit"] = _unit
 templates.env.filters["label"] = lambda key: LABELS.get(key, str(key).replace("_", " "))
 templates.env.globals["STATIC"] = STATIC

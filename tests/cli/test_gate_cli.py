@@ -56,6 +56,12 @@ def test_passing_record_on_an_uncovering_level_keeps_both_gates_shut(db, capsys,
                         "--kind", "random", "--axis", "Z", "--revisions", "1", "--json")
     assert code == 0, err
     level = json.loads(out)
+    # derive/show print the verdicts in the words of the PDF (margins.verdict_words, the
+    # filter the specification template uses)
+    code, shown, _ = ok("level", "show", str(level["id"]))
+    words = margins.verdict_words(level["result"]["verdicts"])
+    assert "verdicts: " + "; ".join(words) in shown
+    assert "FDS b = 4: does NOT cover the life" in words
     code, _, err = ok("req", "add", "ENV-1", "--text", "Random Z qualification", "--product",
                       "Camera electronics", "--method", "test", "--level", str(level["id"]))
     assert code == 0, err
