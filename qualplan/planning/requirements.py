@@ -142,7 +142,9 @@ def requirement_page(session: Session, *, program_id: int | None = None,
     if limit is not None:
         stmt = stmt.limit(limit)
     cache: dict[int, list[str]] = {}
-    rows = [read_requirement(session, r, level_stale=cache) for r in session.scalars(stmt)]
+    covs: dict = {}  # sequence coverage, once per product, axis, grade and policy
+    rows = [read_requirement(session, r, level_stale=cache, coverage_cache=covs)
+            for r in session.scalars(stmt)]
     return rows, total
 
 
@@ -179,12 +181,13 @@ def traceability(
                         selectinload(m.Requirement.level),
                         selectinload(m.Requirement.product))
     cache: dict[int, list[str]] = {}
+    covs: dict = {}  # sequence coverage, once per product, axis, grade and policy
     rows = []
     needle = (text or "").lower()
     for req in session.scalars(stmt.order_by(m.Requirement.key, m.Requirement.id)):
         if needle and needle not in req.key.lower() and needle not in req.text.lower():
             continue
-        read = read_requirement(session, req, level_stale=cache)
+        read = read_requirement(session, req, level_stale=cache, coverage_cache=covs)
         if status and read.status != status:
             continue
         ev = req.evidence[-1] if req.evidence else None
