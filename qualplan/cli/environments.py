@@ -23,6 +23,7 @@ from qualplan.planning import (
     approvals,
     catalog,
     environments,
+    impact,
     wording,
 )
 from qualplan.planning import schemas as s
@@ -180,6 +181,32 @@ def env_list(
                 for e in rows
             ],
         )
+
+
+@env_app.command("impact")
+def env_impact(environment_id: int, db: DbOption = None, as_json: JsonOption = False) -> None:
+    """What a new revision of an environment would make stale (or, once revised, has
+    made stale): levels, requirements and documents."""
+    with work(db) as session:
+        out = impact.environment_impact(session, environment_id)
+    if as_json:
+        emit_json(out)
+        return
+    typer.echo(f"environment {out.environment} (id {out.environment_id}), latest revision "
+               f"r{out.latest_revision}")
+    typer.echo("levels:")
+    table(["id", "level", "purpose", "axis", "through", "uses", "state"],
+          [(x.level_id, x.level, x.purpose, x.axis, x.through, f"r{x.revision_used}",
+            "stale already" if x.stale_already else "would become stale")
+           for x in out.levels])
+    typer.echo("requirements:")
+    table(["key", "method", "through", "evidence"],
+          [(x.key, x.method, x.through, "has evidence" if x.has_evidence else "none yet")
+           for x in out.requirements])
+    typer.echo("documents:")
+    table(["number", "revision", "kind", "through"],
+          [(x.number, x.revision, x.kind, x.through) for x in out.documents])
+    typer.echo(out.summary)
 
 
 @env_app.command("withdraw")

@@ -16,6 +16,7 @@ from qualplan.planning import (
     documents,
     environments,
     levels,
+    margins,
     policies,
     wording,
 )
@@ -150,10 +151,7 @@ def _print_level(level: s.LevelRead) -> None:
         typer.echo("  " + wording.step_sentence(st, grade=level.grade.value if level.grade
                                                 else None, policy=level.policy_name))
     v = r.verdicts
-    controllable = ("not applicable (analysis level)" if v.controllable is None
-                    else "controllable" if v.controllable else "NOT controllable")
-    typer.echo(f"numeric method: {'converged' if v.converged else 'NOT converged'}; "
-               f"controller: {controllable}")
+    typer.echo("verdicts: " + "; ".join(margins.verdict_words(v)))
     for reason in v.reasons:
         typer.echo(f"  {reason}")
     for reason in level.stale_reasons:

@@ -133,6 +133,8 @@ def report_audit(
     _print(issued, as_json)
     if not as_json:
         typer.echo(content.verdict)
+    if not content.release_ready:  # the same gate as `qualplan audit`
+        raise typer.Exit(1)
 
 
 @report_app.command("sign")

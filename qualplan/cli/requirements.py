@@ -26,6 +26,7 @@ from qualplan.planning import (
     audit,
     catalog,
     evidence,
+    margins,
     requirements,
 )
 from qualplan.planning import schemas as s
@@ -291,7 +292,8 @@ def audit_command(
         )
         typer.echo("  ".join(f"{k} {v}" for k, v in report.counts.items()))
         table(
-            ["key", "product", "level", "method", "status", "required", "achieved", "reason"],
+            ["key", "product", "level", "method", "status", "required margin",
+             "achieved margin", "unit", "reason"],
             [
                 (
                     i.key,
@@ -301,11 +303,16 @@ def audit_command(
                     i.status,
                     i.required_margin,
                     i.achieved_margin,
+                    i.margin_unit or "-",
                     i.reason,
                 )
                 for i in report.items
             ],
         )
+        typer.echo("margins by cause (achieved margin: analysis MS, or the achieved record "
+                   "over the limit level with the time compression excluded):")
+        table(["key", *margins.COLUMNS],
+              [(i.key, *margins.cells(i.margins)) for i in report.items])
         typer.echo(report.verdict)
     if not report.release_ready:
         raise typer.Exit(1)

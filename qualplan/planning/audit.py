@@ -13,13 +13,12 @@ from sqlalchemy.orm import Session, selectinload
 from qualplan.planning import schemas as s
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import ValidationFailed
+from qualplan.planning.margins import margins_of
 from qualplan.planning.requirements import status_of
 from qualplan.store import models as m
 from qualplan.store.repositories import ProductRepository
 
 STATUSES = ("verified", "waived", "failed", "stale", "open")
-#: Unit of required and achieved margins by verification method.
-MARGIN_UNITS = {"analysis": "MS", "test": "dB"}
 #: Unit of required and achieved margins by verification method.
 MARGIN_UNITS = {"analysis": "MS", "test": "dB"}
 
@@ -51,10 +50,16 @@ def audit(
         stmt = stmt.where(m.Requirement.product_id.in_(ids))
         scope = f"product {product.name} and its children"
     level_stale: dict[int, list[str]] = {}
+    coverage_cache: dict = {}
     items = []
     for req in session.scalars(stmt):
-        st = status_of(session, req, level_stale=level_stale, now=now)
-        achieved = st.evidence.achieved_margin if st.evidence is not None else None
+        st = status_of(session, req, level_stale=level_stale, now=now,
+                       coverage_cache=coverage_cache)
+        ev = st.evidence if st.evidence is not None else (
+            req.evidence[-1] if req.evidence else None)
+        mg = st.margins if st.margins is not None else margins_of(session, req, ev,
+                                                                  coverage_cache)
+        achieved = mg.analysis_ms if mg.analysis_ms is not None else mg.achieved_over_limit_db
         shortfall = None
         if achieved is not None and achieved < req.required_margin:
             shortfall = req.required_margin - achieved
@@ -71,7 +76,8 @@ def audit(
                 achieved_margin=achieved,
                 margin_unit=MARGIN_UNITS.get(req.method.value, ""),
                 shortfall=shortfall,
-                evidence_id=st.evidence.id if st.evidence is not None else None,
+                evidence_id=ev.id if ev is not None else None,
+                margins=mg.model_dump(mode="json"),
             )
         )
     counts = Counter(i.status for i in items)

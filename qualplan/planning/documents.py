@@ -22,7 +22,7 @@ from pydantic import BaseModel, ConfigDict
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from qualplan.planning import coverage, wording
+from qualplan.planning import coverage, margins, wording
 from qualplan.planning import results as res
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require_in
@@ -342,6 +342,8 @@ class AuditRow(Content):
     status: str
     evidence: str
     reason: str
+    #: The margins split by cause, as the texts of ``margins.COLUMNS``.
+    margin_cells: list[str] = []
 
 
 class AuditContent(Content):
@@ -357,6 +359,8 @@ class AuditContent(Content):
     product_id: int | None
     counts: dict[str, int]
     items: list[AuditRow]
+    #: Headers of ``AuditRow.margin_cells``, each naming its unit.
+    margin_columns: list[str] = list(margins.COLUMNS)
     blocking: list[AuditRow]
     release_ready: bool
     verdict: str
@@ -842,7 +846,8 @@ def audit_content(
             key=item.key, product=item.product, level=item.level, method=item.method.value,
             required_margin=item.required_margin, achieved_margin=item.achieved_margin,
             margin_unit=item.margin_unit, status=item.status,
-            evidence=evidence, reason=item.reason))
+            evidence=evidence, reason=item.reason,
+            margin_cells=margins.cells(item.margins)))
     hashes = {}
     for item in report.items:
         req = reqs[item.requirement_id]

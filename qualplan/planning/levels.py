@@ -511,7 +511,9 @@ def staleness(session: Session, level: m.Level) -> list[str]:
         reasons.append(f"superseded by {new.name} #{new.number} (id {new.id}), re-derived "
                        f"on the latest revisions of its inputs on {sup.created_at:%Y-%m-%d}")
     revs = RevisionRepository(session)
-    used = {**level.input_hashes.get("revisions", {}), **level.input_hashes.get("life_cycle", {})}
+    used = dict(level.input_hashes.get("revisions", {}))
+    if level.purpose is m.LevelPurpose.test:  # an analysis level carries no coverage of the
+        used.update(level.input_hashes.get("life_cycle", {}))  # life: it does not depend on it
     for rid in used:
         rev = revs.get(int(rid))
         latest = revs.latest(rev.environment_id)

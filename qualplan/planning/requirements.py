@@ -30,6 +30,8 @@ class StatusOf:
     reason: str
     evidence: m.Evidence | None
     waiver: m.Waiver | None = None
+    #: The evidence's margins split by cause (``planning.margins``), when computed.
+    margins: object | None = None
 
 
 def create_requirement(session: Session, actor: Actor, cmd: s.RequirementCreate) -> m.Requirement:
@@ -141,7 +143,9 @@ def requirement_page(session: Session, *, program_id: int | None = None,
     if limit is not None:
         stmt = stmt.limit(limit)
     cache: dict[int, list[str]] = {}
-    rows = [read_requirement(session, r, level_stale=cache) for r in session.scalars(stmt)]
+    covs: dict = {}  # sequence coverage, once per product, axis, grade and policy
+    rows = [read_requirement(session, r, level_stale=cache, coverage_cache=covs)
+            for r in session.scalars(stmt)]
     return rows, total
 
 
@@ -178,12 +182,13 @@ def traceability(
                         selectinload(m.Requirement.level),
                         selectinload(m.Requirement.product))
     cache: dict[int, list[str]] = {}
+    covs: dict = {}  # sequence coverage, once per product, axis, grade and policy
     rows = []
     needle = (text or "").lower()
     for req in session.scalars(stmt.order_by(m.Requirement.key, m.Requirement.id)):
         if needle and needle not in req.key.lower() and needle not in req.text.lower():
             continue
-        read = read_requirement(session, req, level_stale=cache)
+        read = read_requirement(session, req, level_stale=cache, coverage_cache=covs)
         if status and read.status != status:
             continue
         ev = req.evidence[-1] if req.evidence else None
@@ -219,11 +224,19 @@ def status_of(
     *,
     level_stale: dict[int, list[str]] | None = None,
     now: datetime | None = None,
+    coverage_cache: dict | None = None,
     _chain: tuple[int, ...] = (),
 ) -> StatusOf:
     """The requirement's status with the reason an auditor reads (`_chain`: the
-    requirements whose similarity claims led here, to stop at a cycle)."""
+    requirements whose similarity claims led here, to stop at a cycle).
+
+    A test requirement is verified only when its newest evidence passes the level's
+    tolerance, its achieved level over the limit (time compression excluded) meets the
+    required margin, and, where the policy asks it for the level's grade, the test
+    sequence of the level's axis covers the life (``planning.margins``).
+    """
     from qualplan.planning.levels import staleness
+    from qualplan.planning.margins import margins_of
 
     waiver = active_waiver(req, now)
     if waiver is not None:
@@ -262,26 +275,59 @@ def status_of(
     if ev.kind is m.EvidenceKind.similarity and ev.similar_requirement_id is not None:
         other = session.get(m.Requirement, ev.similar_requirement_id)
         chain = (*_chain, req.id)
-        if other.id in chain:
-            return StatusOf("open", f"similarity claims form a cycle through {other.key}: "
-                            "no requirement of the cycle is verified by it", ev)
-        inner = status_of(session, other, level_stale=level_stale, now=now, _chain=chain)
+        cycle = similarity_cycle(session, req)
+        if cycle:
+            return StatusOf("open", "similarity claims form a cycle ("
+                            + " -> ".join(cycle) + "): no requirement of the cycle is "
+                            "verified by it; record other evidence for one of them", ev)
+        if other.id in chain:  # a cycle further down the claims, reported where it closes
+            return StatusOf("open", f"its similarity claims lead into a cycle through "
+                            f"{other.key}", ev)
+        inner = status_of(session, other, level_stale=level_stale, now=now,
+                          coverage_cache=coverage_cache, _chain=chain)
         if inner.status != "verified":
             return StatusOf(
                 "stale" if inner.status == "stale" else "open",
-                f"similar requirement {other.key} is {inner.status}",
+                f"similar requirement {other.key} is {inner.status} ({inner.reason})",
                 ev,
             )
+    mg = margins_of(session, req, ev, coverage_cache if coverage_cache is not None else {})
     if ev.verdict is m.Verdict.failed:
-        return StatusOf("failed", ev.summary.get("reason", "the evidence fails"), ev)
-    if ev.achieved_margin is not None and ev.achieved_margin < req.required_margin:
+        return StatusOf("failed", ev.summary.get("reason", "the evidence fails"), ev,
+                        margins=mg)
+    if mg.analysis_ms is not None and mg.analysis_ms < req.required_margin:
+        return StatusOf("failed", f"analysis MS {mg.analysis_ms:+.3f} is below the "
+                        f"required {req.required_margin:+.3f}", ev, margins=mg)
+    got = mg.achieved_over_limit_db
+    if got is not None and got < req.required_margin:
         return StatusOf(
             "failed",
-            f"achieved margin {ev.achieved_margin:.3g} is below the "
-            f"required {req.required_margin:.3g}",
-            ev,
+            f"achieved level {got:+.2f} dB over the limit (time compression excluded) is "
+            f"below the required {req.required_margin:+.2f} dB",
+            ev, margins=mg,
         )
-    return StatusOf("verified", ev.summary.get("reason", "evidence passes"), ev)
+    if mg.coverage_required and mg.covers_life is False:
+        return StatusOf("open", "; ".join(mg.coverage_reasons)
+                        or "level does not cover the life", ev, margins=mg)
+    return StatusOf("verified", ev.summary.get("reason", "evidence passes"), ev, margins=mg)
+
+
+def similarity_cycle(session: Session, req: m.Requirement) -> list[str] | None:
+    """The keys of the cycle the newest similarity claims form from `req` back to it
+    (["A", "B", "A"]), or None; walked iteratively, so a long chain cannot overflow."""
+    keys, seen, hop = [req.key], {req.id}, req
+    while hop.evidence and hop.evidence[-1].similar_requirement_id is not None:
+        nxt = session.get(m.Requirement, hop.evidence[-1].similar_requirement_id)
+        if nxt is None:
+            return None
+        keys.append(nxt.key)
+        if nxt.id == req.id:
+            return keys
+        if nxt.id in seen:  # a cycle that does not pass through req
+            return None
+        seen.add(nxt.id)
+        hop = nxt
+    return None
 
 
 def read_requirement(session: Session, req: m.Requirement, **kw) -> s.RequirementRead:

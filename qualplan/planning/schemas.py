@@ -304,6 +304,12 @@ class EquivalenceRule(Rule):
     overtest_limit_db: Num = Field(
         default=6.0, gt=0, description="Test ERS above life ERS flagged beyond this [dB]"
     )
+    coverage_required: dict[Grade, bool] = Field(
+        default_factory=lambda: {Grade.qualification: True, Grade.protoflight: True,
+                                 Grade.acceptance: False},
+        description="Per grade: is a test requirement verified only when the test "
+        "sequence of its axis covers the life (FDS and ERS)?",
+    )
     basis: Text = ""
 
     @model_validator(mode="after")
@@ -616,12 +622,17 @@ class AuditItem(BaseModel):
     method: VerificationMethod
     status: Status
     reason: str
+    #: Required margin: MS (unitless) for analysis, dB over the limit level for tests.
     required_margin: float
+    #: The figure compared with the required margin: analysis MS, or the achieved test
+    #: record over the limit level [dB] with the time compression excluded.
     achieved_margin: float | None
     #: Unit of the margins: "MS" (margin of safety) for analysis, "dB" for tests.
     margin_unit: str = ""
     shortfall: float | None
     evidence_id: int | None
+    #: The margins split by cause (planning.margins.Margins as a dict).
+    margins: dict = {}
 
 
 class AuditReport(BaseModel):

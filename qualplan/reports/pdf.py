@@ -19,7 +19,7 @@ from pathlib import Path
 from jinja2 import Environment, FileSystemLoader, StrictUndefined, select_autoescape
 
 from qualplan import __version__
-from qualplan.planning import wording
+from qualplan.planning import margins, wording
 from qualplan.planning.documents import DocumentContent, SpecificationContent
 from qualplan.reports import charts, tables
 from qualplan.reports.files import write_atomic
@@ -68,7 +68,8 @@ def environment() -> Environment:
     env.filters.update(num=_num, signed=_signed, date=_date, datetime=_datetime,
                        status=wording.status, kind=wording.kind, hz=wording.frequency,
                        duration=wording.duration, db=wording.decibels,
-                       count=wording.count)
+                       count=wording.count,
+                       verdict_words=margins.verdict_words)
     env.globals["qualplan_version"] = __version__
     return env
 

@@ -223,12 +223,13 @@ def audit_csv(content: AuditContent, digits: int = wording.SIGNIFICANT) -> str:
               "local standards, contracts and licensed engineering practice govern.\n")
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(["key", "product", "level", "method", "required_margin", "achieved_margin",
-                "margin_unit", "status", "evidence", "reason"])
+                "margin_unit", "status", "evidence", "reason", *content.margin_columns])
     for r in content.items:
         w.writerow([_cell(r.key), _cell(r.product), _cell(r.level or ""), _cell(r.method),
                     _sig(r.required_margin, digits), _sig(r.achieved_margin, digits),
                     _cell(r.margin_unit), _cell(r.status), _cell(r.evidence),
-                    _cell(r.reason)])
+                    _cell(r.reason),
+                    *(_cell(c) for c in r.margin_cells)])
     return buf.getvalue()
 
 

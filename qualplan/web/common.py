@@ -27,8 +27,8 @@ from sqlalchemy.orm import Session
 from starlette.datastructures import FormData, UploadFile
 
 from qualplan import __version__
+from qualplan.planning import margins, wording
 from qualplan.planning import schemas as s
-from qualplan.planning import wording
 from qualplan.planning.access import Actor
 from qualplan.planning.errors import (
     PlanningError,
@@ -86,6 +86,7 @@ LABELS = {
 }
 
 templates.env.filters["num"] = _fmt
+templates.env.filters["verdict_words"] = margins.verdict_words
 templates.env.filters["unit"] = _unit
 templates.env.filters["status"] = wording.status
 templates.env.filters["kind"] = wording.kind

@@ -7,7 +7,7 @@ from fastapi import APIRouter, Request
 from fastapi.responses import Response
 from starlette.concurrency import run_in_threadpool
 
-from qualplan.planning import approvals, catalog, environments, imports, records
+from qualplan.planning import approvals, catalog, environments, impact, imports, records
 from qualplan.planning import schemas as s
 from qualplan.planning.errors import PlanningError, ValidationFailed
 from qualplan.reports import tables
@@ -128,6 +128,18 @@ def environment_page(ctx: Ctx, env_id: int, error=None, status=200, form=None):
 @router.get("/environments/{env_id}")
 def environment(env_id: int, ctx: Ctx = CtxDep) -> Response:
     return page(ctx, lambda: environment_page(ctx, env_id))
+
+
+@router.get("/environments/{env_id}/impact")
+def environment_impact(env_id: int, ctx: Ctx = CtxDep) -> Response:
+    """What a new revision of the environment would make stale (or has made stale)."""
+    def build() -> Response:
+        env = environments.environment_by_id(ctx.db, env_id)
+        return render(ctx, "web/environment_impact.html", env=env,
+                      product=catalog.product_by_id(ctx.db, env.product_id),
+                      impact=impact.environment_impact(ctx.db, env_id))
+
+    return page(ctx, build)
 
 
 @router.post("/environments/{env_id}/revisions")

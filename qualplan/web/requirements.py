@@ -9,7 +9,16 @@ from fastapi import APIRouter, Request
 from fastapi.responses import Response
 from starlette.concurrency import run_in_threadpool
 
-from qualplan.planning import approvals, audit, catalog, evidence, imports, levels, requirements
+from qualplan.planning import (
+    approvals,
+    audit,
+    catalog,
+    evidence,
+    imports,
+    levels,
+    margins,
+    requirements,
+)
 from qualplan.planning import schemas as s
 from qualplan.planning.errors import ValidationFailed
 from qualplan.web.common import (
@@ -198,7 +207,8 @@ def audit_page(program_id: int, ctx: Ctx = CtxDep) -> Response:
         program = catalog.program_by_id(ctx.db, program_id)
         return render(ctx, "web/audit.html", report=report, program=program,
                       products=catalog.list_products(ctx.db, program_id),
-                      product_id=product_id or "")
+                      product_id=product_id or "", margin_columns=margins.COLUMNS,
+                      margin_cells={i.key: margins.cells(i.margins) for i in report.items})
 
     return page(ctx, build)
 
@@ -208,12 +218,12 @@ def audit_csv(program_id: int, ctx: Ctx = CtxDep) -> Response:
     def build() -> Response:
         report = audit.audit(ctx.db, program_id)
         rows = [["key", "product", "level", "method", "status", "required_margin",
-                 "achieved_margin", "shortfall", "margin_unit", "reason"]]
+                 "achieved_margin", "shortfall", "margin_unit", "reason", *margins.COLUMNS]]
         for i in report.items:
             rows.append([i.key, i.product, i.level or "", i.method.value, i.status,
                          i.required_margin, "" if i.achieved_margin is None else i.achieved_margin,
                          "" if i.shortfall is None else i.shortfall,
-                         i.margin_unit, i.reason])
+                         i.margin_unit, i.reason, *margins.cells(i.margins)])
         comments = [f"margin-closure audit of program {report.program}", report.verdict,
                     "margins: dB for a test, MS (margin of safety) for an analysis"]
         return csv_response(rows, f"{_slug(report.program)}-audit.csv", comments)

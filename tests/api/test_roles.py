@@ -167,6 +167,8 @@ CASES = {
                             lambda b: (f"/environments/{E(b)}", {})),
     "revisions list": Case("GET", "/environments/{environment_id}/revisions", "viewer",
                            lambda b: (f"/environments/{E(b)}/revisions", {})),
+    "environment impact": Case("GET", "/environments/{environment_id}/impact", "viewer",
+                               lambda b: (f"/environments/{E(b)}/impact", {})),
     "revision add": Case("POST", "/environments/{environment_id}/revisions", "engineer",
                          lambda b: (f"/environments/{E(b)}/revisions",
                                     {"json": {"data": _fresh_psd()}}), 201),

@@ -69,7 +69,9 @@ def test_random_level_margin_duration_floor_and_coverage(session, engineer, unit
 
 def test_requirement_verified_then_stale_after_new_revision(session, engineer, unit, story):
     revs = [story["road_env"].revisions[-1], story["flight_env"].revisions[-1]]
-    level = _random_level(session, engineer, unit, revs)
+    # An acceptance level: a workmanship screen, so its coverage of the 50 h life is not
+    # asked (a qualification level must cover it: tests/planning/test_margins.py).
+    level = _random_level(session, engineer, unit, revs, grade=m.Grade.acceptance)
     req = requirements.create_requirement(session, engineer, s.RequirementCreate(
         program_id=unit.program_id, key="ENV-001", text="Survive qualification random, Z",
         product_id=unit.id, level_id=level.id, method=m.VerificationMethod.test))

@@ -13,6 +13,7 @@ import numpy as np
 import pytest
 from sqlalchemy.orm import Session
 
+from qualplan.dynamics import psd
 from qualplan.planning import catalog, environments, evidence, levels, policies, requirements
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor
@@ -70,7 +71,15 @@ def build(session: Session) -> dict:
 
     reqs = {"random": req("RU-001", lv["random"]), "sine": req("RU-002", lv["sine"]),
             "shock": req("RU-003", lv["shock"]), "open": req("RU-004", None,
-                                                              m.VerificationMethod.inspection)}
+                                                              m.VerificationMethod.inspection),
+            # an acceptance screen: verified on its record alone (coverage not asked)
+            "acceptance": req("RU-005", lv["acceptance"])}
+    r = lv["acceptance"].result  # the demand on 1/48-octave controller lines
+    lines = np.geomspace(r["freq_hz"][0], r["freq_hz"][-1],
+                         int(48 * np.log2(r["freq_hz"][-1] / r["freq_hz"][0])) + 1)
+    evidence.add_test_record(session, eng, reqs["acceptance"].id, s.TestEvidenceIn(
+        freq_hz=lines.tolist(), values=psd.asd_at(r["freq_hz"], r["asd_g2_hz"], lines).tolist(),
+        duration_s=r["duration_s"]))
     r = lv["random"].result
     evidence.add_test_record(session, eng, reqs["random"].id, s.TestEvidenceIn(
         freq_hz=r["freq_hz"], values=r["asd_g2_hz"], duration_s=r["duration_s"]))

@@ -17,7 +17,7 @@ from qualplan.api.deps import (
 from qualplan.api.errors import Problem
 from qualplan.api.limits import too_large_detail
 from qualplan.api.models import Page
-from qualplan.planning import approvals, records
+from qualplan.planning import approvals, impact, records
 from qualplan.planning import environments as envs
 from qualplan.planning import schemas as s
 
@@ -82,6 +82,13 @@ def list_environments(
 def get_environment(environment_id: int, session: SessionDep, _: ReaderDep, response: Response):
     """The environment; its ETag is the number of its latest revision."""
     return _read(session, _environment(session, environment_id), response)
+
+
+@router.get("/environments/{environment_id}/impact", response_model=impact.Impact)
+def environment_impact(environment_id: int, session: SessionDep, _: ReaderDep):
+    """The levels, requirements and documents a new revision of the environment would
+    make stale (or, once revised, has made stale)."""
+    return impact.environment_impact(session, environment_id)
 
 
 @router.get(
