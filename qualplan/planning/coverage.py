@@ -33,8 +33,11 @@ from qualplan.planning.lifecycle import LifeItem, current_test_levels, exposure,
 from qualplan.store import models as m
 
 K = m.EnvironmentKind
-#: Natural frequencies kept for a sampled record: below this fraction of its sample rate.
+#: Natural frequencies of a sampled record: below RECORD_FN_LIMIT of its sample rate the
+#: ramp-invariant filter; up to RECORD_FN_MAX the band-limited reconstruction (within 3 %
+#: for fs >= 5 fn, qualplan.dynamics.fatigue.fds_time); above, none.
 RECORD_FN_LIMIT = 0.1
+RECORD_FN_MAX = 0.2
 
 
 @dataclass(frozen=True)
@@ -63,14 +66,19 @@ def _sweep(label, sweep: core_sine.Sweep, times: float, fn, q, bs) -> Spectra:
 
 
 def _record(label, x, dt, times, fn, q, bs) -> Spectra:
+    fn = np.asarray(fn, float)
     keep = fn < RECORD_FN_LIMIT / dt
+    high = ~keep & (fn <= RECORD_FN_MAX / dt * (1 + 1e-9))
     fds = {b: np.zeros_like(fn) for b in bs}
     ers = np.zeros_like(fn)
-    if keep.any():
+    for sel, method in ((keep, "ramp"), (high, "bandlimited")):
+        if not sel.any():
+            continue
         for b in bs:
             # free decay after the record: a shock's residual response does damage too
-            fds[b][keep] = times * core_fds.fds_time(x, dt, fn[keep], q, b, free_decay=True)
-        ers[keep] = core_ers.ers_shock(x, dt, fn[keep], q)
+            fds[b][sel] = times * core_fds.fds_time(x, dt, fn[sel], q, b, free_decay=True,
+                                                    method=method)
+        ers[sel] = core_ers.ers_shock(x, dt, fn[sel], q, method=method)
     return Spectra(label, fds, ers)
 
 

@@ -97,13 +97,14 @@ def normalise(
         raise ValidationFailed("data", data, "must be an object")
     kind = EnvironmentKind(kind)
     if kind is EnvironmentKind.random:
-        _known_keys(data, {"freq_hz", "asd_g2_hz", "duration_s"})
+        _known_keys(data, {"freq_hz", "asd_g2_hz", "duration_s", "share"})
         f, a = _floats(data, "freq_hz"), _floats(data, "asd_g2_hz")
         with core_errors():
             core_psd.check_psd(f, a)
         spec = {"freq_hz": f, "asd_g2_hz": a}
         if (d := _optional_positive(data, "duration_s")) is not None:
             spec["duration_s"] = d
+        _share(data, spec)
         return spec, None
     if kind is EnvironmentKind.shock:
         _known_keys(data, {"freq_hz", "accel_g", "q", "count"})
@@ -122,13 +123,14 @@ def normalise(
             spec["count"] = count
         return spec, None
     if kind is EnvironmentKind.sine:
-        _known_keys(data, {"bands", "sweep"})
+        _known_keys(data, {"bands", "sweep", "share"})
         spec = {"bands": _sine_bands(data), "sweep": _sweep(data.get("sweep") or {})}
+        _share(data, spec)
         sweep_of(spec)  # full check through the core
         _check_sine_plausible(spec)
         return spec, None
     # time history
-    _known_keys(data, {"dt_s", "accel_g", "duration_s"})
+    _known_keys(data, {"dt_s", "accel_g", "duration_s", "share"})
     dt = _optional_positive(data, "dt_s")
     if dt is None:
         raise ValidationFailed("data.dt_s", data.get("dt_s"), "is required (sample interval [s])")
@@ -144,7 +146,67 @@ def normalise(
     spec = {"dt_s": dt}
     if (d := _optional_positive(data, "duration_s")) is not None:
         spec["duration_s"] = d
+    _share(data, spec)
     return spec, samples
+
+
+def _share(data: dict, spec: dict[str, Any]) -> None:
+    """The environment's share of its phase: a fraction of the phase's time, 0 < share <= 1
+    (absent: the whole phase)."""
+    if data.get("share") is None:
+        return
+    share = _number("data.share", data["share"])
+    if not 0 < share <= 1:
+        raise ValidationFailed("data.share", share, "must be a fraction of the phase's time, "
+                               "0 < share <= 1")
+    spec["share"] = share
+
+
+#: Relative slack of the exposure check (durations printed to 3-4 digits; common practice).
+EXPOSURE_SLACK = 1e-6
+
+
+def own_duration_s(kind: EnvironmentKind, spec: dict[str, Any], samples: int | None
+                   ) -> tuple[float | None, str]:
+    """How long one occurrence of the environment itself lasts [s], and how that was found:
+    a random spectrum's stated duration, a sweep sequence's sweep time x sweeps, a record's
+    length (x its repeats when a duration is stated). None when the data state no time."""
+    kind = EnvironmentKind(kind)
+    if kind is EnvironmentKind.random:
+        d = spec.get("duration_s")
+        return d, "stated duration"
+    if kind is EnvironmentKind.sine:
+        sweep = sweep_of(spec)
+        return sweep.duration_s, (f"{spec['sweep']['sweeps']} sweeps x "
+                                  f"{sweep.duration_s / spec['sweep']['sweeps']:.4g} s")
+    if kind is EnvironmentKind.time_history and samples:
+        record_s = samples * spec["dt_s"]
+        d = spec.get("duration_s")
+        if d is not None and d > record_s:
+            return d, f"record of {record_s:.4g} s repeated for the stated duration"
+        return record_s, f"record of {record_s:.4g} s"
+    return None, ""
+
+
+def check_exposure(kind: EnvironmentKind, spec: dict[str, Any], samples: int | None,
+                   phase_name: str | None, phase_duration_s: float | None,
+                   field: str = "data") -> None:
+    """Refuse an environment whose own duration exceeds its share of its phase
+    (the life would hold more of it than the phase lasts)."""
+    if phase_duration_s is None:
+        return
+    own, how = own_duration_s(kind, spec, samples)
+    if own is None:
+        return
+    share = spec.get("share", 1.0)
+    allowed = share * phase_duration_s
+    if own > allowed * (1 + EXPOSURE_SLACK):
+        raise ValidationFailed(
+            field, f"{own:.6g} s",
+            f"the environment lasts {own:.6g} s ({how}) per occurrence, more than its "
+            f"share of phase {phase_name!r}: {share:g} x {phase_duration_s:.6g} s = "
+            f"{allowed:.6g} s; lower the duration or the sweeps, or raise the share or the "
+            "phase's duration")
 
 
 #: Units a band's amplitude may be given in, per quantity -> factor to the stored unit

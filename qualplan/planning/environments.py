@@ -29,6 +29,9 @@ def create_environment(
         if phase.program_id != product.program_id:
             raise ValidationFailed("phase_id", cmd.phase_id, "the phase belongs to another program")
     spec, data = envdata.normalise(cmd.kind, cmd.data, array)
+    if cmd.phase_id is not None:
+        envdata.check_exposure(cmd.kind, spec, None if data is None else data.size,
+                               phase.name, phase.duration_s)
     env = _add_unique(
         session,
         m.Environment(
@@ -114,6 +117,9 @@ def revise_environment(
     ):
         raise VersionMismatch("environment", env.id, cmd.expected_revision, latest.number)
     spec, data = envdata.normalise(env.kind, cmd.data, array)
+    if env.phase is not None:
+        envdata.check_exposure(env.kind, spec, None if data is None else data.size,
+                               env.phase.name, env.phase.duration_s)
     if latest is not None and revision_hash(spec, data) == latest.content_hash:
         raise Conflict(f"the data are identical to revision {latest.number}; nothing to revise")
     return _append_revision(session, actor, env, spec, data, cmd.note)
