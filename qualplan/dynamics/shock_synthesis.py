@@ -442,7 +442,7 @@ def synthesize_shock(
     max_iterations: int = 60,
     method: str = "wavelets",
     stroke_m: float | None = None,
-    placement: str = "random",
+    placement: str = "auto",
 ) -> ShockSynthesis:
     """Synthesise a shock time history whose maximax SRS matches a target SRS.
 
@@ -488,11 +488,14 @@ def synthesize_shock(
         each with compensating terms ``sin(pi t/T_i) (c1 + c2 t)`` that make
         its final velocity and displacement zero (the compensated decaying
         sinusoids of Smallwood & Nord 1974, compensation of our own form).
-    placement : {"random", "sweep"}, optional
+    placement : {"auto", "random", "sweep"}, optional
         Start times of the components [unitless]: drawn at random within
-        ``max_delay_s`` (default), or "sweep": increasing with frequency across
+        ``max_delay_s`` ("random"), or "sweep": increasing with frequency across
         the whole duration (lower peak acceleration; better for targets that
         fall at high frequency, docs/methods/shock-synthesis.md section 9).
+        Default "auto": "sweep" for a target that falls at its upper end
+        (value at the highest grid frequency below the target's maximum),
+        "random" otherwise.
     stroke_m : float, optional
         Largest |displacement| the shaker allows from its rest position [m].
         A result whose peak displacement exceeds it is refused
@@ -526,6 +529,14 @@ def synthesize_shock(
     The trial whose record converges first is kept; if none converges, the
     best one is returned with ``converged=False`` and a warning.
 
+    Targets that fall at high frequency: the SRS at high natural frequencies
+    tends to the record's peak acceleration, so for such a target the record's
+    peak is held to the target at the highest grid frequency, ``cap``: every
+    sample with ``|x_k| > cap`` adds the row ``d x_k / d A_i`` (the wavelets'
+    values at that sample) with the right-hand side ``sign(x_k) cap`` to the
+    least-squares system (a one-sided constraint, active only while exceeded;
+    docs/methods/shock-synthesis.md section 10).
+
     References
     ----------
     R. C. Yang, H. R. Saffell, "Development of a waveform synthesis technique -
@@ -537,8 +548,8 @@ def synthesize_shock(
     1974 [from memory].
     D. O. Smallwood 1981 and ISO 18431-4:2007 (the SRS used for the check).
     """
-    if placement not in ("random", "sweep"):
-        raise InputError("placement", placement, "must be 'random' or 'sweep'")
+    if placement not in ("auto", "random", "sweep"):
+        raise InputError("placement", placement, "must be 'auto', 'random' or 'sweep'")
     if method not in SYNTHESIS_METHODS:
         raise InputError("method", method, f"must be one of {', '.join(SYNTHESIS_METHODS)}")
     stroke = None if stroke_m is None else _validate.positive_scalar("stroke_m", stroke_m)
@@ -581,6 +592,10 @@ def synthesize_shock(
     iters = int(max_iterations)
     if iters < 1:
         raise InputError("max_iterations", max_iterations, "must be >= 1")
+    falling = bool(tgt[-1] < tgt.max())
+    if placement == "auto":
+        placement = "sweep" if falling else "random"
+    cap = float(tgt[-1]) if falling else None
     rng = seed if isinstance(seed, np.random.Generator) else np.random.default_rng(seed)
     seed_out = None if isinstance(seed, np.random.Generator) else int(seed)
 
@@ -589,7 +604,7 @@ def synthesize_shock(
     best = None
     for trial in range(trials):
         run = _iterate(fn, tgt, dt, dur, max_delay, n_lo, n_hi, rng, b, a, n_extra, tol, iters,
-                       method, placement)
+                       method, placement, cap)
         if best is None or run["max_err"] < best["max_err"]:
             best = dict(run, trial=trial)
         if run["max_err"] <= tol:
@@ -634,8 +649,25 @@ def _damping(half: np.ndarray) -> np.ndarray:
     return math.log(1000.0) / (np.pi * half)
 
 
+def _peak_rows(x, cap, k0, ln, off, w, nf):
+    """Rows ``d x_k / d A_i`` and right-hand sides ``sign(x_k) cap`` for ``|x_k| > cap``.
+
+    At most ``nf`` rows (the largest exceedances), so the system stays small.
+    """
+    over = np.flatnonzero(np.abs(x) > cap)
+    if over.size == 0:
+        return None, None
+    ks = over[np.argsort(-np.abs(x[over]))[:nf]]
+    rows = np.zeros((ks.size, nf))
+    for r, k in enumerate(ks):
+        q = k - k0
+        ok = (q >= 0) & (q < ln)
+        rows[r, ok] = w[off[ok] + q[ok]]
+    return rows, np.sign(x[ks]) * cap
+
+
 def _iterate(fn, tgt, dt, dur, max_delay, n_lo, n_hi, rng, b, a, n_extra, tol, iters,
-             method="wavelets", placement="random"):
+             method="wavelets", placement="random", cap=None):
     half, delay, sign = _design(fn, dt, dur, max_delay, n_lo, n_hi, rng, placement)
     nf = fn.size
     k0 = np.rint(delay / dt).astype(np.int64)
@@ -681,11 +713,16 @@ def _iterate(fn, tgt, dt, dur, max_delay, n_lo, n_hi, rng, b, a, n_extra, tol, i
         if err <= tol or it - best["it"] >= _PATIENCE:
             break
         jacobian(b, a, idx, span, k0, ln, off, w, jac)
+        rows, rhs = jac, np.sign(val) * tgt
+        if cap is not None:  # hold the record's peak to the target's top-end value
+            extra, extra_rhs = _peak_rows(x, cap, k0, ln, off, w, nf)
+            if extra is not None:
+                rows, rhs = np.vstack([jac, extra]), np.concatenate([rhs, extra_rhs])
         # Tikhonov-regularised least squares via the normal equations (a small
         # SPD solve; an SVD-based lstsq is 10x slower on a loaded 2-core machine)
-        jtj = jac.T @ jac
+        jtj = rows.T @ rows
         lam2 = 1e-4 * _largest_eigenvalue(jtj)
-        new = np.linalg.solve(jtj + lam2 * eye, jac.T @ (np.sign(val) * tgt) + lam2 * amp)
+        new = np.linalg.solve(jtj + lam2 * eye, rows.T @ rhs + lam2 * amp)
         amp = amp + 0.7 * (new - amp)
     best.update(half=half, delay=k0 * dt, x=build(best["amp"]))
     return best

@@ -87,14 +87,32 @@ def test_bad_input(kwargs, match):
 
 # A target that falls at high frequency (100 g at 100-500 Hz, 20 g at 2 kHz)
 FALLING = S.SrsProfile([10.0, 100.0, 500.0, 2000.0], [10.0, 100.0, 100.0, 20.0])
+# Falling from a 200 g plateau at 1 kHz to 50 g at 4 kHz (-6 dB/oct); invented
+FALLING_2 = S.SrsProfile([20.0, 200.0, 1000.0, 4000.0], [5.0, 200.0, 200.0, 50.0])
 
 
 def test_sweep_placement_lowers_the_error_on_a_falling_target():
-    # measured (seed 0, one trial, 60 iterations): random start times 2.9-3.0 dB,
-    # sweep 1.87 dB; the +/-1.5 dB goal is NOT reached (docs/methods/shock-synthesis.md)
-    rand = SS.synthesize_shock(FALLING, seed=0, n_trials=1)
+    # measured (seed 0, one trial, 60 iterations, peak held to the top-end target):
+    # random start times 1.9 dB, sweep 1.0 dB
+    rand = SS.synthesize_shock(FALLING, seed=0, n_trials=1, placement="random")
     sweep = SS.synthesize_shock(FALLING, seed=0, n_trials=1, placement="sweep")
     assert sweep.max_error_db < rand.max_error_db - 0.5
     assert sweep.peak_accel_g < rand.peak_accel_g
     with pytest.raises(InputError, match="placement"):
         SS.synthesize_shock(FALLING, placement="grid")
+
+
+@pytest.mark.parametrize("target", [FALLING, FALLING_2], ids=["to-20g", "minus-6dB-oct"])
+@pytest.mark.parametrize("seed", [0, 1, 2])
+def test_falling_targets_converge_by_default(target, seed):
+    # Issue goal: targets falling at high frequency converge to +/-1.5 dB. The SRS at
+    # high natural frequency tends to the record's peak acceleration (Harris' Shock
+    # and Vibration Handbook, ch. 8: the SRS of any input tends to its peak as fn grows),
+    # so the default holds the peak to the top-end target and sweeps the start times.
+    res = SS.synthesize_shock(target, seed=seed)
+    assert res.converged and res.max_error_db <= 1.5
+    achieved = S.srs(res.accel_g, res.dt_s, res.freq_hz, 10.0)  # independent recomputation
+    err = 20 * np.log10(achieved / target.value_at(res.freq_hz))
+    assert np.abs(err).max() <= 1.5 + 1e-9
+    assert res.peak_accel_g <= target.accel_g[-1] * 10 ** (1.5 / 20)
+    assert abs(res.final_velocity_m_s) <= 1e-9 * res.peak_velocity_m_s

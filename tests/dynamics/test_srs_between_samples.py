@@ -233,3 +233,21 @@ def test_time_domain_ers_bandlimited_pseudo_accel():
                     * max(abs(v) for v in exact_extremes(f, 10.0, pieces, t_end)["rel_disp"])
                     for f in fn])
     assert np.all(np.abs(got / ref - 1) <= _bound(0.01, 0.02))
+
+
+@pytest.mark.parametrize("xp", [
+    np.random.default_rng(4).standard_normal(501),
+    np.r_[np.zeros(5), np.ones(7), np.zeros(3)],  # a step up and down: zero slopes at the edges
+    np.linspace(0.0, 1.0, 9),  # linear samples: the slope is the secant (Fritsch & Carlson)
+    np.array([1.0, -2.0]),
+])
+def test_one_pass_limited_slopes_equal_the_vectorised_form(xp, monkeypatch):
+    # The compiled one-pass kernel must give exactly the slopes of the array form
+    # (Fritsch & Carlson 1980 limiter on the fourth-order central difference).
+    m0, m1 = sdof_hold.limited_slopes(xp)
+    monkeypatch.setattr(sdof_hold, "_HAVE_NUMBA", False)
+    r0, r1 = sdof_hold.limited_slopes(xp)
+    np.testing.assert_array_equal(m0, r0)
+    np.testing.assert_array_equal(m1, r1)
+    if xp.size == 9:  # linear two samples away from the zero padding: the secant 1/8
+        np.testing.assert_allclose(m0[2:7], 0.125, rtol=1e-14)
