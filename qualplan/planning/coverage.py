@@ -98,6 +98,13 @@ def spectra_of_environment(item: LifeItem, fn, q: float, bs) -> Spectra:
         return _sweep(label, envdata.sweep_of(spec), amount, fn, q, bs)
     if env.kind is K.shock:
         return _shock(label, spec["freq_hz"], spec["accel_g"], spec["q"], amount, fn, q, bs)
+    if "run_samples" in spec:
+        # runs of one condition: the worst run's damage per second x the exposure, once
+        seconds = amount * np.asarray(rev.data).size * spec["dt_s"]
+        parts = [_record(label, x, spec["dt_s"], seconds / (x.size * spec["dt_s"]), fn, q, bs)
+                 for x in envdata.runs_of(spec, rev.data)]
+        return Spectra(label, {b: np.max([p.fds[b] for p in parts], axis=0) for b in bs},
+                       np.max([p.ers for p in parts], axis=0))
     return _record(label, np.asarray(rev.data), spec["dt_s"], amount, fn, q, bs)
 
 

@@ -96,6 +96,10 @@ def normalise(
     if not isinstance(data, dict):
         raise ValidationFailed("data", data, "must be an object")
     kind = EnvironmentKind(kind)
+    if kind is EnvironmentKind.random and "runs" in data:
+        return _random_runs(data), None
+    if kind is EnvironmentKind.time_history and "run_samples" in data:
+        return _record_runs(data, array)
     if kind is EnvironmentKind.random:
         _known_keys(data, {"freq_hz", "asd_g2_hz", "duration_s", "share"})
         f, a = _floats(data, "freq_hz"), _floats(data, "asd_g2_hz")
@@ -150,6 +154,68 @@ def normalise(
     return spec, samples
 
 
+def _random_runs(data: dict) -> dict[str, Any]:
+    """Several measured spectra (runs) of one condition: ``{"runs": [{"freq_hz",
+    "asd_g2_hz"}, ...]}``. Stored with the runs and, as the environment's spectrum, their
+    maximum envelope; the exposure is the condition's, counted once."""
+    _known_keys(data, {"runs", "duration_s", "share"})
+    runs = data["runs"]
+    if not isinstance(runs, list) or len(runs) < 2:
+        raise ValidationFailed("data.runs", runs if not isinstance(runs, list) else len(runs),
+                               "must list at least 2 runs (one run: give freq_hz and asd_g2_hz)")
+    out = []
+    for i, run in enumerate(runs):
+        if not isinstance(run, dict):
+            raise ValidationFailed(f"data.runs[{i}]", run, "must be an object")
+        try:
+            spec, _ = normalise(EnvironmentKind.random, {k: run.get(k) for k in (
+                "freq_hz", "asd_g2_hz")})
+        except ValidationFailed as exc:
+            raise ValidationFailed(f"data.runs[{i}].{exc.field.removeprefix('data.')}",
+                                   exc.value, exc.rule) from exc
+        out.append(spec)
+    with core_errors():
+        f, a = core_psd.envelope([(r["freq_hz"], r["asd_g2_hz"]) for r in out])
+    spec = {"freq_hz": [float(x) for x in f], "asd_g2_hz": [float(x) for x in a],
+            "runs": out}
+    if (d := _optional_positive(data, "duration_s")) is not None:
+        spec["duration_s"] = d
+    _share(data, spec)
+    return spec
+
+
+def _record_runs(data: dict, array: np.ndarray | None) -> tuple[dict[str, Any], np.ndarray]:
+    """Several records (runs) of one condition at one sample rate, stored end to end:
+    ``{"dt_s", "accel_g" (all samples), "run_samples": [n1, n2, ...]}``."""
+    counts = data["run_samples"]
+    if (not isinstance(counts, list) or len(counts) < 2
+            or not all(isinstance(n, int) and not isinstance(n, bool) and n >= 2
+                       for n in counts)):
+        raise ValidationFailed("data.run_samples", counts,
+                               "must list at least 2 runs of at least 2 samples each")
+    spec, samples = normalise(EnvironmentKind.time_history,
+                              {k: v for k, v in data.items() if k != "run_samples"}, array)
+    if sum(counts) != samples.size:
+        raise ValidationFailed("data.run_samples", counts,
+                               f"sum to {sum(counts)} samples, the runs hold {samples.size}")
+    spec["run_samples"] = counts
+    return spec, samples
+
+
+def runs_of(spec: dict[str, Any], array: np.ndarray | None) -> list:
+    """The runs of a revision: (freq_hz, asd_g2_hz) pairs of a random environment, sample
+    arrays of a record; one run when the revision holds one."""
+    if "runs" in spec:
+        return [(np.asarray(r["freq_hz"]), np.asarray(r["asd_g2_hz"])) for r in spec["runs"]]
+    if "run_samples" in spec:
+        edges = np.cumsum([0, *spec["run_samples"]])
+        x = np.asarray(array)
+        return [x[a:b] for a, b in zip(edges[:-1], edges[1:], strict=True)]
+    if "freq_hz" in spec and "asd_g2_hz" in spec:
+        return [(np.asarray(spec["freq_hz"]), np.asarray(spec["asd_g2_hz"]))]
+    return [np.asarray(array)]
+
+
 def _share(data: dict, spec: dict[str, Any]) -> None:
     """The environment's share of its phase: a fraction of the phase's time, 0 < share <= 1
     (absent: the whole phase)."""
@@ -180,7 +246,8 @@ def own_duration_s(kind: EnvironmentKind, spec: dict[str, Any], samples: int | N
         return sweep.duration_s, (f"{spec['sweep']['sweeps']} sweeps x "
                                   f"{sweep.duration_s / spec['sweep']['sweeps']:.4g} s")
     if kind is EnvironmentKind.time_history and samples:
-        record_s = samples * spec["dt_s"]
+        # runs are samples of one condition: the longest run is the condition's length
+        record_s = max(spec.get("run_samples", [samples])) * spec["dt_s"]
         d = spec.get("duration_s")
         if d is not None and d > record_s:
             return d, f"record of {record_s:.4g} s repeated for the stated duration"

@@ -135,39 +135,58 @@ def analysis_settings(opts: s.RecordAnalysis, f_lo_hz: float, record_s: float, l
             "defaults": chosen is None}
 
 
+def _record_curve(item: Input, x: np.ndarray, dt: float, band_hz: tuple[float, float],
+                  opts: s.RecordAnalysis, steps: list[r.Step] | None, run: str = ""):
+    """Maximax PSD of one record (run) inside `band_hz`, below 0.4 of its sample rate."""
+    label = item.label + run
+    cfg = analysis_settings(opts, band_hz[0], x.size * dt, label)
+    est = core_signal.maximax_psd(
+        x, 1.0 / dt, window_s=cfg["maximax_window_s"], resolution_hz=cfg["resolution_hz"],
+        overlap=cfg["overlap"], window=cfg["window"])
+    if steps is not None:
+        steps.append(_step(
+            "record analysis", inputs=[label], window=cfg["window"],
+            resolution_hz=float(est.resolution_hz), segment_s=cfg["segment_s"],
+            overlap=cfg["overlap"], maximax_window_s=float(est.window_s),
+            windows=int(est.n_windows), dof=float(est.dof),
+            settings="defaults (resolve the lowest fn of interest with "
+            f"{LINES_BELOW_FN} lines)" if cfg["defaults"] else "chosen",
+            method="maximax PSD of Welch averages (NASA-HDBK-7005)"))
+    hi = min(band_hz[1], RECORD_BAND_FRACTION / dt)
+    keep = (est.freq_hz >= band_hz[0]) & (est.freq_hz <= hi) & (est.asd_g2_hz > 0)
+    if keep.sum() < 2:
+        raise ValidationFailed("revision_ids", item.revision.id,
+                               f"record {label} has no PSD line in "
+                               f"{band_hz[0]:g}-{hi:g} Hz")
+    return est.freq_hz[keep], est.asd_g2_hz[keep]
+
+
 def _random_curves(inputs: list[Input], band_hz: tuple[float, float],
-                   opts: s.RecordAnalysis | None = None, steps: list[r.Step] | None = None
-                   ) -> list[tuple[np.ndarray, np.ndarray]]:
-    """PSD curves of the inputs; a record's maximax PSD is kept inside `band_hz` and
-    below 0.4 of its sample rate (the anti-alias roll-off is not a level to test at)."""
+                   opts: s.RecordAnalysis | None = None, steps: list[r.Step] | None = None,
+                   combination: str = "envelope") -> list[tuple[np.ndarray, np.ndarray]]:
+    """One PSD curve per input; a record's is its maximax PSD (``_record_curve``). An
+    input holding several runs of its condition gives the envelope or P95/50
+    (`combination`) across its runs: the runs are samples of one condition."""
     curves = []
     opts = opts or s.RecordAnalysis()
     for item in inputs:
+        rev = item.revision
+        runs = envdata.runs_of(rev.spec, rev.data)
         if item.environment.kind is K.random:
-            curves.append((np.asarray(item.revision.spec["freq_hz"]),
-                           np.asarray(item.revision.spec["asd_g2_hz"])))
+            run_curves = runs
         else:
-            x, dt = np.asarray(item.revision.data), item.revision.spec["dt_s"]
-            cfg = analysis_settings(opts, band_hz[0], x.size * dt, item.label)
-            est = core_signal.maximax_psd(
-                x, 1.0 / dt, window_s=cfg["maximax_window_s"], resolution_hz=cfg[
-                    "resolution_hz"], overlap=cfg["overlap"], window=cfg["window"])
-            if steps is not None:
-                steps.append(_step(
-                    "record analysis", inputs=[item.label], window=cfg["window"],
-                    resolution_hz=float(est.resolution_hz), segment_s=cfg["segment_s"],
-                    overlap=cfg["overlap"], maximax_window_s=float(est.window_s),
-                    windows=int(est.n_windows), dof=float(est.dof),
-                    settings="defaults (resolve the lowest fn of interest with "
-                    f"{LINES_BELOW_FN} lines)" if cfg["defaults"] else "chosen",
-                    method="maximax PSD of Welch averages (NASA-HDBK-7005)"))
-            hi = min(band_hz[1], RECORD_BAND_FRACTION / dt)
-            keep = (est.freq_hz >= band_hz[0]) & (est.freq_hz <= hi) & (est.asd_g2_hz > 0)
-            if keep.sum() < 2:
-                raise ValidationFailed("revision_ids", item.revision.id,
-                                       f"record {item.label} has no PSD line in "
-                                       f"{band_hz[0]:g}-{hi:g} Hz")
-            curves.append((est.freq_hz[keep], est.asd_g2_hz[keep]))
+            dt = rev.spec["dt_s"]
+            run_curves = [_record_curve(item, x, dt, band_hz, opts, steps,
+                                        f" run {k + 1}" if len(runs) > 1 else "")
+                          for k, x in enumerate(runs)]
+        if len(run_curves) == 1:
+            curves.append(run_curves[0])
+            continue
+        f, a, step = _combine(run_curves, combination, [item.label])
+        curves.append((f, a))
+        if steps is not None:
+            steps.append(step.model_copy(update={
+                "step": f"{step.step} across {len(run_curves)} runs of one condition"}))
     return curves
 
 
@@ -334,8 +353,13 @@ def derive_random(
         lf, la = f, a
     else:
         labels = [i.label for i in inputs]
-        curves = _random_curves(inputs, (eq.f_lo_hz, eq.f_hi_hz), recipe.analysis, steps)
-        lf, la, step = _combine(curves, recipe.combination, labels)
+        curves = _random_curves(inputs, (eq.f_lo_hz, eq.f_hi_hz), recipe.analysis, steps,
+                                recipe.combination)
+        across = recipe.combination
+        if len(curves) == 1 and len(envdata.runs_of(inputs[0].revision.spec,
+                                                    inputs[0].revision.data)) > 1:
+            across = "envelope"  # the statistics went across the one input's runs
+        lf, la, step = _combine(curves, across, labels)
         if per_input:
             scaled = []
             for item, (cf, ca) in zip(inputs, curves, strict=True):
@@ -345,7 +369,7 @@ def derive_random(
                     steps.append(_step("time compression", **comp))
                     ca = core_psd.scale_db(cf, ca, comp["db"])[1]
                 scaled.append((cf, ca))
-            f, a, step = _combine(scaled, recipe.combination, labels)
+            f, a, step = _combine(scaled, across, labels)
         else:
             f, a = lf, la
         steps.append(step)

@@ -256,11 +256,26 @@ def action(
 async def form_of(request: Request) -> tuple[FormData, dict[str, tuple[str, bytes]]]:
     """The form fields and the uploaded files as (filename, content)."""
     form = await request.form()
-    files = {}
+    files: dict[str, tuple[str, bytes]] = {}
     for key, value in form.multi_items():
         if isinstance(value, UploadFile):
-            files[key] = (value.filename or "", await value.read())
+            if not value.filename and key in files:
+                continue  # an empty extra file input
+            name, n = key, 1
+            while name in files:  # several files in one input: file, file#2, file#3 ...
+                n += 1
+                name = f"{key}#{n}"
+            files[name] = (value.filename or "", await value.read())
     return form, files
+
+
+def more_files(files: dict[str, tuple[str, bytes]], key: str) -> list[tuple[str, bytes]]:
+    """The second and further files of a multiple file input (runs of one condition)."""
+    out, n = [], 2
+    while f"{key}#{n}" in files:
+        out.append(files[f"{key}#{n}"])
+        n += 1
+    return out
 
 
 def text(form: FormData, name: str, default: str = "") -> str:

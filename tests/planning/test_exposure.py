@@ -406,3 +406,69 @@ def test_defect7_load_factor_is_the_exact_sdof_response(session, engineer, progr
     else:
         assert abs(lf.miles_difference_pct) > 2.0
     assert "approximation" in lf.method and "responsible engineer" in lf.caution
+
+
+# --- runs of one condition --------------------------------------------------------------
+
+
+def _npy(x) -> bytes:
+    import io
+
+    buf = io.BytesIO()
+    np.save(buf, np.asarray(x, float))
+    return buf.getvalue()
+
+
+def test_defect1_runs_of_one_condition_count_the_exposure_once(session, engineer, program,
+                                                               unit):
+    """Three records of one operating condition uploaded together: one revision, three
+    runs, the phase's exposure (1 h x 10 = 36 000 s) counted once: compression to 1 h with
+    m = 7.5 is 10 log10(10^(2/7.5)) = 2.667 dB (MIL-STD-810H 514.8 Annex A), not
+    10 log10(30^(2/7.5)) = 3.94 dB (+1.27 dB) as when each run counted as the phase."""
+    from qualplan.dynamics.synthesis import gaussian_from_psd
+
+    ops = _phase(session, engineer, program, "operation", 3600.0, 10)
+    fs = 2048.0
+    runs = [gaussian_from_psd([20.0, 500.0], [0.01, 0.01], 8.0, fs,
+                              rng=np.random.default_rng(k)) for k in range(3)]
+    env = environments.create_environment_from_file(
+        session, engineer, s.EnvironmentFromFile(
+            product_id=unit.id, phase_id=ops.id, name="cruise", kind=K.time_history,
+            axis=m.Axis.Z, reading=s.FileReading(sample_rate_hz=fs, value_units="g")),
+        "run1.npy", _npy(runs[0]), more_files=[("run2.npy", _npy(runs[1])),
+                                                ("run3.npy", _npy(runs[2]))])
+    assert len(env.revisions) == 1
+    rev = _rev(env)
+    assert rev.spec["run_samples"] == [r.size for r in runs]
+    item = LifeItem(env, rev)
+    assert exposure_s(item) == pytest.approx(36_000.0)
+    level = levels.result_of(_derive(session, engineer, unit, [rev], combination="p95_50"))
+    comp = [st for st in level.steps if st.step == "time compression"]
+    assert len(comp) == 1 and comp[0].db == pytest.approx(10 * math.log10(10 ** (2 / 7.5)))
+    assert level.life_exposure_s == pytest.approx(36_000.0)
+    across = [st for st in level.steps if st.step.startswith("P95/50 across 3 runs")]
+    assert across and across[0].values["n"] == 3
+    # the run lengths must add up to the samples stored
+    with pytest.raises(ValidationFailed, match="data.run_samples"):
+        environments.revise_environment(session, engineer, env.id, s.RevisionIn(
+            data={"dt_s": 1 / fs, "accel_g": [0.0] * 4, "run_samples": [2, 3]}))
+
+
+def test_runs_of_measured_spectra_p95_across_runs(session, engineer, program, unit):
+    """Three measured spectra of one condition in one revision: the P95/50 goes across
+    the runs (normal tolerance limit, n = 3, NASA-HDBK-7005) and the exposure counts once;
+    the environment's own spectrum is the envelope of its runs."""
+    ops = _phase(session, engineer, program, "operation", 3600.0, 10)
+    runs = [{"freq_hz": [20.0, 2000.0], "asd_g2_hz": [g, g]} for g in (0.01, 0.012, 0.008)]
+    env = _env(session, engineer, unit, ops, "measured", K.random, {"runs": runs})
+    assert _rev(env).spec["asd_g2_hz"] == pytest.approx([0.012, 0.012], rel=1e-12)
+    level = levels.result_of(_derive(session, engineer, unit, [_rev(env)],
+                                     combination="p95_50", purpose=m.LevelPurpose.analysis))
+    step = next(st for st in level.steps if st.step.startswith("P95/50 across 3 runs"))
+    x = np.log10([0.01, 0.012, 0.008])
+    upper = 10 ** (x.mean() + step.values["k_factor"] * x.std(ddof=1))
+    assert psd.asd_at(level.limit.freq_hz, level.limit.asd_g2_hz, [500.0])[0] == \
+        pytest.approx(upper, rel=1e-6)
+    assert level.life_exposure_s == pytest.approx(36_000.0)
+    with pytest.raises(ValidationFailed, match="data.runs"):
+        _env(session, engineer, unit, ops, "one run", K.random, {"runs": runs[:1]})
