@@ -23,6 +23,7 @@ from qualplan.dynamics import equivalence as core_eq
 from qualplan.dynamics import extreme as core_ers
 from qualplan.dynamics import fatigue as core_fds
 from qualplan.dynamics import shock_synthesis as core_synth
+from qualplan.dynamics import signal as core_signal
 from qualplan.dynamics import sine as core_sine
 from qualplan.dynamics import srs as core_srs
 from qualplan.dynamics.errors import AccuracyWarning
@@ -34,8 +35,8 @@ from qualplan.store import models as m
 
 K = m.EnvironmentKind
 #: Natural frequencies of a sampled record: below RECORD_FN_LIMIT of its sample rate the
-#: ramp-invariant filter; up to RECORD_FN_MAX the band-limited reconstruction (within 3 %
-#: for fs >= 5 fn, qualplan.dynamics.fatigue.fds_time); above, none.
+#: ramp-invariant filter; up to RECORD_FN_MAX the same on the record upsampled 4x
+#: (band-limited polyphase interpolation); above, none.
 RECORD_FN_LIMIT = 0.1
 RECORD_FN_MAX = 0.2
 
@@ -71,14 +72,17 @@ def _record(label, x, dt, times, fn, q, bs) -> Spectra:
     high = ~keep & (fn <= RECORD_FN_MAX / dt * (1 + 1e-9))
     fds = {b: np.zeros_like(fn) for b in bs}
     ers = np.zeros_like(fn)
-    for sel, method in ((keep, "ramp"), (high, "bandlimited")):
+    for sel, up in ((keep, 1), (high, 4)):
         if not sel.any():
             continue
+        # fs/10..fs/5: the record upsampled 4x (band-limited), so the ramp-invariant
+        # filter sees at least 20 samples per period
+        xs = x if up == 1 else core_signal.upsample(x, up)
         for b in bs:
             # free decay after the record: a shock's residual response does damage too
-            fds[b][sel] = times * core_fds.fds_time(x, dt, fn[sel], q, b, free_decay=True,
-                                                    method=method)
-        ers[sel] = core_ers.ers_shock(x, dt, fn[sel], q, method=method)
+            fds[b][sel] = times * core_fds.fds_time(xs, dt / up, fn[sel], q, b,
+                                                    free_decay=True)
+        ers[sel] = core_ers.ers_shock(xs, dt / up, fn[sel], q)
     return Spectra(label, fds, ers)
 
 

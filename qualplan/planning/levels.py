@@ -312,7 +312,7 @@ def _input_compression(item: Input, rule: s.RandomRule) -> dict[str, Any] | None
         return None
     return {"inputs": [item.label],
             "db": float(10 * np.log10((life / t) ** (2.0 / rule.compression_exponent))),
-            "exposure_s": life, "test_s": t, "exponent": rule.compression_exponent,
+            "life_s": life, "test_s": t, "exponent": rule.compression_exponent,
             "method": "inverse power law, W2/W1 = (T1/T2)^(2/m) "
                       "(MIL-STD-810H Method 514.8 Annex A)"}
 

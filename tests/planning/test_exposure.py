@@ -147,7 +147,7 @@ def test_defect2_each_input_is_compressed_from_its_own_exposure(session, enginee
     assert [st.inputs for st in steps] == [["transport r1"], ["operation r1"]]
     assert steps[0].db == pytest.approx(10 * math.log10(24 ** (2 / 7.5)), rel=1e-9)
     assert steps[1].db == pytest.approx(10 * math.log10(530 ** (2 / 7.5)), rel=1e-9)
-    assert steps[0].values["exposure_s"] == 86_400.0
+    assert steps[0].values["life_s"] == 86_400.0  # the input's own exposure
     assert steps[0].values["test_s"] == 3600.0 and steps[0].values["exponent"] == 7.5
     assert level.duration_s == 3600.0
     at = psd.asd_at(level.freq_hz, level.asd_g2_hz, [1000.0, 2000.0])
