@@ -26,6 +26,14 @@ def _pdf_renderer():
     """The reports interface's PDF renderer, or None when it cannot be loaded here."""
     try:
         from qualplan.reports import pdf_bytes
+        from qualplan.reports.loads import pdf_bytes as loads_pdf_bytes
     except ImportError:  # the reports interface (or WeasyPrint) is not installed
         return None
-    return pdf_bytes
+
+    def render(content) -> bytes:
+        """Specifications and audits, or an analysis loads package."""
+        if getattr(content, "kind", None) == "loads":
+            return loads_pdf_bytes(content)
+        return pdf_bytes(content)
+
+    return render

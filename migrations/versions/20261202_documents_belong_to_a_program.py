@@ -56,13 +56,23 @@ def upgrade() -> None:
                               unique=False)
         batch_op.create_foreign_key(batch_op.f("fk_documents_program_id_programs"),
                                     "programs", ["program_id"], ["id"])
+    # Coming back from a downgrade: program-wide documents are program-wide again, so
+    # that the round trip leaves every document row as it was.
+    if "documents_program_wide" in sa.inspect(op.get_bind()).get_table_names():
+        op.execute("UPDATE documents SET product_id = NULL WHERE id IN "
+                   "(SELECT document_id FROM documents_program_wide)")
+        op.drop_table("documents_program_wide")
     _create_triggers()
 
 
 def downgrade() -> None:
     # A program-wide document goes back to the older convention: its program's first
-    # root product.
+    # root product. Which documents were program-wide is kept aside, for the upgrade.
     _drop_triggers()
+    op.create_table("documents_program_wide",
+                    sa.Column("document_id", sa.Integer(), primary_key=True))
+    op.execute("INSERT INTO documents_program_wide (document_id) "
+               "SELECT id FROM documents WHERE product_id IS NULL")
     op.execute(
         "UPDATE documents SET product_id = (SELECT MIN(products.id) FROM products "
         "WHERE products.program_id = documents.program_id AND products.parent_id IS NULL) "

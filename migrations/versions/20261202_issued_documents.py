@@ -69,6 +69,8 @@ def upgrade() -> None:
 
 
 def downgrade() -> None:
+    # kept by a downgrade of 0003 (which documents were program-wide); nothing to keep now
+    op.execute("DROP TABLE IF EXISTS documents_program_wide")
     dialect = op.get_bind().dialect.name
     if dialect == "sqlite":
         op.execute("DROP TRIGGER IF EXISTS documents_no_update")

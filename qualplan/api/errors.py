@@ -8,6 +8,7 @@ fault in ``errors``.
 
 from __future__ import annotations
 
+import errno
 import math
 from collections.abc import Sequence
 from typing import Any
@@ -212,8 +213,9 @@ async def operational(request: Request, exc: OperationalError) -> JSONResponse:
         )
     if "full" in text or "no space" in text:
         return problem_response(
-            507, "storage-full", "Insufficient storage",
-            "the database's disk is full: nothing was saved; free space and try again",
+            503, "disk-full", DISK_FULL_TITLE,
+            "the database's disk is full (ENOSPC): nothing was saved; free space and try "
+            "again", headers={"Retry-After": "60"},
         )
     return problem_response(
         503, "database-unavailable", "Service unavailable",
@@ -234,7 +236,10 @@ async def data_error(_request: Request, exc: StatementError) -> JSONResponse:
     )
 
 
-async def http_error(_request: Request, exc: StarletteHTTPException) -> JSONResponse:
+async def http_error(request: Request, exc: StarletteHTTPException) -> JSONResponse:
+    cause = exc.__cause__ or exc.__context__
+    if isinstance(cause, OSError):  # the body could not be spooled to disk (FastAPI: 400)
+        return await os_error(request, cause)
     titles = {404: "Not found", 405: "Method not allowed", 401: "Not authenticated"}
     code = {404: "not-found", 405: "method-not-allowed"}.get(exc.status_code, "http-error")
     return problem_response(
@@ -243,6 +248,33 @@ async def http_error(_request: Request, exc: StarletteHTTPException) -> JSONResp
         titles.get(exc.status_code, "HTTP error"),
         str(exc.detail),
         headers=getattr(exc, "headers", None),
+    )
+
+
+DISK_FULL_TITLE = "Service unavailable: disk full"
+
+
+async def os_error(request: Request, exc: OSError) -> JSONResponse:
+    """A file the service writes (an upload spooled to disk, a document) could not be
+    written: a full disk is named as such; nothing was saved (the request rolled back)."""
+    if exc.errno == errno.ENOSPC:
+        return problem_response(
+            503, "disk-full", DISK_FULL_TITLE,
+            "no space left on the service's disk (ENOSPC) while writing a file: nothing was "
+            "saved; free space and try again", headers={"Retry-After": "60"},
+        )
+    return problem_response(
+        503, "file-error", "Service unavailable: file error",
+        f"a file could not be written or read ({exc.strerror or type(exc).__name__}): "
+        "nothing was saved",
+    )
+
+
+async def stored_data_corrupt(_request: Request, exc: pe.StoredDataCorrupt) -> JSONResponse:
+    """A stored row that does not match its hash: refuse to serve it, name the row."""
+    return problem_response(
+        500, "stored-data-corrupt", "Stored data corrupt", str(exc),
+        table=exc.table, row_id=exc.row_id,
     )
 
 
@@ -287,4 +319,6 @@ def install(app: FastAPI) -> None:
     app.add_exception_handler(OverflowError, overflow)
     app.add_exception_handler(StatementError, data_error)
     app.add_exception_handler(StarletteHTTPException, http_error)
+    app.add_exception_handler(pe.StoredDataCorrupt, stored_data_corrupt)
+    app.add_exception_handler(OSError, os_error)
     app.add_exception_handler(Exception, unexpected)

@@ -20,7 +20,7 @@ from qualplan import __version__
 from qualplan.cli.output import SafeStream, safe_text
 from qualplan.config import Settings
 from qualplan.dynamics.errors import InputError
-from qualplan.planning.errors import PlanningError
+from qualplan.planning.errors import PlanningError, StoredDataCorrupt
 from qualplan.store import migrate
 from qualplan.store.session import DatabaseUrlError, make_engine, masked, normalise_url
 
@@ -106,14 +106,51 @@ def db_upgrade(
 @db_app.command("downgrade")
 def db_downgrade(
     revision: Annotated[str, typer.Argument(help="Target revision (e.g. 0001, or base).")],
+    yes: Annotated[bool, typer.Option(
+        "--yes", help="Confirm a downgrade that undoes a data migration or drops stored "
+        "data.")] = False,
     db: DbOption = None,
 ) -> None:
     """Migrate the schema back to REVISION (tables added after it are dropped)."""
     url = database_url(db)
+    undone = migrate.data_migrations_undone(make_engine(url), revision)
+    if undone and not yes:
+        raise CliError(
+            f"downgrading to {revision} undoes data migration "
+            + ", ".join(f"{r} ({why})" for r, why in undone)
+            + ": stored rows are moved or dropped; back up the database first and repeat "
+            "with --yes")
     migrate.downgrade(url, revision)
     engine = make_engine(url)
     current = migrate.current_revision(engine) or "base (empty)"
     typer.echo(f"database {masked(url)} is at schema revision {current}")
+
+
+@db_app.command("verify")
+def db_verify(db: DbOption = None) -> None:
+    """Check every stored revision, record chunk, level and document against its hash
+    (and, on SQLite, the database file); exit 1 listing each row that does not match."""
+    from qualplan.planning.integrity import verify_database
+    from qualplan.store.session import make_sessionmaker
+
+    engine = checked_engine(db)
+    try:
+        with make_sessionmaker(engine)() as session:
+            report = verify_database(session)
+    finally:
+        engine.dispose()
+    for table, n in report.checked.items():
+        typer.echo(f"{table}: {n} rows checked")
+    for problem in report.file_problems:
+        typer.echo(f"database file: {safe_text(problem)}")
+    for bad in report.mismatches:
+        typer.echo(f"CORRUPT {safe_text(str(bad))}")
+    if not report.ok:
+        n = len(report.mismatches) + len(report.file_problems)
+        typer.echo(f"error: stored data corrupt: {n} problem(s); restore the database from "
+                   "a backup", err=True)
+        raise typer.Exit(1)
+    typer.echo(f"ok: {sum(report.checked.values())} rows match their hashes")
 
 
 @db_app.command("current")
@@ -192,6 +229,9 @@ def main(argv: list[str] | None = None) -> None:
     out, sys.stdout = sys.stdout, SafeStream(sys.stdout)
     try:
         code = app(args=argv, standalone_mode=False)
+    except StoredDataCorrupt as exc:
+        typer.echo(f"error: {safe_text(str(exc))}", err=True)
+        sys.exit(1)
     except KNOWN_ERRORS as exc:
         typer.echo(f"error: {safe_text(str(exc))}", err=True)
         sys.exit(2)

@@ -20,6 +20,7 @@ from qualplan.cli.common import (
 )
 from qualplan.cli.output import emit_json, table
 from qualplan.planning import (
+    approvals,
     catalog,
     environments,
 )
@@ -175,12 +176,28 @@ def env_list(
         emit_json(rows)
     else:
         table(
-            ["id", "name", "kind", "axis", "units", "latest rev", "product id"],
+            ["id", "name", "kind", "axis", "units", "latest rev", "product id", "withdrawn"],
             [
-                (e.id, e.name, e.kind.value, e.axis.value, e.units, e.latest_revision, e.product_id)
+                (e.id, e.name, e.kind.value, e.axis.value, e.units, e.latest_revision,
+                 e.product_id, e.withdrawn or "")
                 for e in rows
             ],
         )
+
+
+@env_app.command("withdraw")
+def env_withdraw(
+    environment_id: int,
+    reason: Annotated[str, typer.Option(help="Why it is withdrawn (kept in history).")],
+    db: DbOption = None,
+) -> None:
+    """Withdraw an environment: it leaves the life cycle, the derivations and the default
+    baselines; the levels and requirements that used it become stale."""
+    with work(db) as session:
+        row = approvals.withdraw_environment(session, local_actor(), environment_id, reason)
+        env = environments.read_environment(
+            session, environments.environment_by_id(session, environment_id))
+    typer.echo(f"environment {env.name} (id {env.id}) {env.withdrawn} (withdrawal {row.id})")
 
 
 @env_app.command("history")

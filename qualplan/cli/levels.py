@@ -10,6 +10,7 @@ from qualplan.cli.base import CliError, DbOption
 from qualplan.cli.common import JsonOption, ProgramOption, _program, group, local_actor, work
 from qualplan.cli.output import emit_json, progress, table
 from qualplan.planning import (
+    approvals,
     catalog,
     levels,
     policies,
@@ -161,6 +162,63 @@ def _print_level(level: s.LevelRead) -> None:
         typer.echo(f"  {reason}")
     for reason in level.stale_reasons:
         typer.echo(f"STALE: {reason}")
+
+
+@level_app.command("withdraw")
+def level_withdraw(
+    level_id: int,
+    reason: Annotated[str, typer.Option(help="Why it is withdrawn (kept in history).")],
+    db: DbOption = None,
+) -> None:
+    """Withdraw a level: it leaves the default baselines; requirements on it become stale."""
+    with work(db) as session:
+        approvals.withdraw_level(session, local_actor(), level_id, reason)
+        out = levels.read_level(session, levels.level_by_id(session, level_id))
+    typer.echo(f"level {out.name} #{out.number} (id {out.id}) {out.withdrawn}")
+
+
+def _db(x: float | None) -> str:
+    return "-" if x is None else wording.decibels(x)
+
+
+def print_difference(d: s.LevelDifference) -> None:
+    typer.echo(f"level {d.name} #{d.old_number} (id {d.level_id}) re-derived as "
+               f"#{d.new_number} on the latest revisions of its inputs:")
+    for c in d.inputs:
+        typer.echo(f"  {c.environment}: revision {c.old_revision} -> {c.new_revision}")
+    if not d.inputs:
+        typer.echo("  (no input has a newer revision; the life cycle or the policy changed)")
+    table(["freq [Hz]", f"old [{d.unit}]", f"new [{d.unit}]", "new/old [dB]"],
+          [(wording.number(r.freq_hz), "-" if r.old is None else wording.number(r.old),
+            "-" if r.new is None else wording.number(r.new), _db(r.db)) for r in d.rows])
+    typer.echo(f"{d.overall_quantity}: {wording.number(d.overall_old)} -> "
+               f"{wording.number(d.overall_new)} {d.overall_unit} ({_db(d.overall_db)}); "
+               f"largest change at a breakpoint {_db(d.max_abs_db)} in magnitude")
+
+
+@level_app.command("rederive")
+def level_rederive(
+    level_id: int,
+    yes: Annotated[bool, typer.Option("--yes", help="Store without asking.")] = False,
+    db: DbOption = None,
+    as_json: JsonOption = False,
+) -> None:
+    """Re-run a level's recipe on the latest revisions of its inputs: show the difference
+    per breakpoint and overall in dB, then store the new level, which supersedes the old."""
+    with work(db) as session:
+        diff = levels.rederive_level(session, local_actor(), level_id, store=False)
+        if not as_json:
+            print_difference(diff)
+        if not yes and not typer.confirm(f"store {diff.name} #{diff.new_number}, "
+                                         f"superseding #{diff.old_number}?", default=False):
+            typer.echo("not stored")
+            raise typer.Exit(1)
+        diff = levels.rederive_level(session, local_actor(), level_id, store=True)
+    if as_json:
+        emit_json(diff)
+    else:
+        typer.echo(f"stored {diff.name} #{diff.new_number} (id {diff.new_level_id}); "
+                   f"#{diff.old_number} is superseded")
 
 
 @level_app.command("show")

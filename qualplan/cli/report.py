@@ -12,10 +12,11 @@ from typing import Annotated
 
 import typer
 
-from qualplan.cli.base import DbOption, app
+from qualplan.cli.base import CliError, DbOption, app
 from qualplan.cli.common import ProgramOption, _program, local_actor, work
 from qualplan.cli.output import emit_json, progress
-from qualplan.planning import catalog, documents
+from qualplan.planning import approvals, catalog, documents
+from qualplan.planning.inputs import check_document_number
 from qualplan.planning.schemas import Grade
 from qualplan.reports import PdfRenderer
 
@@ -45,21 +46,59 @@ def report_spec(
     grade: Annotated[Grade, typer.Option(help="Test grade.")] = Grade.qualification,
     out: OutOption = Path("."),
     levels: Annotated[str | None, typer.Option(
-        help="Level ids, comma-separated (default: the newest test levels of the grade).")] = None,
+        help="Level ids, comma-separated: exactly the levels issued (default: the current, "
+        "non-withdrawn, non-stale test levels of the grade, listed for confirmation).")] = None,
     number: Annotated[
         str | None, typer.Option(help="Document number (default TLS-<part>-<Q|A|P>).")
     ] = None,
     note: NoteOption = "",
     figures: Annotated[bool, typer.Option(help="Also write each chart as an SVG file.")] = False,
+    preview: Annotated[bool, typer.Option(
+        "--preview", help="Write a preview (marked, no revision, not recorded); it may show "
+        "stale or unconverged levels, marked.")] = False,
+    yes: Annotated[bool, typer.Option("--yes", help="Issue the default levels without "
+                                      "asking.")] = False,
     program: ProgramOption = None,
     db: DbOption = None,
     as_json: JsonOption = False,
 ) -> None:
     """Issue the test-level specification of a product for one grade."""
-    ids = [int(x) for x in levels.split(",") if x.strip()] if levels else None
+    try:
+        ids = [int(x) for x in levels.split(",") if x.strip()] if levels else None
+    except ValueError as exc:
+        raise CliError(f"--levels {levels!r}: give level ids like 3,4,7") from exc
+    if number is not None:
+        check_document_number(number)
     with work(db) as session:
         prog = _program(session, program) if program else None
         prod = catalog.product_ref(session, prog, product)
+        if preview:
+            content = documents.specification_content(session, prod.id, grade, level_ids=ids,
+                                                      number=number, note=note, preview=True)
+            with progress("rendering the preview"):
+                files = PdfRenderer(figures=figures).render(content, out)
+            if as_json:
+                emit_json({"number": content.number, "preview": True,
+                           "files": [str(p) for p in files]})
+            else:
+                typer.echo(f"{content.number} PREVIEW - not issued (nothing recorded)")
+                for w in content.warnings:
+                    typer.echo(f"  {w}")
+                for path in files:
+                    typer.echo(f"  {path}")
+            return
+        if ids is None:
+            base = documents.default_baseline(session, prod.id, grade)
+            if not as_json:
+                typer.echo(f"default baseline of {prod.name}, {grade.value}:")
+                for x in base:
+                    state = "issue" if x.taken else "LEFT OUT: " + "; ".join(x.reasons)
+                    typer.echo(f"  level {x.level_id} {x.name} #{x.number} ({x.kind}, "
+                               f"{x.axis}): {state}")
+            if not yes and any(x.taken for x in base) and not typer.confirm(
+                    "issue these levels?", default=False):
+                typer.echo("not issued")
+                raise typer.Exit(1)
         content = documents.specification_content(session, prod.id, grade, level_ids=ids,
                                                   number=number, note=note)
         with progress("rendering the specification"):
@@ -93,3 +132,45 @@ def report_audit(
     _print(issued, as_json)
     if not as_json:
         typer.echo(content.verdict)
+
+
+@report_app.command("sign")
+def report_sign(
+    number: Annotated[str, typer.Argument(help="Document number.")],
+    role: Annotated[str, typer.Option(help="prepared, checked or approved.")],
+    revision: Annotated[int | None, typer.Option(help="Revision (default: the latest).")] = None,
+    db: DbOption = None,
+) -> None:
+    """Sign an issued document as prepared, checked or approved (QUALPLAN_ACTOR signs);
+    three distinct users sign the three roles, approval last."""
+    with work(db) as session:
+        doc = documents.document_ref(session, number, revision)
+        approvals.sign_document(session, local_actor(), doc.id, role)
+        rows = documents.approvals_of(session, doc.id)
+    typer.echo(f"{doc.number} revision {doc.revision}:")
+    _print_approvals(rows)
+    typer.echo("issue the document again to print the signatures (the revision stays)")
+
+
+def _print_approvals(rows) -> None:
+    for a in rows:
+        who = f"{a.name}, {a.signed_at:%Y-%m-%d %H:%M} UTC" if a.name else "unsigned"
+        typer.echo(f"  {a.role:9s} {who}")
+
+
+@report_app.command("signoffs")
+def report_signoffs(
+    number: Annotated[str, typer.Argument(help="Document number.")],
+    revision: Annotated[int | None, typer.Option(help="Revision (default: the latest).")] = None,
+    db: DbOption = None,
+    as_json: JsonOption = False,
+) -> None:
+    """Who signed an issued document, in which role, when."""
+    with work(db) as session:
+        doc = documents.document_ref(session, number, revision)
+        rows = documents.approvals_of(session, doc.id)
+    if as_json:
+        emit_json([r.model_dump(mode="json") for r in rows])
+        return
+    typer.echo(f"{doc.number} revision {doc.revision}:")
+    _print_approvals(rows)

@@ -22,6 +22,7 @@ from qualplan.cli.common import (
 from qualplan.cli.environments import UnitsOption
 from qualplan.cli.output import emit_json, table
 from qualplan.planning import (
+    approvals,
     audit,
     catalog,
     evidence,
@@ -223,21 +224,43 @@ def evidence_inspection(
 def waive(
     requirement: str,
     rationale: Annotated[str, typer.Option(help="Why.")],
-    days: Annotated[int, typer.Option(min=1, max=requirements.MAX_WAIVER_DAYS,
-                                      help="Days until the waiver expires.")] = 30,
+    days: Annotated[int, typer.Option(min=1, help="Days until the waiver expires (at most "
+                                      "the policy's max_waiver_days, 365 by default).")] = 30,
+    request: Annotated[int | None, typer.Option(
+        help="The waiver request answered (default: the newest unanswered one).")] = None,
     program: ProgramOption = None,
     db: DbOption = None,
 ) -> None:
-    """Waive a requirement (an approver's decision) until it expires."""
+    """Waive a requirement (an approver's decision) until it expires. Under the policy's
+    two-person rule (qualification by default) the approver (QUALPLAN_ACTOR) is neither
+    an author of the evidence nor the requester."""
     with work(db) as session:
         req = _req(session, program, requirement)
         w = requirements.waive(
             session,
             local_actor(),
             req.id,
-            s.WaiverIn(rationale=rationale, expires_at=datetime.now(UTC) + timedelta(days=days)),
+            s.WaiverIn(rationale=rationale, expires_at=datetime.now(UTC) + timedelta(days=days),
+                       request_id=request),
         )
-    typer.echo(f"requirement {requirement} waived until {w.expires_at:%Y-%m-%d}")
+    bare = " (it has NO evidence: an admin's waiver)" if w.without_evidence else ""
+    typer.echo(f"requirement {requirement} waived by {w.approver} until "
+               f"{w.expires_at:%Y-%m-%d}{bare}")
+
+
+@app.command("request-waiver")
+def request_waiver(
+    requirement: str,
+    reason: Annotated[str, typer.Option(help="Why the requirement should be waived.")],
+    program: ProgramOption = None,
+    db: DbOption = None,
+) -> None:
+    """Ask that a requirement be waived; an approver other than you decides."""
+    with work(db) as session:
+        req = _req(session, program, requirement)
+        row = approvals.request_waiver(session, local_actor(), req.id,
+                                       s.WaiverRequestIn(reason=reason))
+    typer.echo(f"waiver request {row.id} for {requirement} recorded (by {row.requested_by})")
 
 
 @app.command("audit")

@@ -2,15 +2,19 @@
 
 A unit's mounting in its parent (``transfer mount``), transfer rules with their
 revisions (``transfer rule-add``, ``rule-revise``, ``rules``), transferred
-environments (``transfer derive``) and a force limit with its predicted notches
-(``transfer force-limit``). ``qualplan env list --product X`` shows where each
+environments (``transfer derive``), a force limit with its predicted notches
+(``transfer force-limit``) and response-limit notching of a test level (``transfer
+notch``, ``accept-notching``). ``qualplan env list --product X`` shows where each
 environment of X came from.
 """
 
 from __future__ import annotations
 
+import csv
 import enum
+import io
 import json
+from pathlib import Path
 from typing import Annotated
 
 import typer
@@ -19,7 +23,7 @@ from pydantic import ValidationError
 from qualplan.cli.base import CliError, DbOption, app
 from qualplan.cli.common import JsonOption, ProgramOption, _program, local_actor, work
 from qualplan.cli.output import emit_json, table
-from qualplan.planning import catalog, transfers
+from qualplan.planning import catalog, notching, transfers
 from qualplan.planning.schemas import Axis
 
 transfer_app = typer.Typer(help="Environments down the product tree: mountings, transfer "
@@ -263,3 +267,106 @@ def accept_notches(
         row = transfers.accept_notches(session, local_actor(), level, rationale)
         who = row.result["accepted_by"]
     typer.echo(f"notches of level {level} accepted by {who}")
+
+
+class NotchSource(enum.StrEnum):
+    survey = "survey"
+    analysis = "analysis"
+
+
+SOURCE_OF = {NotchSource.survey: "low-level survey", NotchSource.analysis: "analysis"}
+
+
+def _pairs(option: str, text: str) -> tuple[list[float], list[float]]:
+    """'f:v,f:v,...' -> (frequencies, values)."""
+    try:
+        pts = [tuple(float(v) for v in part.split(":")) for part in text.split(",")
+               if part.strip()]
+    except ValueError as exc:
+        raise CliError(f"{option} {text!r}: write freq:value pairs, e.g. 20:1,200:8,2000:1"
+                       ) from exc
+    if not pts or any(len(p) != 2 for p in pts):
+        raise CliError(f"{option} {text!r}: write freq:value pairs, e.g. 20:1,200:8,2000:1")
+    return [p[0] for p in pts], [p[1] for p in pts]
+
+
+def _pairs_file(option: str, path: Path) -> tuple[list[float], list[float]]:
+    """A two-column CSV (frequency [Hz], |T| [g/g]); a header line and # lines are skipped."""
+    try:
+        text = path.read_text(encoding="utf-8")
+    except OSError as exc:
+        raise CliError(f"{option} {path}: {exc.strerror}") from exc
+    f, g = [], []
+    for n, row in enumerate(csv.reader(io.StringIO(text)), start=1):
+        if not row or row[0].lstrip().startswith("#"):
+            continue
+        try:
+            a, b = float(row[0]), float(row[1])
+        except (ValueError, IndexError):
+            if not f:  # a header
+                continue
+            raise CliError(f"{option} {path}: line {n} {','.join(row)!r} is not two numbers"
+                           ) from None
+        f.append(a)
+        g.append(b)
+    return f, g
+
+
+@transfer_app.command("notch")
+def notch(
+    level: Annotated[int, typer.Option(help="Random or sine test level id: the notching is "
+                                       "stored with it and printed in its specification.")],
+    location: Annotated[str, typer.Option(help="Control or monitor location of the limit.")],
+    source: Annotated[NotchSource, typer.Option(
+        help="Where the transmissibility comes from: a low-level survey or an analysis.")],
+    limit: Annotated[float | None, typer.Option(
+        help="Constant response limit: g peak (sine) or g^2/Hz (random).")] = None,
+    limit_table: Annotated[str, typer.Option(
+        help="Or a limit table freq:limit, comma-separated [Hz:g or Hz:g^2/Hz].")] = "",
+    transmissibility: Annotated[str, typer.Option(
+        help="|response/input| table freq:gain, comma-separated [Hz:g/g].")] = "",
+    transmissibility_file: Annotated[Path | None, typer.Option(
+        help="Or a two-column CSV file: frequency [Hz], |response/input| [g/g].")] = None,
+    source_note: Annotated[str, typer.Option(help="Which survey or analysis.")] = "",
+    max_notch_db: Annotated[float | None, typer.Option(
+        help="Deepest notch accepted without an approver [dB].")] = None,
+    db: DbOption = None,
+    as_json: JsonOption = False,
+) -> None:
+    """Notch a test level against a response limit through a transmissibility (stored)."""
+    if bool(transmissibility) == (transmissibility_file is not None):
+        raise CliError("give --transmissibility f:g,... or --transmissibility-file CSV")
+    tf, tg = (_pairs("--transmissibility", transmissibility) if transmissibility
+              else _pairs_file("--transmissibility-file", transmissibility_file))
+    lf, lv = _pairs("--limit-table", limit_table) if limit_table else (None, None)
+    cmd = _command(notching.NotchingIn, location=location, limit=limit, limit_freq_hz=lf,
+                   limit_values=lv, transmissibility_freq_hz=tf, transmissibility_gain=tg,
+                   transmissibility_source=SOURCE_OF[source], transmissibility_note=source_note,
+                   max_notch_db=max_notch_db)
+    with work(db) as session:
+        out = notching.read_notching(session, notching.set_notching(session, local_actor(),
+                                                                    level, cmd))
+    if as_json:
+        emit_json(out)
+        return
+    typer.echo(f"notching {out.id} of {out.level} at {out.location}: limit {out.limit}")
+    if out.grms_before is not None:
+        typer.echo(f"overall {out.grms_before:.4g} g rms, notched {out.grms_after:.4g} g rms")
+    if not out.notches:
+        typer.echo("the response stays under its limit: no notch")
+    table(["from [Hz]", "to [Hz]", "deepest at [Hz]", "depth [dB]", "width [oct]", "acceptance"],
+          [(n.f_lo_hz, n.f_hi_hz, n.f_deepest_hz, n.depth_db, n.width_oct,
+            "needs approver" if n.exceeds_policy else "-") for n in out.notches])
+
+
+@transfer_app.command("accept-notching")
+def accept_notching(
+    level: Annotated[int, typer.Option(help="Test level id with a response-limit notching.")],
+    rationale: Annotated[str, typer.Option(help="Why the deep notches are acceptable.")],
+    db: DbOption = None,
+) -> None:
+    """Accept (as an approver) response-limit notches deeper than allowed; recorded."""
+    with work(db) as session:
+        row = notching.accept_notching(session, local_actor(), level, rationale)
+        who = row.result["accepted_by"]
+    typer.echo(f"response-limit notches of level {level} accepted by {who}")

@@ -28,10 +28,11 @@ from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require
 from qualplan.planning.audit import audit
 from qualplan.planning.catalog import get
-from qualplan.planning.errors import Conflict, ValidationFailed
+from qualplan.planning.errors import Conflict, NotFound, ValidationFailed
 from qualplan.planning.inputs import check_document_number
 from qualplan.planning.levels import read_level, result_of
 from qualplan.planning.lifecycle import current_test_levels
+from qualplan.planning.notching import level_notching, notch_table_rows
 from qualplan.planning.policies import rules_of
 from qualplan.planning.transfers import level_force_limit
 from qualplan.store import models as m
@@ -207,6 +208,38 @@ class ForceLimitTable(Content):
     acceptance_rationale: str = ""
 
 
+class NotchingPoint(Content):
+    freq_hz: float
+    level: float
+    notched: float
+
+
+class NotchingTable(Content):
+    """Response-limit notching of a random or sine level (planning.notching)."""
+
+    notching_id: int
+    method: str
+    location: str
+    limit: str
+    value_unit: str
+    transmissibility_source: str
+    transmissibility_note: str
+    max_notch_db: float | None
+    notches: list[ForceLimitNotch]
+    #: The notched input where it differs from the level (thinned; the CSV has all).
+    points: list[NotchingPoint]
+    #: Every point of the notched input (for the CSV).
+    freq_hz: list[float]
+    original: list[float]
+    notched: list[float]
+    grms_before: float | None
+    grms_after: float | None
+    needs_acceptance: bool
+    accepted_by: str | None = None
+    acceptance_rationale: str = ""
+    author: str
+
+
 class LevelSection(Content):
     level_id: int
     name: str
@@ -224,6 +257,7 @@ class LevelSection(Content):
     sine: SineTable | None = None
     shock: ShockTable | None = None
     force_limit: ForceLimitTable | None = None
+    notching: NotchingTable | None = None
     derivation: Derivation
 
 
@@ -255,6 +289,14 @@ class AxisCoverage(Content):
     coverage: CoverageData | None
 
 
+class ApprovalRow(Content):
+    """One role of the approval block: who signed, when (None: unsigned)."""
+
+    role: str
+    name: str | None = None
+    signed_at: datetime | None = None
+
+
 class SpecificationContent(Content):
     kind: Literal["specification"] = "specification"
     number: str
@@ -272,6 +314,10 @@ class SpecificationContent(Content):
     warnings: list[str]
     history: list[HistoryRow]
     input_hashes: dict[str, Any]
+    #: A preview: not issued, no revision number; may show stale levels, marked.
+    preview: bool = False
+    #: Sign-off of the issued revision (prepared, checked, approved), not in the hash.
+    approvals: list[ApprovalRow] = []
 
     @property
     def product_id(self) -> int:
@@ -316,6 +362,8 @@ class AuditContent(Content):
     verdict: str
     history: list[HistoryRow]
     input_hashes: dict[str, Any]
+    preview: bool = False
+    approvals: list[ApprovalRow] = []
 
     def content_hash(self) -> str:
         return content_hash(self)
@@ -325,8 +373,10 @@ DocumentContent = SpecificationContent | AuditContent
 
 
 def content_hash(content: DocumentContent) -> str:
-    """SHA-256 of what the document shows, without its revision and history."""
-    return json_hash(content.model_dump(mode="json", exclude={"revision", "history"}))
+    """SHA-256 of what the document shows, without its revision, history, preview mark
+    and sign-off (signing a revision does not change it)."""
+    return json_hash(content.model_dump(mode="json", exclude={"revision", "history",
+                                                              "preview", "approvals"}))
 
 
 class DocumentRenderer(Protocol):
@@ -373,21 +423,36 @@ def _history(session: Session, number: str) -> list[m.Document]:
     )
 
 
-def _with_revision(session: Session, number: str, body: dict[str, Any], cls, note: str):
-    """Set revision and history: the latest revision if its hash matches, else the next."""
+def _approvals(session: Session, document_id: int | None) -> list[ApprovalRow]:
+    from qualplan.planning.approvals import SIGNOFF_ORDER, signoffs
+
+    done = {x.role: x for x in signoffs(session, document_id)} if document_id else {}
+    return [ApprovalRow(role=r.value, name=done[r].user_name if r in done else None,
+                        signed_at=done[r].signed_at if r in done else None)
+            for r in SIGNOFF_ORDER]
+
+
+def _with_revision(session: Session, number: str, body: dict[str, Any], cls, note: str,
+                   preview: bool = False):
+    """Set revision and history: the latest revision if its hash matches, else the next.
+    A preview has neither (revision 0, no history) and no sign-off."""
+    if preview:
+        return cls(**body, revision=0, history=[], preview=True, approvals=_approvals(session,
+                                                                                       None))
     rows = _history(session, number)
     draft = cls(**body, revision=0, history=[])
     h = content_hash(draft)
     history = [HistoryRow(revision=r.revision, date=r.created_at, content_hash=r.content_hash,
                           note=r.note) for r in rows]
     if rows and rows[-1].content_hash == h:
-        return cls(**body, revision=rows[-1].revision, history=history)
+        return cls(**body, revision=rows[-1].revision, history=history,
+                   approvals=_approvals(session, rows[-1].id))
     revision = rows[-1].revision + 1 if rows else 1
     history.append(
         HistoryRow(revision=revision, date=body["date"], content_hash=h,
                    note=note or ("first issue" if revision == 1 else "re-issue"))
     )
-    return cls(**body, revision=revision, history=history)
+    return cls(**body, revision=revision, history=history, approvals=_approvals(session, None))
 
 
 # --- specification content --------------------------------------------------------------
@@ -521,6 +586,22 @@ def _force_limit(session: Session, level: m.Level) -> ForceLimitTable | None:
         accepted_by=fl.accepted_by, acceptance_rationale=fl.acceptance_rationale)
 
 
+def _notching(session: Session, level: m.Level) -> NotchingTable | None:
+    n = level_notching(session, level.id)
+    if n is None:
+        return None
+    return NotchingTable(
+        notching_id=n.id, method=n.method, location=n.location, limit=n.limit,
+        value_unit=n.value_unit, transmissibility_source=n.transmissibility_source,
+        transmissibility_note=n.transmissibility_note, max_notch_db=n.max_notch_db,
+        notches=[ForceLimitNotch(**x.model_dump()) for x in n.notches],
+        points=[NotchingPoint(freq_hz=f, level=a, notched=b) for f, a, b in notch_table_rows(n)],
+        freq_hz=n.freq_hz, original=n.original, notched=n.notched, grms_before=n.grms_before,
+        grms_after=n.grms_after, needs_acceptance=n.needs_acceptance,
+        accepted_by=n.accepted_by, acceptance_rationale=n.acceptance_rationale,
+        author=n.author)
+
+
 def _section(session: Session, level: m.Level) -> LevelSection:
     read = read_level(session, level)
     r = read.result
@@ -543,6 +624,8 @@ def _section(session: Session, level: m.Level) -> LevelSection:
         tables["shock"] = _shock_table(r)
     if kind == "random":
         tables["force_limit"] = _force_limit(session, level)
+    if kind in ("random", "sine"):
+        tables["notching"] = _notching(session, level)
     return LevelSection(
         level_id=level.id, name=level.name, number=level.number, kind=kind,
         axis=level.axis.value, level_hash=level.level_hash, derived_at=level.created_at,
@@ -550,6 +633,53 @@ def _section(session: Session, level: m.Level) -> LevelSection:
         stale_reasons=read.stale_reasons, verdicts=r.verdicts, derivation=derivation,
         **tables,
     )
+
+
+class BaselineItem(BaseModel):
+    """A current test level and whether the default baseline takes it."""
+
+    level_id: int
+    name: str
+    number: int
+    kind: str
+    axis: str
+    taken: bool
+    #: Why it is left out (stale, not converged); empty when taken.
+    reasons: list[str] = []
+
+
+def _unfit(session: Session, level: m.Level) -> list[str]:
+    """Why a level may not be issued: stale reasons and a numeric method that did not
+    converge (empty when it may)."""
+    reasons = list(read_level(session, level).stale_reasons)
+    v = result_of(level).verdicts
+    if not v.converged:
+        why = "; ".join(x for x in v.reasons if "converge" in x)
+        reasons.append("the numeric method did NOT converge" + (f": {why}" if why else ""))
+    return reasons
+
+
+def default_baseline(session: Session, product_id: int, grade: m.Grade | str
+                     ) -> list[BaselineItem]:
+    """The current (newest, not withdrawn) test levels of a product for a grade; those
+    neither stale nor unconverged are taken, the others listed with the reason."""
+    grade = m.Grade(grade)
+    product = get(session, m.Product, product_id, "product")
+    out = []
+    for lvl in current_test_levels(session, product.id, grade):
+        why = _unfit(session, lvl)
+        out.append(BaselineItem(level_id=lvl.id, name=lvl.name, number=lvl.number,
+                                kind=lvl.kind.value, axis=lvl.axis.value, taken=not why,
+                                reasons=why))
+    out.sort(key=lambda x: (AXIS_ORDER[x.axis], KIND_ORDER[x.kind], x.name))
+    return out
+
+
+def document_levels(session: Session, document_id: int) -> list[int]:
+    """The level ids a specification revision issued (its stored selection)."""
+    rows = session.scalars(select(m.DocumentLevel).where(
+        m.DocumentLevel.document_id == document_id).order_by(m.DocumentLevel.position))
+    return [r.level_id for r in rows]
 
 
 def specification_content(
@@ -560,12 +690,16 @@ def specification_content(
     level_ids: list[int] | None = None,
     number: str | None = None,
     note: str = "",
+    preview: bool = False,
 ) -> SpecificationContent:
     """Content of the test-level specification of a product for one grade.
 
-    The levels are the newest test levels of that grade (or `level_ids`), ordered by
-    axis (X, Y, Z, all) and kind (random, sine, shock). The date is that of the newest
-    level shown; stale levels are listed in the warnings.
+    The levels are exactly `level_ids` or, without them, the default baseline
+    (:func:`default_baseline`: the current, non-withdrawn, non-stale, converged test
+    levels of the grade), ordered by axis (X, Y, Z, all) and kind (random, sine,
+    shock). A stale or unconverged level is refused, except in a `preview` (which takes
+    every current level, carries the reasons in its warnings, and has no revision).
+    The date is that of the newest level shown.
     """
     if number is not None:
         check_document_number(number)
@@ -579,8 +713,20 @@ def specification_content(
                                        f"{product.name!r}")
             if lvl.purpose is not m.LevelPurpose.test:
                 raise ValidationFailed("level_ids", i, "is an analysis level, not a test level")
-    else:
+            if not preview and (why := _unfit(session, lvl)):
+                raise ValidationFailed(
+                    "level_ids", i, f"{lvl.name} #{lvl.number} may not be issued: "
+                    + "; ".join(why) + " (a preview may show it)")
+    elif preview:
         chosen = current_test_levels(session, product.id, grade)
+    else:
+        base = default_baseline(session, product.id, grade)
+        chosen = [get(session, m.Level, x.level_id, "level") for x in base if x.taken]
+        if base and not chosen:
+            raise ValidationFailed(
+                "grade", grade.value, f"none of the {grade.value} test levels of "
+                f"{product.name!r} may be issued: " + "; ".join(
+                    f"{x.name} #{x.number}: {', '.join(x.reasons)}" for x in base))
     if not chosen:
         raise ValidationFailed("grade", grade.value,
                                f"product {product.name!r} has no {grade.value} test level")
@@ -597,6 +743,12 @@ def specification_content(
                                                    basis=lvl.policy.basis or "-")
     warnings = [f"{sec.name} #{sec.number} is STALE: {r}" for sec in sections
                 for r in sec.stale_reasons]
+    warnings += [f"{sec.name} #{sec.number} did NOT converge: {r}" for sec in sections
+                 if not sec.verdicts.converged for r in sec.verdicts.reasons]
+    warnings += [f"{sec.name} #{sec.number}: a response-limit notch is deeper than "
+                 f"{sec.notching.max_notch_db:g} dB and has no approver's acceptance"
+                 for sec in sections if sec.notching is not None
+                 and sec.notching.needs_acceptance and not sec.notching.accepted_by]
     axes = []
     for axis in sorted({lvl.axis for lvl in chosen}, key=lambda a: AXIS_ORDER[a.value]):
         on_axis = [lvl for lvl in chosen if lvl.axis is axis]
@@ -629,7 +781,7 @@ def specification_content(
                           for k, v in lvl.input_hashes.get("revisions", {}).items()},
         },
     }
-    return _with_revision(session, number, body, SpecificationContent, note)
+    return _with_revision(session, number, body, SpecificationContent, note, preview)
 
 
 # --- audit content ----------------------------------------------------------------------
@@ -651,6 +803,7 @@ def audit_content(
     number: str | None = None,
     note: str = "",
     now: datetime | None = None,
+    preview: bool = False,
 ) -> AuditContent:
     """Content of the margin-closure audit report of a program (or a product subtree).
 
@@ -702,7 +855,7 @@ def audit_content(
         "verdict": report.verdict,
         "input_hashes": {"requirements": hashes},
     }
-    return _with_revision(session, number, body, AuditContent, note)
+    return _with_revision(session, number, body, AuditContent, note, preview)
 
 
 # --- issuing ----------------------------------------------------------------------------
@@ -722,6 +875,16 @@ def issue_document(
     between) is refused with Conflict.
     """
     require(actor, m.Role.engineer, "issuing a document")
+    if getattr(content, "preview", False):  # a loads package has no preview
+        raise ValidationFailed("preview", True, f"{content.number} is a preview: a preview "
+                               "is not issued; prepare the document without it")
+    if isinstance(content, SpecificationContent):
+        for sec in content.sections:
+            if sec.stale_reasons or not sec.verdicts.converged:
+                raise ValidationFailed(
+                    "level_ids", sec.level_id, f"{sec.name} #{sec.number} may not be issued: "
+                    + "; ".join([*sec.stale_reasons, *(
+                        [] if sec.verdicts.converged else ["NOT converged"])]))
     rows = _history(session, content.number)
     h = content_hash(content)
     latest = rows[-1] if rows else None
@@ -753,10 +916,32 @@ def issue_document(
         )
         session.add(doc)
         session.flush()
+        if isinstance(content, SpecificationContent):  # the selection it issues
+            for pos, sec in enumerate(content.sections):
+                session.add(m.DocumentLevel(document_id=doc.id, level_id=sec.level_id,
+                                            position=pos))
+            session.flush()
         record(session, actor, "issue", "document", doc.id, number=doc.number,
                revision=doc.revision, content_hash=h, kind=content.kind)
     return IssuedDocument(document_id=doc.id, number=doc.number, revision=doc.revision,
                           content_hash=h, new_revision=not same, files=files)
+
+
+def document_ref(session: Session, number: str, revision: int | None = None) -> m.Document:
+    """An issued document by number and revision (default: its latest revision)."""
+    stmt = select(m.Document).where(m.Document.number == number)
+    if revision is not None:
+        stmt = stmt.where(m.Document.revision == revision)
+    doc = session.scalar(stmt.order_by(m.Document.revision.desc()).limit(1))
+    if doc is None:
+        raise NotFound("document", number if revision is None else f"{number} r{revision}")
+    return doc
+
+
+def approvals_of(session: Session, document_id: int) -> list[ApprovalRow]:
+    """The approval block of an issued revision: each role, who signed and when."""
+    get(session, m.Document, document_id, "document")
+    return _approvals(session, document_id)
 
 
 def list_documents(session: Session, product_id: int | None = None) -> list[m.Document]:

@@ -14,6 +14,7 @@ from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require
 from qualplan.planning.catalog import _add_unique, get
 from qualplan.planning.errors import Conflict, NotFound, ValidationFailed, VersionMismatch
+from qualplan.planning.withdrawals import describe, environment_withdrawal
 from qualplan.store import models as m
 from qualplan.store.hashing import revision_hash
 from qualplan.store.repositories import EnvironmentRepository, RevisionRepository
@@ -157,6 +158,11 @@ def revise_environment(
     """Add a revision; refuse an identical content and a stale `expected_revision`."""
     require(actor, m.Role.engineer, "revising an environment")
     env = get(session, m.Environment, environment_id, "environment")
+    # take the environment's turn first: the latest revision read next is the last
+    # committed one, for the expected-revision and identical-content checks too
+    RevisionRepository(session).lock_environment(env.id)
+    if (w := environment_withdrawal(session, env.id)) is not None:
+        raise Conflict(f"environment {env.name!r} is {describe(w)}: it is not revised")
     latest = RevisionRepository(session).latest(env.id)
     if (
         cmd.expected_revision is not None
@@ -214,6 +220,8 @@ def read_environment(session: Session, env: m.Environment) -> s.EnvironmentRead:
     latest = RevisionRepository(session).latest(env.id)
     out = s.EnvironmentRead.model_validate(env)
     out.latest_revision = latest.number if latest else None
+    if (w := environment_withdrawal(session, env.id)) is not None:
+        out.withdrawn = describe(w)
     return out
 
 

@@ -4,6 +4,11 @@ from __future__ import annotations
 
 from typing import Any
 
+from qualplan.store.integrity import StoredDataCorrupt
+
+__all__ = ["PlanningError", "NotFound", "Conflict", "VersionMismatch", "ValidationFailed",
+           "PermissionDenied", "NotAuthenticated", "StoredDataCorrupt"]
+
 
 class PlanningError(Exception):
     """Base of every use-case error."""

@@ -29,7 +29,7 @@ from qualplan.planning import results as r
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require
 from qualplan.planning.catalog import get
-from qualplan.planning.errors import ValidationFailed
+from qualplan.planning.errors import Conflict, ValidationFailed
 from qualplan.planning.lifecycle import (
     LifeItem,
     check_exposure,
@@ -40,6 +40,12 @@ from qualplan.planning.lifecycle import (
 )
 from qualplan.planning.policies import rules_of
 from qualplan.planning.transfers import derivation_staleness
+from qualplan.planning.withdrawals import (
+    describe,
+    environment_withdrawal,
+    level_withdrawal,
+    superseded_by,
+)
 from qualplan.store import models as m
 from qualplan.store.hashing import json_hash
 from qualplan.store.repositories import LevelRepository, RevisionRepository
@@ -66,6 +72,8 @@ def _inputs(session: Session, recipe: s.LevelRecipe, product: m.Product) -> list
         rev = get(session, m.EnvironmentRevision, rid, "environment revision")
         env = rev.environment
         field = f"revision_ids[{i}]"
+        if (w := environment_withdrawal(session, env.id)) is not None:
+            raise ValidationFailed(field, rid, f"environment {env.name!r} is {describe(w)}")
         if env.product_id not in allowed_products:
             raise ValidationFailed(
                 field,
@@ -693,12 +701,20 @@ def result_of(level: m.Level) -> r.RandomResult | r.SineResult | r.ShockResult:
 def staleness(session: Session, level: m.Level) -> list[str]:
     """Why a level no longer reflects its inputs (empty when it is current)."""
     reasons = []
+    if (w := level_withdrawal(session, level.id)) is not None:
+        reasons.append(f"the level was {describe(w)}")
+    if (sup := superseded_by(session, level.id)) is not None:
+        new = session.get(m.Level, sup.new_level_id)
+        reasons.append(f"superseded by {new.name} #{new.number} (id {new.id}), re-derived "
+                       f"on the latest revisions of its inputs on {sup.created_at:%Y-%m-%d}")
     revs = RevisionRepository(session)
     used = {**level.input_hashes.get("revisions", {}), **level.input_hashes.get("life_cycle", {})}
     for rid in used:
         rev = revs.get(int(rid))
         latest = revs.latest(rev.environment_id)
-        if latest is not None and latest.number != rev.number:
+        if (w := environment_withdrawal(session, rev.environment_id)) is not None:
+            reasons.append(f"environment {rev.environment.name!r} was {describe(w)}")
+        elif latest is not None and latest.number != rev.number:
             reasons.append(
                 f"environment {rev.environment.name!r} has revision {latest.number}, "
                 f"the level used revision {rev.number}"
@@ -731,6 +747,8 @@ def read_level(session: Session, level: m.Level) -> s.LevelRead:
         input_hashes=level.input_hashes, level_hash=level.level_hash, author=level.author,
         created_at=level.created_at, policy_name=level.policy.name if level.policy else None,
         stale=bool(reasons), stale_reasons=reasons,
+        withdrawn=describe(w) if (w := level_withdrawal(session, level.id)) else None,
+        superseded_by_id=sup.new_level_id if (sup := superseded_by(session, level.id)) else None,
     )
 
 
@@ -744,3 +762,91 @@ def list_levels(session: Session, product_id: int | None = None) -> list[m.Level
             **({"product_id": product_id} if product_id is not None else {})
         )
     )
+
+
+# --- re-derivation: the same recipe on the latest revisions of its inputs ---------------
+
+
+def _values(result) -> tuple[list[float], list[float], float, str, str, float, str]:
+    """Breakpoints, their dB factor, the values' unit, and the overall measure."""
+    if isinstance(result, r.RandomResult):
+        return result.freq_hz, result.asd_g2_hz, 10.0, "g^2/Hz", "overall", result.grms, "g rms"
+    if isinstance(result, r.SineResult):
+        return (result.freq_hz, result.accel_g, 20.0, "g", "peak amplitude",
+                result.peak_accel_g, "g peak")
+    return result.freq_hz, result.accel_g, 20.0, "g", "peak SRS", max(result.accel_g), "g"
+
+
+def difference(old_level: m.Level, new_level: m.Level, inputs: list[s.InputChange]
+               ) -> s.LevelDifference:
+    """New over old level in dB, at every breakpoint of either (log-log interpolation
+    between breakpoints, as the profiles are defined; 10 log10 for a PSD, 20 log10 for
+    an amplitude in g), and of the overall measure (g rms of a random level by its
+    exact integral, the peak of a sine or shock level)."""
+    old, new = result_of(old_level), result_of(new_level)
+    fo, vo, k, unit, quantity, overall_old, overall_unit = _values(old)
+    fn, vn, _, _, _, overall_new, _ = _values(new)
+    grid = np.unique(np.concatenate([fo, fn]))
+    at_old = core_psd.asd_at(fo, vo, grid)
+    at_new = core_psd.asd_at(fn, vn, grid)
+    rows = []
+    for f, a, b in zip(grid, at_old, at_new, strict=True):
+        a_, b_ = (float(a) if a > 0 else None), (float(b) if b > 0 else None)
+        db = k * float(np.log10(b_ / a_)) if a_ and b_ else None
+        rows.append(s.DifferenceRow(freq_hz=float(f), old=a_, new=b_, db=db))
+    known = [abs(x.db) for x in rows if x.db is not None]
+    return s.LevelDifference(
+        level_id=old_level.id, name=old_level.name, old_number=old_level.number,
+        new_number=new_level.number, kind=old_level.kind.value, unit=unit, rows=rows,
+        overall_quantity=quantity, overall_unit=overall_unit, overall_old=float(overall_old),
+        overall_new=float(overall_new),
+        overall_db=20.0 * float(np.log10(overall_new / overall_old)),
+        max_abs_db=max(known) if known else None, inputs=inputs)
+
+
+def rederive_level(session: Session, actor: Actor, level_id: int, *, store: bool = True
+                   ) -> s.LevelDifference:
+    """Re-run a level's recipe on the latest revisions of its inputs.
+
+    Returns the difference (per breakpoint and overall, in dB) from the old level.
+    With ``store`` the new level is kept (the next number of its name) and supersedes
+    the old one, which becomes stale; without it nothing is written.
+    """
+    require(actor, m.Role.engineer, "re-deriving a level")
+    old = level_by_id(session, level_id)
+    if (sup := superseded_by(session, old.id)) is not None:
+        newer = session.get(m.Level, sup.new_level_id)
+        raise Conflict(f"level {old.name} #{old.number} is superseded already by "
+                       f"#{newer.number} (id {newer.id}): re-derive that one")
+    if (w := level_withdrawal(session, old.id)) is not None:
+        raise Conflict(f"level {old.name} #{old.number} was {describe(w)}")
+    revs = RevisionRepository(session)
+    new_ids, changes = [], []
+    for rid in old.recipe["revision_ids"]:
+        rev = revs.get(int(rid))
+        latest = revs.latest(rev.environment_id)
+        new_ids.append(latest.id)
+        if latest.number != rev.number:
+            changes.append(s.InputChange(environment=rev.environment.name,
+                                         old_revision=rev.number, new_revision=latest.number))
+    recipe = s.LevelRecipe.model_validate({**old.recipe, "revision_ids": new_ids})
+    savepoint = session.begin_nested()
+    try:
+        new = derive_level(session, actor, recipe)
+        if new.level_hash == old.level_hash:
+            raise Conflict(f"level {old.name} #{old.number} is current: re-deriving it "
+                           "changes nothing")
+        diff = difference(old, new, changes)
+    except BaseException:
+        savepoint.rollback()
+        raise
+    if not store:
+        savepoint.rollback()
+        return diff
+    savepoint.commit()
+    session.add(m.LevelSupersession(old_level_id=old.id, new_level_id=new.id,
+                                    difference=diff.model_dump(mode="json"), actor=actor.name))
+    session.flush()
+    record(session, actor, "supersede", "level", old.id, name=old.name, number=old.number,
+           new_level=new.id, new_number=new.number, overall_db=diff.overall_db)
+    return diff.model_copy(update={"stored": True, "new_level_id": new.id})

@@ -16,6 +16,7 @@ from sqlalchemy.orm import Session
 from qualplan.planning import envdata
 from qualplan.planning.errors import ValidationFailed
 from qualplan.planning.transfers import replaced_environment_ids
+from qualplan.planning.withdrawals import withdrawn_environment_ids, withdrawn_level_ids
 from qualplan.store import models as m
 from qualplan.store.repositories import LevelRepository, RevisionRepository
 
@@ -51,7 +52,8 @@ def lineage(session: Session, product: m.Product) -> list[int]:
 
 
 def life_cycle(session: Session, product: m.Product, axis: m.Axis) -> list[LifeItem]:
-    """Latest revision of every environment of the product (and its parents) on `axis`."""
+    """Latest revision of every environment of the product (and its parents) on `axis`;
+    withdrawn environments have left the life cycle."""
     stmt = select(m.Environment).where(m.Environment.product_id.in_(lineage(session, product)))
     if axis is not m.Axis.all:
         stmt = stmt.where(m.Environment.axis.in_([axis, m.Axis.all]))
@@ -59,8 +61,9 @@ def life_cycle(session: Session, product: m.Product, axis: m.Axis) -> list[LifeI
     out = []
     # a parent's environment that a transfer carried down is replaced by the transferred one
     replaced = replaced_environment_ids(session, product)
+    withdrawn = withdrawn_environment_ids(session)
     for env in session.scalars(stmt.order_by(m.Environment.id)):
-        if env.id in replaced:
+        if env.id in replaced or env.id in withdrawn:
             continue
         latest = revs.latest(env.id)
         if latest is not None:
@@ -123,11 +126,13 @@ def exposure_s(item: LifeItem) -> float:
 
 
 def current_test_levels(session: Session, product_id: int, grade: m.Grade) -> list[m.Level]:
-    """The newest number of every test level of a product for a grade."""
+    """The newest number of every test level of a product for a grade; a withdrawn level
+    is not current (nor does an older number take its place)."""
     newest: dict[str, m.Level] = {}
     for lvl in LevelRepository(session).list(product_id=product_id):
         if lvl.purpose is not m.LevelPurpose.test or lvl.grade is not m.Grade(grade):
             continue
         if lvl.name not in newest or lvl.number > newest[lvl.name].number:
             newest[lvl.name] = lvl
-    return list(newest.values())
+    withdrawn = withdrawn_level_ids(session)
+    return [lvl for lvl in newest.values() if lvl.id not in withdrawn]

@@ -4,7 +4,9 @@ with recommended solver settings and their basis.
 Same revision and hash rules as the specifications (``planning.documents``): the
 content is built from the database, its SHA-256 decides whether issuing makes a new
 revision. Per axis and kind: random (ASD table), sine (amplitude table with
-displacement, sweep rate, cycles near each mode), shock (SRS table with its Q). The
+displacement, sweep rate, cycles near each mode), shock (SRS table with its Q) and
+transient (the base acceleration history of a shock level, s and g with its sample rate:
+the measured records it was derived from, or a history synthesised to its SRS). The
 solver settings follow common practice and say so; the numbers they print come from
 the level and, when the product has one, its latest modal summary.
 """
@@ -15,9 +17,12 @@ import math
 from datetime import datetime
 from typing import Any, Literal
 
+import numpy as np
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from qualplan.dynamics import shock_synthesis as core_synth
+from qualplan.dynamics import srs as core_srs
 from qualplan.dynamics.units import G0_M_S2
 from qualplan.planning import modal as pm
 from qualplan.planning.catalog import get
@@ -34,7 +39,11 @@ from qualplan.planning.levels import staleness
 from qualplan.store import models as m
 
 AXIS_ORDER = {"X": 0, "Y": 1, "Z": 2, "all": 3}
-KIND_ORDER = {"random": 0, "sine": 1, "shock": 2}
+KIND_ORDER = {"random": 0, "sine": 1, "shock": 2, "transient": 3}
+#: Seed of the wavelet synthesis of a transient (the package is reproducible).
+TRANSIENT_SEED = 0
+#: Significant figures of a transient history's values (a stable content hash).
+TRANSIENT_DIGITS = 6
 #: Damping assumed when neither the level nor a modal summary gives one (common practice).
 DEFAULT_Q = 10.0
 CAUTION = ("These loads feed a structural analysis. The analysis, its model, damping and "
@@ -59,7 +68,7 @@ class LoadsSection(Content):
     name: str
     number: int
     axis: str
-    kind: Literal["random", "sine", "shock"]
+    kind: Literal["random", "sine", "shock", "transient"]
     level_hash: str
     stale: list[str]
     columns: list[str]
@@ -185,8 +194,8 @@ def _settings(level: m.Level, curve: pm.LevelCurve, modal: ModalInfo | None, rev
                   f"{3 / low:.3g} to {5 / low:.3g} s",
             basis=f"dt <= 1/(10 f_max) at f_max = {_g(top)} Hz; 3-5 periods of the lowest "
                   f"{'mode' if modal else 'SRS frequency'} ({_g(low)} Hz) after the pulse, or "
-                  "3-5 x the pulse length (common practice), when a synthesised history "
-                  "matching the SRS is run as a transient"))
+                  "3-5 x the pulse length (common practice), when the history of the "
+                  "transient section is run"))
     return out
 
 
@@ -242,6 +251,94 @@ def _section(session: Session, level: m.Level, modal: ModalInfo | None, rev) -> 
         settings=_settings(level, curve, modal, rev))
 
 
+def _sig(x: np.ndarray, digits: int = TRANSIENT_DIGITS) -> list[float]:
+    return [float(f"{v:.{digits}g}") for v in np.asarray(x, dtype=float)]
+
+
+def _transient_settings(curve: pm.LevelCurve, modal: ModalInfo | None, dt_s: float,
+                        length_s: float) -> list[Setting]:
+    """Time step and end time of a transient run of a base acceleration history."""
+    f_hi = curve.freq_hz[-1]
+    top = max(1.5 * f_hi, 1.5 * modal.highest_fn_hz if modal else 0.0)
+    low = modal.lowest_fn_hz if modal else curve.freq_hz[0]
+    step = min(dt_s, 1.0 / (10.0 * top))
+    tail_lo, tail_hi = max(3.0 / low, 3.0 * length_s), max(5.0 / low, 5.0 * length_s)
+    return [
+        Setting(setting="time step",
+                value=f"dt <= {step:.3g} s (the history is sampled at {dt_s:.3g} s"
+                      + ("; interpolate it linearly between samples)" if step < dt_s else ")"),
+                basis=f"dt <= 1/(10 f_max) at f_max = {_g(top)} Hz, and no coarser than the "
+                      "history's own sampling (common practice)"),
+        Setting(setting="end time",
+                value=f"{length_s + tail_lo:.3g} to {length_s + tail_hi:.3g} s",
+                basis=f"the history's length {length_s:.4g} s plus the larger of 3-5 periods "
+                      f"of the lowest {'mode' if modal else 'SRS frequency'} ({_g(low)} Hz) and "
+                      "3-5 x the pulse length, for the free decay (common practice)"),
+        Setting(setting="modal damping",
+                value=f"Q = {_g(curve.q or DEFAULT_Q)}",
+                basis="the Q the SRS is given at; a different damping changes the response "
+                      "the history produces"),
+    ]
+
+
+def _transient_section(session: Session, level: m.Level, curve: pm.LevelCurve, *,
+                       label: str, accel_g: np.ndarray, dt_s: float, facts: list[Fact],
+                       modal: ModalInfo | None) -> LoadsSection:
+    t = np.arange(accel_g.size) * dt_s
+    length = float(t[-1]) if t.size else 0.0
+    facts = [Fact(label="history", value=label),
+             Fact(label="sample rate", value=f"{1.0 / dt_s:.6g} Hz (dt = {dt_s:.6g} s)"),
+             Fact(label="samples", value=f"{accel_g.size} over {length:.4g} s"),
+             Fact(label="peak acceleration", value=f"{float(np.max(np.abs(accel_g))):.4g} g"),
+             *facts]
+    return LoadsSection(
+        level_id=level.id, name=level.name, number=level.number, axis=level.axis.value,
+        kind="transient", level_hash=level.level_hash, stale=staleness(session, level),
+        columns=["time [s]", "base acceleration [g]"], keys=["time_s", "accel_g"],
+        rows=[[a, b] for a, b in zip(_sig(t, 9), _sig(accel_g), strict=True)], facts=facts,
+        settings=_transient_settings(curve, modal, dt_s, length))
+
+
+def _transients(session: Session, level: m.Level, modal: ModalInfo | None
+                ) -> list[LoadsSection]:
+    """The transient sections of a shock analysis level: a base acceleration history
+    synthesised to its SRS (wavelets, Yang & Saffell 1972, as in IEST-RP-DTE032), then
+    the measured histories it was derived from (scaled by its analysis margin)."""
+    curve = pm.level_curve(level)
+    factor = 10.0 ** ((curve.margin_db or 0.0) / 20.0)
+    out = []
+    for rid in level.recipe.get("revision_ids") or []:
+        rev = session.get(m.EnvironmentRevision, rid)
+        if rev is None or rev.environment.kind is not m.EnvironmentKind.time_history:
+            continue
+        x = np.asarray(rev.data, dtype=float) * factor
+        scale = (f"the measured record x {factor:.4g} (the level's {curve.margin_db:+.3g} dB "
+                 "analysis margin)" if curve.margin_db else "the measured record, unscaled")
+        scale += ("; one input of the level: its SRS lies below the level where the "
+                  "combination of the inputs raised it (the synthesised history matches the "
+                  "level)")
+        out.append(_transient_section(
+            session, level, curve, modal=modal, accel_g=x, dt_s=float(rev.spec["dt_s"]),
+            label=f"measured: {rev.environment.name} revision {rev.number}",
+            facts=[Fact(label="values", value=scale)]))
+    syn = core_synth.synthesize_shock(core_srs.SrsProfile(curve.freq_hz, curve.values),
+                                      q=float(curve.q or DEFAULT_Q), seed=TRANSIENT_SEED)
+    facts = [
+        Fact(label="method", value=f"wavelet synthesis to the level's SRS (Yang & Saffell "
+             f"1972; IEST-RP-DTE032), seed {TRANSIENT_SEED}; one history of many with this "
+             "SRS: the analyst may run more than one"),
+        Fact(label="SRS match", value=f"within {syn.max_error_db:.2f} dB of the level at Q = "
+             f"{syn.q:g} ({'converged' if syn.converged else 'NOT converged'} to "
+             f"+/-{syn.tolerance_db:g} dB)"),
+        Fact(label="end of record", value=f"velocity {syn.final_velocity_m_s:.3g} m/s, "
+             f"displacement {syn.final_displacement_m * 1e3:.3g} mm; peak displacement "
+             f"{syn.peak_displacement_m * 1e3:.3g} mm"),
+    ]
+    return [_transient_section(session, level, curve, modal=modal, accel_g=syn.accel_g,
+                               dt_s=syn.dt_s, label="synthesised to the level's SRS",
+                               facts=facts), *out]
+
+
 def loads_content(session: Session, product_id: int, *, axis: m.Axis | None = None,
                   level_ids: list[int] | None = None, number: str | None = None,
                   note: str = "") -> LoadsContent:
@@ -268,7 +365,15 @@ def loads_content(session: Session, product_id: int, *, axis: m.Axis | None = No
     chosen.sort(key=lambda x: (AXIS_ORDER[x.axis.value], KIND_ORDER[x.kind.value], x.name))
     modal, rev = _modal_info(session, product)
     sections = [_section(session, lv, modal, rev) for lv in chosen]
-    warnings = [f"{sec.name} #{sec.number} is STALE: {r}" for sec in sections for r in sec.stale]
+    sections += [tr for lv in chosen if lv.kind is m.EnvironmentKind.shock
+                 for tr in _transients(session, lv, modal)]
+    sections.sort(key=lambda x: (AXIS_ORDER[x.axis], KIND_ORDER[x.kind], x.name))
+    warnings_synth = [f"{sec.name} #{sec.number}: the synthesised transient did not converge "
+                      "to the SRS; see its SRS match" for sec in sections
+                      if sec.kind == "transient" and any("NOT converged" in f.value
+                                                         for f in sec.facts)]
+    warnings = [f"{sec.name} #{sec.number} is STALE: {r}" for sec in sections
+                if sec.kind != "transient" for r in sec.stale] + warnings_synth
     if modal is None:
         warnings.append("no modal summary for this product: damping, mode range and the "
                         "cycles near each mode use common-practice values")

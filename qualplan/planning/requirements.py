@@ -9,12 +9,13 @@ changed since), ``failed`` (the newest evidence fails) or ``verified``.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from datetime import UTC, datetime, timedelta
+from datetime import UTC, datetime
 
 from sqlalchemy import func, select
 from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session, selectinload
 
+from qualplan.planning import approvals
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require
 from qualplan.planning.catalog import get, name_key, ref_id
@@ -226,9 +227,12 @@ def status_of(
 
     waiver = active_waiver(req, now)
     if waiver is not None:
+        bare = (" WITHOUT ANY EVIDENCE (an admin's decision)"
+                if waiver.without_evidence else "")
         return StatusOf(
             "waived",
-            f"waived by {waiver.approver} until {waiver.expires_at:%Y-%m-%d}: {waiver.rationale}",
+            f"waived{bare} by {waiver.approver} until {waiver.expires_at:%Y-%m-%d}: "
+            f"{waiver.rationale}",
             None,
             waiver,
         )
@@ -287,38 +291,9 @@ def read_requirement(session: Session, req: m.Requirement, **kw) -> s.Requiremen
     return out
 
 
-#: Longest a waiver may run [days] (ten years; common practice: a waiver is temporary and
-#: is reviewed at the program's milestones).
-MAX_WAIVER_DAYS = 3653
-
-
 def waive(session: Session, actor: Actor, requirement_id: int, cmd: s.WaiverIn) -> m.Waiver:
-    """An approver waives a requirement until `expires_at`, with a rationale."""
-    require(actor, m.Role.approver, "waiving a requirement")
-    req = get(session, m.Requirement, requirement_id, "requirement")
-    expires = cmd.expires_at if cmd.expires_at.tzinfo else cmd.expires_at.replace(tzinfo=UTC)
-    if expires <= datetime.now(UTC):
-        raise ValidationFailed("expires_at", cmd.expires_at.isoformat(), "must lie in the future")
-    if expires > datetime.now(UTC) + timedelta(days=MAX_WAIVER_DAYS):
-        raise ValidationFailed("expires_at", cmd.expires_at.isoformat(),
-                               f"must lie within {MAX_WAIVER_DAYS} days (a waiver is temporary)")
-    w = m.Waiver(
-        requirement_id=req.id, approver=actor.name, rationale=cmd.rationale, expires_at=expires
-    )
-    session.add(w)
-    session.flush()
-    session.refresh(req, ["waivers"])
-    record(
-        session,
-        actor,
-        "waive",
-        "requirement",
-        req.id,
-        key=req.key,
-        waiver=w.id,
-        expires_at=expires.isoformat(),
-    )
-    return w
+    """An approver waives a requirement (the rules are in :mod:`qualplan.planning.approvals`)."""
+    return approvals.waive(session, actor, requirement_id, cmd)
 
 
 def revoke_waiver(session: Session, actor: Actor, waiver_id: int) -> m.Waiver:

@@ -171,6 +171,8 @@ class EnvironmentRead(Read):
     source: str
     provenance: str
     latest_revision: int | None = None
+    #: "withdrawn by NAME on DATE: REASON" when the environment was withdrawn.
+    withdrawn: str | None = None
 
 
 class RevisionRead(BaseModel):
@@ -325,6 +327,19 @@ class ControlRule(Rule):
     basis: Text = "common practice"
 
 
+class ApprovalRule(Rule):
+    """Waivers: how long one may run, and where two persons must be involved."""
+
+    max_waiver_days: Int = Field(default=365, ge=1, le=3653,
+                                 description="Longest a waiver may run [days]")
+    two_person: dict[Grade, bool] = Field(
+        default={Grade.qualification: True, Grade.acceptance: False,
+                 Grade.protoflight: False},
+        description="Per grade: the approver who waives is not the evidence's author nor "
+        "the requester")
+    basis: Text = ""
+
+
 class PolicyRules(BaseModel):
     model_config = ConfigDict(extra="forbid")
     random: dict[Grade, RandomRule]
@@ -333,6 +348,7 @@ class PolicyRules(BaseModel):
     analysis: AnalysisRule = AnalysisRule()
     equivalence: EquivalenceRule = EquivalenceRule()
     control: ControlRule = ControlRule()
+    approvals: ApprovalRule = ApprovalRule()
 
 
 class PolicyRead(Read):
@@ -420,6 +436,60 @@ class LevelRead(Read):
     policy_name: str | None = None
     stale: bool = False
     stale_reasons: list[str] = []
+    #: "withdrawn by NAME on DATE: REASON" when the level was withdrawn.
+    withdrawn: str | None = None
+    superseded_by_id: int | None = None
+
+
+class DifferenceRow(BaseModel):
+    """One breakpoint of the old or the new level: both values and new/old in dB."""
+
+    freq_hz: float
+    old: float | None
+    new: float | None
+    #: 10 log10 (PSD) or 20 log10 (g) of new/old; None outside the common band.
+    db: float | None
+
+
+class InputChange(BaseModel):
+    environment: str
+    old_revision: int
+    new_revision: int
+
+
+class LevelDifference(BaseModel):
+    """What a re-derivation changes, shown before the new level is stored."""
+
+    level_id: int
+    name: str
+    old_number: int
+    new_number: int
+    kind: str
+    #: Unit of the breakpoint values ("g^2/Hz" or "g").
+    unit: str
+    rows: list[DifferenceRow]
+    overall_quantity: str
+    overall_unit: str
+    overall_old: float
+    overall_new: float
+    overall_db: float
+    max_abs_db: float | None
+    inputs: list[InputChange]
+    stored: bool = False
+    new_level_id: int | None = None
+
+
+class WithdrawIn(Command):
+    reason: Text = Field(min_length=10, description="Why it is withdrawn (kept in history)")
+
+
+class WithdrawalRead(Read):
+    id: int
+    environment_id: int | None
+    level_id: int | None
+    reason: str
+    actor: str
+    created_at: datetime
 
 
 # --- requirements, evidence, waivers --------------------------------------------------
@@ -526,6 +596,20 @@ class EvidenceRead(Read):
 class WaiverIn(Command):
     rationale: Text = Field(min_length=10)
     expires_at: datetime
+    #: The waiver request answered (default: the newest unanswered one, if any).
+    request_id: Id | None = None
+
+
+class WaiverRequestIn(Command):
+    reason: Text = Field(min_length=10)
+
+
+class WaiverRequestRead(Read):
+    id: int
+    requirement_id: int
+    requested_by: str
+    reason: str
+    created_at: datetime
 
 
 class WaiverRead(Read):
@@ -536,6 +620,8 @@ class WaiverRead(Read):
     expires_at: datetime
     created_at: datetime
     revoked_at: datetime | None
+    request_id: int | None = None
+    without_evidence: bool = False
 
 
 # --- audit ----------------------------------------------------------------------------

@@ -29,6 +29,7 @@ from qualplan.planning.access import Actor, record, require
 from qualplan.planning.catalog import _add_unique, get
 from qualplan.planning.environments import _append_revision
 from qualplan.planning.errors import Conflict, ValidationFailed
+from qualplan.planning.withdrawals import describe, environment_withdrawal
 from qualplan.store import models as m
 from qualplan.store.hashing import json_hash, revision_hash
 from qualplan.store.repositories import RevisionRepository
@@ -422,6 +423,8 @@ def derive_transferred(session: Session, actor: Actor, cmd: TransferCreate
         if inputs and env.product_id != inputs[0][0].product_id:
             raise ValidationFailed(field, eid, "all inputs must come from the same parent "
                                    f"(the first is of product {inputs[0][0].product_id})")
+        if (w := environment_withdrawal(session, env.id)) is not None:
+            raise ValidationFailed(field, eid, f"environment {env.name!r} is {describe(w)}")
         if env.kind is K.time_history:
             raise ValidationFailed(field, eid, "a time history is not transferred; derive "
                                    "from its PSD or SRS environment")

@@ -2,5 +2,6 @@
 CSV and JSON, rendered from planning's content types (no database access here)."""
 
 from qualplan.reports.pdf import PdfRenderer, html, pdf_bytes
+from qualplan.reports.tables import file_stem
 
-__all__ = ["PdfRenderer", "html", "pdf_bytes"]
+__all__ = ["PdfRenderer", "file_stem", "html", "pdf_bytes"]

@@ -9,6 +9,7 @@ from pathlib import Path
 
 from qualplan.planning.loads import LoadsContent, LoadsSection
 from qualplan.reports import pdf as _pdf
+from qualplan.reports.files import write_atomic
 
 
 def section_file_stem(content: LoadsContent, section: LoadsSection) -> str:
@@ -63,11 +64,11 @@ class LoadsRenderer:
         out_dir.mkdir(parents=True, exist_ok=True)
         stem = f"{content.number}-r{content.revision}"
         paths = [out_dir / f"{stem}.pdf", out_dir / f"{stem}.json"]
-        paths[0].write_bytes(pdf_bytes(content))
-        paths[1].write_text(content_json(content), encoding="utf-8")
+        write_atomic(paths[0], pdf_bytes(content))
+        write_atomic(paths[1], content_json(content))
         for s in content.sections:
             p = out_dir / f"{section_file_stem(content, s)}.csv"
-            p.write_text(section_csv(content, s), encoding="utf-8")
+            write_atomic(p, section_csv(content, s))
             paths.append(p)
         return paths
 

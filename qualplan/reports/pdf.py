@@ -21,6 +21,7 @@ from jinja2 import Environment, FileSystemLoader, StrictUndefined, select_autoes
 from qualplan import __version__
 from qualplan.planning.documents import DocumentContent, SpecificationContent
 from qualplan.reports import charts, tables
+from qualplan.reports.files import write_atomic
 from qualplan.resources import data_dir
 
 
@@ -167,7 +168,7 @@ def pdf_bytes(content: DocumentContent, svgs: dict | None = None) -> bytes:
 
 
 def _stem(content: DocumentContent) -> str:
-    return f"{content.number}-r{content.revision}"
+    return tables.file_stem(content)
 
 
 class PdfRenderer:
@@ -184,7 +185,7 @@ class PdfRenderer:
         out_dir.mkdir(parents=True, exist_ok=True)
         svgs = figures(content) if isinstance(content, SpecificationContent) else None
         pdf = out_dir / f"{_stem(content)}.pdf"
-        pdf.write_bytes(pdf_bytes(content, svgs))
+        write_atomic(pdf, pdf_bytes(content, svgs))
         paths = [pdf, *tables.write_tables(content, out_dir)]
         if self.figures and svgs is not None:
             paths.extend(write_figures(content, out_dir / f"{_stem(content)}-figures", svgs))
@@ -203,13 +204,13 @@ def write_figures(content: SpecificationContent, folder: Path, svgs: dict | None
             if svg is None:
                 continue
             p = folder / (f"{stem}.svg" if name == "level" else f"{stem}-{name}.svg")
-            p.write_text(svg, encoding="utf-8")
+            write_atomic(p, svg)
             out.append(p)
     for ax in content.axes:
         svg = svgs.get(f"axis-{ax.axis}", {}).get("coverage")
         if svg is not None:
             p = folder / f"{content.number}-{ax.axis}-axis-coverage.svg"
-            p.write_text(svg, encoding="utf-8")
+            write_atomic(p, svg)
             out.append(p)
     return out
 

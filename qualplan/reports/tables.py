@@ -12,11 +12,11 @@ from __future__ import annotations
 import csv
 import io
 import json
-import os
 import unicodedata
 from pathlib import Path
 
 from qualplan.planning.documents import AuditContent, LevelSection, SpecificationContent
+from qualplan.reports.files import write_atomic
 
 
 def _num(x: float | None) -> str:
@@ -46,6 +46,13 @@ def section_csv(content: SpecificationContent, section: LevelSection) -> str:
         f"{section.kind}, hash {section.level_hash}",
     ]
     w = csv.writer(buf, lineterminator="\n")
+    nt = getattr(section, "notching", None)
+    if nt is not None:
+        head.append(f"# NOTCHED against a response limit at {_one_line(nt.location)}: the lab "
+                    "runs the notched input of the -notched.csv table")
+        for n in nt.notches:
+            head.append(f"# notch {n.f_lo_hz:.4g}-{n.f_hi_hz:.4g} Hz, {n.depth_db:.2f} dB at "
+                        f"{n.f_deepest_hz:.4g} Hz, {n.width_oct:.3g} oct wide")
     if section.kind == "random":
         t = section.random
         head.append(f"# overall {t.grms:.4g} g rms; duration {t.duration_s:g} s per axis "
@@ -99,6 +106,34 @@ def force_limit_csv(content: SpecificationContent, section: LevelSection) -> str
     return buf.getvalue()
 
 
+def notching_csv(content: SpecificationContent, section: LevelSection) -> str:
+    """Response-limit notched input of one level: (Hz, level, notched), g^2/Hz or g peak."""
+    t = section.notching
+    unit = "g2_hz" if section.kind == "random" else "g"
+    buf = io.StringIO()
+    buf.write("\n".join([
+        f"# {content.number} revision {content.revision}: {_one_line(content.title)}",
+        f"# response-limit notching {t.notching_id} of level {_one_line(section.name)} "
+        f"#{section.number}, axis {section.axis}, hash {section.level_hash}",
+        f"# {t.method}",
+        f"# location {_one_line(t.location)}; limit {_one_line(t.limit)}; transmissibility "
+        f"from {t.transmissibility_source}"
+        + (f" ({_one_line(t.transmissibility_note)})" if t.transmissibility_note else ""),
+    ]) + "\n")
+    for n in t.notches:
+        buf.write(f"# notch {n.f_lo_hz:.4g}-{n.f_hi_hz:.4g} Hz, {n.depth_db:.2f} dB at "
+                  f"{n.f_deepest_hz:.4g} Hz, {n.width_oct:.3g} oct"
+                  + (" (deeper than allowed: " + (f"accepted by {_one_line(t.accepted_by)})"
+                                                   if t.accepted_by else
+                                                   "approver's acceptance needed)")
+                     if n.exceeds_policy else "") + "\n")
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(["freq_hz", f"level_{unit}", f"notched_{unit}"])
+    for f, a, v in zip(t.freq_hz, t.original, t.notched, strict=True):
+        w.writerow([_num(f), _num(a), _num(v)])
+    return buf.getvalue()
+
+
 def audit_csv(content: AuditContent) -> str:
     buf = io.StringIO()
     buf.write(f"# {content.number} revision {content.revision}: {_one_line(content.title)}\n")
@@ -119,30 +154,27 @@ def content_json(content: SpecificationContent | AuditContent) -> str:
     return json.dumps(data, indent=2, sort_keys=True) + "\n"
 
 
+def file_stem(content) -> str:
+    """``NUMBER-rN`` of an issued revision, ``NUMBER-preview`` of a preview (no revision)."""
+    if getattr(content, "preview", False):
+        return f"{content.number}-preview"
+    return f"{content.number}-r{content.revision}"
+
+
 def section_file_stem(content: SpecificationContent, section: LevelSection) -> str:
     name = "".join(c if c.isalnum() else "-" for c in section.name).strip("-").lower()
-    return f"{content.number}-r{content.revision}-{section.axis}-{section.kind}-{name}"
+    return f"{file_stem(content)}-{section.axis}-{section.kind}-{name}"
 
 
 def _write_atomic(path: Path, text: str) -> None:
-    """Write `text` to `path` whole or not at all: into a temporary file beside it, then
-    renamed over it; on a full disk (or any OSError) the partial file is removed."""
-    tmp = path.with_name(f".{path.name}.tmp")
-    try:
-        with open(tmp, "w", encoding="utf-8") as f:
-            f.write(text)
-            f.flush()
-            os.fsync(f.fileno())
-        os.replace(tmp, path)
-    except OSError:
-        tmp.unlink(missing_ok=True)
-        raise
+    """Write `text` to `path` whole or not at all (:func:`qualplan.reports.files.write_atomic`)."""
+    write_atomic(path, text)
 
 
 def write_tables(content: SpecificationContent | AuditContent, out_dir: Path) -> list[Path]:
     """Write the JSON and the CSV tables of `content` into `out_dir`; return the paths."""
     out_dir = Path(out_dir)
-    stem = f"{content.number}-r{content.revision}"
+    stem = file_stem(content)
     paths = []
     p = out_dir / f"{stem}.json"
     _write_atomic(p, content_json(content))
@@ -152,9 +184,13 @@ def write_tables(content: SpecificationContent | AuditContent, out_dir: Path) ->
             p = out_dir / f"{section_file_stem(content, section)}.csv"
             _write_atomic(p, section_csv(content, section))
             paths.append(p)
+            if getattr(section, "notching", None) is not None:
+                p = out_dir / f"{section_file_stem(content, section)}-notched.csv"
+                _write_atomic(p, notching_csv(content, section))
+                paths.append(p)
             if getattr(section, "force_limit", None) is not None:
                 p = out_dir / f"{section_file_stem(content, section)}-force-limit.csv"
-                p.write_text(force_limit_csv(content, section), encoding="utf-8")
+                _write_atomic(p, force_limit_csv(content, section))
                 paths.append(p)
     else:
         p = out_dir / f"{stem}.csv"

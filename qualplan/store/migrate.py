@@ -55,6 +55,35 @@ def current_revision(engine: Engine) -> str | None:
         ) from exc
 
 
+#: Revisions whose downgrade moves or drops stored rows (revision -> what is undone):
+#: the first data migration (0003) and every revision whose tables hold stored data.
+#: A downgrade through any of them needs the caller's confirmation (``--yes``).
+DATA_MIGRATIONS = {
+    "0007": "chunked records are dropped",
+    "0006": "mountings, transfer rules, derived environments and force limits are dropped",
+    "0005": "modal summaries and response estimates are dropped",
+    "0003": "program-wide documents are put on a product",
+    "0002": "issued documents are dropped",
+    "0001": "every table is dropped",
+}
+
+
+def data_migrations_undone(engine: Engine, target: str) -> list[tuple[str, str]]:
+    """The data migrations a downgrade from the database's revision to `target` undoes
+    ([] when none, or when the database has no schema)."""
+    current = current_revision(engine)
+    engine.dispose()
+    if current is None:
+        return []
+    script = ScriptDirectory.from_config(alembic_config("sqlite://"))
+    try:
+        revs = list(script.iterate_revisions(current, target))
+    except Exception:  # an unknown or relative target: let alembic name the problem later
+        revs = [script.get_revision(r) for r in DATA_MIGRATIONS]
+    undone = [r.revision for r in revs if r is not None and r.revision != target]
+    return [(r, DATA_MIGRATIONS[r]) for r in undone if r in DATA_MIGRATIONS]
+
+
 def upgrade(url: str, revision: str = "head") -> None:
     _run(url, command.upgrade, revision)
 

@@ -369,8 +369,24 @@ class Waiver(Base):
     expires_at: Mapped[datetime] = mapped_column(UtcDateTime())
     created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
     revoked_at: Mapped[datetime | None] = mapped_column(UtcDateTime())
+    #: The request the waiver answers (who asked for it), when there was one.
+    request_id: Mapped[int | None] = mapped_column(ForeignKey("waiver_requests.id"))
+    #: The requirement had no evidence at all when it was waived (an admin's decision).
+    without_evidence: Mapped[bool] = mapped_column(default=False, server_default="0")
 
     requirement: Mapped[Requirement] = relationship(back_populates="waivers")
+
+
+class WaiverRequest(Base):
+    """An engineer's request that a requirement be waived. Append-only."""
+
+    __tablename__ = "waiver_requests"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    requirement_id: Mapped[int] = mapped_column(ForeignKey("requirements.id"), index=True)
+    requested_by: Mapped[str] = mapped_column(String(120))
+    reason: Mapped[str] = mapped_column(Text)
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
 
 
 class Event(Base):
@@ -420,6 +436,9 @@ class Document(Base):
     note: Mapped[str] = mapped_column(Text, default="")
     author: Mapped[str] = mapped_column(String(120))
     created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    #: SHA-256 of the row's other columns (:func:`qualplan.store.hashing.document_row_hash`),
+    #: set on insert and checked whenever the row is read.
+    row_hash: Mapped[str] = mapped_column(String(64))
 
 
 IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, Document)
@@ -589,8 +608,102 @@ class LevelForceLimit(Base):
     created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
 
 
+# --- withdrawal, supersession, baselines and sign-off (planning.approvals) ---------------
+
+
+class Withdrawal(Base):
+    """An environment or a level taken out of the life cycle, the derivations and the
+    default baselines, with the reason. Append-only: history keeps it."""
+
+    __tablename__ = "withdrawals"
+    __table_args__ = (
+        CheckConstraint("(environment_id IS NULL) <> (level_id IS NULL)",
+                        name="one_target"),
+    )
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    environment_id: Mapped[int | None] = mapped_column(ForeignKey("environments.id"),
+                                                       unique=True)
+    level_id: Mapped[int | None] = mapped_column(ForeignKey("levels.id"), unique=True)
+    reason: Mapped[str] = mapped_column(Text)
+    actor: Mapped[str] = mapped_column(String(120))
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+
+class LevelSupersession(Base):
+    """A level re-derived on the latest revisions of its inputs: the new level
+    supersedes the old one. Append-only."""
+
+    __tablename__ = "level_supersessions"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    old_level_id: Mapped[int] = mapped_column(ForeignKey("levels.id"), unique=True)
+    new_level_id: Mapped[int] = mapped_column(ForeignKey("levels.id"), unique=True)
+    #: Per breakpoint and overall differences in dB, as shown before storing.
+    difference: Mapped[dict[str, Any]] = mapped_column(JSON)
+    actor: Mapped[str] = mapped_column(String(120))
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+
+class DocumentLevel(Base):
+    """One level a specification document issues (the stored selection). Append-only."""
+
+    __tablename__ = "document_levels"
+    __table_args__ = (UniqueConstraint("document_id", "level_id"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    document_id: Mapped[int] = mapped_column(ForeignKey("documents.id"), index=True)
+    level_id: Mapped[int] = mapped_column(ForeignKey("levels.id"))
+    position: Mapped[int] = mapped_column(Integer)
+
+
+class SignoffRole(enum.StrEnum):
+    prepared = "prepared"
+    checked = "checked"
+    approved = "approved"
+
+
+class Signoff(Base):
+    """A user's signature of an issued document revision in one role. Append-only."""
+
+    __tablename__ = "signoffs"
+    __table_args__ = (
+        UniqueConstraint("document_id", "role"),
+        UniqueConstraint("document_id", "user_name"),
+    )
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    document_id: Mapped[int] = mapped_column(ForeignKey("documents.id"), index=True)
+    role: Mapped[SignoffRole] = mapped_column(_enum(SignoffRole, "signoff_role"))
+    user_name: Mapped[str] = mapped_column(String(120))
+    signed_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+
+IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, WaiverRequest, Withdrawal, LevelSupersession,
+                    DocumentLevel, Signoff)
+
+class LevelNotching(Base):
+    """Response-limit notching of a random or sine test level: the response limit at a
+    control or monitor location, the transmissibility it is reached through (with its
+    source), the notched input and each notch; the newest row of a level applies (an
+    approver's acceptance of notches deeper than allowed is the next row). Append-only."""
+
+    __tablename__ = "level_notchings"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    level_id: Mapped[int] = mapped_column(ForeignKey("levels.id"), index=True)
+    #: The inputs: location, limit (constant or table), transmissibility table and its
+    #: source, max_notch_db.
+    params: Mapped[dict[str, Any]] = mapped_column(JSON)
+    #: The notched input [Hz; g^2/Hz or g peak], the notches, acceptance.
+    result: Mapped[dict[str, Any]] = mapped_column(JSON)
+    level_hash: Mapped[str] = mapped_column(String(64))
+    author: Mapped[str] = mapped_column(String(120))
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+
 IMMUTABLE_MODELS = (*IMMUTABLE_MODELS, TransferRuleRevision, EnvironmentDerivation,
-                    LevelForceLimit)
+                    LevelForceLimit, LevelNotching)
 
 
 # Chunked multi-channel records (their own module; append-only like revisions).

@@ -18,6 +18,14 @@ from qualplan.store import models as m
 M = TypeVar("M", bound=m.Base)
 
 
+def lock_row(session: Session, model: type[m.Base], row_id: int) -> None:
+    """Lock one row until the transaction ends (``SELECT ... FOR UPDATE``; SQLAlchemy
+    leaves the clause out on SQLite, whose writers already go one at a time). Under
+    PostgreSQL's READ COMMITTED, the statements after the lock see what the previous
+    holder committed: numbering after it is safe."""
+    session.execute(select(model.id).where(model.id == row_id).with_for_update())
+
+
 class Repository(Generic[M]):
     model: type[M]
 
@@ -125,7 +133,16 @@ class RevisionRepository:
             .order_by(m.EnvironmentRevision.number)
         ).all()
 
+    def lock_environment(self, environment_id: int) -> None:
+        """Hold the environment's row until the transaction ends (``SELECT ... FOR
+        UPDATE`` on PostgreSQL), so that parallel revisions of it take turns and each
+        numbers after the last committed one. SQLite has one writer at a time (the
+        clause is left out there)."""
+        lock_row(self.session, m.Environment, environment_id)
+
     def next_number(self, environment_id: int) -> int:
+        """The next revision number, under the environment's row lock."""
+        self.lock_environment(environment_id)
         latest = self.session.scalar(
             select(func.max(m.EnvironmentRevision.number)).where(
                 m.EnvironmentRevision.environment_id == environment_id
@@ -159,6 +176,9 @@ class LevelRepository:
         return self.session.scalars(select(m.Level).filter_by(**filters).order_by(m.Level.id)).all()
 
     def next_number(self, product_id: int, name: str) -> int:
+        """The next level number of `name`, under the product's row lock (parallel
+        derivations of one product take turns; see :func:`lock_row`)."""
+        lock_row(self.session, m.Product, product_id)
         latest = self.session.scalar(
             select(func.max(m.Level.number)).where(
                 m.Level.product_id == product_id, m.Level.name == name

@@ -17,6 +17,7 @@ from sqlalchemy.exc import ArgumentError, NoSuchModuleError
 from sqlalchemy.orm import Session, sessionmaker
 
 import qualplan.store.guards  # noqa: F401  (registers the immutability guard)
+import qualplan.store.integrity  # noqa: F401  (registers the hash checks on read)
 
 SQLITE_BUSY_TIMEOUT_MS = 5000
 #: Execution option naming the SQLite BEGIN mode of a transaction ("" or "IMMEDIATE").

@@ -13,6 +13,7 @@ qualplan.serving's table, the same as the API's.
 from __future__ import annotations
 
 import csv
+import errno
 import io
 import re
 from collections.abc import Callable, Iterator
@@ -32,6 +33,7 @@ from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor
 from qualplan.planning.errors import (
     PlanningError,
+    StoredDataCorrupt,
     ValidationFailed,
 )
 from qualplan.planning.inputs import parse_number
@@ -206,6 +208,15 @@ def status_of_error(exc: PlanningError) -> int:
     return status_of(exc)[0]
 
 
+def _os_error(exc: OSError) -> tuple[str, str]:
+    """Title and message of a file that could not be written (a full disk named)."""
+    if exc.errno == errno.ENOSPC:
+        return ("Disk full", "no space left on the service's disk (ENOSPC): nothing was "
+                "saved; ask the administrator to free space, then send the form again")
+    return ("File error", f"a file could not be written or read "
+            f"({exc.strerror or type(exc).__name__}): nothing was saved")
+
+
 def page(ctx: Ctx, build: Callable[[], Response]) -> Response:
     """A GET page: signed-in users only; planning errors become a problem page."""
     if ctx.actor is None:
@@ -218,6 +229,10 @@ def page(ctx: Ctx, build: Callable[[], Response]) -> Response:
     except PlanningError as exc:
         code, title = status_of(exc)
         return problem_page(ctx, code, title, message_of(exc))
+    except StoredDataCorrupt as exc:
+        return problem_page(ctx, 500, "Stored data corrupt", str(exc))
+    except OSError as exc:
+        return problem_page(ctx, 503, *_os_error(exc))
 
 
 def action(
@@ -242,6 +257,12 @@ def action(
     try:
         target = do()
         ctx.db.flush()  # constraint failures surface here; the unit of work commits
+    except StoredDataCorrupt as exc:
+        ctx.db.rollback()
+        return problem_page(ctx, 500, "Stored data corrupt", str(exc))
+    except OSError as exc:
+        ctx.db.rollback()
+        return problem_page(ctx, 503, *_os_error(exc))
     except (PlanningError, ValidationError, ValueError) as exc:
         ctx.db.rollback()
         code = status_of_error(exc) if isinstance(exc, PlanningError) else 422

@@ -7,7 +7,7 @@ from fastapi import APIRouter, Request
 from fastapi.responses import Response
 from starlette.concurrency import run_in_threadpool
 
-from qualplan.planning import catalog, environments, imports
+from qualplan.planning import approvals, catalog, environments, imports
 from qualplan.planning import schemas as s
 from qualplan.planning.errors import PlanningError
 from qualplan.web import plots
@@ -78,6 +78,7 @@ def environment_page(ctx: Ctx, env_id: int, error=None, status=200, form=None):
         record_plots=plots.record_plots(env, env.revisions[-1] if env.revisions else None),
         comparison=comparison, compare_plot=compare_plot, compare_error=compare_error,
         value_units=sorted(imports.VALUE_UNITS[env.kind]), error=error, form=form or {},
+        withdrawn=environments.read_environment(ctx.db, env).withdrawn,
     )
 
 
@@ -97,6 +98,18 @@ async def revise_environment(env_id: int, request: Request, ctx: Ctx = CtxDep) -
             note=text(form, "note"),
             expected_revision=number(form, "expected_revision", integer=True),
             more_files=more_files(files, "file"))
+        return f"/environments/{env_id}"
+
+    return await run_in_threadpool(action, ctx, form, do, lambda msg, code: environment_page(
+        ctx, env_id, msg, code, form))
+
+
+@router.post("/environments/{env_id}/withdrawal")
+async def withdraw_environment(env_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
+    form, _ = await form_of(request)
+
+    def do() -> str:
+        approvals.withdraw_environment(ctx.db, ctx.actor, env_id, text(form, "reason"))
         return f"/environments/{env_id}"
 
     return await run_in_threadpool(action, ctx, form, do, lambda msg, code: environment_page(

@@ -7,7 +7,7 @@ from fastapi import APIRouter, Request
 from fastapi.responses import Response
 from starlette.concurrency import run_in_threadpool
 
-from qualplan.planning import catalog, levels, wording
+from qualplan.planning import approvals, catalog, levels, notching, transfers, wording
 from qualplan.planning import schemas as s
 from qualplan.web import plots
 from qualplan.web.common import (
@@ -59,23 +59,63 @@ async def derive_level(product_id: int, request: Request, ctx: Ctx = CtxDep) -> 
 # --- levels --------------------------------------------------------------------------------
 
 
-@router.get("/levels/{level_id}")
-def level(level_id: int, ctx: Ctx = CtxDep) -> Response:
-    def build() -> Response:
-        row = levels.level_by_id(ctx.db, level_id)
-        read = levels.read_level(ctx.db, row)
-        product = catalog.product_by_id(ctx.db, row.product_id)
-        return render(
-            ctx, "web/level.html", level=row, read=read, product=product,
+def level_page(ctx: Ctx, level_id: int, error=None, status=200, form=None) -> Response:
+    row = levels.level_by_id(ctx.db, level_id)
+    read = levels.read_level(ctx.db, row)
+    product = catalog.product_by_id(ctx.db, row.product_id)
+    return render(
+            ctx, "web/level.html", status, level=row, read=read, product=product,
+            error=error, form=form or {},
             steps=[wording.step_sentence(st, grade=row.grade.value if row.grade else None,
                                          policy=row.policy.name if row.policy else None)
                    for st in read.result.steps],
             plot=plots.level_plot(read) if row.kind in plots.QUANTITY else None,
             coverage=plots.coverage_plots(read), worst=plots.worst_margins(read),
             cov=read.result.coverage,
+            force_limit=transfers.level_force_limit(ctx.db, row.id),
+            notched=notching.level_notching(ctx.db, row.id),
         )
 
+
+@router.get("/levels/{level_id}")
+def level(level_id: int, ctx: Ctx = CtxDep) -> Response:
+    return page(ctx, lambda: level_page(ctx, level_id))
+
+
+@router.post("/levels/{level_id}/withdrawal")
+async def withdraw_level(level_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
+    form, _ = await form_of(request)
+
+    def do() -> str:
+        approvals.withdraw_level(ctx.db, ctx.actor, level_id, text(form, "reason"))
+        return f"/levels/{level_id}"
+
+    return await run_in_threadpool(action, ctx, form, do, lambda msg, code: level_page(
+        ctx, level_id, msg, code, form))
+
+
+@router.get("/levels/{level_id}/rederive")
+def rederive_preview(level_id: int, ctx: Ctx = CtxDep) -> Response:
+    """What re-deriving would change (per breakpoint and overall, in dB); nothing stored."""
+    def build() -> Response:
+        row = levels.level_by_id(ctx.db, level_id)
+        diff = levels.rederive_level(ctx.db, ctx.actor, level_id, store=False)
+        product = catalog.product_by_id(ctx.db, row.product_id)
+        return render(ctx, "web/rederive.html", level=row, product=product, diff=diff)
+
     return page(ctx, build)
+
+
+@router.post("/levels/{level_id}/rederive")
+async def rederive(level_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
+    form, _ = await form_of(request)
+
+    def do() -> str:
+        diff = levels.rederive_level(ctx.db, ctx.actor, level_id, store=True)
+        return f"/levels/{diff.new_level_id}"
+
+    return await run_in_threadpool(action, ctx, form, do, lambda msg, code: level_page(
+        ctx, level_id, msg, code, form))
 
 
 @router.get("/levels/{level_id}/breakpoints.csv")

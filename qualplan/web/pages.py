@@ -1,5 +1,6 @@
 """The web pages: one module per aggregate (sign-in, programs and products, environments,
-levels, requirements and evidence, documents), mounted here on the service's app.
+levels, requirements and evidence, documents, a product's modal summaries, estimates and
+loads package), mounted here on the service's app.
 
 Each route parses its form, calls planning with the session's Actor and renders what
 planning returns (web/common.py holds what they share).
@@ -13,11 +14,20 @@ from fastapi.staticfiles import StaticFiles
 
 from qualplan.config import Settings
 from qualplan.resources import data_dir
-from qualplan.web import auth, documents, environments, levels, programs, requirements, signin
+from qualplan.web import (
+    analysis,
+    auth,
+    documents,
+    environments,
+    levels,
+    programs,
+    requirements,
+    signin,
+)
 from qualplan.web.common import STATIC, PdfRenderer, WebState
 
 ROUTERS = (signin.router, programs.router, environments.router, levels.router,
-           requirements.router, documents.router)
+           requirements.router, documents.router, analysis.router)
 
 
 def mount(

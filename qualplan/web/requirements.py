@@ -9,7 +9,7 @@ from fastapi import APIRouter, Request
 from fastapi.responses import Response
 from starlette.concurrency import run_in_threadpool
 
-from qualplan.planning import audit, catalog, evidence, imports, levels, requirements
+from qualplan.planning import approvals, audit, catalog, evidence, imports, levels, requirements
 from qualplan.planning import schemas as s
 from qualplan.planning.errors import ValidationFailed
 from qualplan.web.common import (
@@ -107,6 +107,7 @@ def requirement_page(ctx: Ctx, req_id: int, error=None, status=200, form=None, w
     return render(
         ctx, "web/requirement.html", status, req=req, read=read,
         evidence=list(reversed(evidence.list_evidence(ctx.db, req.id))), waivers=req.waivers,
+        waiver_requests=approvals.waiver_requests(ctx.db, req.id),
         value_units=units, error=error, where=where, form=form or {},
     )
 
@@ -169,6 +170,19 @@ async def waive(req_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
 
     return await run_in_threadpool(action, ctx, form, do, lambda msg, code: requirement_page(
         ctx, req_id, msg, code, form, "waive"))
+
+
+@router.post("/requirements/{req_id}/waiver-requests")
+async def request_waiver(req_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
+    form, _ = await form_of(request)
+
+    def do() -> str:
+        approvals.request_waiver(ctx.db, ctx.actor, req_id,
+                                 s.WaiverRequestIn(reason=text(form, "reason")))
+        return f"/requirements/{req_id}"
+
+    return await run_in_threadpool(action, ctx, form, do, lambda msg, code: requirement_page(
+        ctx, req_id, msg, code, form, "request"))
 
 
 # --- the audit ---------------------------------------------------------------------------------

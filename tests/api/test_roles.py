@@ -95,8 +95,17 @@ def _patch_requirement(b):
                                         "headers": {"If-Match": '"1"'}}
 
 
-def _new_waiver(b):
+def _with_evidence(b):
+    """A new requirement with evidence recorded by the base engineer (an approver other
+    than its author may waive it under the two-person rule)."""
     r = _new_requirement(b)
+    b["eng"].post(f"/requirements/{r['id']}/evidence/inspection",
+                  {"passed": False, "note": "scratched"})
+    return r
+
+
+def _new_waiver(b):
+    r = _with_evidence(b)
     w = b["approver"].post(f"/requirements/{r['id']}/waivers", {
         "rationale": "accepted by the board",
         "expires_at": (datetime.now(UTC) + timedelta(days=1)).isoformat()}).json()
@@ -196,9 +205,20 @@ CASES = {
     "requirement status": Case("GET", "/requirements/{requirement_id}/status", "viewer",
                                lambda b: (f"/requirements/{R(b)}/status", {})),
     "waive": Case("POST", "/requirements/{requirement_id}/waivers", "approver", lambda b: (
-        f"/requirements/{_new_requirement(b)['id']}/waivers", {"json": {
+        f"/requirements/{_with_evidence(b)['id']}/waivers", {"json": {
             "rationale": "accepted by the board",
             "expires_at": (datetime.now(UTC) + timedelta(days=1)).isoformat()}}), 201),
+    "waive without evidence": Case(
+        "POST", "/requirements/{requirement_id}/waivers", "admin", lambda b: (
+            f"/requirements/{_new_requirement(b)['id']}/waivers", {"json": {
+                "rationale": "deferred to the system test",
+                "expires_at": (datetime.now(UTC) + timedelta(days=1)).isoformat()}}), 201),
+    "waiver request": Case("POST", "/requirements/{requirement_id}/waiver-requests",
+                           "engineer", lambda b: (
+        f"/requirements/{R(b)}/waiver-requests", {"json": {"reason": "cosmetic damage only"}}),
+        201),
+    "waiver requests": Case("GET", "/requirements/{requirement_id}/waiver-requests", "viewer",
+                            lambda b: (f"/requirements/{R(b)}/waiver-requests", {})),
     "waiver revoke": Case("POST", "/waivers/{waiver_id}/revoke", "approver", _new_waiver),
     "evidence list": Case("GET", "/requirements/{requirement_id}/evidence", "viewer",
                           lambda b: (f"/requirements/{R(b)}/evidence", {})),
@@ -243,7 +263,71 @@ CASES = {
     "audit pdf": Case("GET", "/documents/audit.pdf", "viewer", lambda b: (
         "/documents/audit.pdf", {"params": {"program_id": P(b)}})),
     "documents list": Case("GET", "/documents", "viewer", lambda b: ("/documents", {})),
+    "baseline": Case("GET", "/documents/baseline", "viewer", lambda b: (
+        "/documents/baseline", {"params": {"product_id": U(b)}})),
+    "specification issue": Case("POST", "/documents/specification", "engineer",
+                                lambda b: _issue_kw(b), 201),
+    "sign": Case("POST", "/documents/{document_id}/signoffs", "engineer", lambda b: (
+        f"/documents/{_issued(b)}/signoffs", {"json": {"role": "prepared"}}), 201),
+    "signoffs": Case("GET", "/documents/{document_id}/signoffs", "viewer", lambda b: (
+        f"/documents/{_issued(b, once=True)}/signoffs", {})),
+    "environment withdraw": Case("POST", "/environments/{environment_id}/withdrawal",
+                                 "engineer", lambda b: (
+        f"/environments/{_own_env(b)['id']}/withdrawal",
+        {"json": {"reason": "measured on the wrong fixture"}}), 201),
+    "level withdraw": Case("POST", "/levels/{level_id}/withdrawal", "engineer", lambda b: (
+        f"/levels/{_own_level(b)['id']}/withdrawal",
+        {"json": {"reason": "derived from the wrong revision"}}), 201),
+    "level rederive": Case("POST", "/levels/{level_id}/rederive", "engineer",
+                           lambda b: _revised_level(b)),
 }
+
+
+def _own_env(b):
+    """An environment of the base unit of its own (other cases revise the base one)."""
+    return b["eng"].post("/environments", {"product_id": U(b), "phase_id": b["phase"]["id"],
+                                           "name": unique("env"), "kind": "random",
+                                           "axis": "Z", "data": _fresh_psd()}).json()
+
+
+def _own_level(b, env=None):
+    env = env or _own_env(b)
+    rev = b["eng"].get(f"/environments/{env['id']}/revisions").json()["items"][0]
+    return b["eng"].post("/levels", {**b["analysis_level"]["recipe"], "name": unique("lvl"),
+                                     "revision_ids": [rev["id"]]}).json()
+
+
+def _revised_level(b):
+    env = _own_env(b)
+    level = _own_level(b, env)
+    b["eng"].post(f"/environments/{env['id']}/revisions", {"data": _fresh_psd(),
+                                                           "note": "new data"})
+    return f"/levels/{level['id']}/rederive", {}
+
+
+def _issue_kw(b):
+    """Issue a specification of a unit of its own (nothing else makes its level stale)."""
+    if "signed_unit" not in b:
+        unit = b["eng"].post("/products", {"program_id": P(b), "name": unique("signed")}).json()
+        env = b["eng"].post("/environments", {"product_id": unit["id"],
+                                              "phase_id": b["phase"]["id"],
+                                              "name": "launch random", "kind": "random",
+                                              "axis": "Z", "data": GEVS_ACC}).json()
+        rev = b["eng"].get(f"/environments/{env['id']}/revisions").json()["items"][0]
+        b["eng"].post("/levels", {**b["test_level"]["recipe"], "product_id": unit["id"],
+                                  "revision_ids": [rev["id"]]})
+        b["signed_unit"] = unit
+    return "/documents/specification", {"json": {"product_id": b["signed_unit"]["id"],
+                                                 "number": unique("TLS")}}
+
+
+def _issued(b, once: bool = False) -> int:
+    if once and "issued_id" in b:
+        return b["issued_id"]
+    path, kw = _issue_kw(b)
+    r = b["eng"].request("POST", path, 201, **kw)
+    b["issued_id"] = int(r.headers["x-document-id"])
+    return b["issued_id"]
 
 
 # --- modal summaries, estimates and the loads package (routers/modal.py) ----------------
@@ -407,7 +491,7 @@ def test_nothing_readable_without_a_token(client, callers, base):
     spec = client.get(f"{API}/openapi.json").json()
     fill = {"program_id": P(base), "product_id": U(base), "environment_id": E(base),
             "policy_id": base["policy"]["id"], "level_id": base["test_level"]["id"],
-            "requirement_id": R(base), "summary_id": 1, "estimate_id": 1}
+            "requirement_id": R(base), "summary_id": 1, "estimate_id": 1, "document_id": 1}
     for path, ops in spec["paths"].items():
         if "get" not in ops or path.endswith(("/health", "/openapi.json", "/docs")):
             continue
@@ -458,7 +542,8 @@ def test_pdf_documents_are_served_with_their_content_hash(client, callers, base,
     assert r.status_code == 200 and r.headers["content-type"] == "application/pdf"
     assert r.content.startswith(b"%PDF")
     with factory() as session:
-        content = documents.specification_content(session, base["unit"]["id"], grade)
+        content = documents.specification_content(session, base["unit"]["id"], grade,
+                                                  preview=True)
     assert r.headers["x-content-hash"] == content.content_hash()
     a = client.get("/api/v1/documents/audit.pdf", params={"program_id": base["program"]["id"]},
                    headers=viewer)

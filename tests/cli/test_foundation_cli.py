@@ -38,7 +38,13 @@ def test_init_then_current(fresh_db_url):
 
 def test_downgrade_then_commands_refuse_until_upgrade(fresh_db_url):
     assert run_cli("init", "--db", fresh_db_url).returncode == 0
-    assert run_cli("db", "downgrade", "0001", "--db", fresh_db_url).returncode == 0
+    # below the first data migration only with --yes: refused, one line, nothing done
+    refused = run_cli("db", "downgrade", "0001", "--db", fresh_db_url)
+    assert refused.returncode == 2, refused.stderr
+    assert refused.stderr.count("\n") == 1 and "--yes" in refused.stderr
+    assert "0003" in refused.stderr
+    assert migrate.head_revision() in run_cli("db", "current", "--db", fresh_db_url).stdout
+    assert run_cli("db", "downgrade", "0001", "--yes", "--db", fresh_db_url).returncode == 0
     out = run_cli("serve", "--db", fresh_db_url, "--port", "0")
     assert out.returncode != 0
     assert "behind" in out.stderr and "qualplan db upgrade" in out.stderr

@@ -118,20 +118,37 @@ def test_same_state_same_content_and_revisions(db, tmp_path):
     assert doc.input_hashes["levels"] == {str(x.id): x.level_hash
                                           for x in data["levels"].values()
                                           if x.grade is m.Grade.qualification}
-    events = session.scalars(select(m.Event).where(m.Event.entity == "document")).all()
+    events = session.scalars(select(m.Event).where(
+        m.Event.entity == "document", m.Event.entity_id == first.document_id)).all()
     assert [e.action for e in events] == ["issue"]
-    # A new revision of an input makes the levels stale: the content changes -> revision 2.
+    # A new revision of an input makes the levels on X stale: the default baseline leaves
+    # them out, a preview shows them marked, an issue naming them is refused.
     environments.revise_environment(session, eng, data["flight_x"].id, s.RevisionIn(
         data={"freq_hz": [20.0, 80.0, 350.0, 2000.0],
               "asd_g2_hz": [0.003, 0.015, 0.015, 0.0015]}, note="new flight data"))
-    c = documents.specification_content(session, unit.id, "qualification", note="stale inputs")
+    stale_ids = {x.level_id for x in documents.default_baseline(session, unit.id,
+                                                                 "qualification")
+                 if not x.taken}
+    assert data["levels"]["random"].id in stale_ids
+    preview = documents.specification_content(session, unit.id, "qualification", preview=True)
+    assert preview.preview and preview.revision == 0 and preview.history == []
+    assert any("STALE" in w for w in preview.warnings)
+    with pytest.raises(ValidationFailed, match="preview"):
+        documents.issue_document(session, eng, preview, PdfRenderer(), tmp_path)
+    with pytest.raises(ValidationFailed, match="may not be issued: environment 'flight X'"):
+        documents.specification_content(session, unit.id, "qualification",
+                                        level_ids=[data["levels"]["random"].id])
+    c = documents.specification_content(session, unit.id, "qualification", note="stale out")
+    assert {sec.level_id for sec in c.sections}.isdisjoint(stale_ids)
     assert c.revision == 2 and [h.revision for h in c.history] == [1, 2]
-    assert any("STALE" in w for w in c.warnings)
     with pytest.raises(Conflict, match="revision"):
         documents.issue_document(session, eng, c.model_copy(update={"revision": 3}),
                                  PdfRenderer(), tmp_path)
     second = documents.issue_document(session, eng, c, PdfRenderer(), tmp_path)
     assert second.new_revision and second.revision == 2
+    # the selection is stored with the revision, in the document's order
+    assert documents.document_levels(session, second.document_id) == [
+        sec.level_id for sec in c.sections]
 
 
 def test_a_grade_without_levels_is_refused(db):

@@ -187,3 +187,58 @@ def test_transfer_tables_are_append_only_and_downgrade_cleanly(fresh_db_url):
     with pytest.raises(DBAPIError, match="immutable"), engine.begin() as conn:
         conn.execute(text("DELETE FROM transfer_rule_revisions"))
     engine.dispose()
+
+
+def test_withdrawals_and_signoffs_are_append_only_and_downgrade_keeps_waivers(fresh_db_url):
+    """0009: withdrawals, supersessions, document levels, sign-offs and waiver requests
+    refuse UPDATE and DELETE (triggers); a withdrawal names exactly one target; downgrading
+    to 0007 removes them and the new waiver columns and keeps the waivers."""
+    migrate.upgrade(fresh_db_url, "0009")
+    engine = make_engine(fresh_db_url)
+    with engine.begin() as conn:
+        conn.execute(text("INSERT INTO programs (name, description, created_at, version) "
+                          "VALUES ('P', '', CURRENT_TIMESTAMP, 1)"))
+        pid = conn.execute(text("SELECT id FROM programs")).scalar_one()
+        conn.execute(text("INSERT INTO products (program_id, name, part_number, description, "
+                          "created_at, version) VALUES (:p, 'U', '', '', CURRENT_TIMESTAMP, 1)"),
+                     {"p": pid})
+        uid = conn.execute(text("SELECT id FROM products")).scalar_one()
+        conn.execute(text("INSERT INTO environments (product_id, name, kind, axis, units, "
+                          "source, provenance, created_at, version) VALUES (:u, 'e', 'random', "
+                          "'Z', 'g^2/Hz', '', '', CURRENT_TIMESTAMP, 1)"), {"u": uid})
+        eid = conn.execute(text("SELECT id FROM environments")).scalar_one()
+        conn.execute(text("INSERT INTO withdrawals (environment_id, reason, actor, created_at) "
+                          "VALUES (:e, 'replaced by issue C', 'eve', CURRENT_TIMESTAMP)"),
+                     {"e": eid})
+        conn.execute(text("INSERT INTO requirements (program_id, product_id, key, text, method, "
+                          "acceptance_criterion, required_margin, created_at, updated_at, "
+                          "version) VALUES (:p, :u, 'R-1', 't', 'inspection', '', 0, "
+                          "CURRENT_TIMESTAMP, CURRENT_TIMESTAMP, 1)"), {"p": pid, "u": uid})
+        rid = conn.execute(text("SELECT id FROM requirements")).scalar_one()
+        conn.execute(text("INSERT INTO waivers (requirement_id, approver, rationale, expires_at, "
+                          "created_at) VALUES (:r, 'alan', 'accepted by the board', "
+                          "CURRENT_TIMESTAMP, CURRENT_TIMESTAMP)"), {"r": rid})
+    assert engine.connect().execute(text("SELECT without_evidence FROM waivers")).scalar_one() \
+        in (0, False)
+    for sql in ("UPDATE withdrawals SET reason = 'x'", "DELETE FROM withdrawals"):
+        with pytest.raises(DBAPIError, match="immutable"), engine.begin() as conn:
+            conn.execute(text(sql))
+    with pytest.raises(DBAPIError), engine.begin() as conn:  # no target at all
+        conn.execute(text("INSERT INTO withdrawals (reason, actor, created_at) VALUES "
+                          "('why not, really', 'eve', CURRENT_TIMESTAMP)"))
+    migrate.downgrade(fresh_db_url, "0007")
+    engine.dispose()
+    names = set(inspect(engine).get_table_names())
+    assert not names & {"withdrawals", "level_supersessions", "document_levels", "signoffs",
+                        "waiver_requests"}
+    assert "request_id" not in {c["name"] for c in inspect(engine).get_columns("waivers")}
+    with engine.connect() as conn:
+        assert conn.execute(text("SELECT approver FROM waivers")).scalar_one() == "alan"
+    migrate.upgrade(fresh_db_url)
+    with engine.begin() as conn:
+        conn.execute(text("INSERT INTO withdrawals (environment_id, reason, actor, created_at) "
+                          "VALUES (:e, 'replaced by issue D', 'eve', CURRENT_TIMESTAMP)"),
+                     {"e": eid})
+    with pytest.raises(DBAPIError, match="immutable"), engine.begin() as conn:
+        conn.execute(text("DELETE FROM withdrawals"))
+    engine.dispose()

@@ -132,9 +132,9 @@ def test_engineer_story(new_page, users, world, shots):
     page.goto(req_url)
     waive = page.locator("#waive")
     waive.get_by_label("Rationale").fill("Shortfall accepted by the customer review board")
-    # a waiver runs at most ten years (requirements.MAX_WAIVER_DAYS): one year from today
+    # a waiver runs at most the policy's max_waiver_days (365 by default): 300 days here
     waive.get_by_label("Expires on").fill(
-        time.strftime("%Y-%m-%d", time.gmtime(time.time() + 365 * 86400)))
+        time.strftime("%Y-%m-%d", time.gmtime(time.time() + 300 * 86400)))
     waive.get_by_role("button", name="Waive").click()
     page.wait_for_load_state()
     assert "waived" in page.locator("dl.summary .status").text_content()

@@ -8,7 +8,7 @@ import time
 
 import pytest
 
-from qualplan.planning import access, environments, levels, policies, requirements
+from qualplan.planning import access, environments, evidence, levels, policies, requirements
 from qualplan.planning import schemas as s
 from qualplan.store import models as m
 from qualplan.store.session import unit_of_work
@@ -170,10 +170,17 @@ def test_waive_form_only_for_approvers(browserless, users, world, factory):
     assert r.status_code == 403 and "waiving a requirement needs the role approver" in r.text
     appr = browserless(users["approver"])
     assert "/waivers" in appr.get(f"/requirements/{req_id}").text
-    # a waiver runs at most ten years (requirements.MAX_WAIVER_DAYS): one year from today
-    next_year = time.strftime("%Y-%m-%d", time.gmtime(time.time() + 365 * 86400))
+    # a requirement with no evidence at all is waived by an admin only
+    soon = time.strftime("%Y-%m-%d", time.gmtime(time.time() + 300 * 86400))
     r = appr.post(f"/requirements/{req_id}/waivers", {"rationale": "accepted by the board",
-                                                     "expires_on": next_year})
+                                                     "expires_on": soon})
+    assert r.status_code == 403 and "no evidence at all" in r.text
+    with unit_of_work(factory) as session:
+        evidence.add_analysis(session, SETUP, req_id, s.AnalysisEvidenceIn(
+            applied=300.0, allowable=276.0, units="MPa"))
+    # a waiver runs at most the policy's max_waiver_days (365 by default): 300 days here
+    r = appr.post(f"/requirements/{req_id}/waivers", {"rationale": "accepted by the board",
+                                                     "expires_on": soon})
     assert r.status_code == 200 and "waived" in r.text
 
 

@@ -16,6 +16,7 @@ from qualplan.api.deps import (
 )
 from qualplan.api.errors import Problem
 from qualplan.api.models import Page
+from qualplan.planning import approvals
 from qualplan.planning import environments as envs
 from qualplan.planning import schemas as s
 
@@ -39,6 +40,16 @@ def create_environment(
 ):
     """Create an environment with its first revision (the data of `cmd.data`)."""
     return _read(session, envs.create_environment(session, actor, cmd), response)
+
+
+@router.post("/environments/{environment_id}/withdrawal", status_code=201,
+             response_model=s.WithdrawalRead)
+def withdraw_environment(environment_id: int, cmd: s.WithdrawIn, session: SessionDep,
+                         actor: ActorDep):
+    """Withdraw an environment (engineer or higher), with a reason: it leaves the life
+    cycle, the derivations and the default baselines; what used it becomes stale."""
+    return s.WithdrawalRead.model_validate(
+        approvals.withdraw_environment(session, actor, environment_id, cmd.reason))
 
 
 @router.get("/environments", response_model=Page[s.EnvironmentRead])

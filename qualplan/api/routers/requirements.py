@@ -8,7 +8,7 @@ from fastapi import APIRouter, Response
 
 from qualplan.api.deps import ActorDep, PageDep, ReaderDep, SessionDep, VersionDep, etag
 from qualplan.api.models import Page, RequirementPatch, RequirementStatus
-from qualplan.planning import catalog, requirements
+from qualplan.planning import approvals, catalog, requirements
 from qualplan.planning import schemas as s
 
 router = APIRouter(tags=["requirements"])
@@ -101,8 +101,28 @@ def requirement_status(requirement_id: int, session: SessionDep, _: ReaderDep):
     tags=["waivers"],
 )
 def waive(requirement_id: int, cmd: s.WaiverIn, session: SessionDep, actor: ActorDep):
-    """An approver waives the requirement until `expires_at`."""
+    """An approver waives the requirement until `expires_at` (within the policy's
+    `max_waiver_days`); under the policy's two-person rule the approver is neither an
+    author of its evidence nor the requester; with no evidence at all, an admin."""
     return s.WaiverRead.model_validate(requirements.waive(session, actor, requirement_id, cmd))
+
+
+@router.post("/requirements/{requirement_id}/waiver-requests", status_code=201,
+             response_model=s.WaiverRequestRead, tags=["waivers"])
+def request_waiver(requirement_id: int, cmd: s.WaiverRequestIn, session: SessionDep,
+                   actor: ActorDep):
+    """Ask that the requirement be waived (engineer or higher); an approver other than
+    the requester (and the evidence's authors, under a two-person policy) decides."""
+    return s.WaiverRequestRead.model_validate(
+        approvals.request_waiver(session, actor, requirement_id, cmd))
+
+
+@router.get("/requirements/{requirement_id}/waiver-requests",
+            response_model=list[s.WaiverRequestRead], tags=["waivers"])
+def waiver_requests(requirement_id: int, session: SessionDep, _: ReaderDep):
+    requirements.requirement_by_id(session, requirement_id)
+    return [s.WaiverRequestRead.model_validate(x)
+            for x in approvals.waiver_requests(session, requirement_id)]
 
 
 @router.post("/waivers/{waiver_id}/revoke", response_model=s.WaiverRead, tags=["waivers"])

@@ -1,5 +1,6 @@
 """Environments down the product tree: mountings, transfer rules, transferred
-environments, the environments that apply to a product, and force limits."""
+environments, the environments that apply to a product, force limits and response-limit
+notching of test levels."""
 
 from __future__ import annotations
 
@@ -8,8 +9,9 @@ from pydantic import BaseModel, Field
 
 from qualplan.api.deps import ActorDep, ReaderDep, SessionDep
 from qualplan.planning import environments as envs
+from qualplan.planning import notching, transfers
 from qualplan.planning import schemas as s
-from qualplan.planning import transfers
+from qualplan.planning.errors import NotFound
 
 router = APIRouter(tags=["transfers"])
 
@@ -87,3 +89,29 @@ def accept_notches(level_id: int, cmd: NotchAcceptance, session: SessionDep, act
     level's force limit and in the event log)."""
     row = transfers.accept_notches(session, actor, level_id, cmd.rationale)
     return transfers.ForceLimitRead.model_validate(row.result)
+
+
+@router.post("/levels/{level_id}/notching", status_code=201,
+             response_model=notching.NotchingRead)
+def set_notching(level_id: int, cmd: notching.NotchingIn, session: SessionDep, actor: ActorDep):
+    """Notch a random or sine test level against a response limit at a control or monitor
+    location, through a transmissibility (low-level survey or analysis): stored with the
+    level and printed in its specification and its notched CSV table."""
+    return notching.read_notching(session, notching.set_notching(session, actor, level_id, cmd))
+
+
+@router.get("/levels/{level_id}/notching", response_model=notching.NotchingRead)
+def get_notching(level_id: int, session: SessionDep, _: ReaderDep):
+    """The level's newest response-limit notching (404 when it has none)."""
+    out = notching.level_notching(session, level_id)
+    if out is None:
+        raise NotFound("response-limit notching of level", level_id)
+    return out
+
+
+@router.post("/levels/{level_id}/notching/acceptance", status_code=201,
+             response_model=notching.NotchingRead)
+def accept_notching(level_id: int, cmd: NotchAcceptance, session: SessionDep, actor: ActorDep):
+    """An approver accepts response-limit notches deeper than allowed (recorded)."""
+    return notching.read_notching(session, notching.accept_notching(session, actor, level_id,
+                                                                    cmd.rationale))
