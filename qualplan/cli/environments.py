@@ -38,8 +38,10 @@ env_app = group("env", "Environments and their revisions.")
 # --- environments -----------------------------------------------------------------------
 
 FileOption = Annotated[
-    Path | None,
-    typer.Option("--file", help="Data file (.json, .csv; records: .csv .npy .wav .mat .uff)."),
+    list[Path] | None,
+    typer.Option("--file", help="Data file (.json, .csv; records: .csv .npy .wav .mat .uff); "
+                 "repeat for several runs of one condition (one revision, exposure counted "
+                 "once)."),
 ]
 DataOption = Annotated[str | None, typer.Option("--data", help="The data as inline JSON.")]
 UnitsOption = Annotated[
@@ -51,9 +53,9 @@ RateOption = Annotated[
 ]
 
 
-def _json_data(file: Path | None, data: str | None) -> dict[str, Any] | None:
+def _json_data(file: list[Path] | None, data: str | None) -> dict[str, Any] | None:
     """The --data JSON, or None when the data come from --file (exactly one is given)."""
-    if (file is None) == (data is None):
+    if (not file) == (data is None):
         raise CliError("give the data with exactly one of --file or --data")
     if data is None:
         return None
@@ -97,7 +99,8 @@ def env_add(
                     product_id=prod.id, phase_id=phase_id, name=name, kind=kind, axis=axis,
                     source=source, provenance=provenance, note=note,
                     reading=s.FileReading(value_units=units, sample_rate_hz=sample_rate_hz)),
-                file.name, _read_file(file))
+                file[0].name, _read_file(file[0]),
+                more_files=[(f.name, _read_file(f)) for f in file[1:]])
         else:
             env = environments.create_environment(session, local_actor(), s.EnvironmentCreate(
                 product_id=prod.id, phase_id=phase_id, name=name, kind=kind, axis=axis,
@@ -138,9 +141,10 @@ def env_revise(
     with work(db) as session:
         if payload is None:
             rev = environments.revise_environment_from_file(
-                session, local_actor(), environment_id, file.name, _read_file(file),
+                session, local_actor(), environment_id, file[0].name, _read_file(file[0]),
                 s.FileReading(value_units=units, sample_rate_hz=sample_rate_hz), note=note,
-                expected_revision=expected_revision)
+                expected_revision=expected_revision,
+                more_files=[(f.name, _read_file(f)) for f in file[1:]])
         else:
             rev = environments.revise_environment(
                 session, local_actor(), environment_id,

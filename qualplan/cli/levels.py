@@ -56,6 +56,16 @@ def level_derive(
         float | None,
         typer.Option(help="Natural frequency for the 3-sigma load factor (analysis) [Hz]."),
     ] = None,
+    window: Annotated[str, typer.Option(
+        help="Record analysis window: hann, hamming, boxcar, blackman, flattop.")] = "hann",
+    resolution_hz: Annotated[float | None, typer.Option(
+        help="Record analysis line spacing [Hz] (default: 4 lines below the policy band's "
+        "lower edge).")] = None,
+    segment_s: Annotated[float | None, typer.Option(
+        help="Record analysis segment length [s] (instead of --resolution-hz).")] = None,
+    overlap: Annotated[float, typer.Option(help="Segment overlap [fraction].")] = 0.5,
+    maximax_window_s: Annotated[float | None, typer.Option(
+        help="Length of each maximax window [s] (default max(1 s, 4 segments)).")] = None,
     program: ProgramOption = None,
     db: DbOption = None,
     as_json: JsonOption = False,
@@ -87,6 +97,9 @@ def level_derive(
             max_breakpoints=max_breakpoints,
             policy_id=pol.id,
             load_factor_fn_hz=load_factor_fn_hz,
+            analysis=s.RecordAnalysis(window=window, resolution_hz=resolution_hz,
+                                      segment_s=segment_s, overlap=overlap,
+                                      maximax_window_s=maximax_window_s),
         )
         with progress("deriving the level and its FDS/ERS coverage"):
             level = levels.derive_level(session, local_actor(), recipe)
@@ -142,10 +155,16 @@ def _print_level(level: s.LevelRead) -> None:
             )
     if r.kind == "random" and r.load_factor is not None:
         lf = r.load_factor
-        typer.echo(
-            f"3-sigma load factor at {wording.frequency(lf.fn_hz)}, Q = {wording.number(lf.q)}: "
-            f"{lf.three_sigma_g:.2f} g (Miles {lf.miles_grms:.2f} g rms)"
-        )
+        where = f"{wording.frequency(lf.fn_hz)}, Q = {wording.number(lf.q)}"
+        if lf.exact_grms is None:  # a row of the first release: Miles only
+            typer.echo(f"3-sigma load factor at {where}: {lf.three_sigma_g:.2f} g "
+                       f"(Miles' approximation, {lf.miles_grms:.2f} g rms)")
+        else:
+            typer.echo(
+                f"3-sigma load factor at {where}: {lf.three_sigma_g:.2f} g "
+                f"(exact SDOF response {lf.exact_grms:.3f} g rms; Miles' approximation "
+                f"{lf.miles_grms:.3f} g rms, {lf.miles_difference_pct:+.1f} %)")
+        typer.echo(f"  caution: {lf.caution}")
     typer.echo("derivation:")
     for st in r.steps:
         typer.echo("  " + wording.step_sentence(st, grade=level.grade.value if level.grade

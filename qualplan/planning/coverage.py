@@ -23,6 +23,7 @@ from qualplan.dynamics import equivalence as core_eq
 from qualplan.dynamics import extreme as core_ers
 from qualplan.dynamics import fatigue as core_fds
 from qualplan.dynamics import shock_synthesis as core_synth
+from qualplan.dynamics import signal as core_signal
 from qualplan.dynamics import sine as core_sine
 from qualplan.dynamics import srs as core_srs
 from qualplan.dynamics.errors import AccuracyWarning
@@ -33,8 +34,11 @@ from qualplan.planning.lifecycle import LifeItem, current_test_levels, exposure,
 from qualplan.store import models as m
 
 K = m.EnvironmentKind
-#: Natural frequencies kept for a sampled record: below this fraction of its sample rate.
+#: Natural frequencies of a sampled record: below RECORD_FN_LIMIT of its sample rate the
+#: ramp-invariant filter; up to RECORD_FN_MAX the same on the record upsampled 4x
+#: (band-limited polyphase interpolation); above, none.
 RECORD_FN_LIMIT = 0.1
+RECORD_FN_MAX = 0.2
 
 
 @dataclass(frozen=True)
@@ -63,14 +67,22 @@ def _sweep(label, sweep: core_sine.Sweep, times: float, fn, q, bs) -> Spectra:
 
 
 def _record(label, x, dt, times, fn, q, bs) -> Spectra:
+    fn = np.asarray(fn, float)
     keep = fn < RECORD_FN_LIMIT / dt
+    high = ~keep & (fn <= RECORD_FN_MAX / dt * (1 + 1e-9))
     fds = {b: np.zeros_like(fn) for b in bs}
     ers = np.zeros_like(fn)
-    if keep.any():
+    for sel, up in ((keep, 1), (high, 4)):
+        if not sel.any():
+            continue
+        # fs/10..fs/5: the record upsampled 4x (band-limited), so the ramp-invariant
+        # filter sees at least 20 samples per period
+        xs = x if up == 1 else core_signal.upsample(x, up)
         for b in bs:
             # free decay after the record: a shock's residual response does damage too
-            fds[b][keep] = times * core_fds.fds_time(x, dt, fn[keep], q, b, free_decay=True)
-        ers[keep] = core_ers.ers_shock(x, dt, fn[keep], q)
+            fds[b][sel] = times * core_fds.fds_time(xs, dt / up, fn[sel], q, b,
+                                                    free_decay=True)
+        ers[sel] = core_ers.ers_shock(xs, dt / up, fn[sel], q)
     return Spectra(label, fds, ers)
 
 
@@ -90,6 +102,13 @@ def spectra_of_environment(item: LifeItem, fn, q: float, bs) -> Spectra:
         return _sweep(label, envdata.sweep_of(spec), amount, fn, q, bs)
     if env.kind is K.shock:
         return _shock(label, spec["freq_hz"], spec["accel_g"], spec["q"], amount, fn, q, bs)
+    if "run_samples" in spec:
+        # runs of one condition: the worst run's damage per second x the exposure, once
+        seconds = amount * np.asarray(rev.data).size * spec["dt_s"]
+        parts = [_record(label, x, spec["dt_s"], seconds / (x.size * spec["dt_s"]), fn, q, bs)
+                 for x in envdata.runs_of(spec, rev.data)]
+        return Spectra(label, {b: np.max([p.fds[b] for p in parts], axis=0) for b in bs},
+                       np.max([p.ers for p in parts], axis=0))
     return _record(label, np.asarray(rev.data), spec["dt_s"], amount, fn, q, bs)
 
 

@@ -96,14 +96,19 @@ def normalise(
     if not isinstance(data, dict):
         raise ValidationFailed("data", data, "must be an object")
     kind = EnvironmentKind(kind)
+    if kind is EnvironmentKind.random and "runs" in data:
+        return _random_runs(data), None
+    if kind is EnvironmentKind.time_history and "run_samples" in data:
+        return _record_runs(data, array)
     if kind is EnvironmentKind.random:
-        _known_keys(data, {"freq_hz", "asd_g2_hz", "duration_s"})
+        _known_keys(data, {"freq_hz", "asd_g2_hz", "duration_s", "share"})
         f, a = _floats(data, "freq_hz"), _floats(data, "asd_g2_hz")
         with core_errors():
             core_psd.check_psd(f, a)
         spec = {"freq_hz": f, "asd_g2_hz": a}
         if (d := _optional_positive(data, "duration_s")) is not None:
             spec["duration_s"] = d
+        _share(data, spec)
         return spec, None
     if kind is EnvironmentKind.shock:
         _known_keys(data, {"freq_hz", "accel_g", "q", "count"})
@@ -122,13 +127,14 @@ def normalise(
             spec["count"] = count
         return spec, None
     if kind is EnvironmentKind.sine:
-        _known_keys(data, {"bands", "sweep"})
+        _known_keys(data, {"bands", "sweep", "share"})
         spec = {"bands": _sine_bands(data), "sweep": _sweep(data.get("sweep") or {})}
+        _share(data, spec)
         sweep_of(spec)  # full check through the core
         _check_sine_plausible(spec)
         return spec, None
     # time history
-    _known_keys(data, {"dt_s", "accel_g", "duration_s"})
+    _known_keys(data, {"dt_s", "accel_g", "duration_s", "share"})
     dt = _optional_positive(data, "dt_s")
     if dt is None:
         raise ValidationFailed("data.dt_s", data.get("dt_s"), "is required (sample interval [s])")
@@ -144,7 +150,130 @@ def normalise(
     spec = {"dt_s": dt}
     if (d := _optional_positive(data, "duration_s")) is not None:
         spec["duration_s"] = d
+    _share(data, spec)
     return spec, samples
+
+
+def _random_runs(data: dict) -> dict[str, Any]:
+    """Several measured spectra (runs) of one condition: ``{"runs": [{"freq_hz",
+    "asd_g2_hz"}, ...]}``. Stored with the runs and, as the environment's spectrum, their
+    maximum envelope; the exposure is the condition's, counted once."""
+    _known_keys(data, {"runs", "duration_s", "share"})
+    runs = data["runs"]
+    if not isinstance(runs, list) or len(runs) < 2:
+        raise ValidationFailed("data.runs", runs if not isinstance(runs, list) else len(runs),
+                               "must list at least 2 runs (one run: give freq_hz and asd_g2_hz)")
+    out = []
+    for i, run in enumerate(runs):
+        if not isinstance(run, dict):
+            raise ValidationFailed(f"data.runs[{i}]", run, "must be an object")
+        try:
+            spec, _ = normalise(EnvironmentKind.random, {k: run.get(k) for k in (
+                "freq_hz", "asd_g2_hz")})
+        except ValidationFailed as exc:
+            raise ValidationFailed(f"data.runs[{i}].{exc.field.removeprefix('data.')}",
+                                   exc.value, exc.rule) from exc
+        out.append(spec)
+    with core_errors():
+        f, a = core_psd.envelope([(r["freq_hz"], r["asd_g2_hz"]) for r in out])
+    spec = {"freq_hz": [float(x) for x in f], "asd_g2_hz": [float(x) for x in a],
+            "runs": out}
+    if (d := _optional_positive(data, "duration_s")) is not None:
+        spec["duration_s"] = d
+    _share(data, spec)
+    return spec
+
+
+def _record_runs(data: dict, array: np.ndarray | None) -> tuple[dict[str, Any], np.ndarray]:
+    """Several records (runs) of one condition at one sample rate, stored end to end:
+    ``{"dt_s", "accel_g" (all samples), "run_samples": [n1, n2, ...]}``."""
+    counts = data["run_samples"]
+    if (not isinstance(counts, list) or len(counts) < 2
+            or not all(isinstance(n, int) and not isinstance(n, bool) and n >= 2
+                       for n in counts)):
+        raise ValidationFailed("data.run_samples", counts,
+                               "must list at least 2 runs of at least 2 samples each")
+    spec, samples = normalise(EnvironmentKind.time_history,
+                              {k: v for k, v in data.items() if k != "run_samples"}, array)
+    if sum(counts) != samples.size:
+        raise ValidationFailed("data.run_samples", counts,
+                               f"sum to {sum(counts)} samples, the runs hold {samples.size}")
+    spec["run_samples"] = counts
+    return spec, samples
+
+
+def runs_of(spec: dict[str, Any], array: np.ndarray | None) -> list:
+    """The runs of a revision: (freq_hz, asd_g2_hz) pairs of a random environment, sample
+    arrays of a record; one run when the revision holds one."""
+    if "runs" in spec:
+        return [(np.asarray(r["freq_hz"]), np.asarray(r["asd_g2_hz"])) for r in spec["runs"]]
+    if "run_samples" in spec:
+        edges = np.cumsum([0, *spec["run_samples"]])
+        x = np.asarray(array)
+        return [x[a:b] for a, b in zip(edges[:-1], edges[1:], strict=True)]
+    if "freq_hz" in spec and "asd_g2_hz" in spec:
+        return [(np.asarray(spec["freq_hz"]), np.asarray(spec["asd_g2_hz"]))]
+    return [np.asarray(array)]
+
+
+def _share(data: dict, spec: dict[str, Any]) -> None:
+    """The environment's share of its phase: a fraction of the phase's time, 0 < share <= 1
+    (absent: the whole phase)."""
+    if data.get("share") is None:
+        return
+    share = _number("data.share", data["share"])
+    if not 0 < share <= 1:
+        raise ValidationFailed("data.share", share, "must be a fraction of the phase's time, "
+                               "0 < share <= 1")
+    spec["share"] = share
+
+
+#: Relative slack of the exposure check (durations printed to 3-4 digits; common practice).
+EXPOSURE_SLACK = 1e-6
+
+
+def own_duration_s(kind: EnvironmentKind, spec: dict[str, Any], samples: int | None
+                   ) -> tuple[float | None, str]:
+    """How long one occurrence of the environment itself lasts [s], and how that was found:
+    a random spectrum's stated duration, a sweep sequence's sweep time x sweeps, a record's
+    length (x its repeats when a duration is stated). None when the data state no time."""
+    kind = EnvironmentKind(kind)
+    if kind is EnvironmentKind.random:
+        d = spec.get("duration_s")
+        return d, "stated duration"
+    if kind is EnvironmentKind.sine:
+        sweep = sweep_of(spec)
+        return sweep.duration_s, (f"{spec['sweep']['sweeps']} sweeps x "
+                                  f"{sweep.duration_s / spec['sweep']['sweeps']:.4g} s")
+    if kind is EnvironmentKind.time_history and samples:
+        # runs are samples of one condition: the longest run is the condition's length
+        record_s = max(spec.get("run_samples", [samples])) * spec["dt_s"]
+        d = spec.get("duration_s")
+        if d is not None and d > record_s:
+            return d, f"record of {record_s:.4g} s repeated for the stated duration"
+        return record_s, f"record of {record_s:.4g} s"
+    return None, ""
+
+
+def check_exposure(kind: EnvironmentKind, spec: dict[str, Any], samples: int | None,
+                   phase_name: str | None, phase_duration_s: float | None,
+                   field: str = "data") -> None:
+    """Refuse an environment whose own duration exceeds its share of its phase
+    (the life would hold more of it than the phase lasts)."""
+    if phase_duration_s is None:
+        return
+    own, how = own_duration_s(kind, spec, samples)
+    if own is None:
+        return
+    share = spec.get("share", 1.0)
+    allowed = share * phase_duration_s
+    if own > allowed * (1 + EXPOSURE_SLACK):
+        raise ValidationFailed(
+            field, f"{own:.6g} s",
+            f"the environment lasts {own:.6g} s ({how}) per occurrence, more than its "
+            f"share of phase {phase_name!r}: {share:g} x {phase_duration_s:.6g} s = "
+            f"{allowed:.6g} s; lower the duration or the sweeps, or raise the share or the "
+            "phase's duration")
 
 
 #: Units a band's amplitude may be given in, per quantity -> factor to the stored unit

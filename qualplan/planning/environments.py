@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
@@ -30,6 +31,9 @@ def create_environment(
         if phase.program_id != product.program_id:
             raise ValidationFailed("phase_id", cmd.phase_id, "the phase belongs to another program")
     spec, data = envdata.normalise(cmd.kind, cmd.data, array)
+    if cmd.phase_id is not None:
+        envdata.check_exposure(cmd.kind, spec, None if data is None else data.size,
+                               phase.name, phase.duration_s)
     env = _add_unique(
         session,
         m.Environment(
@@ -58,8 +62,8 @@ def create_environment(
     return env
 
 
-def _file_data(kind: m.EnvironmentKind, filename: str, content: bytes,
-               how: s.FileReading) -> tuple[dict[str, Any], np.ndarray | None]:
+def _one_file(kind: m.EnvironmentKind, filename: str, content: bytes,
+              how: s.FileReading) -> tuple[dict[str, Any], np.ndarray | None]:
     from qualplan.planning import imports
 
     return imports.environment_data_from_file(
@@ -68,15 +72,60 @@ def _file_data(kind: m.EnvironmentKind, filename: str, content: bytes,
         calibration=how.calibration, variable=how.variable)
 
 
+def _file_data(kind: m.EnvironmentKind, filename: str, content: bytes, how: s.FileReading,
+               more: Sequence[tuple[str, bytes]] = ()
+               ) -> tuple[dict[str, Any], np.ndarray | None]:
+    """The data of one file, or of several files as runs of one condition (measured
+    spectra or records at one sample rate; docs/methods/exposure.md)."""
+    files = [(filename, content), *more]
+    if len(files) == 1:
+        return _one_file(kind, filename, content, how)
+    if kind not in (m.EnvironmentKind.random, m.EnvironmentKind.time_history):
+        raise ValidationFailed("file", [f for f, _ in files],
+                               f"several files are runs of one condition: measured spectra "
+                               f"or records, not {kind.value} data")
+    read = []
+    for name, body in files:
+        if not name:
+            raise ValidationFailed("file", None, "choose a file to upload")
+        read.append((name, *_one_file(kind, name, body, how)))
+    if kind is m.EnvironmentKind.random:
+        runs = []
+        for name, data, _ in read:
+            if "runs" in data or set(data) - {"freq_hz", "asd_g2_hz"}:
+                raise ValidationFailed("file", name, "a run file holds one spectrum (freq_hz, "
+                                       "asd_g2_hz) and nothing else")
+            runs.append(data)
+        return {"runs": runs}, None
+    dts, arrays = [], []
+    for name, data, array in read:
+        spec, samples = envdata.normalise(kind, data, array)
+        if "run_samples" in spec:
+            raise ValidationFailed("file", name, "a run file holds one record")
+        dts.append((name, spec["dt_s"]))
+        arrays.append(samples)
+    first = dts[0][1]
+    for name, dt in dts[1:]:
+        if abs(dt - first) > 1e-9 * first:
+            raise ValidationFailed("file", name, f"sampled at {1 / dt:.6g} Hz, the first run "
+                                   f"({dts[0][0]}) at {1 / first:.6g} Hz; runs of one "
+                                   "revision share one sample rate")
+    return ({"dt_s": first, "run_samples": [int(a.size) for a in arrays]},
+            np.concatenate(arrays))
+
+
 def create_environment_from_file(session: Session, actor: Actor, cmd: s.EnvironmentFromFile,
-                                 filename: str, content: bytes) -> m.Environment:
+                                 filename: str, content: bytes, *,
+                                 more_files: Sequence[tuple[str, bytes]] = ()
+                                 ) -> m.Environment:
     """Create an environment from a file's content (the one use case behind the API's
-    upload, the web form and ``qualplan env add --file``)."""
+    upload, the web form and ``qualplan env add --file``); with `more_files`, the files
+    are runs of one condition in one revision."""
     product = get(session, m.Product, cmd.product_id, "product")
     require_for(session, actor, product, m.Role.engineer, "creating an environment")
     if not filename:
         raise ValidationFailed("file", None, "choose a file to upload")
-    data, array = _file_data(cmd.kind, filename, content, cmd.reading)
+    data, array = _file_data(cmd.kind, filename, content, cmd.reading, more_files)
     create = s.EnvironmentCreate(
         product_id=cmd.product_id, phase_id=cmd.phase_id, name=cmd.name, kind=cmd.kind,
         axis=cmd.axis, source=cmd.source,
@@ -86,14 +135,16 @@ def create_environment_from_file(session: Session, actor: Actor, cmd: s.Environm
 
 def revise_environment_from_file(session: Session, actor: Actor, environment_id: int,
                                  filename: str, content: bytes, how: s.FileReading, *,
-                                 note: str = "", expected_revision: int | None = None
+                                 note: str = "", expected_revision: int | None = None,
+                                 more_files: Sequence[tuple[str, bytes]] = ()
                                  ) -> m.EnvironmentRevision:
-    """A new revision read from a file's content (API upload, web form, CLI)."""
+    """A new revision read from a file's content (API upload, web form, CLI); with
+    `more_files`, the files are runs of one condition."""
     if not filename:
         raise ValidationFailed("file", None, "choose a file to upload")
     env = get(session, m.Environment, environment_id, "environment")
     require_for(session, actor, env, m.Role.engineer, "revising an environment")
-    data, array = _file_data(env.kind, filename, content, how)
+    data, array = _file_data(env.kind, filename, content, how, more_files)
     return revise_environment(session, actor, env.id, s.RevisionIn(
         data=data, note=note, expected_revision=expected_revision), array)
 
@@ -121,6 +172,9 @@ def revise_environment(
     ):
         raise VersionMismatch("environment", env.id, cmd.expected_revision, latest.number)
     spec, data = envdata.normalise(env.kind, cmd.data, array)
+    if env.phase is not None:
+        envdata.check_exposure(env.kind, spec, None if data is None else data.size,
+                               env.phase.name, env.phase.duration_s)
     if latest is not None and revision_hash(spec, data) == latest.content_hash:
         raise Conflict(f"the data are identical to revision {latest.number}; nothing to revise")
     return _append_revision(session, actor, env, spec, data, cmd.note)

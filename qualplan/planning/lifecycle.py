@@ -13,6 +13,7 @@ import numpy as np
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from qualplan.planning import envdata
 from qualplan.planning.errors import ValidationFailed
 from qualplan.planning.transfers import replaced_environment_ids
 from qualplan.planning.withdrawals import withdrawn_environment_ids, withdrawn_level_ids
@@ -71,19 +72,27 @@ def life_cycle(session: Session, product: m.Product, axis: m.Axis) -> list[LifeI
 
 
 def exposure(env: m.Environment, rev: m.EnvironmentRevision) -> tuple[float, str]:
-    """How much of an environment the life holds: seconds (random), sweeps (sine),
-    shocks (shock) or passes of the record (time history)."""
+    """How much of an environment the life holds: seconds (random), sweep sequences
+    (sine), shocks (shock) or passes of the record (time history).
+
+    Rule (docs/methods/exposure.md): per occurrence of its phase an environment lasts its
+    stated ``duration_s``, else its ``share`` of the phase's duration (default the whole
+    phase); a shock happens ``count`` times; a sine sweep sequence runs once. The life
+    holds that times the phase's occurrences.
+    """
     phase = env.phase
     occurrences = phase.occurrences if phase else 1
+    share = rev.spec.get("share", 1.0)
+    phase_share_s = share * phase.duration_s if phase else None
     if env.kind is K.shock:
         return float(rev.spec.get("count", 1) * occurrences), "shocks"
     if env.kind is K.sine:
         return float(occurrences), "sweep sequences"
     if env.kind is K.time_history:
         record_s = np.asarray(rev.data).size * rev.spec["dt_s"]
-        per = rev.spec.get("duration_s", phase.duration_s if phase else record_s)
+        per = rev.spec.get("duration_s", phase_share_s if phase else record_s)
         return float(per * occurrences / record_s), "passes of the record"
-    per = rev.spec.get("duration_s", phase.duration_s if phase else None)
+    per = rev.spec.get("duration_s", phase_share_s)
     if per is None:
         raise ValidationFailed(
             "duration_s", None, f"environment {env.name!r} has neither a duration nor a phase"
@@ -91,9 +100,25 @@ def exposure(env: m.Environment, rev: m.EnvironmentRevision) -> tuple[float, str
     return float(per * occurrences), "s"
 
 
+def check_exposure(item: LifeItem, field: str = "revision_ids") -> None:
+    """Refuse (at derivation) an environment lasting longer than its share of its phase."""
+    env, rev = item.environment, item.revision
+    if env.phase is None:
+        return
+    samples = None if rev.data is None else np.asarray(rev.data).size
+    envdata.check_exposure(env.kind, rev.spec, samples, env.phase.name,
+                           env.phase.duration_s, field=f"{field} ({item.label})")
+
+
 def exposure_s(item: LifeItem) -> float:
-    """Exposure time of a random environment or a record over the life [s]."""
+    """Exposure time of a random environment, a record or a sine sweep sequence over the
+    life [s] (a sine: sweep time x sweeps x occurrences)."""
     amount, unit = exposure(item.environment, item.revision)
+    if unit == "sweep sequences":
+        return amount * envdata.sweep_of(item.revision.spec).duration_s
+    if unit == "shocks":
+        raise ValidationFailed("revision_ids", item.revision.id,
+                               f"{item.label} is a shock; it has no exposure time")
     if unit == "s":
         return amount
     rev = item.revision

@@ -164,8 +164,17 @@ class Shaker(Value):
     displacement_pk_pk_m: float
 
 
+#: Printed beside every load factor.
+LOAD_FACTOR_CAUTION = ("Load factors feed a stress analysis; a responsible engineer must "
+                       "approve them and the analysis they enter.")
+
+
 class LoadFactor(Value):
-    """Equivalent-static load factor of an analysis level at one natural frequency."""
+    """Equivalent-static load factor of an analysis level at one natural frequency.
+
+    ``three_sigma_g`` is 3 x the exact SDOF response rms (``exact_grms``, the integral of
+    |H|^2 W over the level); Miles' value is the approximation shown beside it. Rows of
+    the first release hold Miles' value only (``exact_grms`` None)."""
 
     fn_hz: float
     q: float
@@ -173,6 +182,10 @@ class LoadFactor(Value):
     miles_grms: float
     three_sigma_g: float
     method: str
+    exact_grms: float | None = None
+    #: (Miles - exact) / exact [%].
+    miles_difference_pct: float | None = None
+    caution: str = LOAD_FACTOR_CAUTION
 
 
 class SineBand(Value):

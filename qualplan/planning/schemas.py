@@ -320,6 +320,20 @@ class EquivalenceRule(Rule):
         return self
 
 
+class ControlRule(Rule):
+    """What a random vibration controller can follow (common practice; a lab's own
+    controller and fixture may allow more or less)."""
+
+    max_slope_db_per_oct: Num = Field(
+        default=24.0, gt=0, le=200, description="Steepest slope between breakpoints [dB/oct]")
+    max_dynamic_range_db: Num = Field(
+        default=40.0, gt=0, le=200,
+        description="Highest over lowest ASD of a random test level [dB]")
+    floor_g2_hz: Num = Field(
+        default=1e-6, gt=0, description="No breakpoint of a random test level below [g^2/Hz]")
+    basis: Text = "common practice"
+
+
 class ApprovalRule(Rule):
     """Waivers: how long one may run, and where two persons must be involved."""
 
@@ -340,6 +354,7 @@ class PolicyRules(BaseModel):
     shock: dict[Grade, ShockRule]
     analysis: AnalysisRule = AnalysisRule()
     equivalence: EquivalenceRule = EquivalenceRule()
+    control: ControlRule = ControlRule()
     approvals: ApprovalRule = ApprovalRule()
 
 
@@ -383,6 +398,26 @@ class PolicyConfirmationRead(Read):
 # --- levels ---------------------------------------------------------------------------
 
 
+class RecordAnalysis(Command):
+    """Welch / maximax settings for the records of a derivation; None: the default.
+
+    Defaults: resolution = lowest natural frequency of interest / 4 (at least 4 lines
+    below it), Hann window, 50 % overlap, maximax window max(1 s, 4 segments)."""
+
+    window: Literal["hann", "hamming", "boxcar", "blackman", "flattop"] = "hann"
+    resolution_hz: Num | None = Field(default=None, gt=0, description="Line spacing [Hz]")
+    segment_s: Num | None = Field(default=None, gt=0, description="Segment length [s]")
+    overlap: Num = Field(default=0.5, ge=0, lt=1, description="Segment overlap [fraction]")
+    maximax_window_s: Num | None = Field(
+        default=None, gt=0, description="Length of each maximax window [s]")
+
+    @model_validator(mode="after")
+    def _one_of(self):
+        if self.resolution_hz is not None and self.segment_s is not None:
+            raise ValueError("give resolution_hz or segment_s, not both")
+        return self
+
+
 class LevelRecipe(Command):
     product_id: Id
     name: Name
@@ -397,9 +432,11 @@ class LevelRecipe(Command):
     combination: Literal["envelope", "p95_50", "fds_equivalent"] = "envelope"
     max_breakpoints: Int = Field(default=12, ge=2, le=200)
     policy_id: Id
-    #: Natural frequency and Q for the quick equivalent-static load factor (analysis).
+    #: Natural frequency and Q for the equivalent-static load factor (analysis).
     load_factor_fn_hz: Num | None = Field(default=None, gt=0)
     load_factor_q: Num = Field(default=10.0, gt=0.5)
+    #: How records are analysed into PSDs (defaults resolve the policy band's lower edge).
+    analysis: RecordAnalysis = Field(default_factory=lambda: RecordAnalysis())
 
 
 class LevelRead(Read):

@@ -289,19 +289,34 @@ async def form_of(request: Request, *, keep_records: bool = False
     file is held to the ordinary upload limit (ValidationFailed naming the file).
     """
     form = await request.form()
-    files = {}
+    files: dict[str, tuple[str, bytes]] = {}
     if keep_records and text(form, "channel_axes"):
         return form, files
     limit = request.app.state.web.max_upload_bytes
     for key, value in form.multi_items():
         if isinstance(value, UploadFile):
+            if not value.filename and key in files:
+                continue  # an empty extra file input
             if value.size is not None and value.size > limit:
                 raise ValidationFailed(key, f"{value.filename} ({value.size} bytes)",
                                        f"is larger than the upload limit of {limit} bytes; "
                                        "a long record is stored in chunks when its channel "
                                        "axes are given")
-            files[key] = (value.filename or "", await value.read())
+            name, n = key, 1
+            while name in files:  # several files in one input: file, file#2, file#3 ...
+                n += 1
+                name = f"{key}#{n}"
+            files[name] = (value.filename or "", await value.read())
     return form, files
+
+
+def more_files(files: dict[str, tuple[str, bytes]], key: str) -> list[tuple[str, bytes]]:
+    """The second and further files of a multiple file input (runs of one condition)."""
+    out, n = [], 2
+    while f"{key}#{n}" in files:
+        out.append(files[f"{key}#{n}"])
+        n += 1
+    return out
 
 
 def record_file_of(form: FormData, name: str = "file") -> tuple[str, BinaryIO]:

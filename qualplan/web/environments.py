@@ -20,6 +20,7 @@ from qualplan.web.common import (
     csv_response,
     form_of,
     message_of,
+    more_files,
     number,
     page,
     problem_page,
@@ -83,7 +84,8 @@ async def upload_environment(product_id: int, request: Request, ctx: Ctx = CtxDe
             product_id=product_id, phase_id=number(form, "phase_id", integer=True),
             name=text(form, "name"), kind=text(form, "kind"), axis=text(form, "axis"),
             source=text(form, "source"), provenance=text(form, "provenance"),
-            note=text(form, "note"), reading=_reading(form)), filename, content)
+            note=text(form, "note"), reading=_reading(form)), filename, content,
+            more_files=more_files(files, "file"))
         return f"/environments/{env.id}"
 
     return await run_in_threadpool(action, ctx, form, do,
@@ -165,7 +167,8 @@ async def revise_environment(env_id: int, request: Request, ctx: Ctx = CtxDep) -
         environments.revise_environment_from_file(
             ctx.db, ctx.actor, env_id, filename, content, _reading(form),
             note=text(form, "note"),
-            expected_revision=number(form, "expected_revision", integer=True))
+            expected_revision=number(form, "expected_revision", integer=True),
+            more_files=more_files(files, "file"))
         return f"/environments/{env_id}"
 
     return await run_in_threadpool(action, ctx, form, do,

@@ -41,6 +41,12 @@ async def derive_level(product_id: int, request: Request, ctx: Ctx = CtxDep) -> 
             max_breakpoints=_or(number(form, "max_breakpoints", integer=True), 12),
             policy_id=number(form, "policy_id", integer=True, required=True),
             load_factor_fn_hz=number(form, "load_factor_fn_hz"),
+            analysis=s.RecordAnalysis(
+                window=text(form, "window") or "hann",
+                resolution_hz=number(form, "resolution_hz"),
+                segment_s=number(form, "segment_s"),
+                overlap=_or(number(form, "overlap"), 0.5),
+                maximax_window_s=number(form, "maximax_window_s")),
         )
         level = levels.derive_level(ctx.db, ctx.actor, recipe)
         return f"/levels/{level.id}"

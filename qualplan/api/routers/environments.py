@@ -144,6 +144,14 @@ def compare(
 # --- uploads ------------------------------------------------------------------------------
 
 FileIn = Annotated[UploadFile, File(description=".json or .csv table; records .csv .npy .wav ...")]
+#: Further files of the same upload: runs of one condition (measured spectra or records at
+#: one sample rate), stored in one revision with the exposure counted once.
+RunsIn = Annotated[list[UploadFile] | None, File(
+    description="Further runs of the same condition (same kind and sample rate)")]
+
+
+def _more(runs: list[UploadFile] | None) -> list[tuple[str, bytes]]:
+    return [(f.filename or "upload", f.file.read()) for f in runs or []]
 UnitsIn = Annotated[
     str | None,
     Form(description="Units of the file's values: g^2/Hz, (m/s^2)^2/Hz, g or m/s^2"),
@@ -223,8 +231,10 @@ def upload_environment(
     provenance: Annotated[str, Form()] = "",
     note: Annotated[str, Form()] = "",
     how: RecordFormDep = None,  # type: ignore[assignment]
+    runs: RunsIn = None,
 ):
-    """Create an environment from an uploaded file (multipart), within the upload limit.
+    """Create an environment from an uploaded file (multipart), within the upload limit;
+    `runs`: further files, runs of the same condition in the same revision.
 
     With `channel_axes`, the file is a long multi-channel record (kind time_history):
     it is read in chunks and stored in chunks, within the record upload limit."""
@@ -245,7 +255,7 @@ def upload_environment(
         product_id=product_id, phase_id=phase_id, name=name, kind=kind, axis=axis,
         source=source, provenance=provenance, note=note, reading=_reading(how))
     env = envs.create_environment_from_file(session, actor, cmd, file.filename or "upload",
-                                            file.file.read())
+                                            file.file.read(), more_files=_more(runs))
     return _read(session, env, response)
 
 
@@ -265,8 +275,10 @@ def upload_revision(
     note: Annotated[str, Form()] = "",
     expected_revision: Annotated[int | None, Form()] = None,
     how: RecordFormDep = None,  # type: ignore[assignment]
+    runs: RunsIn = None,
 ):
-    """Add a revision from an uploaded file; If-Match or `expected_revision` as for JSON.
+    """Add a revision from an uploaded file; If-Match or `expected_revision` as for JSON;
+    `runs`: further files, runs of the same condition.
 
     With `channel_axes`, the file is a long record stored in chunks (see the upload of a
     new environment)."""
@@ -285,6 +297,7 @@ def upload_revision(
     rev = envs.revise_environment_from_file(
         session, actor, environment_id, file.filename or "upload", file.file.read(),
         _reading(how), note=note,
-        expected_revision=version if version is not None else expected_revision)
+        expected_revision=version if version is not None else expected_revision,
+        more_files=_more(runs))
     response.headers["ETag"] = etag(rev.number)
     return envs.read_revision(rev, env.kind)
