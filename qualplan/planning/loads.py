@@ -25,6 +25,7 @@ from qualplan.dynamics import shock_synthesis as core_synth
 from qualplan.dynamics import srs as core_srs
 from qualplan.dynamics.units import G0_M_S2
 from qualplan.planning import modal as pm
+from qualplan.planning import wording
 from qualplan.planning.catalog import get
 from qualplan.planning.documents import (
     Content,
@@ -212,9 +213,9 @@ def _section(session: Session, level: m.Level, modal: ModalInfo | None, rev) -> 
         columns = ["frequency [Hz]", "ASD [g^2/Hz]"]
         keys = ["freq_hz", "asd_g2_hz"]
         rows = [[f, a] for f, a in zip(curve.freq_hz, curve.values, strict=True)]
-        facts.append(Fact(label="overall", value=f"{curve.grms:.4g} g rms"))
+        facts.append(Fact(label="overall", value=f"{wording.number(curve.grms)} g rms"))
         if curve.duration_s is not None:
-            facts.append(Fact(label="duration", value=f"{curve.duration_s:.6g} s "
+            facts.append(Fact(label="duration", value=f"{wording.duration(curve.duration_s)} "
                               f"({curve.duration_basis})"))
     elif curve.kind is m.EnvironmentKind.sine:
         columns = ["frequency [Hz]", "acceleration [g peak]", "displacement [mm peak]"]
@@ -223,7 +224,7 @@ def _section(session: Session, level: m.Level, modal: ModalInfo | None, rev) -> 
                 for f, a in zip(curve.freq_hz, curve.values, strict=True)]
         rate = curve.sweep_rate_oct_per_min
         if rate:
-            facts.append(Fact(label="sweep rate", value=f"{rate:g} oct/min (log)"))
+            facts.append(Fact(label="sweep rate", value=f"{wording.number(rate)} oct/min (log)"))
             if curve.sweep_time_s:
                 facts.append(Fact(label="sweep time", value=f"{curve.sweep_time_s:.1f} s"))
             if rev is not None:
@@ -286,10 +287,13 @@ def _transient_section(session: Session, level: m.Level, curve: pm.LevelCurve, *
                        modal: ModalInfo | None) -> LoadsSection:
     t = np.arange(accel_g.size) * dt_s
     length = float(t[-1]) if t.size else 0.0
+    # 6 figures: the analyst sets the solver's time step from it
+    rate = f"{1.0 / dt_s:.6g} Hz (dt = {dt_s:.6g} s)"
+    peak = wording.number(float(np.max(np.abs(accel_g))))
     facts = [Fact(label="history", value=label),
-             Fact(label="sample rate", value=f"{1.0 / dt_s:.6g} Hz (dt = {dt_s:.6g} s)"),
-             Fact(label="samples", value=f"{accel_g.size} over {length:.4g} s"),
-             Fact(label="peak acceleration", value=f"{float(np.max(np.abs(accel_g))):.4g} g"),
+             Fact(label="sample rate", value=rate),
+             Fact(label="samples", value=f"{accel_g.size} over {wording.duration(length)}"),
+             Fact(label="peak acceleration", value=f"{peak} g"),
              *facts]
     return LoadsSection(
         level_id=level.id, name=level.name, number=level.number, axis=level.axis.value,
