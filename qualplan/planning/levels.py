@@ -853,14 +853,16 @@ def rederive_level(session: Session, actor: Actor, level_id: int, *, store: bool
            new_level=new.id, new_number=new.number, overall_db=diff.overall_db)
     return diff.model_copy(update={"stored": True, "new_level_id": new.id})
 def compressed_inputs(session: Session, level: m.Level) -> list[dict[str, Any]]:
-    """The level's inputs, each raised by the level's time-compression gain (the step's
-    dB: x 10^(dB/10) on an ASD, x 10^(dB/20) on an amplitude), so that their envelope
-    shows beside the level: [{"name", "freq_hz", "values"}], values in the level's unit.
-    Time histories and inputs of another kind are left out."""
-    gain_db = sum(st.db or 0.0 for st in result_of(level).steps
-                  if st.step == "time compression")
+    """The level's inputs, each raised by its own time-compression step (the step naming
+    that input; a first-release level's single step applies to all: x 10^(dB/10) on an
+    ASD, x 10^(dB/20) on an amplitude), so that their envelope shows beside the level:
+    [{"name", "freq_hz", "values"}], values in the level's unit. Time histories and
+    inputs of another kind are left out."""
+    steps = [st for st in result_of(level).steps
+             if st.step == "time compression" and st.db is not None]
+    per_input = {st.inputs[0]: float(st.db) for st in steps if len(st.inputs) == 1}
+    common_db = sum(float(st.db) for st in steps if len(st.inputs) != 1)
     power = level.kind is m.EnvironmentKind.random
-    factor = 10 ** (gain_db / (10.0 if power else 20.0))
     revs = RevisionRepository(session)
     out = []
     for rid in level.recipe.get("revision_ids", []):
@@ -879,8 +881,10 @@ def compressed_inputs(session: Session, level: m.Level) -> list[dict[str, Any]]:
             f, v = np.asarray(rev.spec["freq_hz"]), np.asarray(rev.spec["accel_g"], float)
         else:
             continue
-        label = f"{env.name} r{rev.number}" + (f", compressed {gain_db:+.2f} dB"
-                                               if gain_db else "")
+        name = f"{env.name} r{rev.number}"
+        gain_db = per_input.get(name, 0.0) + common_db
+        factor = 10 ** (gain_db / (10.0 if power else 20.0))
+        label = name + (f", compressed {gain_db:+.2f} dB" if gain_db else "")
         out.append({"name": label, "freq_hz": [float(x) for x in f],
                     "values": [float(x) for x in v * factor]})
     return out
