@@ -15,6 +15,21 @@ def pytest_report_header(config):
     return f"qualplan test database backend: {dbutil.backend()}"
 
 
+#: Test folders that use no database (the numeric core and the file readers): the same
+#: code runs on either backend, so the PostgreSQL run leaves them to the SQLite run.
+DATABASE_FREE = ("dynamics", "io")
+
+
+def pytest_collection_modifyitems(config, items):
+    if dbutil.backend() == "sqlite":
+        return
+    skip = pytest.mark.skip(reason="uses no database: run by the SQLite run of the suite")
+    for item in items:
+        parts = item.path.parts
+        if "tests" in parts and parts[parts.index("tests") + 1] in DATABASE_FREE:
+            item.add_marker(skip)
+
+
 def pytest_sessionstart(session):
     reason = dbutil.check_server_reachable()
     if reason is not None:

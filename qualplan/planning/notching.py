@@ -37,6 +37,8 @@ from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require_for
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import Conflict, ValidationFailed
+from qualplan.planning.levels import result_of
+from qualplan.planning.policies import rules_of
 from qualplan.store import models as m
 
 K = m.EnvironmentKind
@@ -160,10 +162,13 @@ def set_notching(session: Session, actor: Actor, level_id: int, cmd: NotchingIn
         raise ValidationFailed("level_id", level_id, f"level {level.name!r} is a "
                                f"{level.kind.value} {level.purpose.value} level; response-limit "
                                "notching goes with random and sine test levels")
-    r = level.result
-    values = r["asd_g2_hz"] if level.kind is K.random else r["accel_g"]
+    res = result_of(level)
+    values = res.asd_g2_hz if level.kind is K.random else res.accel_g
     unit = "g^2/Hz" if level.kind is K.random else "g peak"
-    prof = notch_level_profile(level.kind, r["freq_hz"], values, cmd)
+    if cmd.max_notch_db is None and level.policy is not None:  # the policy's limit
+        cmd = cmd.model_copy(update={
+            "max_notch_db": rules_of(level.policy).control.max_notch_db})
+    prof = notch_level_profile(level.kind, res.freq_hz, values, cmd)
     result = {
         "value_unit": unit,
         "limit": _limit_text(cmd, unit),
@@ -176,7 +181,7 @@ def set_notching(session: Session, actor: Actor, level_id: int, cmd: NotchingIn
         "acceptance_rationale": "",
     }
     if level.kind is K.random:
-        result["grms_before"] = float(core_psd.grms(r["freq_hz"], values))
+        result["grms_before"] = float(core_psd.grms(res.freq_hz, values))
         result["grms_after"] = float(core_psd.grms(prof.freq_hz, prof.values))
     row = m.LevelNotching(level_id=level.id, params=cmd.model_dump(mode="json"), result=result,
                           level_hash=level.level_hash, author=actor.name)

@@ -331,6 +331,10 @@ class ControlRule(Rule):
         description="Highest over lowest ASD of a random test level [dB]")
     floor_g2_hz: Num = Field(
         default=1e-6, gt=0, description="No breakpoint of a random test level below [g^2/Hz]")
+    max_notch_db: Num = Field(
+        default=10.0, gt=0, le=60,
+        description="Deepest response-limit or force-limit notch without an approver's "
+        "acceptance [dB] (common practice)")
     basis: Text = "common practice"
 
 

@@ -52,3 +52,17 @@ def test_notching_refusals_are_problems(eng, random_level):
         "transmissibility_gain": [4.0, 4.0], "transmissibility_source": "guess"}, expect=422)
     assert "transmissibility_source" in r.text
     eng.get(f"/levels/{lid}/notching", expect=404)
+
+
+def test_notch_depth_limit_comes_from_the_policy_when_not_given(eng, random_level):
+    # Without max_notch_db the level's policy rules decide (control.max_notch_db, 10 dB
+    # by default: common practice). A 6.02 dB notch (closed form above) stays within it;
+    # with the limit of 3 dB given explicitly it needs acceptance.
+    lid = random_level["id"]
+    body = {"location": "monitor A1", "limit": 0.64,
+            "transmissibility_freq_hz": [20.0, 2000.0], "transmissibility_gain": [4.0, 4.0],
+            "transmissibility_source": "analysis"}
+    out = eng.post(f"/levels/{lid}/notching", body).json()
+    assert out["max_notch_db"] == 10.0 and not out["needs_acceptance"]
+    out = eng.post(f"/levels/{lid}/notching", {**body, "max_notch_db": 3.0}).json()
+    assert out["max_notch_db"] == 3.0 and out["needs_acceptance"]
