@@ -213,9 +213,15 @@ def _ers_block(fn: np.ndarray, test_ers: np.ndarray, life_ers: np.ndarray,
 def _coverage(tests: list[Tested], life: list[LifeItem], rules: s.PolicyRules) -> r.Coverage:
     eq = rules.equivalence
     notes: list[str] = []
+    # a multi-channel record stored in chunks (planning.records) has no samples on its
+    # revision row; it is not counted here, and the coverage says so
+    chunked = [x for x in life if x.revision.data is None and "record" in x.revision.spec]
+    notes.extend(f"{x.life_label}: multi-channel record stored in chunks, not counted in "
+                 "this coverage (analyse it with a record analysis job)" for x in chunked)
+    life = [x for x in life if x not in chunked]
     if not life:
         return r.Coverage(tests=[t[0] for t in tests],
-                          notes=["no environment in the life cycle of this axis"])
+                          notes=[*notes, "no environment in the life cycle of this axis"])
     fn = core_srs.octave_grid(eq.f_lo_hz, eq.f_hi_hz, eq.points_per_octave)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", AccuracyWarning)

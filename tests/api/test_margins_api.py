@@ -6,7 +6,7 @@ from __future__ import annotations
 import numpy as np
 
 from qualplan.dynamics import psd
-from tests.api.conftest import unique
+from tests.api.conftest import share, unique
 
 # Invented environments (road spectrum from 10 Hz; the coverage band starts at 20 Hz).
 ROAD_Z = {"freq_hz": [10.0, 40.0, 500.0], "asd_g2_hz": [0.015, 0.015, 0.00015]}
@@ -15,6 +15,7 @@ DESIGN_Y = {"freq_hz": [20.0, 100.0, 1000.0], "asd_g2_hz": [0.01, 0.04, 0.004]}
 
 def _setup(eng):
     program = eng.post("/programs", {"name": unique("margins")}).json()
+    share(eng, program["id"])  # the viewer reads the audit and the impact as a member
     unit = eng.post("/products", {"program_id": program["id"], "name": "unit"}).json()
     road = eng.post("/phases", {"program_id": program["id"], "name": "road",
                                 "duration_s": 3600.0, "occurrences": 2}).json()

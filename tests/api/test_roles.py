@@ -509,6 +509,50 @@ CASES.update({
                              _deep_notch_level, 201),
 })
 
+_NOTCH = {"location": "monitor A1", "limit": 0.01, "transmissibility_freq_hz": [20.0, 2000.0],
+          "transmissibility_gain": [4.0, 4.0], "transmissibility_source": "analysis",
+          "max_notch_db": 3.0}  # a notch deeper than 3 dB: needs an approver's acceptance
+
+
+def _fresh_level(b) -> int:
+    return b["eng"].post("/levels", {**b["test_level"]["recipe"], "name": unique("n")}).json(
+        )["id"]
+
+
+def _notched_level(b, fresh: bool) -> int:
+    """A level notched against a response limit (a fresh one, or one made once)."""
+    if fresh or "notched" not in b:
+        lid = _fresh_level(b)
+        b["eng"].post(f"/levels/{lid}/notching", _NOTCH)
+        if not fresh:
+            b["notched"] = lid
+        return lid
+    return b["notched"]
+
+
+def _fresh_policy(b) -> int:
+    return b["eng"].post(f"/policies/{b['policy']['id']}/copy", {"name": unique("pc")}).json(
+        )["id"]
+
+
+CASES.update({
+    "level breakpoints": Case("GET", "/levels/{level_id}/breakpoints.csv", "viewer", lambda b: (
+        f"/levels/{b['test_level']['id']}/breakpoints.csv", {})),
+    "notching set": Case("POST", "/levels/{level_id}/notching", "engineer", lambda b: (
+        f"/levels/{_fresh_level(b)}/notching", {"json": _NOTCH}), 201),
+    "notching get": Case("GET", "/levels/{level_id}/notching", "viewer", lambda b: (
+        f"/levels/{_notched_level(b, False)}/notching", {})),
+    "notching acceptance": Case("POST", "/levels/{level_id}/notching/acceptance", "approver",
+                                lambda b: (f"/levels/{_notched_level(b, True)}/notching/acceptance",
+                                           {"json": {"rationale": "fixture resonance"}}), 201),
+    # a global role: a policy belongs to no program
+    "policy confirmation": Case("POST", "/policies/{policy_id}/confirmations", "approver",
+                                lambda b: (f"/policies/{_fresh_policy(b)}/confirmations", {
+                                    "json": {"issue": "rev A (invented)", "note": "checked"},
+                                    "headers": {"If-Match": '"1"'}}), 201),
+})
+
+
 def _member(b, granted: bool):
     name = unique("member")
     b["admin"].post("/users", {"name": name, "role": "viewer"})

@@ -6,7 +6,7 @@ from __future__ import annotations
 
 import re
 
-from qualplan.planning import catalog, environments, levels, policies, requirements
+from qualplan.planning import access, catalog, environments, levels, policies, requirements
 from qualplan.planning import schemas as s
 from qualplan.store import models as m
 from qualplan.store.session import unit_of_work
@@ -15,9 +15,10 @@ from tests.web.conftest import SETUP, unique
 FLIGHT = {"freq_hz": [20.0, 80.0, 500.0, 2000.0], "asd_g2_hz": [0.01, 0.04, 0.04, 0.01]}
 
 
-def program_with_a_stale_level(factory) -> dict:
+def program_with_a_stale_level(factory, viewer: str) -> dict:
     with unit_of_work(factory) as session:
         prog = catalog.create_program(session, SETUP, s.ProgramCreate(name=unique("Dash")))
+        access.grant(session, SETUP, viewer, prog.id, "viewer")  # the viewer is a member
         unit = catalog.create_product(session, SETUP, s.ProductCreate(
             program_id=prog.id, name="Dash unit"))
         phase = catalog.create_phase(session, SETUP, s.PhaseCreate(
@@ -46,7 +47,7 @@ def no_horizontal_scroll(page) -> None:
 
 
 def test_dashboard_after_sign_in(new_page, users, factory, shots):
-    made = program_with_a_stale_level(factory)
+    made = program_with_a_stale_level(factory, users["viewer"].name)
     page = new_page()
     page.set_viewport_size({"width": 1280, "height": 800})
     page.goto("/")
@@ -75,7 +76,7 @@ def test_dashboard_after_sign_in(new_page, users, factory, shots):
 
 
 def test_level_overlay_readout_and_width(new_page, users, factory, shots):
-    made = program_with_a_stale_level(factory)
+    made = program_with_a_stale_level(factory, users["viewer"].name)
     page = new_page()
     page.set_viewport_size({"width": 1280, "height": 800})
     page.goto("/signin")
