@@ -98,11 +98,16 @@ def make_sessionmaker(engine: Engine, *, write: bool = False) -> sessionmaker[Se
 
 @contextmanager
 def unit_of_work(factory: sessionmaker[Session]) -> Iterator[Session]:
-    """One transaction: commit at the end, roll back on any error."""
+    """One transaction: commit at the end, roll back on any error.
+
+    The commit is outside the ``try``: when it fails, closing the session rolls back; and
+    an error raised by an after-commit hook (a job dispatch) propagates as itself instead
+    of being hidden by a rollback of the already committed transaction ("This session is
+    in 'committed' state")."""
     with factory() as session:
         try:
             yield session
-            session.commit()
         except BaseException:
             session.rollback()
             raise
+        session.commit()

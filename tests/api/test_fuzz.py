@@ -15,6 +15,7 @@ from schemathesis.specs.openapi.checks import response_schema_conformance
 
 from qualplan.api.app import create_app
 from qualplan.config import Settings
+from tests.api.conftest import MAX_UPLOAD
 
 #: Generated requests per operation (bounded: the suite runs this on every commit).
 EXAMPLES = 12
@@ -27,8 +28,13 @@ def _operations() -> list[tuple[str, str]]:
 
 
 @pytest.fixture(scope="module")
-def api_schema(app):
-    return schemathesis.openapi.from_asgi("/api/v1/openapi.json", app)
+def api_schema(app, db_url):
+    """The schema of an app of its own (`app` only seeds the default policies):
+    schemathesis starts an app's lifespan itself and ends it after each test, which on the
+    shared `app` would replace and then close the job runner (and engine) that the run's
+    TestClient serves through (app.state is one per app)."""
+    own = create_app(Settings(database_url=db_url, max_upload_bytes=MAX_UPLOAD))
+    return schemathesis.openapi.from_asgi("/api/v1/openapi.json", own)
 
 
 @pytest.mark.parametrize("method, path", _operations(), ids=lambda x: x)

@@ -13,6 +13,7 @@ from qualplan.api.app import create_app
 from qualplan.cli import main
 from qualplan.config import Settings
 from qualplan.store import migrate
+from tests.dbutil import backend
 
 
 def run_cli(*args: str) -> subprocess.CompletedProcess:
@@ -79,8 +80,11 @@ def test_health_reports_version_and_schema(db_url):
     app = create_app(Settings(database_url=db_url))
     with TestClient(app) as client:
         body = client.get("/api/v1/health").json()
+    # the job runner of the backend (a thread on SQLite, procrastinate on PostgreSQL)
+    runner = "procrastinate" if backend() == "postgresql" else "thread"
     assert body == {"status": "ok", "version": __version__,
-                    "schema_revision": migrate.head_revision()}
+                    "schema_revision": migrate.head_revision(),
+                    "jobs": {"runner": runner, "ready": True}}
 
 
 def test_service_refuses_a_database_without_schema(fresh_db_url):

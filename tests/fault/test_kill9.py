@@ -139,7 +139,11 @@ class Server:
 
 @pytest.fixture
 def token(db):
+    """An API token of eve, an engineer and a member of the program (a user sees only the
+    programs it is a member of)."""
     assert cli(db, "user", "add", "eve", "--role", "engineer").returncode == 0
+    out = cli(db, "user", "grant", "eve", "--role", "engineer", "--program", "Kill test")
+    assert out.returncode == 0, out.stderr
     out = cli(db, "token", "create", "eve")
     assert out.returncode == 0, out.stderr
     return out.stdout.strip().splitlines()[-1]
