@@ -10,6 +10,7 @@ from __future__ import annotations
 import getpass
 import os
 import sys
+from contextvars import ContextVar
 from pathlib import Path
 from typing import Annotated
 
@@ -94,13 +95,24 @@ def _show_version(value: bool) -> None:
         raise typer.Exit(0)
 
 
+#: The API token given with ``qualplan --token`` or ``QUALPLAN_TOKEN`` (cli.common reads it).
+cli_token: ContextVar[str | None] = ContextVar("qualplan_cli_token", default=None)
+
+
+# The one callback of the app (typer keeps only the last one registered): every option
+# of ``qualplan`` itself, before the command, is here.
 @app.callback()
 def _main_options(
     show_version: Annotated[bool, typer.Option(
         "--version", help="Print the qualplan version and exit.", is_eager=True,
         callback=_show_version)] = False,
+    token: Annotated[str | None, typer.Option(
+        "--token", envvar="QUALPLAN_TOKEN", show_default=False,
+        help="Act as the user of this API token (default: the user with your login name, "
+        "or QUALPLAN_ACTOR).")] = None,
 ) -> None:
     """Qualification planning for dynamic environments (PSD, sine, SRS, FDS, ERS)."""
+    cli_token.set(token)
 
 
 @app.command()

@@ -24,7 +24,7 @@ from typing import Annotated
 
 import typer
 
-from qualplan.cli.base import CliError, app, checked_engine, default_user_name
+from qualplan.cli.base import CliError, app, checked_engine, cli_token, default_user_name
 from qualplan.planning import access, catalog
 from qualplan.planning.access import Actor
 from qualplan.planning.errors import NotAuthenticated
@@ -42,24 +42,12 @@ def group(name: str, help: str) -> typer.Typer:
     return sub
 
 
-_token: ContextVar[str | None] = ContextVar("qualplan_cli_token", default=None)
 _actor: ContextVar[Actor | None] = ContextVar("qualplan_cli_actor", default=None)
-
-
-@app.callback()
-def _options(
-    token: Annotated[str | None, typer.Option(
-        "--token", envvar="QUALPLAN_TOKEN", show_default=False,
-        help="Act as the user of this API token (default: the user with your login name, "
-        "or QUALPLAN_ACTOR).")] = None,
-) -> None:
-    """Qualification planning for dynamic environments (PSD, sine, SRS, FDS, ERS)."""
-    _token.set(token)
 
 
 def cli_actor(session) -> Actor:
     """The stored user the command acts as (module docstring); scopes `session` to it."""
-    token = _token.get()
+    token = cli_token.get()
     if token:
         return access.authenticate(session, token.strip())
     name = default_user_name()

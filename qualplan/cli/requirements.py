@@ -226,7 +226,10 @@ def evidence_inspection(
 def waive(
     requirement: str,
     rationale: Annotated[str, typer.Option(help="Why.")],
-    days: Annotated[int, typer.Option(min=1, help="Days until the waiver expires (at most "
+    # No policy allows more than WAIVER_DAYS_LIMIT: refused while parsing, naming --days,
+    # before any lookup; the policy's own max_waiver_days is checked by the use case.
+    days: Annotated[int, typer.Option(min=1, max=s.WAIVER_DAYS_LIMIT,
+                                      help="Days until the waiver expires (at most "
                                       "the policy's max_waiver_days, 365 by default).")] = 30,
     request: Annotated[int | None, typer.Option(
         help="The waiver request answered (default: the newest unanswered one).")] = None,

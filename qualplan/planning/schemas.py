@@ -338,10 +338,14 @@ class ControlRule(Rule):
     basis: Text = "common practice"
 
 
+#: The longest waiver any policy may allow [days] (ten years with their leap days).
+WAIVER_DAYS_LIMIT = 3653
+
+
 class ApprovalRule(Rule):
     """Waivers: how long one may run, and where two persons must be involved."""
 
-    max_waiver_days: Int = Field(default=365, ge=1, le=3653,
+    max_waiver_days: Int = Field(default=365, ge=1, le=WAIVER_DAYS_LIMIT,
                                  description="Longest a waiver may run [days]")
     two_person: dict[Grade, bool] = Field(
         default={Grade.qualification: True, Grade.acceptance: False,

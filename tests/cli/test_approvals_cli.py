@@ -107,6 +107,13 @@ def test_withdraw_preview_issue_and_sign(story, capsys, monkeypatch, tmp_path):
     assert "random Z #2" in out and ": issue" in out and "revision 1 (issued)" in out
     number = re.search(r"(TLS-\S+) revision 1", out).group(1)
     signers = [("eve", "prepared"), ("carl", "checked"), ("alan", "approved")]
+    # the CLI acts as a stored user: the admin made by `init` adds the three signers and
+    # makes them members of the program with their roles there
+    for who, role in (("eve", "engineer"), ("carl", "engineer"), ("alan", "approver")):
+        assert ok("user", "add", who, "--role", "viewer")[0] == 0
+        code, out, err = ok("user", "grant", who, "--role", role, "--program",
+                            "Ridge survey drone")
+        assert code == 0, err
     monkeypatch.setenv("QUALPLAN_ACTOR", "eve")
     assert ok("report", "sign", number, "--role", "prepared")[0] == 0
     code, out, err = ok("report", "sign", number, "--role", "checked")

@@ -109,8 +109,11 @@ def test_a_withdrawn_environment_leaves_the_life_cycle_and_makes_its_levels_stal
     with pytest.raises(Conflict, match="not revised"):
         environments.revise_environment(session, engineer, flight_env.id,
                                         s.RevisionIn(data=FLIGHT_Z, note="again"))
-    ev = session.scalars(select(m.Event).where(m.Event.action == "withdraw")).one()
-    assert ev.entity == "environment" and ev.detail["reason"].endswith("issue C")
+    # the database is shared by the run (API tests commit theirs): read this test's event
+    ev = session.scalars(select(m.Event).where(m.Event.action == "withdraw",
+                                               m.Event.entity_id == flight_env.id,
+                                               m.Event.entity == "environment")).one()
+    assert ev.detail["reason"].endswith("issue C")
 
 
 def test_a_withdrawn_level_leaves_the_default_baseline(session, engineer, unit, two):
@@ -168,8 +171,10 @@ def test_rederive_shows_the_difference_in_db_then_supersedes(session, engineer, 
                for r in old_read.stale_reasons)
     with pytest.raises(Conflict, match="superseded already"):
         levels.rederive_level(session, engineer, level.id)
-    ev = session.scalars(select(m.Event).where(m.Event.action == "supersede")).one()
-    assert ev.entity_id == level.id and ev.detail["new_level"] == new_read.id
+    ev = session.scalars(select(m.Event).where(m.Event.action == "supersede",
+                                               m.Event.entity == "level",
+                                               m.Event.entity_id == level.id)).one()
+    assert ev.detail["new_level"] == new_read.id
 
 
 def test_rederive_of_a_level_whose_input_was_withdrawn_is_refused(session, engineer, unit, two):
@@ -279,5 +284,7 @@ def test_sign_off_by_three_distinct_users(session, engineer, approver, unit, two
     signed = [(a.role, a.name) for a in again.approvals]
     assert signed == [("prepared", "eve"), ("checked", "carl"), ("approved", "alan")]
     assert all(a.signed_at is not None for a in again.approvals)
-    events = session.scalars(select(m.Event).where(m.Event.action == "sign")).all()
+    events = session.scalars(select(m.Event).where(
+        m.Event.action == "sign", m.Event.entity == "document",
+        m.Event.entity_id == doc_id).order_by(m.Event.id)).all()
     assert [e.detail["role"] for e in events] == ["prepared", "checked", "approved"]

@@ -9,7 +9,7 @@ import warnings
 import numpy as np
 import pytest
 import scipy.signal
-from sqlalchemy import select, text
+from sqlalchemy import func, select, text
 from sqlalchemy.exc import DBAPIError
 
 from qualplan.dynamics import fatigue, signal, streaming
@@ -110,9 +110,14 @@ def test_bad_axes_bad_samples_and_roles(session, engineer, viewer, unit, npy, tm
     bad[15_000, 2] = np.inf
     pb = tmp_path / "bad.npy"
     np.save(pb, bad)
+    # the database is shared by the run (API tests commit their uploads): count, not "none"
+    chunks_before = session.scalar(select(func.count()).select_from(RecordChunk))
     with pytest.raises(ValidationFailed, match=r"ch2\[15000\]"):
         _import(session, engineer, unit, streams.open_npy_record(pb, fs_hz=FS, unit="g"))
-    assert session.scalar(select(RecordChunk.id).limit(1)) is None  # nothing written
+    # nothing written: no chunk, no environment for the unit
+    assert session.scalar(select(func.count()).select_from(RecordChunk)) == chunks_before
+    assert session.scalar(select(m.Environment.id).where(
+        m.Environment.product_id == unit.id).limit(1)) is None
     with pytest.raises(ValidationFailed, match="fs_hz"):
         records.open_record_file(p, unit="g")
 
