@@ -20,7 +20,8 @@ app.add_typer(job_app, name="job")
 
 @app.command()
 def worker(
-    concurrency: Annotated[int, typer.Option(help="Jobs run at once by this process.")] = 1,
+    concurrency: Annotated[int, typer.Option(
+        min=1, max=64, help="Jobs run at once by this process (1 to 64).")] = 1,
     burst: Annotated[bool, typer.Option(
         help="Stop once the queue is empty instead of waiting for more jobs.")] = False,
     db: DbOption = None,
