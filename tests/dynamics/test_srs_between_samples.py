@@ -200,6 +200,19 @@ def test_bandlimited_half_sine_of_20_samples_rings():
         warnings.simplefilter("ignore")
         got = S.srs(x, DT, [FS / 5], 10.0, method="bandlimited")[0]
     assert 0.005 < got / ref - 1 < 0.015
+    # ...and says so, naming the cure
+    with pytest.warns(S.AccuracyWarning, match="kink.*method='cubic'"):
+        S.srs(x, DT, [FS / 5], 10.0, method="bandlimited")
+
+
+def test_smooth_records_raise_no_kink_warning():
+    # the smooth-onset decaying sines start from zeros with a bend far below 1 % of
+    # the peak, and decay to 1e-6 before the end: no kink worth a warning
+    x, _, _ = decaying_sines(True)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        S.srs(x, DT, [FS / 8], 10.0, method="bandlimited")
+    assert not [w for w in caught if "kink" in str(w.message)]
 
 
 def test_kinks_get_one_sided_slopes():
