@@ -31,7 +31,7 @@ from __future__ import annotations
 import math
 import os
 import warnings
-from collections.abc import Iterable
+from collections.abc import Iterable, Sequence
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from typing import Literal
@@ -44,6 +44,7 @@ from qualplan.dynamics import _validate as v
 from qualplan.dynamics import sdof
 from qualplan.dynamics.errors import AccuracyWarning, InputError
 from qualplan.dynamics.rainflow import push_reversal as _push
+from qualplan.dynamics.rainflow import push_reversal_bs as _push_bs
 from qualplan.dynamics.rainflow import residue_damage
 from qualplan.dynamics.sine import Sweep
 from qualplan.dynamics.units import G0_M_S2
@@ -388,6 +389,62 @@ def _filter_miner(x, b0, b1, b2, a1, a2, n_extra, b, interp, n_skip):
     return dmg + d + residue_damage(stack, sp, b)
 
 
+@njit(cache=True, nogil=True)
+def _filter_miner_bs(x, b0, b1, b2, a1, a2, n_extra, bs, interp, n_skip, out):
+    """:func:`_filter_miner` for several Basquin exponents `bs` in one pass: the response,
+    its reversals and its rainflow cycles are the same for every b, only the damage per
+    cycle differs. Writes into ``out[j]`` the damage for ``bs[j]``, summed in the order
+    of _filter_miner (equal to it bit for bit)."""
+    n = x.shape[0]
+    nb = bs.shape[0]
+    stack = np.empty(n + n_extra + 2, dtype=np.float64)
+    d = np.empty(nb, dtype=np.float64)
+    dmg = np.empty(nb, dtype=np.float64)
+    x1 = 0.0
+    x2 = 0.0
+    yy1 = 0.0
+    yy2 = 0.0
+    for k in range(n_skip):  # settling: filter only
+        y = b0 * x[k] + b1 * x1 + b2 * x2 - a1 * yy1 - a2 * yy2
+        x2 = x1
+        x1 = x[k]
+        yy2 = yy1
+        yy1 = y
+    y0 = b0 * x[n_skip] + b1 * x1 + b2 * x2 - a1 * yy1 - a2 * yy2
+    y1 = b0 * x[n_skip + 1] + b1 * x[n_skip] + b2 * x1 - a1 * y0 - a2 * yy1
+    x2 = x[n_skip]
+    x1 = x[n_skip + 1]
+    yy2 = y0
+    yy1 = y1
+    sp = _push_bs(stack, 0, y0, bs, d)
+    for j in range(nb):
+        dmg[j] = d[j]
+    xprev = y0
+    xc = y1
+    dl = y1 - y0
+    for k in range(n_skip + 2, n + n_extra):
+        xin = x[k] if k < n else 0.0
+        y = b0 * xin + b1 * x1 + b2 * x2 - a1 * yy1 - a2 * yy2
+        x2 = x1
+        x1 = xin
+        yy2 = yy1
+        yy1 = y
+        if y == xc:
+            continue
+        dn = y - xc
+        if dl * dn < 0.0:
+            val = _vertex(xprev, xc, y) if interp else xc
+            sp = _push_bs(stack, sp, val, bs, d)
+            for j in range(nb):
+                dmg[j] += d[j]
+        xprev = xc
+        xc = y
+        dl = dn
+    sp = _push_bs(stack, sp, xc, bs, d)
+    for j in range(nb):
+        out[j] = dmg[j] + d[j] + residue_damage(stack, sp, bs[j])
+
+
 #: Time-domain FDS methods: "ramp" (the samples as a piecewise-linear input) or
 #: "bandlimited" (FFT reconstruction where fs < 20 fn, then a sinc^2-corrected
 #: ramp-invariant filter); docs/methods/fatigue.md.
@@ -407,7 +464,8 @@ def _sinc2_correct(x: np.ndarray) -> np.ndarray:
     return x + (2.0 * x - xp[:-2] - xp[2:]) / 12.0
 
 
-def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: bool = False,
+def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], *,
+             free_decay: bool = False,
              interpolate_peaks: bool = True, skip_s: float = 0.0,
              workers: int | None = None, method: str = "ramp") -> np.ndarray:
     """Fatigue damage spectrum of any time history (shock, measured record, synthesis).
@@ -422,8 +480,10 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: boo
         Natural frequencies, below Nyquist (1/(2 dt)). [Hz]
     q : float
         Amplification factor, > 0.5. [unitless]
-    b : float
-        Basquin exponent, > 0. [unitless]
+    b : float or sequence of float
+        Basquin exponent, > 0 [unitless]; or several, computed in one pass (the
+        response and its rainflow cycles do not depend on b; each row equals the
+        call with that b alone).
     free_decay : bool
         Append, per fn, zero input until the free response has decayed by 1e-4
         (ln(1e4) / (zeta wn) seconds), so the residual vibration of a shock is
@@ -454,7 +514,7 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: boo
 
     Returns
     -------
-    numpy.ndarray, shape (k,)
+    numpy.ndarray, shape (k,), or (len(b), k) for a sequence of b
         D(fn) = sum over rainflow cycles of count (range / 2)^b of the
         pseudo-acceleration response. [g^b]
 
@@ -483,7 +543,10 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: boo
 
     x = np.ascontiguousarray(v.as_1d_float("accel_g", accel_g, min_size=2))
     dt = v.positive_scalar("dt_s", dt_s)
-    b = _check_b(b)
+    several = np.ndim(b) > 0
+    bs = [_check_b(x) for x in b] if several else [_check_b(b)]
+    if not bs:
+        raise InputError("b", b, "must hold at least one Basquin exponent")
     q = v.check_q(q)
     fn = sdof._check_fn(fn_hz)
     bz, az = coefficients(fn, q, dt, output="rel_disp")
@@ -498,17 +561,17 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: boo
                 f"{int(above.sum())} natural frequencies (from {fn[above].min():g} Hz) exceed a"
                 f" fifth of the sample rate {1 / dt:g} Hz: the band-limited FDS is verified to"
                 f" 3 % only up to fs/5", AccuracyWarning, stacklevel=2)
-        loss = np.zeros(fn.size)
-    else:
-        loss = 1.0 - np.sinc(fn * dt) ** (2.0 * b)
-    hi = loss > 0.05
-    if hi.any():
-        warnings.warn(
-            f"{int(hi.sum())} natural frequencies (from {fn[hi].min():g} Hz) are too close to "
-            f"the sample rate {1 / dt:g} Hz: the ramp-invariant filter treats the input as "
-            "linear between samples, which attenuates content near fn by sinc^2(fn/fs), i.e. "
-            f"the damage by up to {loss.max():.0%} (resample the record faster)",
-            AccuracyWarning, stacklevel=2)
+    for b_ in bs:  # one warning per b, as calls with each b alone give
+        loss = (np.zeros(fn.size) if method == "bandlimited"
+                else 1.0 - np.sinc(fn * dt) ** (2.0 * b_))
+        hi = loss > 0.05
+        if hi.any():
+            warnings.warn(
+                f"{int(hi.sum())} natural frequencies (from {fn[hi].min():g} Hz) are too close"
+                f" to the sample rate {1 / dt:g} Hz: the ramp-invariant filter treats the input"
+                " as linear between samples, which attenuates content near fn by "
+                f"sinc^2(fn/fs), i.e. the damage by up to {loss.max():.0%} (resample the "
+                "record faster)", AccuracyWarning, stacklevel=2)
     zeta = 1.0 / (2.0 * q)
     if free_decay:
         n_extra = np.ceil(math.log(1e4) / (zeta * 2 * np.pi * fn * dt)).astype(np.int64)
@@ -526,13 +589,15 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: boo
         raise InputError("skip_s", skip_s, f"leaves fewer than 2 samples of the {x.size}")
 
     nw = workers or os.cpu_count() or 1
+    bv = np.asarray(bs, dtype=np.float64) if several else None
     if method == "ramp":
-        return _fds_run(x, bp, az, n_extra, b, interpolate_peaks, n_skip, nw)
+        return _fds_run(x, bp, az, n_extra, bv if several else bs[0], interpolate_peaks,
+                        n_skip, nw)
     from qualplan.dynamics.srs import FFT_PAD, fft_upsample
 
     need = FDS_MIN_RATIO * fn * dt
     lf = np.where(need <= 1.0, 1, 2 ** np.ceil(np.log2(np.maximum(need, 1.0)))).astype(int)
-    out = np.empty(fn.size)
+    out = np.empty((len(bs), fn.size) if several else fn.size)
     top = int(lf.max())
     x_top = fft_upsample(x, top) if top > 1 else None
     for factor in np.unique(lf):
@@ -550,24 +615,36 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: boo
             ne = np.ceil(math.log(1e4) / (zeta * 2 * np.pi * fn[idx] * h)).astype(np.int64)
         else:
             ne = np.zeros(idx.size, dtype=np.int64)
-        out[idx] = _fds_run(xs, bpu, azu, ne, b, interpolate_peaks, skip_up, nw)
+        out[..., idx] = _fds_run(xs, bpu, azu, ne, bv if several else bs[0],
+                                 interpolate_peaks, skip_up, nw)
     return out
 
 
 def _fds_run(x, bp, az, n_extra, b, interpolate_peaks, n_skip, nw) -> np.ndarray:
-    def one(i: int) -> float:
-        return _filter_miner(x, bp[i, 0], bp[i, 1], bp[i, 2], az[i, 1], az[i, 2],
-                             int(n_extra[i]), b, interpolate_peaks, n_skip)
+    """Damage per oscillator (rows of bp, az): shape (k,) for a scalar b, (len(b), k)
+    for an array of b (one pass per oscillator, :func:`_filter_miner_bs`)."""
+    if isinstance(b, np.ndarray):
+        def one(i: int) -> np.ndarray:
+            d = np.empty(b.size)
+            _filter_miner_bs(x, bp[i, 0], bp[i, 1], bp[i, 2], az[i, 1], az[i, 2],
+                             int(n_extra[i]), b, interpolate_peaks, n_skip, d)
+            return d
+        shape = (b.size, bp.shape[0])
+    else:
+        def one(i: int) -> float:
+            return _filter_miner(x, bp[i, 0], bp[i, 1], bp[i, 2], az[i, 1], az[i, 2],
+                                 int(n_extra[i]), b, interpolate_peaks, n_skip)
+        shape = (bp.shape[0],)
 
     order = np.argsort(-(x.size + n_extra))  # longest first balances the threads
-    out = np.empty(bp.shape[0])
+    out = np.empty(shape)
     if nw == 1 or bp.shape[0] == 1:
         for i in order:
-            out[i] = one(int(i))
+            out[..., i] = one(int(i))
     else:
         with ThreadPoolExecutor(max_workers=nw) as ex:
             for i, d in zip(order, ex.map(one, [int(i) for i in order]), strict=True):
-                out[i] = d
+                out[..., i] = d
     return out
 
 
