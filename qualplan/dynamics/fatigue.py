@@ -389,60 +389,115 @@ def _filter_miner(x, b0, b1, b2, a1, a2, n_extra, b, interp, n_skip):
     return dmg + d + residue_damage(stack, sp, b)
 
 
+#: Samples of the four responses computed ahead in :func:`_filter_miner_bank`.
+_BLOCK = 4096
+
+
 @njit(cache=True, nogil=True)
-def _filter_miner_bs(x, b0, b1, b2, a1, a2, n_extra, bs, interp, n_skip, out):
-    """:func:`_filter_miner` for several Basquin exponents `bs` in one pass: the response,
-    its reversals and its rainflow cycles are the same for every b, only the damage per
-    cycle differs. Writes into ``out[j]`` the damage for ``bs[j]``, summed in the order
-    of _filter_miner (equal to it bit for bit)."""
+def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out):
+    """:func:`_filter_miner` for up to four oscillators (rows of `bp`, `az`) and several
+    Basquin exponents `bs` at once: the response, its reversals and its rainflow cycles
+    are the same for every b, only the damage per cycle differs.
+
+    The recursion of one oscillator is latency-bound (y_k needs y_(k-1)); the four run
+    interleaved over a block of samples (as sdof_filter's extremes kernel), then each
+    block's responses go through the reversal test and the rainflow stack of their own
+    oscillator. Every response sample and every damage sum is computed by the same
+    operations, in the same order, as _filter_miner for each b (equal bit for bit). Writes
+    ``out[r, j]``: damage of oscillator r for ``bs[j]``."""
+    m = bp.shape[0]
     n = x.shape[0]
     nb = bs.shape[0]
-    stack = np.empty(n + n_extra + 2, dtype=np.float64)
-    d = np.empty(nb, dtype=np.float64)
-    dmg = np.empty(nb, dtype=np.float64)
+    c = np.zeros((5, 4))
+    longest = 0
+    for r in range(m):
+        c[0, r] = bp[r, 0]
+        c[1, r] = bp[r, 1]
+        c[2, r] = bp[r, 2]
+        c[3, r] = az[r, 1]
+        c[4, r] = az[r, 2]
+        longest = max(longest, n_extra[r])
+    p0, p1, p2, p3 = c[0, 0], c[0, 1], c[0, 2], c[0, 3]
+    q0, q1, q2, q3 = c[1, 0], c[1, 1], c[1, 2], c[1, 3]
+    r0, r1, r2, r3 = c[2, 0], c[2, 1], c[2, 2], c[2, 3]
+    s0, s1, s2, s3 = c[3, 0], c[3, 1], c[3, 2], c[3, 3]
+    t0, t1, t2, t3 = c[4, 0], c[4, 1], c[4, 2], c[4, 3]
+    total = n + longest
+    stacks = np.empty((m, total + 2))
+    buf = np.empty((4, _BLOCK))
+    d = np.empty(nb)
+    dmg = np.zeros((m, nb))
+    sps = np.zeros(m, dtype=np.int64)
+    xprevs = np.zeros(m)
+    xcs = np.zeros(m)
+    dls = np.zeros(m)
+    u0 = u1 = u2 = u3 = 0.0  # y_(k-1)
+    v0 = v1 = v2 = v3 = 0.0  # y_(k-2)
     x1 = 0.0
     x2 = 0.0
-    yy1 = 0.0
-    yy2 = 0.0
-    for k in range(n_skip):  # settling: filter only
-        y = b0 * x[k] + b1 * x1 + b2 * x2 - a1 * yy1 - a2 * yy2
-        x2 = x1
-        x1 = x[k]
-        yy2 = yy1
-        yy1 = y
-    y0 = b0 * x[n_skip] + b1 * x1 + b2 * x2 - a1 * yy1 - a2 * yy2
-    y1 = b0 * x[n_skip + 1] + b1 * x[n_skip] + b2 * x1 - a1 * y0 - a2 * yy1
-    x2 = x[n_skip]
-    x1 = x[n_skip + 1]
-    yy2 = y0
-    yy1 = y1
-    sp = _push_bs(stack, 0, y0, bs, d)
-    for j in range(nb):
-        dmg[j] = d[j]
-    xprev = y0
-    xc = y1
-    dl = y1 - y0
-    for k in range(n_skip + 2, n + n_extra):
-        xin = x[k] if k < n else 0.0
-        y = b0 * xin + b1 * x1 + b2 * x2 - a1 * yy1 - a2 * yy2
-        x2 = x1
-        x1 = xin
-        yy2 = yy1
-        yy1 = y
-        if y == xc:
-            continue
-        dn = y - xc
-        if dl * dn < 0.0:
-            val = _vertex(xprev, xc, y) if interp else xc
-            sp = _push_bs(stack, sp, val, bs, d)
-            for j in range(nb):
-                dmg[j] += d[j]
-        xprev = xc
-        xc = y
-        dl = dn
-    sp = _push_bs(stack, sp, xc, bs, d)
-    for j in range(nb):
-        out[j] = dmg[j] + d[j] + residue_damage(stack, sp, bs[j])
+    for start in range(0, total, _BLOCK):
+        size = min(_BLOCK, total - start)
+        for kk in range(size):
+            k = start + kk
+            xin = x[k] if k < n else 0.0
+            y0 = p0 * xin + q0 * x1 + r0 * x2 - s0 * u0 - t0 * v0
+            y1 = p1 * xin + q1 * x1 + r1 * x2 - s1 * u1 - t1 * v1
+            y2 = p2 * xin + q2 * x1 + r2 * x2 - s2 * u2 - t2 * v2
+            y3 = p3 * xin + q3 * x1 + r3 * x2 - s3 * u3 - t3 * v3
+            buf[0, kk] = y0
+            buf[1, kk] = y1
+            buf[2, kk] = y2
+            buf[3, kk] = y3
+            v0 = u0
+            u0 = y0
+            v1 = u1
+            u1 = y1
+            v2 = u2
+            u2 = y2
+            v3 = u3
+            u3 = y3
+            x2 = x1
+            x1 = xin
+        for r in range(m):
+            stack = stacks[r]
+            end = min(size, n + n_extra[r] - start)
+            sp = sps[r]
+            xprev = xprevs[r]
+            xc = xcs[r]
+            dl = dls[r]
+            for kk in range(end):
+                k = start + kk
+                y = buf[r, kk]
+                if k < n_skip + 2:
+                    if k == n_skip:  # the first counted sample
+                        sp = _push_bs(stack, 0, y, bs, d)
+                        for j in range(nb):
+                            dmg[r, j] = d[j]
+                        xprev = y
+                    elif k == n_skip + 1:
+                        xc = y
+                        dl = y - xprev
+                    continue
+                if y == xc:
+                    continue
+                dn = y - xc
+                if dl * dn < 0.0:
+                    val = _vertex(xprev, xc, y) if interp else xc
+                    sp = _push_bs(stack, sp, val, bs, d)
+                    for j in range(nb):
+                        dmg[r, j] += d[j]
+                xprev = xc
+                xc = y
+                dl = dn
+            sps[r] = sp
+            xprevs[r] = xprev
+            xcs[r] = xc
+            dls[r] = dl
+    for r in range(m):  # the last sample, then the half cycles left on the stack
+        stack = stacks[r]
+        sp = _push_bs(stack, sps[r], xcs[r], bs, d)
+        for j in range(nb):
+            out[r, j] = dmg[r, j] + d[j] + residue_damage(stack, sp, bs[j])
 
 
 #: Time-domain FDS methods: "ramp" (the samples as a piecewise-linear input) or
@@ -622,29 +677,43 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], 
 
 def _fds_run(x, bp, az, n_extra, b, interpolate_peaks, n_skip, nw) -> np.ndarray:
     """Damage per oscillator (rows of bp, az): shape (k,) for a scalar b, (len(b), k)
-    for an array of b (one pass per oscillator, :func:`_filter_miner_bs`)."""
+    for an array of b (four oscillators per pass, :func:`_filter_miner_bank`)."""
     if isinstance(b, np.ndarray):
-        def one(i: int) -> np.ndarray:
-            d = np.empty(b.size)
-            _filter_miner_bs(x, bp[i, 0], bp[i, 1], bp[i, 2], az[i, 1], az[i, 2],
-                             int(n_extra[i]), b, interpolate_peaks, n_skip, d)
+        # four oscillators of similar free decay per pass (_filter_miner_bank), the
+        # longest groups first so that the threads finish together
+        order = np.argsort(-np.asarray(n_extra), kind="stable")
+        groups = [order[i:i + 4] for i in range(0, order.size, 4)]
+
+        def bank(idx: np.ndarray) -> np.ndarray:
+            d = np.empty((idx.size, b.size))
+            _filter_miner_bank(x, np.ascontiguousarray(bp[idx]), np.ascontiguousarray(az[idx]),
+                               np.ascontiguousarray(n_extra[idx]), b, interpolate_peaks,
+                               n_skip, d)
             return d
-        shape = (b.size, bp.shape[0])
-    else:
-        def one(i: int) -> float:
-            return _filter_miner(x, bp[i, 0], bp[i, 1], bp[i, 2], az[i, 1], az[i, 2],
-                                 int(n_extra[i]), b, interpolate_peaks, n_skip)
-        shape = (bp.shape[0],)
+
+        out = np.empty((b.size, bp.shape[0]))
+        if nw == 1 or len(groups) == 1:
+            for idx in groups:
+                out[:, idx] = bank(idx).T
+        else:
+            with ThreadPoolExecutor(max_workers=nw) as ex:
+                for idx, d in zip(groups, ex.map(bank, groups), strict=True):
+                    out[:, idx] = d.T
+        return out
+
+    def one(i: int) -> float:
+        return _filter_miner(x, bp[i, 0], bp[i, 1], bp[i, 2], az[i, 1], az[i, 2],
+                             int(n_extra[i]), b, interpolate_peaks, n_skip)
 
     order = np.argsort(-(x.size + n_extra))  # longest first balances the threads
-    out = np.empty(shape)
+    out = np.empty(bp.shape[0])
     if nw == 1 or bp.shape[0] == 1:
         for i in order:
-            out[..., i] = one(int(i))
+            out[i] = one(int(i))
     else:
         with ThreadPoolExecutor(max_workers=nw) as ex:
             for i, d in zip(order, ex.map(one, [int(i) for i in order]), strict=True):
-                out[..., i] = d
+                out[i] = d
     return out
 
 

@@ -7,7 +7,6 @@ oscillator once and must give, row by row, what the call with each b alone gives
 ``rainflow``, test-only dependency).
 """
 
-import math
 import warnings
 
 import numpy as np
@@ -26,7 +25,7 @@ FN = np.geomspace(20.0, 2000.0, 25)
 
 
 @pytest.mark.parametrize("options", [
-    {}, {"free_decay": True}, {"skip_s": 0.2}, {"interpolate_peaks": False},
+    {}, {"free_decay": True}, {"skip_s": 0.3}, {"interpolate_peaks": False},
     {"method": "bandlimited"}, {"method": "bandlimited", "free_decay": True, "skip_s": 0.1},
     {"workers": 1},
 ])
@@ -53,17 +52,16 @@ def test_several_b_count_the_reference_rainflow_cycles_exactly():
     bz, az = sdof_filter.coefficients(fn, 10.0, DT, output="rel_disp")
     z = sdof_filter.response(x, DT, fn, 10.0, output="rel_disp")
     bs = np.array([0.0, 4.0, 8.0])
-    for i, f in enumerate(fn):
-        scale = (2 * math.pi * f) ** 2 / G0
-        bp = bz[i] * scale
-        out = np.empty(bs.size)
-        fatigue._filter_miner_bs(np.ascontiguousarray(x), bp[0], bp[1], bp[2], az[i, 1],
-                                 az[i, 2], 0, bs, False, 0, out)
-        cycles = list(rainflow_ref.extract_cycles(z[i] * scale))
-        assert out[0] == sum(n for _r, _m, n, *_ in cycles)
+    scale = (2 * np.pi * fn) ** 2 / G0
+    out = np.empty((fn.size, bs.size))
+    fatigue._filter_miner_bank(np.ascontiguousarray(x), bz * scale[:, None], az,
+                               np.zeros(fn.size, dtype=np.int64), bs, False, 0, out)
+    for i in range(fn.size):
+        cycles = list(rainflow_ref.extract_cycles(z[i] * scale[i]))
+        assert out[i, 0] == sum(n for _r, _m, n, *_ in cycles)
         for j, b in enumerate(bs[1:], start=1):
             ref = sum(n * (r / 2) ** b for r, _m, n, *_ in cycles)
-            assert out[j] == pytest.approx(ref, rel=1e-9)
+            assert out[i, j] == pytest.approx(ref, rel=1e-9)
 
 
 def test_several_b_give_the_warnings_of_each_b():
