@@ -279,7 +279,7 @@ def _accuracy_warnings(x: np.ndarray, fn: np.ndarray, dt: float,
             f" be missed, the SRS there may read up to {worst:.1%} low; resample the record"
             f" to at least 10 x fn"
         )
-    peak = float(np.abs(x).max())
+    peak = max(float(x.max()), -float(x.min()))  # max |x| without a copy of the record
     if peak > 0 and abs(x[-1]) > TRUNCATION_SHARE * peak:
         out.append(
             f"the record ends while the input is still active (last sample {x[-1]:g} g ="

@@ -78,10 +78,12 @@ def _record(label, x, dt, times, fn, q, bs) -> Spectra:
         # fs/10..fs/5: the record upsampled 4x (band-limited), so the ramp-invariant
         # filter sees at least 20 samples per period
         xs = x if up == 1 else core_signal.upsample(x, up)
-        for b in bs:
-            # free decay after the record: a shock's residual response does damage too
-            fds[b][sel] = times * core_fds.fds_time(xs, dt / up, fn[sel], q, b,
-                                                    free_decay=True)
+        # free decay after the record: a shock's residual response does damage too;
+        # one pass per fn serves every b (the rainflow cycles do not depend on b)
+        d = core_fds.fds_time(xs, dt / up, fn[sel], q, [float(b) for b in bs],
+                              free_decay=True)
+        for j, b in enumerate(bs):
+            fds[b][sel] = times * d[j]
         ers[sel] = core_ers.ers_shock(xs, dt / up, fn[sel], q)
     return Spectra(label, fds, ers)
 
@@ -91,7 +93,36 @@ def _shock(label, freq_hz, accel_g, q_spec, count, fn, q, bs) -> Spectra:
     return _record(label + " (wavelet synthesis)", synth.accel_g, synth.dt_s, count, fn, q, bs)
 
 
-def spectra_of_environment(item: LifeItem, fn, q: float, bs) -> Spectra:
+#: Spectra of environments already computed in one derivation, with the warnings their
+#: computation gave: {key: (Spectra, [(category, message)])} (see spectra_of_environment).
+SpectraCache = dict[tuple, tuple[Spectra, list[tuple[type[Warning], str]]]]
+
+
+def spectra_of_environment(item: LifeItem, fn, q: float, bs,
+                           cache: SpectraCache | None = None) -> Spectra:
+    """FDS per b and ERS of one environment of the life over its exposure, on `fn`.
+
+    With `cache` (one dict per derivation), an environment revision already computed on
+    the same grid, Q, b values and exposure is not computed again (an FDS-equivalent
+    level inverts the inputs' FDS, then its coverage needs the same spectra); the
+    warnings of the first computation are given again, so both uses see them."""
+    if cache is None:
+        return _spectra_of_environment(item, fn, q, bs)
+    rev = item.revision
+    key = (rev.id, rev.content_hash, item.life_label, exposure(item.environment, rev),
+           np.asarray(fn, float).tobytes(), float(q), tuple(float(b) for b in bs))
+    if key not in cache:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            spectra = _spectra_of_environment(item, fn, q, bs)
+        cache[key] = (spectra, [(w.category, str(w.message)) for w in caught])
+    spectra, given = cache[key]
+    for category, message in given:
+        warnings.warn(message, category, stacklevel=2)
+    return spectra
+
+
+def _spectra_of_environment(item: LifeItem, fn, q: float, bs) -> Spectra:
     env, rev = item.environment, item.revision
     amount, _ = exposure(env, rev)
     spec = rev.spec
@@ -133,9 +164,11 @@ Tested = tuple[str, "r.RandomResult | r.SineResult | r.ShockResult"]
 
 
 def coverage_of_level(result: r.RandomResult | r.SineResult | r.ShockResult,
-                      life: list[LifeItem], rules: s.PolicyRules) -> r.Coverage:
-    """FDS and ERS coverage of one test level against the life cycle."""
-    return _coverage([("test level", result)], life, rules)
+                      life: list[LifeItem], rules: s.PolicyRules,
+                      cache: SpectraCache | None = None) -> r.Coverage:
+    """FDS and ERS coverage of one test level against the life cycle (`cache`: the
+    derivation's spectra already computed, spectra_of_environment)."""
+    return _coverage([("test level", result)], life, rules, cache)
 
 
 def program_coverage(session: Session, product: m.Product, axis: m.Axis, grade: m.Grade,
@@ -210,7 +243,8 @@ def _ers_block(fn: np.ndarray, test_ers: np.ndarray, life_ers: np.ndarray,
         max_overtest_fn_hz=e.max_overtest_fn_hz)
 
 
-def _coverage(tests: list[Tested], life: list[LifeItem], rules: s.PolicyRules) -> r.Coverage:
+def _coverage(tests: list[Tested], life: list[LifeItem], rules: s.PolicyRules,
+              cache: SpectraCache | None = None) -> r.Coverage:
     eq = rules.equivalence
     notes: list[str] = []
     # a multi-channel record stored in chunks (planning.records) has no samples on its
@@ -226,7 +260,7 @@ def _coverage(tests: list[Tested], life: list[LifeItem], rules: s.PolicyRules) -
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", AccuracyWarning)
         test_parts = [spectra_of_level(result, fn, eq.q, eq.b) for _, result in tests]
-        parts = [spectra_of_environment(x, fn, eq.q, eq.b) for x in life]
+        parts = [spectra_of_environment(x, fn, eq.q, eq.b, cache) for x in life]
     notes.extend(sorted({str(w.message) for w in caught}))
     test_ers = np.max([p.ers for p in test_parts], axis=0)
     test_fds = {b: np.sum([p.fds[b] for p in test_parts], axis=0) for b in eq.b}
