@@ -289,7 +289,7 @@ def _draw_series(ax, spec: dict) -> None:
         if spec.get("ylog", True):
             y = np.where(y > 0, y, np.nan)
         ax.plot(x, y, color=color, ls=DASH.get(item.get("style", "solid"), "-"), lw=lw,
-                label=item["name"])
+                label=item["name"], zorder=3 if role == "main" else 2)
     ax.set_xscale("log")
     if spec.get("ylog", True):
         ax.set_yscale("log")
@@ -319,36 +319,36 @@ def plot_chart(spec: dict, below: dict | None = None, *, caution: bool = True) -
     rows = [(len(p["series"]) + 1) // 2 for p in plots]
     heights = [2.4 + 0.17 * r for r in rows]
     with rc_context(RC):
-        fig = Figure(figsize=(WIDTH_IN, sum(heights) + 0.3), layout="constrained")
+        fig = Figure(figsize=(WIDTH_IN, sum(heights) + (0.55 if caution else 0.3)),
+                     layout="constrained")
         axes = fig.subplots(len(plots), 1, squeeze=False,
                             gridspec_kw={"height_ratios": heights})[:, 0]
         for ax, p in zip(axes, plots, strict=True):
             _draw_series(ax, p)
-            ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.2),
+            ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.27 if p.get("note") else -0.2),
                       ncol=2 if len(p["series"]) > 1 else 1)
-            if p.get("note"):
-                ax.text(0.0, 1.01, p["note"], transform=ax.transAxes, fontsize=6.5,
-                        color="#444444", va="bottom")
+            if p.get("note"):  # under the axis label, above the legend
+                ax.set_xlabel(f"{p['xlabel']} [{p['xunit']}]\n({p['note']})")
         for ax in axes:
             _grid(ax)
-        if caution:
-            fig.get_layout_engine().set(h_pad=0.06)
-            fig.supxlabel(PLOT_CAUTION, fontsize=6.2, color="#444444", y=0.0)
+        if caution:  # a strip of 0.25 in under the plots, outside the layout
+            total = sum(heights) + 0.55
+            fig.get_layout_engine().set(rect=(0.0, 0.25 / total, 1.0, 1.0 - 0.25 / total))
+            fig.text(0.5, 0.06 / total, PLOT_CAUTION, fontsize=6.2, color="#444444",
+                     ha="center", va="bottom")
         return _svg(fig)
 
 
 def record_plot(overlay) -> dict:
     """The plot description of a test record over its level and the tolerance band the
-    verdict used (planning.evidence.RecordOverlay): the record (every point), the level,
-    the band's upper and lower limits at the judged frequencies and, for a shock rule
-    with a share allowed outside, the outer band. The pages draw it (plot.js) and
+    verdict used (planning.evidence.RecordOverlay): the level, the band's upper and lower
+    limits at the judged frequencies, for a shock rule with a share allowed outside the
+    outer band, and the record (every point, drawn last). The pages draw it (plot.js) and
     :func:`record_chart` draws it as SVG, so both show the same lines."""
     band = overlay.band
     verdict = {"pass": "passed", "fail": "failed"}.get(overlay.verdict, overlay.verdict)
     record = f"record #{overlay.evidence_id} ({verdict})"
     series = [
-        {"name": record, "x": overlay.record_freq_hz, "y": overlay.record_values,
-         "style": "solid", "role": "main"},
         {"name": f"level {overlay.level}", "x": overlay.level_freq_hz,
          "y": overlay.level_values, "style": "solid", "role": "alt"},
         {"name": f"tolerance {band.label} (upper)", "x": band.freq_hz, "y": band.upper,
@@ -363,6 +363,9 @@ def record_plot(overlay) -> dict:
             {"name": "outer band (lower)", "x": band.freq_hz, "y": band.outer_lower,
              "style": "dotted", "role": "band"},
         ]
+    # the record last: drawn over the level where it follows it
+    series.append({"name": record, "x": overlay.record_freq_hz, "y": overlay.record_values,
+                   "style": "solid", "role": "main"})
     quantity = overlay.quantity + (f", Q = {overlay.q:g}" if overlay.q else "")
     return {"title": f"{overlay.requirement_key}: record #{overlay.evidence_id} against "
                      f"{overlay.level}, axis {overlay.axis}",
