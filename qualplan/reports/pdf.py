@@ -68,7 +68,7 @@ def environment() -> Environment:
     env.filters.update(num=_num, signed=_signed, date=_date, datetime=_datetime,
                        status=wording.status, kind=wording.kind, hz=wording.frequency,
                        duration=wording.duration, db=wording.decibels,
-                       count=wording.count,
+                       count=wording.count, combination=wording.combination,
                        verdict_words=margins.verdict_words)
     env.globals["qualplan_version"] = __version__
     return env
