@@ -138,3 +138,16 @@ def test_sequence_by_axis_matches_the_specification(db):
         if x.coverage is not None:
             assert ax.coverage.fn_hz == x.coverage.fn_hz
             assert ax.coverage.ers.ratio_db == x.coverage.ers.ers_ratio_db
+
+
+def test_audit_figures_written_as_svg_files(db, tmp_path):
+    session, data = db
+    content = documents.audit_content(session, data["program"].id, preview=True)
+    paths = pdf.PdfRenderer(figures=True).render(content, tmp_path)
+    svgs = sorted(p.name for p in paths if p.suffix == ".svg")
+    assert svgs == sorted(f"{content.number}-record-{r.evidence_id}.svg"
+                          for r in content.records)
+    for rec in content.records:
+        svg = next(p for p in paths if p.name.endswith(f"-record-{rec.evidence_id}.svg"))
+        body = svg.read_text()
+        assert f"record #{rec.evidence_id}" in body and f"level {rec.level}" in body
