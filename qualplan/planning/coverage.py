@@ -31,6 +31,7 @@ from qualplan.planning import envdata
 from qualplan.planning import results as r
 from qualplan.planning import schemas as s
 from qualplan.planning.lifecycle import LifeItem, current_test_levels, exposure, life_cycle
+from qualplan.planning.policies import rules_of
 from qualplan.store import models as m
 
 K = m.EnvironmentKind
@@ -189,6 +190,46 @@ def program_coverage(session: Session, product: m.Product, axis: m.Axis, grade: 
     if stored is not None:
         return stored
     return _coverage(tests, life_cycle(session, product, axis), rules)
+
+
+AXIS_ORDER = {"X": 0, "Y": 1, "Z": 2, "all": 3}
+KIND_ORDER = {"random": 0, "sine": 1, "shock": 2}
+
+
+@dataclass(frozen=True)
+class AxisSequence:
+    """The test sequence of one axis (its levels' names) and its coverage of that axis's
+    life: FDS summed (Miner), ERS enveloped; None when the levels were checked against
+    different life cycles or grids (derive them again to combine them)."""
+
+    axis: str
+    tests: list[str]
+    coverage: r.Coverage | None
+
+
+def sequence_by_axis(levels: list[m.Level]) -> list[AxisSequence]:
+    """The test sequences of `levels`, one per axis (X, Y, Z, all), each the combination
+    of the coverage stored with its levels (:func:`combine_stored`) under the policy of
+    the axis's first level. The issued specification and the product page both use it."""
+    out = []
+    for axis in sorted({lv.axis for lv in levels}, key=lambda a: AXIS_ORDER[a.value]):
+        on_axis = [lv for lv in levels if lv.axis is axis]
+        tests = [(f"{lv.name} #{lv.number}", r.load(lv.kind.value, lv.result))
+                 for lv in on_axis]
+        policy = on_axis[0].policy
+        combined = combine_stored(tests, rules_of(policy)) if policy is not None else None
+        out.append(AxisSequence(axis=axis.value, tests=[t[0] for t in tests],
+                                coverage=combined))
+    return out
+
+
+def product_sequence(session: Session, product_id: int, grade: m.Grade | str
+                  ) -> list[AxisSequence]:
+    """The current test levels of a product for a grade, per axis, with their coverage
+    of the life (:func:`sequence_by_axis`), in the order of the specification."""
+    chosen = current_test_levels(session, product_id, m.Grade(grade))
+    chosen.sort(key=lambda x: (AXIS_ORDER[x.axis.value], KIND_ORDER[x.kind.value], x.name))
+    return sequence_by_axis(chosen)
 
 
 def combine_stored(tests: list[Tested], rules: s.PolicyRules) -> r.Coverage | None:
