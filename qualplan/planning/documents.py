@@ -206,6 +206,10 @@ class ForceLimitTable(Content):
     needs_acceptance: bool
     accepted_by: str | None = None
     acceptance_rationale: str = ""
+    #: The input ASD notched by the force limit at the predicted notches [Hz], [g^2/Hz]
+    #: (empty when no modes were given), for the level chart.
+    notched_freq_hz: list[float] = []
+    notched_asd_g2_hz: list[float] = []
 
 
 class NotchingPoint(Content):
@@ -587,7 +591,8 @@ def _force_limit(session: Session, level: m.Level) -> ForceLimitTable | None:
                                                                     strict=True)],
         notches=[ForceLimitNotch(**n.model_dump()) for n in fl.notches],
         max_notch_db=row.params.get("max_notch_db"), needs_acceptance=fl.needs_acceptance,
-        accepted_by=fl.accepted_by, acceptance_rationale=fl.acceptance_rationale)
+        accepted_by=fl.accepted_by, acceptance_rationale=fl.acceptance_rationale,
+        notched_freq_hz=fl.notched_freq_hz, notched_asd_g2_hz=fl.notched_asd_g2_hz)
 
 
 def _notching(session: Session, level: m.Level) -> NotchingTable | None:

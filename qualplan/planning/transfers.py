@@ -167,6 +167,12 @@ def mounting_of(session: Session, product: m.Product) -> m.Mounting | None:
     return session.scalar(select(m.Mounting).where(m.Mounting.product_id == product.id))
 
 
+def read_mounting(session: Session, product_id: int) -> MountingRead | None:
+    """The product's stated orientation in its parent, or None (aligned with the parent)."""
+    row = mounting_of(session, get(session, m.Product, product_id, "product"))
+    return None if row is None else MountingRead.model_validate(row)
+
+
 def _matrix(session: Session, product: m.Product) -> list[list[float]]:
     row = mounting_of(session, product)
     return row.frame["matrix"] if row is not None else IDENTITY
@@ -272,6 +278,11 @@ def read_rule(session: Session, rule: m.TransferRule) -> RuleRead:
     return RuleRead(id=rule.id, program_id=rule.program_id, name=rule.name, kind=rule.kind,
                     revision=rev.number, revision_id=rev.id, basis=rev.basis,
                     provenance=rev.provenance, spec=rev.spec, content_hash=rev.content_hash)
+
+
+def rule_by_id(session: Session, rule_id: int) -> RuleRead:
+    """A transfer rule at its latest revision (NotFound naming the id)."""
+    return read_rule(session, get(session, m.TransferRule, rule_id, "transfer rule"))
 
 
 def list_rules(session: Session, program_id: int) -> list[RuleRead]:

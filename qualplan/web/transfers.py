@@ -1,0 +1,134 @@
+"""Environments down the product tree, from a product's page: its mounting in its parent
+(signed axis permutation or direction cosines), the program's transfer rules (create one,
+or revise one: zone transmissibility table, mass attenuation) and a transferred
+environment derived from the parent's through the mounting and the rules.
+
+The forms parse their fields and call planning.transfers, the use cases the API calls
+too; a refused form re-renders the product page with the error naming the field and the
+value, and nothing is stored (web.common.action).
+"""
+
+from __future__ import annotations
+
+import re
+
+from fastapi import APIRouter, Request
+from fastapi.responses import Response
+from starlette.concurrency import run_in_threadpool
+
+from qualplan.planning import catalog, transfers
+from qualplan.planning.errors import ValidationFailed
+from qualplan.planning.inputs import parse_number
+from qualplan.web.common import Ctx, CtxDep, action, form_of, number, text
+from qualplan.web.programs import product_page
+
+router = APIRouter(include_in_schema=False)
+AXES = ("X", "Y", "Z")
+_SEPARATORS = re.compile(r"[,;\s]+")
+
+
+def numbers_of(field: str, raw: str, count: int | None = None) -> list[float]:
+    """The numbers of one typed line ("0.6, 0.8, 0"): commas, semicolons or spaces
+    between them; each a plain decimal literal (inputs.parse_number)."""
+    cells = [c for c in _SEPARATORS.split(raw.strip()) if c]
+    if count is not None and len(cells) != count:
+        raise ValidationFailed(field, raw, f"must hold {count} numbers, separated by commas "
+                               "or spaces")
+    return [float(parse_number(field, c)) for c in cells]
+
+
+def table_of(field: str, raw: str) -> tuple[list[float], list[float]]:
+    """A two-column table typed one row a line: frequency [Hz] and value."""
+    f, v = [], []
+    for i, line in enumerate(raw.splitlines(), start=1):
+        if not line.strip() or line.lstrip().startswith("#"):
+            continue
+        a, b = numbers_of(f"{field} line {i}", line, 2)
+        f.append(a)
+        v.append(b)
+    if not f:
+        raise ValidationFailed(field, raw, "give the table: one 'frequency [Hz], |T| [g/g]' "
+                               "pair a line")
+    return f, v
+
+
+def _mounting_cmd(form) -> transfers.MountingIn:
+    version = number(form, "expected_version", integer=True)
+    if text(form, "frame") == "matrix":
+        rows = [numbers_of(f"matrix.{ax}", text(form, f"matrix.{ax}"), 3) for ax in AXES]
+        return transfers.MountingIn(matrix=rows, note=text(form, "note"),
+                                    expected_version=version)
+    return transfers.MountingIn(axes={ax: text(form, f"axes.{ax}") for ax in AXES},
+                                note=text(form, "note"), expected_version=version)
+
+
+@router.post("/products/{product_id}/mounting")
+async def set_mounting(product_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
+    form, _ = await form_of(request)
+
+    def do() -> str:
+        transfers.set_mounting(ctx.db, ctx.actor, product_id, _mounting_cmd(form))
+        return f"/products/{product_id}#mounting"
+
+    return await run_in_threadpool(action, ctx, form, do, lambda msg, code: product_page(
+        ctx, product_id, msg, code, form, "mounting"))
+
+
+def _rule_spec(kind: str, form) -> dict:
+    if kind == "zone_transmissibility":
+        f, g = table_of("table", text(form, "table"))
+        return {"freq_hz": f, "gain": g}
+    if kind != "mass_attenuation":
+        raise ValidationFailed("kind", kind,
+                               "must be 'zone_transmissibility' or 'mass_attenuation'")
+    method = text(form, "method")
+    spec: dict = {"method": method}
+    if method == "mass_loading":
+        spec["mounting_mass_kg"] = number(form, "mounting_mass_kg")
+        if (cap := number(form, "max_reduction_db")) is not None:
+            spec["max_reduction_db"] = cap
+    return spec
+
+
+@router.post("/products/{product_id}/transfer-rules")
+async def save_rule(product_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
+    """Create a transfer rule of the product's program, or revise the one chosen."""
+    form, _ = await form_of(request)
+
+    def do() -> str:
+        product = catalog.product_by_id(ctx.db, product_id)
+        rule_id = number(form, "rule_id", integer=True)
+        if rule_id is None:
+            kind = text(form, "kind")
+            transfers.create_rule(ctx.db, ctx.actor, transfers.RuleCreate(
+                program_id=product.program_id, name=text(form, "name"), kind=kind,
+                spec=_rule_spec(kind, form), basis=text(form, "basis"),
+                provenance=text(form, "provenance"),
+                note=text(form, "note") or "first revision"))
+        else:
+            rule = transfers.rule_by_id(ctx.db, rule_id)
+            transfers.revise_rule(ctx.db, ctx.actor, rule_id, transfers.RuleRevisionIn(
+                spec=_rule_spec(rule.kind, form), basis=text(form, "basis"),
+                provenance=text(form, "provenance"), note=text(form, "note")))
+        return f"/products/{product_id}#rules"
+
+    return await run_in_threadpool(action, ctx, form, do, lambda msg, code: product_page(
+        ctx, product_id, msg, code, form, "rule"))
+
+
+@router.post("/products/{product_id}/transferred-environments")
+async def derive_transferred(product_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
+    form, _ = await form_of(request)
+
+    def ids(name: str) -> list[int]:
+        return [int(parse_number(name, v, integer=True)) for v in form.getlist(name)]
+
+    def do() -> str:
+        rev = transfers.derive_transferred(ctx.db, ctx.actor, transfers.TransferCreate(
+            product_id=product_id, name=text(form, "name"), axis=text(form, "axis"),
+            parent_environment_ids=ids("parent_environment_ids"), rule_ids=ids("rule_ids"),
+            phase_id=number(form, "phase_id", integer=True), note=text(form, "note")))
+        return f"/environments/{rev.environment_id}"
+
+    return await run_in_threadpool(action, ctx, form, do, lambda msg, code: product_page(
+        ctx, product_id, msg, code, form, "transfer"))
