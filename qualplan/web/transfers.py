@@ -37,19 +37,36 @@ def numbers_of(field: str, raw: str, count: int | None = None) -> list[float]:
     return [float(parse_number(field, c)) for c in cells]
 
 
-def table_of(field: str, raw: str) -> tuple[list[float], list[float]]:
-    """A two-column table typed one row a line: frequency [Hz] and value."""
-    f, v = [], []
+def table_of(field: str, raw: str) -> tuple[list[float], list[float], list[int]]:
+    """A two-column table typed one row a line: frequency [Hz] and value, and the line
+    number of each row (blank lines and # comments skipped)."""
+    f, v, lines = [], [], []
     for i, line in enumerate(raw.splitlines(), start=1):
         if not line.strip() or line.lstrip().startswith("#"):
             continue
         a, b = numbers_of(f"{field} line {i}", line, 2)
         f.append(a)
         v.append(b)
+        lines.append(i)
     if not f:
         raise ValidationFailed(field, raw, "give the table: one 'frequency [Hz], |T| [g/g]' "
                                "pair a line")
-    return f, v
+    return f, v, lines
+
+
+_SPEC_CELL = re.compile(r"spec\.(freq_hz|gain)(?:\[(\d+)\])?$")
+
+
+def _on_table(lines: list[int], exc: ValidationFailed) -> ValidationFailed:
+    """A refused cell of the rule's table named by the form's field and line."""
+    hit = _SPEC_CELL.match(exc.field)
+    if hit is None:
+        return exc
+    what = "frequency" if hit.group(1) == "freq_hz" else "|T|"
+    if hit.group(2) is None or int(hit.group(2)) >= len(lines):
+        return ValidationFailed(f"table ({what} column)", exc.value, exc.rule)
+    return ValidationFailed(f"table line {lines[int(hit.group(2))]} ({what})", exc.value,
+                            exc.rule)
 
 
 def _mounting_cmd(form) -> transfers.MountingIn:
@@ -74,10 +91,11 @@ async def set_mounting(product_id: int, request: Request, ctx: Ctx = CtxDep) -> 
         ctx, product_id, msg, code, form, "mounting"))
 
 
-def _rule_spec(kind: str, form) -> dict:
+def _rule_spec(kind: str, form) -> tuple[dict, list[int]]:
+    """The rule's spec and the form line of each table row (empty: no table)."""
     if kind == "zone_transmissibility":
-        f, g = table_of("table", text(form, "table"))
-        return {"freq_hz": f, "gain": g}
+        f, g, lines = table_of("table", text(form, "table"))
+        return {"freq_hz": f, "gain": g}, lines
     if kind != "mass_attenuation":
         raise ValidationFailed("kind", kind,
                                "must be 'zone_transmissibility' or 'mass_attenuation'")
@@ -87,7 +105,7 @@ def _rule_spec(kind: str, form) -> dict:
         spec["mounting_mass_kg"] = number(form, "mounting_mass_kg")
         if (cap := number(form, "max_reduction_db")) is not None:
             spec["max_reduction_db"] = cap
-    return spec
+    return spec, []
 
 
 @router.post("/products/{product_id}/transfer-rules")
@@ -98,18 +116,21 @@ async def save_rule(product_id: int, request: Request, ctx: Ctx = CtxDep) -> Res
     def do() -> str:
         product = catalog.product_by_id(ctx.db, product_id)
         rule_id = number(form, "rule_id", integer=True)
-        if rule_id is None:
-            kind = text(form, "kind")
-            transfers.create_rule(ctx.db, ctx.actor, transfers.RuleCreate(
-                program_id=product.program_id, name=text(form, "name"), kind=kind,
-                spec=_rule_spec(kind, form), basis=text(form, "basis"),
-                provenance=text(form, "provenance"),
-                note=text(form, "note") or "first revision"))
-        else:
-            rule = transfers.rule_by_id(ctx.db, rule_id)
-            transfers.revise_rule(ctx.db, ctx.actor, rule_id, transfers.RuleRevisionIn(
-                spec=_rule_spec(rule.kind, form), basis=text(form, "basis"),
-                provenance=text(form, "provenance"), note=text(form, "note")))
+        kind = text(form, "kind") if rule_id is None else transfers.rule_by_id(
+            ctx.db, rule_id).kind
+        spec, lines = _rule_spec(kind, form)
+        try:
+            if rule_id is None:
+                transfers.create_rule(ctx.db, ctx.actor, transfers.RuleCreate(
+                    program_id=product.program_id, name=text(form, "name"), kind=kind,
+                    spec=spec, basis=text(form, "basis"), provenance=text(form, "provenance"),
+                    note=text(form, "note") or "first revision"))
+            else:
+                transfers.revise_rule(ctx.db, ctx.actor, rule_id, transfers.RuleRevisionIn(
+                    spec=spec, basis=text(form, "basis"), provenance=text(form, "provenance"),
+                    note=text(form, "note")))
+        except ValidationFailed as exc:
+            raise _on_table(lines, exc) from exc
         return f"/products/{product_id}#rules"
 
     return await run_in_threadpool(action, ctx, form, do, lambda msg, code: product_page(
