@@ -772,6 +772,10 @@ def specification_content(
                  f"{sec.notching.max_notch_db:g} dB and has no approver's acceptance"
                  for sec in sections if sec.notching is not None
                  and sec.notching.needs_acceptance and not sec.notching.accepted_by]
+    warnings += [f"{sec.name} #{sec.number}: a notch predicted by the force limit is deeper "
+                 f"than {sec.force_limit.max_notch_db:g} dB and has no approver's acceptance"
+                 for sec in sections if sec.force_limit is not None
+                 and sec.force_limit.needs_acceptance and not sec.force_limit.accepted_by]
     axes = []
     for axis in sorted({lvl.axis for lvl in chosen}, key=lambda a: AXIS_ORDER[a.value]):
         on_axis = [lvl for lvl in chosen if lvl.axis is axis]

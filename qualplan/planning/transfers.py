@@ -29,6 +29,7 @@ from qualplan.planning.access import Actor, record, require_for, require_in
 from qualplan.planning.catalog import _add_unique, get
 from qualplan.planning.environments import _append_revision
 from qualplan.planning.errors import Conflict, ValidationFailed
+from qualplan.planning.policies import rules_of
 from qualplan.planning.withdrawals import describe, environment_withdrawal
 from qualplan.store import models as m
 from qualplan.store.hashing import json_hash, revision_hash
@@ -770,6 +771,9 @@ def set_level_force_limit(session: Session, actor: Actor, level_id: int, cmd: Fo
         raise ValidationFailed("level_id", level_id, f"level {level.name!r} is a "
                                f"{level.kind.value} {level.purpose.value} level; force limits "
                                "go with random test levels")
+    if cmd.max_notch_db is None and level.policy is not None:  # the policy's limit, as in
+        cmd = cmd.model_copy(update={  # response-limit notching
+            "max_notch_db": rules_of(level.policy).control.max_notch_db})
     out = force_limit_of(*_level_asd(level), f"{level.name} #{level.number}", cmd)
     row = m.LevelForceLimit(level_id=level.id, params=cmd.model_dump(mode="json"),
                             result=out.model_dump(mode="json"), level_hash=level.level_hash,
