@@ -23,6 +23,21 @@ from qualplan.web.common import Ctx, CtxDep, action, form_of, number, text
 from qualplan.web.programs import product_page
 
 router = APIRouter(include_in_schema=False)
+
+
+def _again(ctx: Ctx, product_id: int, form, where: str):
+    """The product page with the refusal: by its form, or at the top of the page when
+    the product has no parent (its page has no such form)."""
+    def again(message: str, status: int) -> Response:
+        if catalog.product_by_id(ctx.db, product_id).parent_id is None:
+            where_ = None
+        else:
+            where_ = where
+        return product_page(ctx, product_id, message, status, form, where_)
+
+    return again
+
+
 AXES = ("X", "Y", "Z")
 _SEPARATORS = re.compile(r"[,;\s]+")
 
@@ -87,8 +102,8 @@ async def set_mounting(product_id: int, request: Request, ctx: Ctx = CtxDep) -> 
         transfers.set_mounting(ctx.db, ctx.actor, product_id, _mounting_cmd(form))
         return f"/products/{product_id}#mounting"
 
-    return await run_in_threadpool(action, ctx, form, do, lambda msg, code: product_page(
-        ctx, product_id, msg, code, form, "mounting"))
+    return await run_in_threadpool(action, ctx, form, do,
+                                   _again(ctx, product_id, form, "mounting"))
 
 
 def _rule_spec(kind: str, form) -> tuple[dict, list[int]]:
@@ -133,8 +148,8 @@ async def save_rule(product_id: int, request: Request, ctx: Ctx = CtxDep) -> Res
             raise _on_table(lines, exc) from exc
         return f"/products/{product_id}#rules"
 
-    return await run_in_threadpool(action, ctx, form, do, lambda msg, code: product_page(
-        ctx, product_id, msg, code, form, "rule"))
+    return await run_in_threadpool(action, ctx, form, do,
+                                   _again(ctx, product_id, form, "rule"))
 
 
 @router.post("/products/{product_id}/transferred-environments")
@@ -151,5 +166,5 @@ async def derive_transferred(product_id: int, request: Request, ctx: Ctx = CtxDe
             phase_id=number(form, "phase_id", integer=True), note=text(form, "note")))
         return f"/environments/{rev.environment_id}"
 
-    return await run_in_threadpool(action, ctx, form, do, lambda msg, code: product_page(
-        ctx, product_id, msg, code, form, "transfer"))
+    return await run_in_threadpool(action, ctx, form, do,
+                                   _again(ctx, product_id, form, "transfer"))

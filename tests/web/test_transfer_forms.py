@@ -185,6 +185,21 @@ def test_viewer_sees_no_transfer_forms_and_is_refused(browserless, users, world,
     assert _stored(factory, board_id)[1] is None
 
 
+def test_top_product_refusal_is_shown_at_the_top(browserless, users, world, factory):
+    """A product without a parent has no transfer forms; a POST to one is refused with
+    the message at the top of its page, and nothing is stored."""
+    eng = browserless(users["engineer"])
+    eng.get(f"/products/{world.product_id}")
+    r = eng.post(f"/products/{world.product_id}/mounting", {
+        "frame": "axes", "axes.X": "X", "axes.Y": "Y", "axes.Z": "Z"}, follow_redirects=False)
+    assert r.status_code == 422
+    alert = re.search(r'role="alert" id="form-error">(.*?)</div>', unescape(r.text), re.S)
+    assert alert is not None and "product_id = " in alert.group(1)
+    assert "has no parent to be mounted in" in alert.group(1)
+    with unit_of_work(factory) as session:
+        assert transfers.read_mounting(session, world.product_id) is None
+
+
 def _plot_data(html: str, plot_id: str) -> dict:
     m_ = re.search(rf'<script type="application/json" id="data-{plot_id}">(.*?)</script>',
                    html, re.S)
