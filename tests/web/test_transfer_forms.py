@@ -21,6 +21,7 @@ from qualplan.planning import catalog, environments, levels, notching, policies,
 from qualplan.planning import schemas as s
 from qualplan.store import models as m
 from qualplan.store.session import unit_of_work
+from tests.corpus import changed, db_state
 from tests.web.conftest import SETUP, unique
 
 FLAT = {"freq_hz": [20.0, 2000.0], "asd_g2_hz": [0.04, 0.04]}
@@ -149,9 +150,10 @@ def test_bad_form_value_names_field_and_value_and_stores_nothing(
     board_id, z_id, x_id = _tree(factory, world)
     data = {k: {"Z_ENV": str(z_id), "X_ENV": str(x_id)}.get(v, v) for k, v in data.items()}
     value = {"Z_ENV": f"= {z_id}: "}.get(value, value)
-    before = _stored(factory, board_id)
     eng = browserless(users["engineer"])
     eng.get(f"/products/{board_id}")
+    before = _stored(factory, board_id)
+    state = db_state(factory)
     r = eng.post(f"/products/{board_id}/{path}", data, follow_redirects=False)
     assert r.status_code == 422, r.text[:800]
     html = unescape(r.text)
@@ -165,6 +167,8 @@ def test_bad_form_value_names_field_and_value_and_stores_nothing(
     after = _stored(factory, board_id)
     assert after[1] is None and after[2] == before[2] and after[3] == before[3]
     assert [o.name for o in after[0]] == [o.name for o in before[0]]
+    # nothing at all was written: row count and content of every table unchanged
+    assert db_state(factory) == state, changed(state, db_state(factory))
 
 
 def test_viewer_sees_no_transfer_forms_and_is_refused(browserless, users, world, factory):
