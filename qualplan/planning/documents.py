@@ -206,6 +206,10 @@ class ForceLimitTable(Content):
     needs_acceptance: bool
     accepted_by: str | None = None
     acceptance_rationale: str = ""
+    #: The input ASD notched by the force limit at the predicted notches [Hz], [g^2/Hz]
+    #: (empty when no modes were given), for the level chart.
+    notched_freq_hz: list[float] = []
+    notched_asd_g2_hz: list[float] = []
 
 
 class NotchingPoint(Content):
@@ -592,7 +596,8 @@ def _force_limit(session: Session, level: m.Level) -> ForceLimitTable | None:
                                                                     strict=True)],
         notches=[ForceLimitNotch(**n.model_dump()) for n in fl.notches],
         max_notch_db=row.params.get("max_notch_db"), needs_acceptance=fl.needs_acceptance,
-        accepted_by=fl.accepted_by, acceptance_rationale=fl.acceptance_rationale)
+        accepted_by=fl.accepted_by, acceptance_rationale=fl.acceptance_rationale,
+        notched_freq_hz=fl.notched_freq_hz, notched_asd_g2_hz=fl.notched_asd_g2_hz)
 
 
 def _notching(session: Session, level: m.Level) -> NotchingTable | None:
@@ -772,6 +777,10 @@ def specification_content(
                  f"{sec.notching.max_notch_db:g} dB and has no approver's acceptance"
                  for sec in sections if sec.notching is not None
                  and sec.notching.needs_acceptance and not sec.notching.accepted_by]
+    warnings += [f"{sec.name} #{sec.number}: a notch predicted by the force limit is deeper "
+                 f"than {sec.force_limit.max_notch_db:g} dB and has no approver's acceptance"
+                 for sec in sections if sec.force_limit is not None
+                 and sec.force_limit.needs_acceptance and not sec.force_limit.accepted_by]
     axes = [AxisCoverage(axis=x.axis, tests=x.tests, coverage=_coverage(x.coverage))
             for x in coverage.sequence_by_axis(chosen)]
     number = check_document_number(

@@ -26,6 +26,8 @@ WIDTH_IN, HEIGHT_IN = 6.4, 3.5
 NOMINAL = "#1f3b73"
 BAND = "#b03a2e"
 LIMIT = "#7f7f7f"
+NOTCHED = "#1e7b34"
+FORCE_NOTCHED = "#b8860b"
 RC = {
     "svg.fonttype": "none",
     "svg.hashsalt": "qualplan",
@@ -168,7 +170,16 @@ def _dense(freq, values, n: int = 400):
 
 
 def level_chart(section: LevelSection) -> str:
-    """Nominal level with its tolerance band (dashed) and the limit level before margins."""
+    """Nominal level with its tolerance band (dashed) and the limit level before margins;
+    a notched level also shows the notched input the lab runs: the response-limit notching
+    and the input notched by the force limit, every stored point of each (the force limit
+    itself, in N^2/Hz, is the level's second table)."""
+    with rc_context(RC):
+        return _svg(level_figure(section))
+
+
+def level_figure(section: LevelSection) -> Figure:
+    """The figure of :func:`level_chart` (its lines are what the chart draws)."""
     with rc_context(RC):
         fig = _figure()
         ax = fig.add_subplot()
@@ -211,13 +222,21 @@ def level_chart(section: LevelSection) -> str:
             if section.kind != "sine" and len(lf) > 60:
                 lf, lv = _thin(lf, lv)
             ax.plot(lf, lv, color=LIMIT, ls=":", lw=1.2, label="limit level (before margins)")
+        nt = section.notching
+        if nt is not None:
+            ax.plot(nt.freq_hz, nt.notched, color=NOTCHED, lw=1.1,
+                    label=f"notched input (response limit at {nt.location})")
+        fl = section.force_limit
+        if fl is not None and fl.notched_freq_hz:
+            ax.plot(fl.notched_freq_hz, fl.notched_asd_g2_hz, color=FORCE_NOTCHED, lw=1.1,
+                    label=f"input notched by the force limit (f0 = {_hz(fl.f0_hz)} Hz)")
         ax.set_xlabel("frequency [Hz]")
         _decades(ax)
         ax.set_title(f"{section.name} #{section.number}, axis {section.axis}", fontsize=9)
         _narrow_y(ax)
         _legend_below(ax, len(ax.get_lines()))
         _grid(ax)
-        return _svg(fig)
+        return fig
 
 
 def _thin(f, v, n: int = 300):

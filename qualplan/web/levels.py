@@ -74,18 +74,20 @@ def level_page(ctx: Ctx, level_id: int, error=None, status=200, form=None) -> Re
     row = levels.level_by_id(ctx.db, level_id)
     read = levels.read_level(ctx.db, row)
     product = catalog.product_by_id(ctx.db, row.product_id)
+    force_limit = transfers.level_force_limit(ctx.db, row.id)
+    notched = notching.level_notching(ctx.db, row.id)
     return render(
             ctx, "web/level.html", status, level=row, read=read, product=product,
             error=error, form=form or {},
             steps=[wording.step_sentence(st, grade=row.grade.value if row.grade else None,
                                          policy=row.policy.name if row.policy else None)
                    for st in read.result.steps],
-            plot=plots.level_plot(read, levels.compressed_inputs(ctx.db, row))
+            plot=plots.level_plot(read, levels.compressed_inputs(ctx.db, row), notching=notched,
+                                  force_limit=force_limit)
             if row.kind in plots.QUANTITY else None,
             coverage=plots.coverage_plots(read), worst=plots.worst_margins(read),
             cov=read.result.coverage,
-            force_limit=transfers.level_force_limit(ctx.db, row.id),
-            notched=notching.level_notching(ctx.db, row.id),
+            force_limit=force_limit, notched=notched,
         )
 
 

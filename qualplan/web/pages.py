@@ -23,11 +23,13 @@ from qualplan.web import (
     programs,
     requirements,
     signin,
+    transfers,
 )
 from qualplan.web.common import STATIC, PdfRenderer, WebState
 
 ROUTERS = (signin.router, programs.router, environments.router, levels.router,
-           requirements.router, documents.router, analysis.router)
+           requirements.router, documents.router, analysis.router,
+           transfers.router)
 
 
 def mount(

@@ -95,9 +95,13 @@ def record_plots(env, rev) -> list[dict[str, Any]]:
     ]
 
 
-def level_plot(level, inputs: list[dict[str, Any]] | None = None) -> dict[str, Any]:
-    """The level with its tolerance band (dashed), the limit level it came from and each
-    of its inputs compressed to the test duration (planning.levels.compressed_inputs).
+def level_plot(level, inputs: list[dict[str, Any]] | None = None, *, notching=None,
+               force_limit=None) -> dict[str, Any]:
+    """The level with its tolerance band (dashed), the limit level it came from, each
+    of its inputs compressed to the test duration (planning.levels.compressed_inputs)
+    and, when the level is notched, the notched input the lab runs: the stored
+    response-limit notching (planning.notching.NotchingRead) and the input notched by
+    the force limit (planning.transfers.ForceLimitRead), both as stored.
 
     `level` is planning's LevelRead; the band is the one planning stored with the result.
     """
@@ -117,8 +121,21 @@ def level_plot(level, inputs: list[dict[str, Any]] | None = None) -> dict[str, A
                           "dotted", "other"))
     for item in inputs or []:
         series.append(_series(item["name"], item["freq_hz"], item["values"], "dotted", "alt"))
+    notes = []
+    if notching is not None:
+        series.append(_series(f"notched input (response limit at {notching.location})",
+                              notching.freq_hz, notching.notched, "solid", "notched"))
+        notes.append(f"notched against a response limit: {len(notching.notches)} notch(es), "
+                     f"deepest {max((n.depth_db for n in notching.notches), default=0):.3g} dB"
+                     + (" (stale: made on an earlier level hash)" if notching.stale else ""))
+    if force_limit is not None and force_limit.notched_freq_hz:
+        series.append(_series(f"input notched by the force limit (C² = {force_limit.c2:g}, "
+                              f"f0 = {force_limit.f0_hz:g} Hz)", force_limit.notched_freq_hz,
+                              force_limit.notched_asd_g2_hz, "solid", "notched"))
+        notes.append(f"force limited: {len(force_limit.notches)} predicted notch(es); the "
+                     "force limit [N²/Hz] is the table below")
     return plot(f"{level.name} #{level.number}: {qty}", series, xlabel="frequency",
-                xunit="Hz", ylabel=qty, yunit=unit)
+                xunit="Hz", ylabel=qty, yunit=unit, note="; ".join(notes))
 
 
 def coverage_plots(level) -> list[dict[str, Any]]:
