@@ -19,6 +19,7 @@ from qualplan.dynamics.units import db_amplitude
 from qualplan.planning import envdata, imports
 from qualplan.planning import results as res
 from qualplan.planning import schemas as s
+from qualplan.planning import wording as w
 from qualplan.planning.access import Actor, record, require_for
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import Conflict, ValidationFailed
@@ -210,18 +211,21 @@ def _check_random(level: res.RandomResult, f, v, duration_s):
     bad = int((~chk.line_pass).sum())
     if bad:
         problems.append(f"{bad} of {chk.line_pass.size} lines outside "
-                        f"+/-{level.tolerance_db:g} dB; worst {chk.worst_deviation_db:+.2f} dB "
-                        f"at {chk.worst_freq_hz:.4g} Hz")
+                        f"±{w.number(level.tolerance_db)} dB; worst "
+                        f"{w.decibels(chk.worst_deviation_db)} at "
+                        f"{w.frequency(chk.worst_freq_hz)}")
     if not chk.grms_pass:
-        problems.append(f"g rms {chk.grms_achieved:.3g} g is {chk.grms_deviation_db:+.2f} dB "
-                        f"from the specified {chk.grms_spec:.3g} g (allowed "
-                        f"+/-{level.grms_tolerance_pct:g} %)")
+        problems.append(f"g rms {w.number(chk.grms_achieved)} g is "
+                        f"{w.decibels(chk.grms_deviation_db)} from the specified "
+                        f"{w.number(chk.grms_spec)} g (allowed "
+                        f"±{w.number(level.grms_tolerance_pct)} %)")
     required_s = level.duration_s * (1 - level.duration_tolerance_pct / 100)
     if duration_s is None:
         problems.append("no test duration given")
     elif duration_s < required_s:
-        problems.append(f"duration {duration_s:g} s is shorter than the required "
-                        f"{level.duration_s:g} s (-{level.duration_tolerance_pct:g} %)")
+        problems.append(f"duration {w.duration(duration_s)} is shorter than the required "
+                        f"{w.duration(level.duration_s)} "
+                        f"(-{w.number(level.duration_tolerance_pct)} %)")
     achieved = db_amplitude(chk.grms_achieved / level.limit.grms)
     spec = np.asarray(chk.spec_asd_g2_hz)
     band = JudgedBand(freq_hz=_floats(chk.freq_hz), nominal=_floats(spec),
@@ -237,10 +241,11 @@ def _check_random(level: res.RandomResult, f, v, duration_s):
         "duration": {"value": duration_s, "unit": "s"},
         "achieved_margin_db": {"value": achieved, "unit": "dB over the limit level (g rms)"},
         "reason": "; ".join(problems) if problems else
-                  f"all {chk.line_pass.size} lines within +/-{level.tolerance_db:g} dB (worst "
-                  f"{chk.worst_deviation_db:+.2f} dB at {chk.worst_freq_hz:.4g} Hz), g rms "
-                  f"{chk.grms_achieved:.3g} g within +/-{level.grms_tolerance_pct:g} %, "
-                  f"duration {duration_s:g} s",
+                  f"all {chk.line_pass.size} lines within ±{w.number(level.tolerance_db)} dB "
+                  f"(worst {w.decibels(chk.worst_deviation_db)} at "
+                  f"{w.frequency(chk.worst_freq_hz)}), g rms {w.number(chk.grms_achieved)} g "
+                  f"within ±{w.number(level.grms_tolerance_pct)} %, "
+                  f"duration {w.duration(duration_s)}",
     }
     return _verdict(not problems), summary, achieved, band
 
@@ -317,10 +322,11 @@ def _check_sine(level: res.SineResult, f, v):
     )
     achieved = float(np.min(20 * np.log10(v[inside] / lim_a)))
     reason = (
-        f"{int(bad.sum())} of {int(inside.sum())} points outside +/-{level.tolerance_pct:g}"
-        f" %; worst {100 * (ratio[worst] - 1):+.1f} % at {f[inside][worst]:g} Hz"
+        f"{int(bad.sum())} of {int(inside.sum())} points outside "
+        f"±{w.number(level.tolerance_pct)} %; worst {100 * (ratio[worst] - 1):+.1f} % at "
+        f"{w.frequency(f[inside][worst])}"
         if bad.any()
-        else f"within +/-{level.tolerance_pct:g} % at every point"
+        else f"within ±{w.number(level.tolerance_pct)} % at every point"
     )
     summary = {
         "points": int(inside.sum()),

@@ -4,6 +4,8 @@ audit PDF draw the same lines; the test sequence of an axis per grade."""
 
 from __future__ import annotations
 
+import re
+
 import numpy as np
 import pytest
 
@@ -48,6 +50,12 @@ def test_random_band_is_the_verdicts_band(db):
     assert outside == [10, 30, 45]
     assert ov.band.label == f"±{tol:g} dB" and ov.verdict == "fail"
     assert ov.reason == ev.summary["reason"] and "3 of 60 lines outside" in ov.reason
+    # the reason in words: "±3 dB", a dB with sign and 2 decimals, a frequency to 4
+    # significant figures (issue 15 wording; common practice)
+    assert "+/-" not in ov.reason and f"±{tol:g} dB" in ov.reason
+    worst = re.search(r"worst ([+-]\d+\.\d\d) dB at ([\d.]+) (k?Hz)", ov.reason)
+    assert worst is not None, ov.reason
+    assert len(worst.group(2).replace(".", "").lstrip("0")) <= 4
     assert ov.unit == "g²/Hz" and ov.quantity == "ASD" and not ov.level_changed
 
 
