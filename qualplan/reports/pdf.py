@@ -37,10 +37,11 @@ def _num(x, digits: int = 4) -> str:
     return wording.number(float(x), digits)
 
 
-def _signed(x, digits: int = 3) -> str:
+def _signed(x, decimals: int = 2) -> str:
+    """dB, dB/oct and margins of safety as engineers write them: sign and 2 decimals."""
     if x is None:
         return "-"
-    return f"{float(x):+.{digits}g}"
+    return f"{float(x):+.{decimals}f}"
 
 
 def _date(d) -> str:
