@@ -7,7 +7,16 @@ from fastapi import APIRouter, Request
 from fastapi.responses import Response
 from starlette.concurrency import run_in_threadpool
 
-from qualplan.planning import approvals, catalog, documents, levels, notching, transfers, wording
+from qualplan.planning import (
+    approvals,
+    catalog,
+    documents,
+    jobs,
+    levels,
+    notching,
+    transfers,
+    wording,
+)
 from qualplan.planning import schemas as s
 from qualplan.reports import tables
 from qualplan.web import plots
@@ -48,6 +57,12 @@ async def derive_level(product_id: int, request: Request, ctx: Ctx = CtxDep) -> 
                 overlap=_or(number(form, "overlap"), 0.5),
                 maximax_window_s=number(form, "maximax_window_s")),
         )
+        if form.get("as_job"):
+            runner = request.app.state.jobs
+            job = jobs.submit_derivation(ctx.db, ctx.actor, recipe, runner=runner.name)
+            job_id = job.id
+            jobs.after_commit(ctx.db, lambda: runner.dispatch(job_id))
+            return f"/jobs/{job_id}"
         level = levels.derive_level(ctx.db, ctx.actor, recipe)
         return f"/levels/{level.id}"
 

@@ -19,6 +19,7 @@ from qualplan.web import (
     auth,
     documents,
     environments,
+    jobs,
     levels,
     programs,
     requirements,
@@ -27,7 +28,7 @@ from qualplan.web import (
 from qualplan.web.common import STATIC, PdfRenderer, WebState
 
 ROUTERS = (signin.router, programs.router, environments.router, levels.router,
-           requirements.router, documents.router, analysis.router)
+           requirements.router, documents.router, analysis.router, jobs.router)
 
 
 def mount(
