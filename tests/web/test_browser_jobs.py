@@ -40,9 +40,14 @@ def test_derive_as_a_job_shows_its_progress_and_links_the_level(new_page, users,
         assert page.locator("#job-status").inner_text() == "queued"
         assert page.locator("meta[http-equiv=refresh]").count() == 1
         shots(page, "jobs-02-queued")
+        import threading
+
         from qualplan.planning.queue import run_worker
 
-        run_worker(db_url, wait=False)
+        # a thread of its own: Playwright's sync API holds this thread's event loop
+        worker = threading.Thread(target=run_worker, args=(db_url,), kwargs={"wait": False})
+        worker.start()
+        worker.join(120)
     from playwright.sync_api import expect
 
     # the page reloads itself (meta refresh) until the job is done
