@@ -63,7 +63,7 @@ def run_one(pg: str, workers: int, users: int, duration: float, tmp: Path) -> di
              "--workers", str(workers), "--db", url],
             stdout=log, stderr=subprocess.STDOUT, env=env)
         base = f"http://{HOST}:{port}"
-        deadline = time.monotonic() + 60
+        deadline = time.monotonic() + 300  # N processes import numpy, scipy, numba
         while True:
             try:
                 if httpx.get(f"{base}/api/v1/health", timeout=1.0).status_code == 200:
@@ -71,7 +71,9 @@ def run_one(pg: str, workers: int, users: int, duration: float, tmp: Path) -> di
             except httpx.HTTPError:
                 pass
             if time.monotonic() > deadline or server.poll() is not None:
-                raise SystemExit(f"the server did not start; see {log.name}")
+                log.flush()
+                raise SystemExit("the server did not start:\n"
+                                 + Path(log.name).read_text()[-3000:])
             time.sleep(0.3)
         time.sleep(2.0 * workers)  # every process up (uvicorn starts them one by one)
         load_before = os.getloadavg()
