@@ -417,3 +417,24 @@ def test_an_audit_report_job_issues_the_document_once(factory, spectra, tmp_path
 
     out = " ".join(" ".join(p.extract_text() for p in PdfReader(pdf).pages).split())
     assert "responsible engineer" in out
+
+
+def test_two_claims_of_a_derivation_store_one_level(factory, spectra):
+    """The exactly-once rule for a job that writes: a retried (second) claim of the same
+    derivation stores its level only if it holds the claim; one level in the end."""
+    name = f"claimed twice {uuid.uuid4().hex[:6]}"
+    with unit_of_work(factory) as session:
+        job_id = jobs.submit_derivation(session, ENG, _recipe(spectra, name),
+                                        runner="thread").id
+    out: list[str] = []
+    threads = [threading.Thread(target=lambda: out.append(jobs.run_job(factory, job_id)))
+               for _ in range(2)]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join(120)
+    assert out.count("succeeded") == 1, out
+    with factory() as session:
+        levels_made = session.scalars(select(m.Level).where(m.Level.name == name)).all()
+        assert [lv.number for lv in levels_made] == [1]
+        assert _job(factory, job_id).result["level_id"] == levels_made[0].id
