@@ -11,7 +11,8 @@ Run:  nice -n 10 .venv/bin/python benchmarks/bench_between_samples.py [--samples
    fs/5), b = 8: qualplan ``method="bandlimited"`` against scipy lfilter +
    pyyeti findap + rainflow + Miner's sum on the record as given (no
    reconstruction: the peer is the lower-accuracy baseline).
-Every timing is the best of `--repeat` runs after one warm-up run.
+Every timing is the best of `--repeat` runs after one warm-up run; the CPU seconds
+(every thread of the process and its worker processes) of that run are printed beside it.
 """
 
 from __future__ import annotations
@@ -24,15 +25,27 @@ import warnings
 
 import numpy as np
 
+CPU = {}  # CPU seconds of the best wall-time run, by label
 
-def best(fn, repeat):
+
+def cpu_s():
+    """CPU seconds of this process (every thread) and of its finished children (pyyeti's
+    srs runs its fn in worker processes when `parallel="auto"` picks them)."""
+    t = os.times()
+    return t.user + t.system + t.children_user + t.children_system
+
+
+def best(fn, repeat, label=None):
     fn()
     times = []
     for _ in range(repeat):
-        t0 = time.perf_counter()
+        t0, c0 = time.perf_counter(), cpu_s()
         out = fn()
-        times.append(time.perf_counter() - t0)
-    return min(times), out
+        times.append((time.perf_counter() - t0, cpu_s() - c0))
+    wall, cpu = min(times)
+    if label:
+        CPU[label] = cpu
+    return wall, out
 
 
 def bench_srs(n: int, repeat: int):
@@ -48,13 +61,14 @@ def bench_srs(n: int, repeat: int):
     warnings.simplefilter("ignore")
     out = {}
     for m in ("ramp", "cubic", "bandlimited"):
-        out[m] = best(lambda m=m: qsrs.srs(x, 1 / fs, fn, 10.0, method=m), repeat)
-    ty, ry = best(lambda: ysrs.srs(x, fs, fn, 10.0, time="total"), repeat)
+        out[m] = best(lambda m=m: qsrs.srs(x, 1 / fs, fn, 10.0, method=m), repeat, m)
+    ty, ry = best(lambda: ysrs.srs(x, fs, fn, 10.0, time="total"), repeat, "pyyeti")
     print(f"1. SRS, {n:,} samples x {fn.size} fn (10 Hz - {fs / 5:g} Hz, fs {fs:g} Hz)")
     for m, (tm, r) in out.items():
         print(f"   qualplan srs method={m:<12s} {tm:7.3f} s   pyyeti/qualplan {ty / tm:5.2f}"
-              f"   max |SRS/pyyeti - 1| {np.max(np.abs(r / ry - 1)):.3f}")
-    print(f"   pyyeti srs, default settings    {ty:7.3f} s")
+              f"   max |SRS/pyyeti - 1| {np.max(np.abs(r / ry - 1)):.3f}"
+              f"   CPU {CPU[m]:7.3f} s (pyyeti/qualplan {CPU['pyyeti'] / CPU[m]:5.2f})")
+    print(f"   pyyeti srs, default settings    {ty:7.3f} s   CPU {CPU['pyyeti']:7.3f} s")
 
 
 def bench_fds(n: int, repeat: int):
@@ -68,8 +82,9 @@ def bench_fds(n: int, repeat: int):
     fn = np.geomspace(10, 2000, 50)
     q, b = 10.0, 8.0
     warnings.simplefilter("ignore")
-    tq, dq = best(lambda: fatigue.fds_time(x, dt, fn, q, b, method="bandlimited"), repeat)
-    tr, dr = best(lambda: fatigue.fds_time(x, dt, fn, q, b), repeat)
+    tq, dq = best(lambda: fatigue.fds_time(x, dt, fn, q, b, method="bandlimited"), repeat,
+                  "fds_bl")
+    tr, dr = best(lambda: fatigue.fds_time(x, dt, fn, q, b), repeat, "fds_ramp")
     bz, az = sdof_filter.coefficients(fn, q, dt, output="rel_disp")
     scale = (2 * np.pi * fn) ** 2 / 9.80665
 
@@ -78,11 +93,15 @@ def bench_fds(n: int, repeat: int):
         c = pyc.rainflow(y[pyc.findap(y)], use_pandas=False)
         return np.sum(c[:, 2] * c[:, 0] ** b)
 
-    tp, dp = best(lambda: np.array([peer_one(i) for i in range(fn.size)]), max(1, repeat - 1))
+    tp, dp = best(lambda: np.array([peer_one(i) for i in range(fn.size)]), max(1, repeat - 1),
+                  "peer")
     print(f"\n2. time-domain FDS, {n:,} samples x {fn.size} fn (10 - 2000 Hz, fs 10 kHz), b = 8")
-    print(f"   qualplan fds_time method=bandlimited {tq:7.3f} s   peer/qualplan {tp / tq:5.2f}")
-    print(f"   qualplan fds_time method=ramp        {tr:7.3f} s   peer/qualplan {tp / tr:5.2f}")
-    print(f"   peer lfilter + pyyeti + Miner        {tp:7.3f} s")
+    cp = CPU["peer"]
+    print(f"   qualplan fds_time method=bandlimited {tq:7.3f} s   peer/qualplan {tp / tq:5.2f}"
+          f"   CPU {CPU['fds_bl']:7.3f} s (peer/qualplan {cp / CPU['fds_bl']:5.2f})")
+    print(f"   qualplan fds_time method=ramp        {tr:7.3f} s   peer/qualplan {tp / tr:5.2f}"
+          f"   CPU {CPU['fds_ramp']:7.3f} s (peer/qualplan {cp / CPU['fds_ramp']:5.2f})")
+    print(f"   peer lfilter + pyyeti + Miner        {tp:7.3f} s   CPU {cp:7.3f} s")
     top = fn > 1000
     print(f"   damage above fs/10: bandlimited / ramp {np.median(dq[top] / dr[top]):.2f}"
           " (median; the ramp model's sinc^2 loss)")

@@ -7,6 +7,7 @@ from sqlalchemy import pool
 
 from qualplan.store import models  # noqa: F401  (fills the metadata)
 from qualplan.store.base import Base
+from qualplan.store.migrate import ours
 from qualplan.store.session import make_engine
 from qualplan.store.types import ArrayBlob, UtcDateTime
 
@@ -40,6 +41,7 @@ def run_migrations_offline() -> None:
         compare_type=True,
         render_as_batch=True,
         render_item=render_item,
+        include_object=ours,
     )
     with context.begin_transaction():
         context.run_migrations()
@@ -63,6 +65,7 @@ def _run(connection) -> None:
         compare_type=True,
         render_as_batch=True,
         render_item=render_item,
+        include_object=ours,
     )
     with context.begin_transaction():
         context.run_migrations()

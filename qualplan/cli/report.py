@@ -151,6 +151,8 @@ def report_audit(
     wait: WaitOption = None,
     db: DbOption = None,
     as_json: JsonOption = False,
+    figures: Annotated[bool, typer.Option(
+        help="Also write each test record's plot over its level as an SVG file.")] = False,
 ) -> None:
     """Issue the margin-closure audit report (the verdict is printed too; with --wait or
     --no-wait, built and rendered as a job)."""
@@ -173,7 +175,8 @@ def report_audit(
         content = documents.audit_content(session, prog_id, prod_id,
                                           number=number, note=note)
         with progress("rendering the audit report"):
-            issued = documents.issue_document(session, local_actor(), content, PdfRenderer(), out)
+            issued = documents.issue_document(session, local_actor(), content,
+                                              PdfRenderer(figures=figures), out)
     _print(issued, as_json)
     if not as_json:
         typer.echo(content.verdict)

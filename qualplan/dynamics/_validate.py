@@ -19,8 +19,8 @@ def as_1d_float(field: str, values, *, min_size: int = 1) -> np.ndarray:
         raise InputError(field, f"shape {arr.shape}", "must be one-dimensional")
     if arr.size < min_size:
         raise InputError(field, f"{arr.size} values", f"needs at least {min_size}")
-    bad = ~np.isfinite(arr)
-    if bad.any():
+    if not np.isfinite(arr).all():  # one pass; where, only when something is wrong
+        bad = ~np.isfinite(arr)
         i = int(np.argmax(bad))
         raise InputError(f"{field}[{i}]", float(arr[i]), "must be finite (no NaN or inf)")
     return arr

@@ -31,7 +31,7 @@ from __future__ import annotations
 import math
 import os
 import warnings
-from collections.abc import Iterable
+from collections.abc import Iterable, Sequence
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from typing import Literal
@@ -44,6 +44,7 @@ from qualplan.dynamics import _validate as v
 from qualplan.dynamics import sdof
 from qualplan.dynamics.errors import AccuracyWarning, InputError
 from qualplan.dynamics.rainflow import push_reversal as _push
+from qualplan.dynamics.rainflow import push_reversal_bs as _push_bs
 from qualplan.dynamics.rainflow import residue_damage
 from qualplan.dynamics.sine import Sweep
 from qualplan.dynamics.units import G0_M_S2
@@ -388,6 +389,117 @@ def _filter_miner(x, b0, b1, b2, a1, a2, n_extra, b, interp, n_skip):
     return dmg + d + residue_damage(stack, sp, b)
 
 
+#: Samples of the four responses computed ahead in :func:`_filter_miner_bank`.
+_BLOCK = 4096
+
+
+@njit(cache=True, nogil=True)
+def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out):
+    """:func:`_filter_miner` for up to four oscillators (rows of `bp`, `az`) and several
+    Basquin exponents `bs` at once: the response, its reversals and its rainflow cycles
+    are the same for every b, only the damage per cycle differs.
+
+    The recursion of one oscillator is latency-bound (y_k needs y_(k-1)); the four run
+    interleaved over a block of samples (as sdof_filter's extremes kernel), then each
+    block's responses go through the reversal test and the rainflow stack of their own
+    oscillator. Every response sample and every damage sum is computed by the same
+    operations, in the same order, as _filter_miner for each b (equal bit for bit). Writes
+    ``out[r, j]``: damage of oscillator r for ``bs[j]``."""
+    m = bp.shape[0]
+    n = x.shape[0]
+    nb = bs.shape[0]
+    c = np.zeros((5, 4))
+    longest = 0
+    for r in range(m):
+        c[0, r] = bp[r, 0]
+        c[1, r] = bp[r, 1]
+        c[2, r] = bp[r, 2]
+        c[3, r] = az[r, 1]
+        c[4, r] = az[r, 2]
+        longest = max(longest, n_extra[r])
+    p0, p1, p2, p3 = c[0, 0], c[0, 1], c[0, 2], c[0, 3]
+    q0, q1, q2, q3 = c[1, 0], c[1, 1], c[1, 2], c[1, 3]
+    r0, r1, r2, r3 = c[2, 0], c[2, 1], c[2, 2], c[2, 3]
+    s0, s1, s2, s3 = c[3, 0], c[3, 1], c[3, 2], c[3, 3]
+    t0, t1, t2, t3 = c[4, 0], c[4, 1], c[4, 2], c[4, 3]
+    total = n + longest
+    stacks = np.empty((m, total + 2))
+    buf = np.empty((4, _BLOCK))
+    d = np.empty(nb)
+    dmg = np.zeros((m, nb))
+    sps = np.zeros(m, dtype=np.int64)
+    xprevs = np.zeros(m)
+    xcs = np.zeros(m)
+    dls = np.zeros(m)
+    u0 = u1 = u2 = u3 = 0.0  # y_(k-1)
+    v0 = v1 = v2 = v3 = 0.0  # y_(k-2)
+    x1 = 0.0
+    x2 = 0.0
+    for start in range(0, total, _BLOCK):
+        size = min(_BLOCK, total - start)
+        for kk in range(size):
+            k = start + kk
+            xin = x[k] if k < n else 0.0
+            y0 = p0 * xin + q0 * x1 + r0 * x2 - s0 * u0 - t0 * v0
+            y1 = p1 * xin + q1 * x1 + r1 * x2 - s1 * u1 - t1 * v1
+            y2 = p2 * xin + q2 * x1 + r2 * x2 - s2 * u2 - t2 * v2
+            y3 = p3 * xin + q3 * x1 + r3 * x2 - s3 * u3 - t3 * v3
+            buf[0, kk] = y0
+            buf[1, kk] = y1
+            buf[2, kk] = y2
+            buf[3, kk] = y3
+            v0 = u0
+            u0 = y0
+            v1 = u1
+            u1 = y1
+            v2 = u2
+            u2 = y2
+            v3 = u3
+            u3 = y3
+            x2 = x1
+            x1 = xin
+        for r in range(m):
+            stack = stacks[r]
+            end = min(size, n + n_extra[r] - start)
+            sp = sps[r]
+            xprev = xprevs[r]
+            xc = xcs[r]
+            dl = dls[r]
+            for kk in range(end):
+                k = start + kk
+                y = buf[r, kk]
+                if k < n_skip + 2:
+                    if k == n_skip:  # the first counted sample
+                        sp = _push_bs(stack, 0, y, bs, d)
+                        for j in range(nb):
+                            dmg[r, j] = d[j]
+                        xprev = y
+                    elif k == n_skip + 1:
+                        xc = y
+                        dl = y - xprev
+                    continue
+                if y == xc:
+                    continue
+                dn = y - xc
+                if dl * dn < 0.0:
+                    val = _vertex(xprev, xc, y) if interp else xc
+                    sp = _push_bs(stack, sp, val, bs, d)
+                    for j in range(nb):
+                        dmg[r, j] += d[j]
+                xprev = xc
+                xc = y
+                dl = dn
+            sps[r] = sp
+            xprevs[r] = xprev
+            xcs[r] = xc
+            dls[r] = dl
+    for r in range(m):  # the last sample, then the half cycles left on the stack
+        stack = stacks[r]
+        sp = _push_bs(stack, sps[r], xcs[r], bs, d)
+        for j in range(nb):
+            out[r, j] = dmg[r, j] + d[j] + residue_damage(stack, sp, bs[j])
+
+
 #: Time-domain FDS methods: "ramp" (the samples as a piecewise-linear input) or
 #: "bandlimited" (FFT reconstruction where fs < 20 fn, then a sinc^2-corrected
 #: ramp-invariant filter); docs/methods/fatigue.md.
@@ -407,7 +519,8 @@ def _sinc2_correct(x: np.ndarray) -> np.ndarray:
     return x + (2.0 * x - xp[:-2] - xp[2:]) / 12.0
 
 
-def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: bool = False,
+def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], *,
+             free_decay: bool = False,
              interpolate_peaks: bool = True, skip_s: float = 0.0,
              workers: int | None = None, method: str = "ramp") -> np.ndarray:
     """Fatigue damage spectrum of any time history (shock, measured record, synthesis).
@@ -422,8 +535,10 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: boo
         Natural frequencies, below Nyquist (1/(2 dt)). [Hz]
     q : float
         Amplification factor, > 0.5. [unitless]
-    b : float
-        Basquin exponent, > 0. [unitless]
+    b : float or sequence of float
+        Basquin exponent, > 0 [unitless]; or several, computed in one pass (the
+        response and its rainflow cycles do not depend on b; each row equals the
+        call with that b alone).
     free_decay : bool
         Append, per fn, zero input until the free response has decayed by 1e-4
         (ln(1e4) / (zeta wn) seconds), so the residual vibration of a shock is
@@ -454,7 +569,7 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: boo
 
     Returns
     -------
-    numpy.ndarray, shape (k,)
+    numpy.ndarray, shape (k,), or (len(b), k) for a sequence of b
         D(fn) = sum over rainflow cycles of count (range / 2)^b of the
         pseudo-acceleration response. [g^b]
 
@@ -483,7 +598,10 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: boo
 
     x = np.ascontiguousarray(v.as_1d_float("accel_g", accel_g, min_size=2))
     dt = v.positive_scalar("dt_s", dt_s)
-    b = _check_b(b)
+    several = np.ndim(b) > 0
+    bs = [_check_b(x) for x in b] if several else [_check_b(b)]
+    if not bs:
+        raise InputError("b", b, "must hold at least one Basquin exponent")
     q = v.check_q(q)
     fn = sdof._check_fn(fn_hz)
     bz, az = coefficients(fn, q, dt, output="rel_disp")
@@ -498,17 +616,17 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: boo
                 f"{int(above.sum())} natural frequencies (from {fn[above].min():g} Hz) exceed a"
                 f" fifth of the sample rate {1 / dt:g} Hz: the band-limited FDS is verified to"
                 f" 3 % only up to fs/5", AccuracyWarning, stacklevel=2)
-        loss = np.zeros(fn.size)
-    else:
-        loss = 1.0 - np.sinc(fn * dt) ** (2.0 * b)
-    hi = loss > 0.05
-    if hi.any():
-        warnings.warn(
-            f"{int(hi.sum())} natural frequencies (from {fn[hi].min():g} Hz) are too close to "
-            f"the sample rate {1 / dt:g} Hz: the ramp-invariant filter treats the input as "
-            "linear between samples, which attenuates content near fn by sinc^2(fn/fs), i.e. "
-            f"the damage by up to {loss.max():.0%} (resample the record faster)",
-            AccuracyWarning, stacklevel=2)
+    for b_ in bs:  # one warning per b, as calls with each b alone give
+        loss = (np.zeros(fn.size) if method == "bandlimited"
+                else 1.0 - np.sinc(fn * dt) ** (2.0 * b_))
+        hi = loss > 0.05
+        if hi.any():
+            warnings.warn(
+                f"{int(hi.sum())} natural frequencies (from {fn[hi].min():g} Hz) are too close"
+                f" to the sample rate {1 / dt:g} Hz: the ramp-invariant filter treats the input"
+                " as linear between samples, which attenuates content near fn by "
+                f"sinc^2(fn/fs), i.e. the damage by up to {loss.max():.0%} (resample the "
+                "record faster)", AccuracyWarning, stacklevel=2)
     zeta = 1.0 / (2.0 * q)
     if free_decay:
         n_extra = np.ceil(math.log(1e4) / (zeta * 2 * np.pi * fn * dt)).astype(np.int64)
@@ -526,13 +644,15 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: boo
         raise InputError("skip_s", skip_s, f"leaves fewer than 2 samples of the {x.size}")
 
     nw = workers or os.cpu_count() or 1
+    bv = np.asarray(bs, dtype=np.float64) if several else None
     if method == "ramp":
-        return _fds_run(x, bp, az, n_extra, b, interpolate_peaks, n_skip, nw)
+        return _fds_run(x, bp, az, n_extra, bv if several else bs[0], interpolate_peaks,
+                        n_skip, nw)
     from qualplan.dynamics.srs import FFT_PAD, fft_upsample
 
     need = FDS_MIN_RATIO * fn * dt
     lf = np.where(need <= 1.0, 1, 2 ** np.ceil(np.log2(np.maximum(need, 1.0)))).astype(int)
-    out = np.empty(fn.size)
+    out = np.empty((len(bs), fn.size) if several else fn.size)
     top = int(lf.max())
     x_top = fft_upsample(x, top) if top > 1 else None
     for factor in np.unique(lf):
@@ -550,11 +670,37 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float, *, free_decay: boo
             ne = np.ceil(math.log(1e4) / (zeta * 2 * np.pi * fn[idx] * h)).astype(np.int64)
         else:
             ne = np.zeros(idx.size, dtype=np.int64)
-        out[idx] = _fds_run(xs, bpu, azu, ne, b, interpolate_peaks, skip_up, nw)
+        out[..., idx] = _fds_run(xs, bpu, azu, ne, bv if several else bs[0],
+                                 interpolate_peaks, skip_up, nw)
     return out
 
 
 def _fds_run(x, bp, az, n_extra, b, interpolate_peaks, n_skip, nw) -> np.ndarray:
+    """Damage per oscillator (rows of bp, az): shape (k,) for a scalar b, (len(b), k)
+    for an array of b (four oscillators per pass, :func:`_filter_miner_bank`)."""
+    if isinstance(b, np.ndarray):
+        # four oscillators of similar free decay per pass (_filter_miner_bank), the
+        # longest groups first so that the threads finish together
+        order = np.argsort(-np.asarray(n_extra), kind="stable")
+        groups = [order[i:i + 4] for i in range(0, order.size, 4)]
+
+        def bank(idx: np.ndarray) -> np.ndarray:
+            d = np.empty((idx.size, b.size))
+            _filter_miner_bank(x, np.ascontiguousarray(bp[idx]), np.ascontiguousarray(az[idx]),
+                               np.ascontiguousarray(n_extra[idx]), b, interpolate_peaks,
+                               n_skip, d)
+            return d
+
+        out = np.empty((b.size, bp.shape[0]))
+        if nw == 1 or len(groups) == 1:
+            for idx in groups:
+                out[:, idx] = bank(idx).T
+        else:
+            with ThreadPoolExecutor(max_workers=nw) as ex:
+                for idx, d in zip(groups, ex.map(bank, groups), strict=True):
+                    out[:, idx] = d.T
+        return out
+
     def one(i: int) -> float:
         return _filter_miner(x, bp[i, 0], bp[i, 1], bp[i, 2], az[i, 1], az[i, 2],
                              int(n_extra[i]), b, interpolate_peaks, n_skip)

@@ -122,6 +122,36 @@ def push_reversal(stack, sp, val, b):
 
 
 @njit(cache=True, nogil=True)
+def push_reversal_bs(stack, sp, val, bs, d):
+    """:func:`push_reversal` for several Basquin exponents at once: the cycles closed are
+    the same for every b (the count does not depend on b); `d[j]` receives the damage
+    they do for `bs[j]`, summed in the same order as push_reversal sums it, so that each
+    equals push_reversal's value bit for bit. Returns the new stack depth."""
+    stack[sp] = val
+    sp += 1
+    nb = bs.shape[0]
+    for j in range(nb):
+        d[j] = 0.0
+    while sp >= 3:
+        x_rng = abs(stack[sp - 1] - stack[sp - 2])
+        y_rng = abs(stack[sp - 2] - stack[sp - 3])
+        if x_rng < y_rng:
+            break
+        if sp == 3:
+            for j in range(nb):
+                d[j] += 0.5 * math.pow(0.5 * y_rng, bs[j])
+            stack[0] = stack[1]
+            stack[1] = stack[2]
+            sp = 2
+        else:
+            for j in range(nb):
+                d[j] += math.pow(0.5 * y_rng, bs[j])
+            stack[sp - 3] = stack[sp - 1]
+            sp -= 2
+    return sp
+
+
+@njit(cache=True, nogil=True)
 def residue_damage(stack, sp, b):
     """Damage of the half cycles left on the stack at the end of the history."""
     d = 0.0

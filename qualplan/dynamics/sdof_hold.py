@@ -141,8 +141,9 @@ def limited_slopes(xp: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     -------
     m0, m1 : numpy.ndarray
         Slope at the start and at the end of each of the ``xp.size - 1``
-        intervals, per unit tau [g] (the same slope serves both intervals that
-        meet at a sample, so the interpolant is C1).
+        intervals, per unit tau [g]. Away from a kink the same slope serves
+        both intervals that meet at a sample (the interpolant is C1); at a
+        kink (below) each side has its own.
 
     Notes
     -----
@@ -153,26 +154,157 @@ def limited_slopes(xp: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     keeps the interpolant monotone where the samples are. Where the samples are
     linear the slope is the secant and the model is piecewise linear.
 
+    Kinks: a sample where an exactly linear stretch of the samples (three or
+    more collinear samples: the zero padding, a pre-trigger baseline, the
+    ramp of a sawtooth) meets samples that are not on its line is a corner of
+    the signal, not a smooth point. No difference stencil crosses a kink: each
+    side of a kink gets its own one-sided slope (the derivative of the
+    polynomial through up to five samples of that side, limited to the sign
+    of that side's secant and three times it), and the samples within two of
+    a kink use the samples between the kinks only. A half-sine pulse after
+    zeros therefore starts with its true slope instead of a slope bent by the
+    zeros (+0.9 % at fs/5 for 20 samples before, docs/methods/between-samples.md),
+    and a piecewise-linear pulse is reproduced exactly. Records without exact
+    linear stretches get the slopes above unchanged.
+
     References
     ----------
     F. N. Fritsch, R. E. Carlson, "Monotone piecewise cubic interpolation",
-    SIAM J. Numer. Anal. 17 (2), 1980, pp. 238-246.
+    SIAM J. Numer. Anal. 17 (2), 1980, pp. 238-246. One-sided finite-difference
+    weights: B. Fornberg, "Generation of finite difference formulas on
+    arbitrarily spaced grids", Math. Comp. 51, 1988 (here by Lagrange
+    differentiation on integer nodes). The kink rule is our own.
     """
     xp = np.ascontiguousarray(xp, dtype=float)
     if _HAVE_NUMBA:  # one pass, no temporaries (the numpy form below is 5x slower)
         m = np.empty(xp.size)
         _limited_slopes_into(xp, m)
-        return m[:-1], m[1:]
-    x = np.concatenate([[0.0, 0.0], xp, [0.0, 0.0]])
-    m = (x[:-4] - 8.0 * x[1:-3] + 8.0 * x[3:-1] - x[4:]) / 12.0
-    d = np.diff(x)[1:-1]  # secants around each sample: d[k] = xp[k] - xp[k-1]
-    dl, dr = d[:-1], d[1:]
-    same = dl * dr > 0.0
-    lim = 3.0 * np.minimum(np.abs(dl), np.abs(dr))
-    sgn = np.sign(dl)
-    mag = np.where(np.sign(m) == sgn, np.abs(m), 0.0)
-    m = np.where(same, sgn * np.minimum(mag, lim), 0.0)
-    return m[:-1], m[1:]
+    else:
+        x = np.concatenate([[0.0, 0.0], xp, [0.0, 0.0]])
+        m = (x[:-4] - 8.0 * x[1:-3] + 8.0 * x[3:-1] - x[4:]) / 12.0
+        d = np.diff(x)[1:-1]  # secants around each sample: d[k] = xp[k] - xp[k-1]
+        dl, dr = d[:-1], d[1:]
+        same = dl * dr > 0.0
+        lim = 3.0 * np.minimum(np.abs(dl), np.abs(dr))
+        sgn = np.sign(dl)
+        mag = np.where(np.sign(m) == sgn, np.abs(m), 0.0)
+        m = np.where(same, sgn * np.minimum(mag, lim), 0.0)
+    m0, m1 = m[:-1].copy(), m[1:].copy()
+    kinks = _kinks(xp)
+    if kinks.size:
+        _fix_kinks(xp, kinks, m0, m1, _ONE_SIDED)
+    return m0, m1
+
+
+def _kinks(xp: np.ndarray) -> np.ndarray:
+    """Indices (-1 .. n, zero padding beyond) of the kinks of the samples.
+
+    Sample k is on a linear stretch when its second difference is zero (to
+    1e-12 of the largest |sample|); it is a kink when it is not, but a
+    neighbour is.
+    """
+    n = xp.size
+    x = np.concatenate([[0.0, 0.0, 0.0], xp, [0.0, 0.0, 0.0]])  # x[j] = sample j - 3
+    scale = float(np.max(np.abs(xp))) if n else 0.0
+    if scale == 0.0:
+        return np.empty(0, dtype=np.int64)
+    lin = np.abs(x[2:] - 2.0 * x[1:-1] + x[:-2]) <= 1e-12 * scale  # samples -2 .. n + 1
+    kink = ~lin[1:-1] & (lin[:-2] | lin[2:])  # samples -1 .. n
+    return (np.flatnonzero(kink) - 1).astype(np.int64)
+
+
+def _one_sided_weights() -> np.ndarray:
+    """w[a + 4, b, :] : derivative at 0 of the polynomial through nodes a..b (a <= 0 <= b,
+    1 <= b - a <= 4), weights of the samples at a, a+1, ..., b (Lagrange differentiation)."""
+    w = np.zeros((5, 5, 5))
+    for a in range(-4, 1):
+        for b in range(0, 5):
+            if not 1 <= b - a <= 4:
+                continue
+            nodes = np.arange(a, b + 1, dtype=float)
+            for i, oi in enumerate(nodes):
+                tot = 0.0
+                for j, oj in enumerate(nodes):
+                    if j == i:
+                        continue
+                    prod = 1.0 / (oi - oj)
+                    for m, om in enumerate(nodes):
+                        if m not in (i, j):
+                            prod *= (0.0 - om) / (oi - om)
+                    tot += prod
+                w[a + 4, b, i] = tot
+    return w
+
+
+_ONE_SIDED = _one_sided_weights()
+
+
+def _stencil_py(xp, k, a, b, wt):  # pragma: no cover - compiled when numba is present
+    """Derivative at sample k of the polynomial through samples k+a .. k+b (0 beyond)."""
+    n = xp.shape[0]
+    s = 0.0
+    for i in range(b - a + 1):
+        j = k + a + i
+        if 0 <= j < n:
+            s += wt[a + 4, b, i] * xp[j]
+    return s
+
+
+def _side_limit_py(s, sec):  # pragma: no cover - compiled when numba is present
+    """One-sided limiter at a kink: the sign of the side's secant, at most 3x it."""
+    if sec == 0.0 or s * sec <= 0.0:
+        return 0.0
+    if abs(s) > 3.0 * abs(sec):
+        return 3.0 * sec
+    return s
+
+
+def _fix_kinks_py(xp, kinks, m0, m1, wt):  # pragma: no cover - compiled when numba is present
+    """Slopes at and within two samples of each kink (see :func:`limited_slopes`)."""
+    n = xp.shape[0]
+    nk = kinks.shape[0]
+    for ik in range(nk):
+        c = kinks[ik]
+        for k in range(max(c - 2, 0), min(c + 3, n)):
+            lo = k - 4  # nearest kink strictly left of k, if within 4 samples
+            hi = k + 4  # nearest kink strictly right of k, if within 4 samples
+            is_kink = False
+            for jk in range(max(ik - 5, 0), min(ik + 6, nk)):
+                q = kinks[jk]
+                if lo < q < k:
+                    lo = q
+                elif k < q < hi:
+                    hi = q
+                elif q == k:
+                    is_kink = True
+            dl = xp[k] - (xp[k - 1] if k >= 1 else 0.0)
+            dr = (xp[k + 1] if k + 1 < n else 0.0) - xp[k]
+            if is_kink:
+                if k >= 1:
+                    m1[k - 1] = _side_limit(_stencil(xp, k, lo - k, 0, wt), dl)
+                if k < n - 1:
+                    m0[k] = _side_limit(_stencil(xp, k, 0, hi - k, wt), dr)
+                continue
+            s = _stencil(xp, k, max(lo - k, -2), min(hi - k, 2), wt)
+            if dl * dr > 0.0:  # Fritsch & Carlson, as in the one-pass kernel
+                lim = 3.0 * min(abs(dl), abs(dr))
+                sgn = 1.0 if dl > 0.0 else -1.0
+                mag = abs(s) if s * sgn > 0.0 else 0.0
+                s = sgn * min(mag, lim)
+            else:
+                s = 0.0
+            if k >= 1:
+                m1[k - 1] = s
+            if k < n - 1:
+                m0[k] = s
+
+
+if _HAVE_NUMBA:
+    _stencil = numba.njit(cache=True, inline="always")(_stencil_py)
+    _side_limit = numba.njit(cache=True, inline="always")(_side_limit_py)
+    _fix_kinks = numba.njit(cache=True)(_fix_kinks_py)
+else:  # pragma: no cover
+    _stencil, _side_limit, _fix_kinks = _stencil_py, _side_limit_py, _fix_kinks_py
 
 
 if _HAVE_NUMBA:

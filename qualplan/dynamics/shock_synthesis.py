@@ -42,7 +42,8 @@ except ImportError:  # pragma: no cover
     numba = None
     _HAVE_NUMBA = False
 
-__all__ = ["Wavelets", "ShockSynthesis", "synthesize_shock", "wavelet", "integrate_accel"]
+__all__ = ["Wavelets", "ShockSynthesis", "synthesize_shock", "wavelet", "integrate_accel",
+           "srs_ratio_bound"]
 
 
 # --------------------------------------------------------------------------
@@ -134,6 +135,121 @@ def integrate_accel(accel_g, dt_s) -> tuple[np.ndarray, np.ndarray]:
     v = np.concatenate(([0.0], np.cumsum(0.5 * (a[:-1] + a[1:]) * dt)))
     d = np.concatenate(([0.0], np.cumsum(v[:-1] * dt + (2 * a[:-1] + a[1:]) * dt * dt / 6.0)))
     return v, d
+
+
+# --------------------------------------------------------------------------
+# What an SRS can do: the largest ratio between two natural frequencies
+
+
+def srs_ratio_bound(f_from_hz, f_to_hz, q: float) -> np.ndarray:
+    """Largest ratio SRS(f_from) / SRS(f_to) that any base acceleration can give.
+
+    Parameters
+    ----------
+    f_from_hz, f_to_hz : array_like
+        Natural frequencies [Hz] (broadcast together), each > 0.
+    q : float
+        Amplification Q = 1/(2 zeta) of both oscillators [unitless].
+
+    Returns
+    -------
+    numpy.ndarray
+        ``||g||_1`` [unitless], the bound of ``max|y_from| / max|y_to|`` (maximax
+        absolute-acceleration SRS, record and free decay) over every input.
+
+    Notes
+    -----
+    With ``H_w(s) = (2 zeta w s + w^2) / (s^2 + 2 zeta w s + w^2)`` the
+    absolute-acceleration transfer function of an oscillator of natural
+    frequency w, ``H_from = G H_to`` with ``G = H_from / H_to``: a stable,
+    proper transfer function (its poles are those of H_from and the zero
+    ``-w_to / (2 zeta)`` of H_to). The response of the first oscillator is
+    therefore the response of the second filtered by G, so
+    ``max|y_from| <= ||g||_1 max|y_to|`` for every input, with g the impulse
+    response of G (Young's inequality for convolution). ``||g||_1`` is the
+    direct term ``w_from / w_to`` plus the integral of the modulus of the sum
+    of exponentials from the partial fractions of G (trapezoid rule, 64 points
+    per period over 30 decay times, 4000 over the fast pole; 1e-3 accurate).
+    For Q = 10: 3.4 (f_from/f_to = 0.9), 6.5 (0.75), 10.3 (0.5), 12.4
+    (0.25), tending to the L1 norm of the oscillator's own impulse response
+    (about 4Q/pi) as f_from/f_to tends to 0. An SRS target that falls
+    faster than this between two frequencies cannot be met by any record.
+
+    References
+    ----------
+    Convolution bound ``||g * y||_inf <= ||g||_1 ||y||_inf`` (Young's
+    inequality; C. A. Desoer, M. Vidyasagar, Feedback Systems: Input-Output
+    Properties, 1975, ch. 2: the L-infinity gain of a stable LTI system is the
+    L1 norm of its impulse response) [from memory]; SDOF transfer functions:
+    Harris' Shock and Vibration Handbook, ch. 8. The use as a test of an SRS
+    target is our own.
+    """
+    fa, fb = np.broadcast_arrays(np.asarray(f_from_hz, dtype=float),
+                                 np.asarray(f_to_hz, dtype=float))
+    if np.any(~(fa > 0)) or np.any(~(fb > 0)):
+        raise InputError("f_from_hz/f_to_hz", "<= 0", "natural frequencies must be > 0")
+    qv = _validate.check_q(q)
+    ratio = (fa / fb).ravel()
+    out = np.empty(ratio.size)
+    cache: dict[float, float] = {}
+    for i, r in enumerate(ratio):
+        key = round(math.log2(r), 9)
+        if key not in cache:
+            cache[key] = _ratio_bound(2.0 ** key, qv)
+        out[i] = cache[key]
+    return out.reshape(fa.shape)
+
+
+def _ratio_bound(r: float, q: float) -> float:
+    """||g||_1 of G = H_r / H_1 (time in units of 1/w_to)."""
+    if abs(r - 1.0) < 1e-9:
+        return 1.0
+    from scipy import signal
+
+    z = 1.0 / (2.0 * q)
+    num = np.polymul([2 * z * r, r * r], [1.0, 2 * z, 1.0])
+    den = np.polymul([1.0, 2 * z * r, r * r], [2 * z, 1.0])
+    res, poles, direct = signal.residue(num, den)
+    d = float(np.real(direct[0])) if len(direct) else 0.0
+    slow = float(np.min(-poles.real))
+    fast = float(np.max(-poles.real))
+    wd = float(np.max(np.abs(poles.imag)))
+    t_end = 30.0 / slow
+    step = min(2 * np.pi / (64 * wd), t_end / 2000)
+    t = np.union1d(np.linspace(0.0, 40.0 / fast, 4000), np.arange(0.0, t_end, step))
+    g = np.real(np.exp(np.outer(t, poles)) @ res)
+    return abs(d) + float(np.trapezoid(np.abs(g), t))
+
+
+def _check_reachable(fn, tgt, q, dt, tol):
+    """Refuse a target that no record can meet within the tolerance.
+
+    For every pair of grid frequencies with ``tgt_i > tgt_j``: any record has
+    ``SRS_i <= B_ij SRS_j`` (:func:`srs_ratio_bound`), and the SRS read at the
+    samples is at most ``1 - cos(pi f_j dt)`` below the continuous one. So the
+    errors obey ``e_j - e_i >= D_ij`` with ``D_ij = 20 log10(tgt_i / (B_ij tgt_j))``
+    less that sampling margin, and the worst error of any record is at least
+    ``D_ij / 2``.
+    """
+    i, j = np.nonzero(tgt[:, None] > tgt[None, :] * 10 ** (2 * tol / 20))
+    if i.size == 0:
+        return None
+    bound = srs_ratio_bound(fn[i], fn[j], q)
+    slack = -20 * np.log10(np.cos(np.pi * np.minimum(fn[j] * dt, 0.49)))
+    d = 20 * np.log10(tgt[i] / (bound * tgt[j])) - slack
+    k = int(np.argmax(d))
+    if d[k] / 2 > tol:
+        a, b = int(i[k]), int(j[k])
+        raise InputError(
+            "target", f"{tgt[a]:.4g} g at {fn[a]:.4g} Hz, {tgt[b]:.4g} g at {fn[b]:.4g} Hz",
+            f"cannot be met within +/-{tol:g} dB by any base acceleration: at Q = {q:g} the SRS"
+            f" at {fn[a]:.4g} Hz is at most {bound[k]:.3g} times the SRS at {fn[b]:.4g} Hz"
+            f" (the target asks {tgt[a] / tgt[b]:.3g}), so the worst error of any record is at"
+            f" least {d[k] / 2:.2f} dB; make the target fall less steeply there",
+        )
+    if d[k] <= 0:
+        return None
+    return (float(d[k] / 2), float(fn[i[k]]), float(fn[j[k]]))
 
 
 # --------------------------------------------------------------------------
@@ -512,7 +628,10 @@ def synthesize_shock(
     InputError
         Bad target or grid, tolerance <= 0, a grid frequency above a tenth of
         the sample rate, a duration too short for the lowest frequency, an
-        unknown method, a result whose displacement exceeds ``stroke_m``.
+        unknown method, a result whose displacement exceeds ``stroke_m``, a
+        target that no base acceleration can meet within the tolerance
+        (field ``target``; the message gives the two frequencies, the bound and
+        the least worst error in dB).
 
     Notes
     -----
@@ -535,7 +654,15 @@ def synthesize_shock(
     sample with ``|x_k| > cap`` adds the row ``d x_k / d A_i`` (the wavelets'
     values at that sample) with the right-hand side ``sign(x_k) cap`` to the
     least-squares system (a one-sided constraint, active only while exceeded;
-    docs/methods/shock-synthesis.md section 10).
+    docs/methods/shock-synthesis.md section 10). For such a target every row
+    is divided by its own target value (``SRS_target_j``, ``cap``), so the
+    step weighs relative errors as the dB tolerance does.
+
+    Before iterating, every pair of grid frequencies is checked against
+    :func:`srs_ratio_bound`: where the target falls faster than any record's
+    SRS can (``SRS_i <= B_ij SRS_j`` for every input), the worst error of any
+    record is at least ``20 log10(target_i / (B_ij target_j)) / 2``; a target
+    for which that exceeds the tolerance is refused (section 11).
 
     References
     ----------
@@ -599,6 +726,7 @@ def synthesize_shock(
     rng = seed if isinstance(seed, np.random.Generator) else np.random.default_rng(seed)
     seed_out = None if isinstance(seed, np.random.Generator) else int(seed)
 
+    floor = _check_reachable(fn, tgt, qv, dt, tol)
     b, a = sdof_filter.coefficients(fn, qv, dt, output="abs_accel")
     n_extra = _srs._residual_samples(fn, qv, dt)
     best = None
@@ -609,7 +737,7 @@ def synthesize_shock(
             best = dict(run, trial=trial)
         if run["max_err"] <= tol:
             break
-    out = _result(best, fn, tgt, qv, dt, tol, seed_out, method)
+    out = _result(best, fn, tgt, qv, dt, tol, seed_out, method, floor)
     if stroke is not None and out.peak_displacement_m > stroke:
         raise InputError(
             "stroke_m", stroke_m,
@@ -716,8 +844,13 @@ def _iterate(fn, tgt, dt, dur, max_delay, n_lo, n_hi, rng, b, a, n_extra, tol, i
         rows, rhs = jac, np.sign(val) * tgt
         if cap is not None:  # hold the record's peak to the target's top-end value
             extra, extra_rhs = _peak_rows(x, cap, k0, ln, off, w, nf)
+            # rows scaled by their own target (relative, like the dB tolerance): unscaled,
+            # the plateau rows outweigh the low top end and the cap rows by the
+            # target's fall, and the top end stays high
+            rows, rhs = jac / tgt[:, None], np.sign(val)
             if extra is not None:
-                rows, rhs = np.vstack([jac, extra]), np.concatenate([rhs, extra_rhs])
+                rows = np.vstack([rows, extra / cap])
+                rhs = np.concatenate([rhs, extra_rhs / cap])
         # Tikhonov-regularised least squares via the normal equations (a small
         # SPD solve; an SVD-based lstsq is 10x slower on a loaded 2-core machine)
         jtj = rows.T @ rows
@@ -728,7 +861,7 @@ def _iterate(fn, tgt, dt, dur, max_delay, n_lo, n_hi, rng, b, a, n_extra, tol, i
     return best
 
 
-def _result(run, fn, tgt, q, dt, tol, seed, method="wavelets"):
+def _result(run, fn, tgt, q, dt, tol, seed, method="wavelets", floor=None):
     x = run["x"]
     res = _srs.shock_response_spectrum(x, dt, fn, q, pseudo_velocity=False)
     v, d = integrate_accel(x, dt)
@@ -744,6 +877,12 @@ def _result(run, fn, tgt, q, dt, tol, seed, method="wavelets"):
                 f"the SRS at {fn[worst]:g} Hz is held up by the record's peak acceleration"
                 f" ({peak:.3g} g; an SRS tends to the peak input at high natural"
                 f" frequencies), so a target that falls there is hard to reach; {hint}"
+            )
+        if floor is not None:
+            hint += (
+                f"; between {floor[1]:.4g} and {floor[2]:.4g} Hz the target falls so fast"
+                f" that no record can miss it by less than {floor[0]:.2f} dB"
+                f" (srs_ratio_bound), so little room is left"
             )
         warn.append(
             f"not converged: the SRS misses the target by {err[worst]:+.2f} dB at"

@@ -31,6 +31,7 @@ from qualplan.planning import envdata
 from qualplan.planning import results as r
 from qualplan.planning import schemas as s
 from qualplan.planning.lifecycle import LifeItem, current_test_levels, exposure, life_cycle
+from qualplan.planning.policies import rules_of
 from qualplan.store import models as m
 
 K = m.EnvironmentKind
@@ -78,10 +79,12 @@ def _record(label, x, dt, times, fn, q, bs) -> Spectra:
         # fs/10..fs/5: the record upsampled 4x (band-limited), so the ramp-invariant
         # filter sees at least 20 samples per period
         xs = x if up == 1 else core_signal.upsample(x, up)
-        for b in bs:
-            # free decay after the record: a shock's residual response does damage too
-            fds[b][sel] = times * core_fds.fds_time(xs, dt / up, fn[sel], q, b,
-                                                    free_decay=True)
+        # free decay after the record: a shock's residual response does damage too;
+        # one pass per fn serves every b (the rainflow cycles do not depend on b)
+        d = core_fds.fds_time(xs, dt / up, fn[sel], q, [float(b) for b in bs],
+                              free_decay=True)
+        for j, b in enumerate(bs):
+            fds[b][sel] = times * d[j]
         ers[sel] = core_ers.ers_shock(xs, dt / up, fn[sel], q)
     return Spectra(label, fds, ers)
 
@@ -91,7 +94,36 @@ def _shock(label, freq_hz, accel_g, q_spec, count, fn, q, bs) -> Spectra:
     return _record(label + " (wavelet synthesis)", synth.accel_g, synth.dt_s, count, fn, q, bs)
 
 
-def spectra_of_environment(item: LifeItem, fn, q: float, bs) -> Spectra:
+#: Spectra of environments already computed in one derivation, with the warnings their
+#: computation gave: {key: (Spectra, [(category, message)])} (see spectra_of_environment).
+SpectraCache = dict[tuple, tuple[Spectra, list[tuple[type[Warning], str]]]]
+
+
+def spectra_of_environment(item: LifeItem, fn, q: float, bs,
+                           cache: SpectraCache | None = None) -> Spectra:
+    """FDS per b and ERS of one environment of the life over its exposure, on `fn`.
+
+    With `cache` (one dict per derivation), an environment revision already computed on
+    the same grid, Q, b values and exposure is not computed again (an FDS-equivalent
+    level inverts the inputs' FDS, then its coverage needs the same spectra); the
+    warnings of the first computation are given again, so both uses see them."""
+    if cache is None:
+        return _spectra_of_environment(item, fn, q, bs)
+    rev = item.revision
+    key = (rev.id, rev.content_hash, item.life_label, exposure(item.environment, rev),
+           np.asarray(fn, float).tobytes(), float(q), tuple(float(b) for b in bs))
+    if key not in cache:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            spectra = _spectra_of_environment(item, fn, q, bs)
+        cache[key] = (spectra, [(w.category, str(w.message)) for w in caught])
+    spectra, given = cache[key]
+    for category, message in given:
+        warnings.warn(message, category, stacklevel=2)
+    return spectra
+
+
+def _spectra_of_environment(item: LifeItem, fn, q: float, bs) -> Spectra:
     env, rev = item.environment, item.revision
     amount, _ = exposure(env, rev)
     spec = rev.spec
@@ -133,9 +165,11 @@ Tested = tuple[str, "r.RandomResult | r.SineResult | r.ShockResult"]
 
 
 def coverage_of_level(result: r.RandomResult | r.SineResult | r.ShockResult,
-                      life: list[LifeItem], rules: s.PolicyRules) -> r.Coverage:
-    """FDS and ERS coverage of one test level against the life cycle."""
-    return _coverage([("test level", result)], life, rules)
+                      life: list[LifeItem], rules: s.PolicyRules,
+                      cache: SpectraCache | None = None) -> r.Coverage:
+    """FDS and ERS coverage of one test level against the life cycle (`cache`: the
+    derivation's spectra already computed, spectra_of_environment)."""
+    return _coverage([("test level", result)], life, rules, cache)
 
 
 def program_coverage(session: Session, product: m.Product, axis: m.Axis, grade: m.Grade,
@@ -156,6 +190,46 @@ def program_coverage(session: Session, product: m.Product, axis: m.Axis, grade: 
     if stored is not None:
         return stored
     return _coverage(tests, life_cycle(session, product, axis), rules)
+
+
+AXIS_ORDER = {"X": 0, "Y": 1, "Z": 2, "all": 3}
+KIND_ORDER = {"random": 0, "sine": 1, "shock": 2}
+
+
+@dataclass(frozen=True)
+class AxisSequence:
+    """The test sequence of one axis (its levels' names) and its coverage of that axis's
+    life: FDS summed (Miner), ERS enveloped; None when the levels were checked against
+    different life cycles or grids (derive them again to combine them)."""
+
+    axis: str
+    tests: list[str]
+    coverage: r.Coverage | None
+
+
+def sequence_by_axis(levels: list[m.Level]) -> list[AxisSequence]:
+    """The test sequences of `levels`, one per axis (X, Y, Z, all), each the combination
+    of the coverage stored with its levels (:func:`combine_stored`) under the policy of
+    the axis's first level. The issued specification and the product page both use it."""
+    out = []
+    for axis in sorted({lv.axis for lv in levels}, key=lambda a: AXIS_ORDER[a.value]):
+        on_axis = [lv for lv in levels if lv.axis is axis]
+        tests = [(f"{lv.name} #{lv.number}", r.load(lv.kind.value, lv.result))
+                 for lv in on_axis]
+        policy = on_axis[0].policy
+        combined = combine_stored(tests, rules_of(policy)) if policy is not None else None
+        out.append(AxisSequence(axis=axis.value, tests=[t[0] for t in tests],
+                                coverage=combined))
+    return out
+
+
+def product_sequence(session: Session, product_id: int, grade: m.Grade | str
+                  ) -> list[AxisSequence]:
+    """The current test levels of a product for a grade, per axis, with their coverage
+    of the life (:func:`sequence_by_axis`), in the order of the specification."""
+    chosen = current_test_levels(session, product_id, m.Grade(grade))
+    chosen.sort(key=lambda x: (AXIS_ORDER[x.axis.value], KIND_ORDER[x.kind.value], x.name))
+    return sequence_by_axis(chosen)
 
 
 def combine_stored(tests: list[Tested], rules: s.PolicyRules) -> r.Coverage | None:
@@ -210,7 +284,8 @@ def _ers_block(fn: np.ndarray, test_ers: np.ndarray, life_ers: np.ndarray,
         max_overtest_fn_hz=e.max_overtest_fn_hz)
 
 
-def _coverage(tests: list[Tested], life: list[LifeItem], rules: s.PolicyRules) -> r.Coverage:
+def _coverage(tests: list[Tested], life: list[LifeItem], rules: s.PolicyRules,
+              cache: SpectraCache | None = None) -> r.Coverage:
     eq = rules.equivalence
     notes: list[str] = []
     # a multi-channel record stored in chunks (planning.records) has no samples on its
@@ -226,7 +301,7 @@ def _coverage(tests: list[Tested], life: list[LifeItem], rules: s.PolicyRules) -
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", AccuracyWarning)
         test_parts = [spectra_of_level(result, fn, eq.q, eq.b) for _, result in tests]
-        parts = [spectra_of_environment(x, fn, eq.q, eq.b) for x in life]
+        parts = [spectra_of_environment(x, fn, eq.q, eq.b, cache) for x in life]
     notes.extend(sorted({str(w.message) for w in caught}))
     test_ers = np.max([p.ers for p in test_parts], axis=0)
     test_fds = {b: np.sum([p.fds[b] for p in test_parts], axis=0) for b in eq.b}

@@ -342,9 +342,16 @@ def build_demo(session: Session, *, seed: int = 2026, admin_name: str = ADMIN) -
         mass_kg=3.1, c2=2.0, f0_hz=UNIT_MODES_X[0][0],
         modes=[{"fn_hz": f, "mass_kg": mk, "q": q} for f, mk, q in UNIT_MODES_X],
         residual_mass_kg=UNIT_RESIDUAL_KG, max_notch_db=10.0))
+    # its two predicted notches are deeper than the 10 dB allowed: the approver accepts
+    # them, recorded with the force limit (the specification prints who and why)
+    transfers.accept_notches(session, me, lv["rv X"].id, (
+        "the unit's modes at 240 Hz and 610 Hz see only the interface force the pod's shelf "
+        "can deliver in flight; notches agreed at the test readiness review (invented for "
+        "the demo)"))
     summary.notes.append(
         "qualification random X is force limited (NASA-HDBK-7004 semi-empirical, C^2 = 2, "
-        "f0 = 240 Hz); its flight inputs came from the pod through the shelf")
+        "f0 = 240 Hz; its two notches deeper than 10 dB accepted by the approver); its "
+        "flight inputs came from the pod through the shelf")
     loads = levels.derive_level(session, me, s.LevelRecipe(
         product_id=unit.id, name="loads random Z", purpose=m.LevelPurpose.analysis,
         kind="random", axis=m.Axis.Z, revision_ids=[rev(k) for k in records_z],

@@ -22,7 +22,7 @@ from pydantic import BaseModel, ConfigDict
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from qualplan.planning import coverage, margins, wording
+from qualplan.planning import coverage, evidence, margins, wording
 from qualplan.planning import results as res
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require_in
@@ -33,7 +33,7 @@ from qualplan.planning.inputs import check_document_number
 from qualplan.planning.levels import read_level, result_of
 from qualplan.planning.lifecycle import current_test_levels
 from qualplan.planning.notching import level_notching, notch_table_rows
-from qualplan.planning.policies import basis_statement, rules_of
+from qualplan.planning.policies import basis_statement
 from qualplan.planning.transfers import level_force_limit
 from qualplan.store import models as m
 from qualplan.store.hashing import json_hash
@@ -206,6 +206,10 @@ class ForceLimitTable(Content):
     needs_acceptance: bool
     accepted_by: str | None = None
     acceptance_rationale: str = ""
+    #: The input ASD notched by the force limit at the predicted notches [Hz], [g^2/Hz]
+    #: (empty when no modes were given), for the level chart.
+    notched_freq_hz: list[float] = []
+    notched_asd_g2_hz: list[float] = []
 
 
 class NotchingPoint(Content):
@@ -364,6 +368,9 @@ class AuditContent(Content):
     blocking: list[AuditRow]
     release_ready: bool
     verdict: str
+    #: The test record behind each test requirement's status, with its level and the
+    #: tolerance band its verdict used (for the record-against-level plots).
+    records: list[evidence.RecordOverlay] = []
     history: list[HistoryRow]
     input_hashes: dict[str, Any]
     preview: bool = False
@@ -379,8 +386,10 @@ DocumentContent = SpecificationContent | AuditContent
 def content_hash(content: DocumentContent) -> str:
     """SHA-256 of what the document shows, without its revision, history, preview mark
     and sign-off (signing a revision does not change it)."""
-    return json_hash(content.model_dump(mode="json", exclude={"revision", "history",
-                                                              "preview", "approvals"}))
+    exclude = {"revision", "history", "preview", "approvals"}
+    if not getattr(content, "records", None):
+        exclude.add("records")  # audits without test records hash as they did before
+    return json_hash(content.model_dump(mode="json", exclude=exclude))
 
 
 class DocumentRenderer(Protocol):
@@ -587,7 +596,8 @@ def _force_limit(session: Session, level: m.Level) -> ForceLimitTable | None:
                                                                     strict=True)],
         notches=[ForceLimitNotch(**n.model_dump()) for n in fl.notches],
         max_notch_db=row.params.get("max_notch_db"), needs_acceptance=fl.needs_acceptance,
-        accepted_by=fl.accepted_by, acceptance_rationale=fl.acceptance_rationale)
+        accepted_by=fl.accepted_by, acceptance_rationale=fl.acceptance_rationale,
+        notched_freq_hz=fl.notched_freq_hz, notched_asd_g2_hz=fl.notched_asd_g2_hz)
 
 
 def _notching(session: Session, level: m.Level) -> NotchingTable | None:
@@ -767,15 +777,12 @@ def specification_content(
                  f"{sec.notching.max_notch_db:g} dB and has no approver's acceptance"
                  for sec in sections if sec.notching is not None
                  and sec.notching.needs_acceptance and not sec.notching.accepted_by]
-    axes = []
-    for axis in sorted({lvl.axis for lvl in chosen}, key=lambda a: AXIS_ORDER[a.value]):
-        on_axis = [lvl for lvl in chosen if lvl.axis is axis]
-        tests = [(f"{lv.name} #{lv.number}", result_of(lv)) for lv in on_axis]
-        policy = on_axis[0].policy
-        combined = (coverage.combine_stored(tests, rules_of(policy))
-                    if policy is not None else None)
-        axes.append(AxisCoverage(axis=axis.value, tests=[t[0] for t in tests],
-                                 coverage=_coverage(combined)))
+    warnings += [f"{sec.name} #{sec.number}: a notch predicted by the force limit is deeper "
+                 f"than {sec.force_limit.max_notch_db:g} dB and has no approver's acceptance"
+                 for sec in sections if sec.force_limit is not None
+                 and sec.force_limit.needs_acceptance and not sec.force_limit.accepted_by]
+    axes = [AxisCoverage(axis=x.axis, tests=x.tests, coverage=_coverage(x.coverage))
+            for x in coverage.sequence_by_axis(chosen)]
     number = check_document_number(
         number or f"TLS-{_slug(product.part_number or product.name)}-{GRADE_CODE[grade]}")
     body = {
@@ -836,17 +843,20 @@ def audit_content(
     anchor = get(session, m.Product, product_id, "product") if product_id is not None else None
     reqs = {r.id: r for r in session.scalars(
         select(m.Requirement).where(m.Requirement.program_id == program.id))}
-    rows = []
+    rows, records = [], []
     for item in report.items:
         ev = session.get(m.Evidence, item.evidence_id) if item.evidence_id else None
-        evidence = "-"
+        shown = "-"
         if ev is not None:
-            evidence = f"#{ev.id} {ev.kind.value}, {ev.verdict.value}, {ev.created_at:%Y-%m-%d}"
+            shown = f"#{ev.id} {ev.kind.value}, {ev.verdict.value}, {ev.created_at:%Y-%m-%d}"
+            if (ev.kind is m.EvidenceKind.test and ev.data is not None
+                    and ev.level_id is not None):
+                records.append(evidence.record_overlay(session, ev.id))
         rows.append(AuditRow(
             key=item.key, product=item.product, level=item.level, method=item.method.value,
             required_margin=item.required_margin, achieved_margin=item.achieved_margin,
             margin_unit=item.margin_unit, status=item.status,
-            evidence=evidence, reason=item.reason,
+            evidence=shown, reason=item.reason,
             margin_cells=margins.cells(item.margins)))
     hashes = {}
     for item in report.items:
@@ -872,6 +882,7 @@ def audit_content(
         "blocking": [r for r in rows if r.status in ("failed", "stale", "open")],
         "release_ready": report.release_ready,
         "verdict": report.verdict,
+        "records": records,
         "input_hashes": {"requirements": hashes},
     }
     return _with_revision(session, number, body, AuditContent, note, preview)

@@ -7,9 +7,10 @@ verified. Test records are checked automatically against the level's tolerances.
 
 from __future__ import annotations
 
-from typing import Any
+from typing import Any, Literal
 
 import numpy as np
+from pydantic import BaseModel
 from sqlalchemy.orm import Session
 
 from qualplan.dynamics import psd as core_psd
@@ -18,6 +19,7 @@ from qualplan.dynamics.units import db_amplitude
 from qualplan.planning import envdata, imports
 from qualplan.planning import results as res
 from qualplan.planning import schemas as s
+from qualplan.planning import wording as w
 from qualplan.planning.access import Actor, record, require_for
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import Conflict, ValidationFailed
@@ -122,11 +124,11 @@ def add_test_record(
     result = result_of(level)
     with envdata.core_errors(""):
         if isinstance(result, res.RandomResult):
-            verdict, summary, achieved = _check_random(result, f, v, cmd.duration_s)
+            verdict, summary, achieved, _ = _check_random(result, f, v, cmd.duration_s)
         elif isinstance(result, res.ShockResult):
-            verdict, summary, achieved = _check_shock(result, f, v, cmd.shocks)
+            verdict, summary, achieved, _ = _check_shock(result, f, v, cmd.shocks)
         else:
-            verdict, summary, achieved = _check_sine(result, f, v)
+            verdict, summary, achieved, _ = _check_sine(result, f, v)
     summary["note"] = cmd.note
     return _add(
         session,
@@ -181,6 +183,26 @@ def _verdict(ok: bool) -> m.Verdict:
     return m.Verdict.passed if ok else m.Verdict.failed
 
 
+class JudgedBand(BaseModel):
+    """The tolerance band a test record was judged against, at the record's own judged
+    frequencies (those inside the level's band): the nominal level there and its lower
+    and upper limits, in the level's unit. ``outer_*`` is the wider band of a shock rule
+    that lets a share of points lie outside the band."""
+
+    freq_hz: list[float]
+    nominal: list[float]
+    lower: list[float]
+    upper: list[float]
+    outer_lower: list[float] | None = None
+    outer_upper: list[float] | None = None
+    #: The band in words, e.g. "±3 dB" or "-1.5/+3 dB (outer -3/+6 dB)".
+    label: str
+
+
+def _floats(x) -> list[float]:
+    return [float(v) for v in np.asarray(x, float)]
+
+
 def _check_random(level: res.RandomResult, f, v, duration_s):
     chk = core_psd.check_against(f, v, level.freq_hz, level.asd_g2_hz,
                                  tol_db=level.tolerance_db,
@@ -189,19 +211,27 @@ def _check_random(level: res.RandomResult, f, v, duration_s):
     bad = int((~chk.line_pass).sum())
     if bad:
         problems.append(f"{bad} of {chk.line_pass.size} lines outside "
-                        f"+/-{level.tolerance_db:g} dB; worst {chk.worst_deviation_db:+.2f} dB "
-                        f"at {chk.worst_freq_hz:.4g} Hz")
+                        f"±{w.number(level.tolerance_db)} dB; worst "
+                        f"{w.decibels(chk.worst_deviation_db)} at "
+                        f"{w.frequency(chk.worst_freq_hz)}")
     if not chk.grms_pass:
-        problems.append(f"g rms {chk.grms_achieved:.3g} g is {chk.grms_deviation_db:+.2f} dB "
-                        f"from the specified {chk.grms_spec:.3g} g (allowed "
-                        f"+/-{level.grms_tolerance_pct:g} %)")
+        problems.append(f"g rms {w.number(chk.grms_achieved)} g is "
+                        f"{w.decibels(chk.grms_deviation_db)} from the specified "
+                        f"{w.number(chk.grms_spec)} g (allowed "
+                        f"±{w.number(level.grms_tolerance_pct)} %)")
     required_s = level.duration_s * (1 - level.duration_tolerance_pct / 100)
     if duration_s is None:
         problems.append("no test duration given")
     elif duration_s < required_s:
-        problems.append(f"duration {duration_s:g} s is shorter than the required "
-                        f"{level.duration_s:g} s (-{level.duration_tolerance_pct:g} %)")
+        problems.append(f"duration {w.duration(duration_s)} is shorter than the required "
+                        f"{w.duration(level.duration_s)} "
+                        f"(-{w.number(level.duration_tolerance_pct)} %)")
     achieved = db_amplitude(chk.grms_achieved / level.limit.grms)
+    spec = np.asarray(chk.spec_asd_g2_hz)
+    band = JudgedBand(freq_hz=_floats(chk.freq_hz), nominal=_floats(spec),
+                      lower=_floats(spec * 10.0 ** (np.asarray(chk.lower_db) / 10.0)),
+                      upper=_floats(spec * 10.0 ** (np.asarray(chk.upper_db) / 10.0)),
+                      label=f"±{level.tolerance_db:g} dB")
     summary = {
         "lines": int(chk.line_pass.size), "lines_outside": bad,
         "worst_freq_hz": chk.worst_freq_hz, "worst_deviation_db": chk.worst_deviation_db,
@@ -211,12 +241,13 @@ def _check_random(level: res.RandomResult, f, v, duration_s):
         "duration": {"value": duration_s, "unit": "s"},
         "achieved_margin_db": {"value": achieved, "unit": "dB over the limit level (g rms)"},
         "reason": "; ".join(problems) if problems else
-                  f"all {chk.line_pass.size} lines within +/-{level.tolerance_db:g} dB (worst "
-                  f"{chk.worst_deviation_db:+.2f} dB at {chk.worst_freq_hz:.4g} Hz), g rms "
-                  f"{chk.grms_achieved:.3g} g within +/-{level.grms_tolerance_pct:g} %, "
-                  f"duration {duration_s:g} s",
+                  f"all {chk.line_pass.size} lines within ±{w.number(level.tolerance_db)} dB "
+                  f"(worst {w.decibels(chk.worst_deviation_db)} at "
+                  f"{w.frequency(chk.worst_freq_hz)}), g rms {w.number(chk.grms_achieved)} g "
+                  f"within ±{w.number(level.grms_tolerance_pct)} %, "
+                  f"duration {w.duration(duration_s)}",
     }
-    return _verdict(not problems), summary, achieved
+    return _verdict(not problems), summary, achieved, band
 
 
 def _check_shock(level: res.ShockResult, f, v, shocks):
@@ -256,7 +287,18 @@ def _check_shock(level: res.ShockResult, f, v, shocks):
         "achieved_margin_db": {"value": achieved, "unit": "dB over the limit SRS (mean)"},
         "reason": "; ".join(problems) if problems else chk.reason,
     }
-    return _verdict(not problems), summary, achieved
+    nom = np.asarray(chk.nominal_g)
+    label = f"{chk.lower_db:+g}/{chk.upper_db:+g} dB"
+    outer = {}
+    if chk.outer_lower_db is not None:
+        outer = {"outer_lower": _floats(nom * 10.0 ** (chk.outer_lower_db / 20.0)),
+                 "outer_upper": _floats(nom * 10.0 ** (chk.outer_upper_db / 20.0))}
+        label += f" (outer {chk.outer_lower_db:+g}/{chk.outer_upper_db:+g} dB)"
+    band_out = JudgedBand(freq_hz=_floats(chk.freq_hz), nominal=_floats(nom),
+                          lower=_floats(nom * 10.0 ** (chk.lower_db / 20.0)),
+                          upper=_floats(nom * 10.0 ** (chk.upper_db / 20.0)),
+                          label=label, **outer)
+    return _verdict(not problems), summary, achieved, band_out
 
 
 def _check_sine(level: res.SineResult, f, v):
@@ -280,10 +322,11 @@ def _check_sine(level: res.SineResult, f, v):
     )
     achieved = float(np.min(20 * np.log10(v[inside] / lim_a)))
     reason = (
-        f"{int(bad.sum())} of {int(inside.sum())} points outside +/-{level.tolerance_pct:g}"
-        f" %; worst {100 * (ratio[worst] - 1):+.1f} % at {f[inside][worst]:g} Hz"
+        f"{int(bad.sum())} of {int(inside.sum())} points outside "
+        f"±{w.number(level.tolerance_pct)} %; worst {100 * (ratio[worst] - 1):+.1f} % at "
+        f"{w.frequency(f[inside][worst])}"
         if bad.any()
-        else f"within +/-{level.tolerance_pct:g} % at every point"
+        else f"within ±{w.number(level.tolerance_pct)} % at every point"
     )
     summary = {
         "points": int(inside.sum()),
@@ -293,7 +336,10 @@ def _check_sine(level: res.SineResult, f, v):
         "achieved_margin_db": {"value": achieved, "unit": "dB over the limit (minimum)"},
         "reason": reason,
     }
-    return _verdict(not bad.any()), summary, achieved
+    band = JudgedBand(freq_hz=_floats(f[inside]), nominal=_floats(nominal),
+                      lower=_floats(nominal * (1 - tol)), upper=_floats(nominal * (1 + tol)),
+                      label=f"±{level.tolerance_pct:g} %")
+    return _verdict(not bad.any()), summary, achieved, band
 
 
 def add_similarity(
@@ -354,6 +400,86 @@ def add_inspection(
         summary,
         rationale=cmd.note,
     )
+
+
+# --- a test record against its level: what the verdict used, for the plots -------------
+
+QUANTITY = {"random": ("ASD", "g²/Hz"), "shock": ("SRS", "g"), "sine": ("acceleration",
+                                                                        "g peak")}
+
+
+class RecordOverlay(BaseModel):
+    """A test record with the level and the tolerance band its verdict was judged on.
+
+    The band is computed by the same check that gave the stored verdict (``_check_*``),
+    on the record's stored lines and the level it was made against; nothing is judged
+    a second way for the plot.
+    """
+
+    evidence_id: int
+    requirement_id: int
+    requirement_key: str
+    level_id: int
+    level: str
+    kind: Literal["random", "sine", "shock"]
+    axis: str
+    #: "ASD", "SRS" or "acceleration", and its unit ("g²/Hz", "g", "g peak").
+    quantity: str
+    unit: str
+    q: float | None = None
+    #: Every point of the record (points outside the level's band were not judged).
+    record_freq_hz: list[float]
+    record_values: list[float]
+    #: The level's breakpoints (sine: its curve at the level's points).
+    level_freq_hz: list[float]
+    level_values: list[float]
+    band: JudgedBand
+    verdict: str
+    reason: str
+    author: str
+    made_at: str
+    #: True when the level's hash changed since (the evidence is stale).
+    level_changed: bool = False
+
+
+def record_overlay(session: Session, evidence_id: int) -> RecordOverlay:
+    """A test record (evidence) over its level and the band its verdict used."""
+    ev = get(session, m.Evidence, evidence_id, "evidence")
+    if ev.kind is not m.EvidenceKind.test or ev.data is None or ev.level is None:
+        raise ValidationFailed("evidence", evidence_id,
+                               f"is {ev.kind.value} evidence, not a test record against a "
+                               "level: it has no record to plot")
+    level = ev.level
+    result = result_of(level)
+    data = np.asarray(ev.data, float)
+    f, v = data[0], data[1]
+    with envdata.core_errors(""):
+        if isinstance(result, res.RandomResult):
+            duration = (ev.summary.get("duration") or {}).get("value")
+            *_, band = _check_random(result, f, v, duration)
+        elif isinstance(result, res.ShockResult):
+            *_, band = _check_shock(result, f, v, ev.summary.get("shocks"))
+        else:
+            *_, band = _check_sine(result, f, v)
+    kind = level.kind.value
+    qty, unit = QUANTITY[kind]
+    return RecordOverlay(
+        evidence_id=ev.id, requirement_id=ev.requirement_id,
+        requirement_key=ev.requirement.key, level_id=level.id,
+        level=f"{level.name} #{level.number}", kind=kind, axis=level.axis.value,
+        quantity=qty, unit=unit, q=getattr(result, "q", None),
+        record_freq_hz=_floats(f), record_values=_floats(v),
+        level_freq_hz=_floats(result.freq_hz), level_values=_floats(result.values),
+        band=band, verdict=ev.verdict.value, reason=str(ev.summary.get("reason", "")),
+        author=ev.author, made_at=f"{ev.created_at:%Y-%m-%d %H:%M} UTC",
+        level_changed=ev.level_hash != level.level_hash,
+    )
+
+
+def record_evidence_ids(session: Session, requirement_id: int) -> list[int]:
+    """Ids of the test records of a requirement that can be plotted over their level."""
+    return [e.id for e in EvidenceRepository(session).for_requirement(requirement_id)
+            if e.kind is m.EvidenceKind.test and e.data is not None and e.level_id is not None]
 
 
 def list_evidence(session: Session, requirement_id: int) -> list[m.Evidence]:

@@ -342,7 +342,8 @@ def _load_factor(f, a, fn: float, q: float) -> r.LoadFactor:
 
 
 def derive_random(
-    recipe: s.LevelRecipe, rules: s.PolicyRules, inputs: list[Input], life_s: float
+    recipe: s.LevelRecipe, rules: s.PolicyRules, inputs: list[Input], life_s: float,
+    cache: cov.SpectraCache | None = None,
 ) -> r.RandomResult:
     eq = rules.equivalence
     steps: list[r.Step] = []
@@ -357,7 +358,7 @@ def derive_random(
             raise ValidationFailed("combination", recipe.combination,
                                    "makes test levels (it needs a test duration)")
         test_s = rule.duration_s or life_s
-        f, a, info = _fds_equivalent(inputs, rules, test_s)
+        f, a, info = _fds_equivalent(inputs, rules, test_s, cache)
         steps.append(_step("FDS equivalence", **info))
         lf, la = f, a
     else:
@@ -462,7 +463,8 @@ def _input_band(item: Input) -> tuple[float, float]:
     return 0.0, cov.RECORD_FN_MAX / spec["dt_s"]
 
 
-def _fds_equivalent(inputs: list[Input], rules: s.PolicyRules, test_s: float):
+def _fds_equivalent(inputs: list[Input], rules: s.PolicyRules, test_s: float,
+                    cache: cov.SpectraCache | None = None):
     """The PSD that does, in `test_s`, the damage of the inputs over their exposures.
 
     Natural frequencies: the policy's grid on the union of the inputs' bands, clipped to
@@ -484,7 +486,7 @@ def _fds_equivalent(inputs: list[Input], rules: s.PolicyRules, test_s: float):
                                f"{eq.f_lo_hz:g}-{eq.f_hi_hz:g} Hz")
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", AccuracyWarning)
-        parts = [cov.spectra_of_environment(i, fn, eq.q, eq.b) for i in inputs]
+        parts = [cov.spectra_of_environment(i, fn, eq.q, eq.b, cache) for i in inputs]
         life = {b: np.sum([p.fds[b] for p in parts], axis=0) for b in eq.b}
         keep = np.all([life[b] > 0 for b in eq.b], axis=0)
         if keep.sum() < 2:
@@ -630,9 +632,10 @@ def derive_sine(recipe: s.LevelRecipe, rules: s.PolicyRules, inputs: list[Input]
 # --- the use case ---------------------------------------------------------------------
 
 
-def _with_coverage(result, life: list[LifeItem], rules: s.PolicyRules):
+def _with_coverage(result, life: list[LifeItem], rules: s.PolicyRules,
+                   cache: cov.SpectraCache | None = None):
     """The test level with its coverage of the life and the verdicts that follow."""
-    coverage = cov.coverage_of_level(result, life, rules)
+    coverage = cov.coverage_of_level(result, life, rules, cache)
     covers, reasons = r.covers_life(coverage)
     verdicts = result.verdicts.model_copy(update={
         "covers_life": covers, "reasons": [*result.verdicts.reasons, *reasons]})
@@ -662,18 +665,19 @@ def derive_level(session: Session, actor: Actor, recipe: s.LevelRecipe,
     inputs = _inputs(session, recipe, product)
     say(0.15, "reading the life cycle of the product and axis")
     life = life_cycle(session, product, recipe.axis)
+    cache: cov.SpectraCache = {}  # FDS/ERS of each input, computed once per derivation
     say(0.25, f"combining {len(inputs)} inputs ({recipe.combination}, {recipe.kind})")
     with envdata.core_errors(""):
         if recipe.kind == "random":
             life_s = sum(exposure_s(i) for i in inputs if i.environment.kind is not K.shock)
-            result = derive_random(recipe, rules, inputs, life_s)
+            result = derive_random(recipe, rules, inputs, life_s, cache)
         elif recipe.kind == "shock":
             result = derive_shock(recipe, rules, inputs)
         else:
             result = derive_sine(recipe, rules, inputs)
         if recipe.purpose is m.LevelPurpose.test:
             say(0.6, f"FDS and ERS coverage of the life ({len(life)} environments)")
-            result = _with_coverage(result, life, rules)
+            result = _with_coverage(result, life, rules, cache)
     say(0.95, "storing the level")
     hashes = {
         "revisions": {str(i.revision.id): i.revision.content_hash for i in inputs},

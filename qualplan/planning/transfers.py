@@ -29,6 +29,7 @@ from qualplan.planning.access import Actor, record, require_for, require_in
 from qualplan.planning.catalog import _add_unique, get
 from qualplan.planning.environments import _append_revision
 from qualplan.planning.errors import Conflict, ValidationFailed
+from qualplan.planning.policies import rules_of
 from qualplan.planning.withdrawals import describe, environment_withdrawal
 from qualplan.store import models as m
 from qualplan.store.hashing import json_hash, revision_hash
@@ -167,6 +168,12 @@ def mounting_of(session: Session, product: m.Product) -> m.Mounting | None:
     return session.scalar(select(m.Mounting).where(m.Mounting.product_id == product.id))
 
 
+def read_mounting(session: Session, product_id: int) -> MountingRead | None:
+    """The product's stated orientation in its parent, or None (aligned with the parent)."""
+    row = mounting_of(session, get(session, m.Product, product_id, "product"))
+    return None if row is None else MountingRead.model_validate(row)
+
+
 def _matrix(session: Session, product: m.Product) -> list[list[float]]:
     row = mounting_of(session, product)
     return row.frame["matrix"] if row is not None else IDENTITY
@@ -272,6 +279,11 @@ def read_rule(session: Session, rule: m.TransferRule) -> RuleRead:
     return RuleRead(id=rule.id, program_id=rule.program_id, name=rule.name, kind=rule.kind,
                     revision=rev.number, revision_id=rev.id, basis=rev.basis,
                     provenance=rev.provenance, spec=rev.spec, content_hash=rev.content_hash)
+
+
+def rule_by_id(session: Session, rule_id: int) -> RuleRead:
+    """A transfer rule at its latest revision (NotFound naming the id)."""
+    return read_rule(session, get(session, m.TransferRule, rule_id, "transfer rule"))
 
 
 def list_rules(session: Session, program_id: int) -> list[RuleRead]:
@@ -759,6 +771,9 @@ def set_level_force_limit(session: Session, actor: Actor, level_id: int, cmd: Fo
         raise ValidationFailed("level_id", level_id, f"level {level.name!r} is a "
                                f"{level.kind.value} {level.purpose.value} level; force limits "
                                "go with random test levels")
+    if cmd.max_notch_db is None and level.policy is not None:  # the policy's limit, as in
+        cmd = cmd.model_copy(update={  # response-limit notching
+            "max_notch_db": rules_of(level.policy).control.max_notch_db})
     out = force_limit_of(*_level_asd(level), f"{level.name} #{level.number}", cmd)
     row = m.LevelForceLimit(level_id=level.id, params=cmd.model_dump(mode="json"),
                             result=out.model_dump(mode="json"), level_hash=level.level_hash,

@@ -29,6 +29,19 @@ KIND_WORDS = {"random": "random", "sine": "sine", "shock": "shock",
               "time_history": "time history", "shock_srs": "shock SRS"}
 
 
+#: How a level combines its inputs, in words (a recipe's ``combination``).
+COMBINATION_WORDS = {"envelope": "maximum envelope", "p95_50": "P95/50",
+                     "fds_equivalent": "FDS-equivalent random"}
+
+
+def combination(name: str | None) -> str:
+    """A recipe's combination in words: "P95/50" for ``p95_50``."""
+    if name is None:
+        return "-"
+    name = str(getattr(name, "value", name))
+    return COMBINATION_WORDS.get(name, name.replace("_", " "))
+
+
 def kind(name: str | None) -> str:
     """A kind in words: "time history" for ``time_history``; unknown names with spaces."""
     if name is None:

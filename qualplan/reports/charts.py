@@ -26,6 +26,8 @@ WIDTH_IN, HEIGHT_IN = 6.4, 3.5
 NOMINAL = "#1f3b73"
 BAND = "#b03a2e"
 LIMIT = "#7f7f7f"
+NOTCHED = "#1e7b34"
+FORCE_NOTCHED = "#b8860b"
 RC = {
     "svg.fonttype": "none",
     "svg.hashsalt": "qualplan",
@@ -168,7 +170,16 @@ def _dense(freq, values, n: int = 400):
 
 
 def level_chart(section: LevelSection) -> str:
-    """Nominal level with its tolerance band (dashed) and the limit level before margins."""
+    """Nominal level with its tolerance band (dashed) and the limit level before margins;
+    a notched level also shows the notched input the lab runs: the response-limit notching
+    and the input notched by the force limit, every stored point of each (the force limit
+    itself, in N^2/Hz, is the level's second table)."""
+    with rc_context(RC):
+        return _svg(level_figure(section))
+
+
+def level_figure(section: LevelSection) -> Figure:
+    """The figure of :func:`level_chart` (its lines are what the chart draws)."""
     with rc_context(RC):
         fig = _figure()
         ax = fig.add_subplot()
@@ -211,13 +222,21 @@ def level_chart(section: LevelSection) -> str:
             if section.kind != "sine" and len(lf) > 60:
                 lf, lv = _thin(lf, lv)
             ax.plot(lf, lv, color=LIMIT, ls=":", lw=1.2, label="limit level (before margins)")
+        nt = section.notching
+        if nt is not None:
+            ax.plot(nt.freq_hz, nt.notched, color=NOTCHED, lw=1.1,
+                    label=f"notched input (response limit at {nt.location})")
+        fl = section.force_limit
+        if fl is not None and fl.notched_freq_hz:
+            ax.plot(fl.notched_freq_hz, fl.notched_asd_g2_hz, color=FORCE_NOTCHED, lw=1.1,
+                    label=f"input notched by the force limit (f0 = {_hz(fl.f0_hz)} Hz)")
         ax.set_xlabel("frequency [Hz]")
         _decades(ax)
         ax.set_title(f"{section.name} #{section.number}, axis {section.axis}", fontsize=9)
         _narrow_y(ax)
         _legend_below(ax, len(ax.get_lines()))
         _grid(ax)
-        return _svg(fig)
+        return fig
 
 
 def _thin(f, v, n: int = 300):
@@ -264,3 +283,117 @@ def coverage_chart(coverage: CoverageData, title: str) -> str | None:
         _legend_below(ax, 4)
         _grid(ax)
         return _svg(fig)
+
+
+# --- overlay plots: the pages' plots as SVG files ------------------------------------------
+
+#: Line colours of the overlay series (the pages' plot.js palette) and the dash per style.
+PALETTE = ["#12436d", "#b3520b", "#1e7b5b", "#6a3d9a", "#8a1c2b"]
+DASH = {"solid": "-", "dashed": "--", "dotted": ":"}
+
+
+def _draw_series(ax, spec: dict) -> None:
+    k = 0
+    for item in spec["series"]:
+        x = np.asarray(item["x"], float)
+        y = np.array([np.nan if v is None else v for v in item["y"]], float)
+        role = item.get("role", "main")
+        if role == "band":
+            color, lw = BAND, 1.0
+        elif role == "other":
+            color, lw = LIMIT, 1.2
+        else:
+            color, lw = PALETTE[k % len(PALETTE)], 1.4 if role == "main" else 1.1
+            k += 1
+        if spec.get("ylog", True):
+            y = np.where(y > 0, y, np.nan)
+        ax.plot(x, y, color=color, ls=DASH.get(item.get("style", "solid"), "-"), lw=lw,
+                label=item["name"], zorder=3 if role == "main" else 2)
+    ax.set_xscale("log")
+    if spec.get("ylog", True):
+        ax.set_yscale("log")
+    ax.set_xlabel(f"{spec['xlabel']} [{spec['xunit']}]")
+    ax.set_ylabel(f"{spec['ylabel']} [{spec['yunit']}]")
+    _decades(ax, y=spec.get("ylog", True))
+    if spec.get("ylog", True):
+        _narrow_y(ax)
+    ax.set_title(spec["title"], fontsize=9)
+
+
+#: The line every downloaded plot carries under it (the pages and documents carry theirs).
+PLOT_CAUTION = ("CAUTION: a responsible engineer must review these results before use; local "
+                "standards, contracts and licensed engineering practice govern.")
+
+
+def plot_chart(spec: dict, below: dict | None = None, *, caution: bool = True) -> str:
+    """One overlay plot of the pages as SVG: `spec` is the pages' plot description
+    (``{title, series: [{name, x, y, style, role}], xlabel, xunit, ylabel, yunit, ylog,
+    note}``, x and y in the units it names), drawn log-log (or log-x, linear-y when
+    ``ylog`` is false) with the same series, names and line styles; `below` is a second
+    plot under it on the same frequency axis (e.g. the dB difference of two revisions).
+    A file a user downloads carries :data:`PLOT_CAUTION` (``caution``); a chart inside a
+    document that carries its own caution need not.
+    """
+    plots = [spec] + ([below] if below else [])
+    rows = [(len(p["series"]) + 1) // 2 for p in plots]
+    heights = [2.4 + 0.17 * r for r in rows]
+    with rc_context(RC):
+        fig = Figure(figsize=(WIDTH_IN, sum(heights) + (0.55 if caution else 0.3)),
+                     layout="constrained")
+        axes = fig.subplots(len(plots), 1, squeeze=False,
+                            gridspec_kw={"height_ratios": heights})[:, 0]
+        for ax, p in zip(axes, plots, strict=True):
+            _draw_series(ax, p)
+            ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.27 if p.get("note") else -0.2),
+                      ncol=2 if len(p["series"]) > 1 else 1)
+            if p.get("note"):  # under the axis label, above the legend
+                ax.set_xlabel(f"{p['xlabel']} [{p['xunit']}]\n({p['note']})")
+        for ax in axes:
+            _grid(ax)
+        if caution:  # a strip of 0.25 in under the plots, outside the layout
+            total = sum(heights) + 0.55
+            fig.get_layout_engine().set(rect=(0.0, 0.25 / total, 1.0, 1.0 - 0.25 / total))
+            fig.text(0.5, 0.06 / total, PLOT_CAUTION, fontsize=6.2, color="#444444",
+                     ha="center", va="bottom")
+        return _svg(fig)
+
+
+def record_plot(overlay) -> dict:
+    """The plot description of a test record over its level and the tolerance band the
+    verdict used (planning.evidence.RecordOverlay): the level, the band's upper and lower
+    limits at the judged frequencies, for a shock rule with a share allowed outside the
+    outer band, and the record (every point, drawn last). The pages draw it (plot.js) and
+    :func:`record_chart` draws it as SVG, so both show the same lines."""
+    band = overlay.band
+    verdict = {"pass": "passed", "fail": "failed"}.get(overlay.verdict, overlay.verdict)
+    record = f"record #{overlay.evidence_id} ({verdict})"
+    series = [
+        {"name": f"level {overlay.level}", "x": overlay.level_freq_hz,
+         "y": overlay.level_values, "style": "solid", "role": "alt"},
+        {"name": f"tolerance {band.label} (upper)", "x": band.freq_hz, "y": band.upper,
+         "style": "dashed", "role": "band"},
+        {"name": f"tolerance {band.label} (lower)", "x": band.freq_hz, "y": band.lower,
+         "style": "dashed", "role": "band"},
+    ]
+    if band.outer_upper is not None:
+        series += [
+            {"name": "outer band (upper)", "x": band.freq_hz, "y": band.outer_upper,
+             "style": "dotted", "role": "band"},
+            {"name": "outer band (lower)", "x": band.freq_hz, "y": band.outer_lower,
+             "style": "dotted", "role": "band"},
+        ]
+    # the record last: drawn over the level where it follows it
+    series.append({"name": record, "x": overlay.record_freq_hz, "y": overlay.record_values,
+                   "style": "solid", "role": "main"})
+    quantity = overlay.quantity + (f", Q = {overlay.q:g}" if overlay.q else "")
+    return {"title": f"{overlay.requirement_key}: record #{overlay.evidence_id} against "
+                     f"{overlay.level}, axis {overlay.axis}",
+            "series": series, "xlabel": "natural frequency" if overlay.kind == "shock"
+            else "frequency", "xunit": "Hz", "ylabel": quantity, "yunit": overlay.unit,
+            "ylog": True,
+            "note": "tolerance band at the record's judged frequencies, as the verdict used it"}
+
+
+def record_chart(overlay, *, caution: bool = True) -> str:
+    """A test record over its level and tolerance band, as SVG (see :func:`record_plot`)."""
+    return plot_chart(record_plot(overlay), caution=caution)

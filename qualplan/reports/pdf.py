@@ -20,7 +20,7 @@ from jinja2 import Environment, FileSystemLoader, StrictUndefined, select_autoes
 
 from qualplan import __version__
 from qualplan.planning import margins, wording
-from qualplan.planning.documents import DocumentContent, SpecificationContent
+from qualplan.planning.documents import AuditContent, DocumentContent, SpecificationContent
 from qualplan.reports import charts, tables
 from qualplan.reports.files import write_atomic
 from qualplan.resources import data_dir
@@ -68,7 +68,7 @@ def environment() -> Environment:
     env.filters.update(num=_num, signed=_signed, date=_date, datetime=_datetime,
                        status=wording.status, kind=wording.kind, hz=wording.frequency,
                        duration=wording.duration, db=wording.decibels,
-                       count=wording.count,
+                       count=wording.count, combination=wording.combination,
                        verdict_words=margins.verdict_words)
     env.globals["qualplan_version"] = __version__
     return env
@@ -89,9 +89,15 @@ def _fetcher():
     return TemplateOnlyFetcher(allowed_protocols=("data", "file"), fail_on_errors=True)
 
 
-def figures(content: SpecificationContent) -> dict[int, dict[str, str | None]]:
-    """Every chart of a specification as SVG text, by level id."""
-    out = {}
+def figures(content: DocumentContent) -> dict[int | str, dict[str, str | None]]:
+    """Every chart of a document as SVG text: a specification's by level id (and
+    ``axis-X`` ...), an audit's test records by ``record-<evidence id>``."""
+    out: dict[int | str, dict[str, str | None]] = {}
+    if isinstance(content, AuditContent):
+        for rec in content.records:
+            out[f"record-{rec.evidence_id}"] = {
+                "record": charts.record_chart(rec, caution=False)}
+        return out
     for sec in content.sections:
         out[sec.level_id] = {
             "level": charts.level_chart(sec),
@@ -115,8 +121,10 @@ def html(content: DocumentContent, svgs: dict | None = None) -> str:
         template = env.get_template("reports/specification.html")
         return template.render(doc=content, figures=uris, content_hash=content.content_hash(),
                                file_stem=lambda s: tables.section_file_stem(content, s))
+    svgs = svgs if svgs is not None else figures(content)
+    uris = {k: {name: _svg_uri(svg) for name, svg in v.items()} for k, v in svgs.items()}
     template = env.get_template("reports/audit.html")
-    return template.render(doc=content, content_hash=content.content_hash())
+    return template.render(doc=content, figures=uris, content_hash=content.content_hash())
 
 
 _font_clock = threading.Lock()
@@ -179,7 +187,8 @@ class PdfRenderer:
     def render(self, content: DocumentContent, out_dir: Path) -> list[Path]:
         out_dir = Path(out_dir)
         out_dir.mkdir(parents=True, exist_ok=True)
-        svgs = figures(content) if isinstance(content, SpecificationContent) else None
+        svgs = figures(content) if isinstance(content, SpecificationContent | AuditContent) \
+            else None
         pdf = out_dir / f"{_stem(content)}.pdf"
         write_atomic(pdf, pdf_bytes(content, svgs))
         paths = [pdf, *tables.write_tables(content, out_dir)]
@@ -188,12 +197,18 @@ class PdfRenderer:
         return paths
 
 
-def write_figures(content: SpecificationContent, folder: Path, svgs: dict | None = None
+def write_figures(content: DocumentContent, folder: Path, svgs: dict | None = None
                   ) -> list[Path]:
-    """Write every chart of a specification as an SVG file into `folder`."""
+    """Write every chart of a document as an SVG file into `folder`."""
     svgs = svgs if svgs is not None else figures(content)
     folder.mkdir(parents=True, exist_ok=True)
     out = []
+    if isinstance(content, AuditContent):
+        for rec in content.records:
+            p = folder / f"{content.number}-record-{rec.evidence_id}.svg"
+            write_atomic(p, svgs[f"record-{rec.evidence_id}"]["record"])
+            out.append(p)
+        return out
     for sec in content.sections:
         stem = tables.section_file_stem(content, sec)
         for name, svg in svgs[sec.level_id].items():

@@ -25,6 +25,18 @@ class DatabaseUnavailable(RuntimeError):
     """The database cannot be reached or opened."""
 
 
+def ours(obj, name, type_, reflected, compare_to) -> bool:
+    """Alembic's ``include_object`` hook: qualplan's own schema objects only.
+
+    On PostgreSQL the jobs migration installs procrastinate's queue tables, indexes and
+    functions (its own schema, managed by procrastinate, not by qualplan's models); they
+    are left out of autogenerate and of the models-versus-migrations check."""
+    table = getattr(obj, "table", None)
+    names = (name or "", getattr(table, "name", "") or "")
+    return not any(n.startswith("procrastinate_") or n.startswith("idx_procrastinate_")
+                   for n in names)
+
+
 def alembic_config(url: str) -> Config:
     cfg = Config()
     cfg.set_main_option("script_location", str(data_dir("migrations")))

@@ -187,6 +187,13 @@ def render(ctx: Ctx, name: str, status: int = 200, **values) -> Response:
     return _cookie(ctx, response)
 
 
+def svg_response(svg: str, filename: str) -> Response:
+    """A plot as an SVG file (made by reports.charts), shown inline or saved as `filename`."""
+    return Response(svg, media_type="image/svg+xml",
+                    headers={"Content-Disposition": f'inline; filename="{filename}"',
+                             "Cache-Control": "no-store"})
+
+
 def redirect(ctx: Ctx, url: str) -> Response:
     return _cookie(ctx, RedirectResponse(url, status_code=303))
 

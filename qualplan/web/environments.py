@@ -10,7 +10,7 @@ from starlette.concurrency import run_in_threadpool
 from qualplan.planning import approvals, catalog, environments, impact, imports, records
 from qualplan.planning import schemas as s
 from qualplan.planning.errors import PlanningError, ValidationFailed
-from qualplan.reports import tables
+from qualplan.reports import charts, tables
 from qualplan.web import plots
 from qualplan.web.common import (
     Ctx,
@@ -26,6 +26,7 @@ from qualplan.web.common import (
     problem_page,
     record_file_of,
     render,
+    svg_response,
     text,
 )
 from qualplan.web.programs import product_page
@@ -130,6 +131,45 @@ def environment_page(ctx: Ctx, env_id: int, error=None, status=200, form=None):
 @router.get("/environments/{env_id}")
 def environment(env_id: int, ctx: Ctx = CtxDep) -> Response:
     return page(ctx, lambda: environment_page(ctx, env_id))
+
+
+@router.get("/environments/{env_id}/plot.svg")
+def environment_svg(env_id: int, ctx: Ctx = CtxDep) -> Response:
+    """The revisions overlay with the dB difference under it, as SVG (reports.charts):
+    the latest revisions as on the page, or revisions ``a`` and ``b`` of a comparison."""
+    def build() -> Response:
+        env = environments.environment_by_id(ctx.db, env_id)
+        if env.kind not in plots.QUANTITY:
+            raise ValidationFailed("environment", env.name,
+                                   f"is a {env.kind.value.replace('_', ' ')}: it has no "
+                                   "revisions overlay")
+        hist = environments.history(ctx.db, env.id)
+        q = ctx.request.query_params
+        if q.get("a") or q.get("b"):
+            nums = []
+            for key in ("a", "b"):
+                raw = q.get(key, "")
+                if not raw.isdigit():
+                    raise ValidationFailed(key, raw, "give a revision number")
+                nums.append(int(raw))
+            pair = [r for r in hist if r.number in nums]
+            if len(pair) != 2:
+                raise ValidationFailed("a/b", nums, f"{env.name} has revisions 1 to "
+                                       f"{len(hist)}; give two different ones")
+            shown, (ra, rb) = sorted(pair, key=lambda r: r.number), nums
+        else:
+            shown, ra, rb = hist, None, None
+            if len(hist) >= 2:
+                ra, rb = hist[-2].number, hist[-1].number
+        main = plots.environment_plot(env, shown)
+        diff = (plots.difference_plot(env, environments.revision(ctx.db, env.id, ra),
+                                      environments.revision(ctx.db, env.id, rb))
+                if ra is not None else None)
+        suffix = f"-r{ra}-r{rb}" if q.get("a") else ""
+        return svg_response(charts.plot_chart(main, diff),
+                            f"{_slug(env.name)}-revisions{suffix}.svg")
+
+    return page(ctx, build)
 
 
 @router.get("/environments/{env_id}/impact")

@@ -10,6 +10,7 @@ from starlette.concurrency import run_in_threadpool
 from qualplan.planning import (
     approvals,
     catalog,
+    coverage,
     documents,
     jobs,
     levels,
@@ -18,17 +19,20 @@ from qualplan.planning import (
     wording,
 )
 from qualplan.planning import schemas as s
-from qualplan.reports import tables
+from qualplan.planning.errors import NotFound, ValidationFailed
+from qualplan.reports import charts, tables
 from qualplan.web import plots
 from qualplan.web.common import (
     Ctx,
     CtxDep,
     _or,
+    _slug,
     action,
     form_of,
     number,
     page,
     render,
+    svg_response,
     text,
 )
 from qualplan.web.programs import product_page
@@ -77,24 +81,106 @@ def level_page(ctx: Ctx, level_id: int, error=None, status=200, form=None) -> Re
     row = levels.level_by_id(ctx.db, level_id)
     read = levels.read_level(ctx.db, row)
     product = catalog.product_by_id(ctx.db, row.product_id)
+    force_limit = transfers.level_force_limit(ctx.db, row.id)
+    notched = notching.level_notching(ctx.db, row.id)
     return render(
             ctx, "web/level.html", status, level=row, read=read, product=product,
             error=error, form=form or {},
             steps=[wording.step_sentence(st, grade=row.grade.value if row.grade else None,
                                          policy=row.policy.name if row.policy else None)
                    for st in read.result.steps],
-            plot=plots.level_plot(read, levels.compressed_inputs(ctx.db, row))
+            plot=plots.level_plot(read, levels.compressed_inputs(ctx.db, row), notching=notched,
+                                  force_limit=force_limit)
             if row.kind in plots.QUANTITY else None,
             coverage=plots.coverage_plots(read), worst=plots.worst_margins(read),
             cov=read.result.coverage,
-            force_limit=transfers.level_force_limit(ctx.db, row.id),
-            notched=notching.level_notching(ctx.db, row.id),
+            force_limit=force_limit, notched=notched,
         )
 
 
 @router.get("/levels/{level_id}")
 def level(level_id: int, ctx: Ctx = CtxDep) -> Response:
     return page(ctx, lambda: level_page(ctx, level_id))
+
+
+def _level_plots(ctx: Ctx, level_id: int):
+    row = levels.level_by_id(ctx.db, level_id)
+    read = levels.read_level(ctx.db, row)
+    return row, read
+
+
+@router.get("/levels/{level_id}/plot.svg")
+def level_svg(level_id: int, ctx: Ctx = CtxDep) -> Response:
+    """The level with its tolerance band, limit and compressed inputs, as SVG."""
+    def build() -> Response:
+        row, read = _level_plots(ctx, level_id)
+        spec = plots.level_plot(read, levels.compressed_inputs(ctx.db, row))
+        return svg_response(charts.plot_chart(spec),
+                            f"{_slug(row.name)}-{row.number}-level.svg")
+
+    return page(ctx, build)
+
+
+@router.get("/levels/{level_id}/coverage-{n}.svg")
+def level_coverage_svg(level_id: int, n: int, ctx: Ctx = CtxDep) -> Response:
+    """Plot `n` (1: FDS ratio, 2: ERS with the over-test ceiling, 3: ERS ratio) of the
+    level's coverage of the life, as SVG."""
+    def build() -> Response:
+        row, read = _level_plots(ctx, level_id)
+        specs = plots.coverage_plots(read)
+        if not 1 <= n <= len(specs):
+            raise NotFound(f"coverage plot of {row.name} #{row.number}", n)
+        return svg_response(charts.plot_chart(specs[n - 1]),
+                            f"{_slug(row.name)}-{row.number}-coverage-{n}.svg")
+
+    return page(ctx, build)
+
+
+# --- a product's test sequence against its life, per axis ------------------------------------
+
+
+def _grade(ctx: Ctx) -> s.Grade:
+    raw = ctx.request.query_params.get("grade") or "qualification"
+    try:
+        return s.Grade(raw)
+    except ValueError as exc:
+        raise ValidationFailed("grade", raw, "must be one of " + ", ".join(
+            g.value for g in s.Grade)) from exc
+
+
+@router.get("/products/{product_id}/coverage")
+def sequence_page(product_id: int, ctx: Ctx = CtxDep) -> Response:
+    """FDS and ERS of the product's test sequence (its current test levels of one grade)
+    against the life of each axis, with the over-test ceiling."""
+    def build() -> Response:
+        product = catalog.product_by_id(ctx.db, product_id)
+        grade = _grade(ctx)
+        axes = [{"axis": x.axis, "tests": x.tests, "cov": x.coverage,
+                 "plots": plots.coverage_plots_of(x.coverage, "test sequence"),
+                 "worst": plots.worst_margins_of(x.coverage)}
+                for x in coverage.product_sequence(ctx.db, product.id, grade)]
+        return render(ctx, "web/sequence.html", product=product, grade=grade.value,
+                      grades=list(s.Grade), axes=axes)
+
+    return page(ctx, build)
+
+
+@router.get("/products/{product_id}/coverage/{axis}-{n}.svg")
+def sequence_svg(product_id: int, axis: str, n: int, ctx: Ctx = CtxDep) -> Response:
+    """Plot `n` of the test sequence's coverage of axis `axis` (as on the page), as SVG."""
+    def build() -> Response:
+        product = catalog.product_by_id(ctx.db, product_id)
+        grade = _grade(ctx)
+        seq = {x.axis: x for x in coverage.product_sequence(ctx.db, product.id, grade)}
+        if axis not in seq:
+            raise NotFound(f"current {grade.value} test level of {product.name} on axis", axis)
+        specs = plots.coverage_plots_of(seq[axis].coverage, "test sequence")
+        if not 1 <= n <= len(specs):
+            raise NotFound(f"coverage plot of axis {axis}", n)
+        return svg_response(charts.plot_chart(specs[n - 1]),
+                            f"{_slug(product.name)}-{grade.value}-{axis}-coverage-{n}.svg")
+
+    return page(ctx, build)
 
 
 @router.post("/levels/{level_id}/withdrawal")

@@ -24,11 +24,13 @@ from qualplan.web import (
     programs,
     requirements,
     signin,
+    transfers,
 )
 from qualplan.web.common import STATIC, PdfRenderer, WebState
 
 ROUTERS = (signin.router, programs.router, environments.router, levels.router,
-           requirements.router, documents.router, analysis.router, jobs.router)
+           requirements.router, documents.router, analysis.router,
+           transfers.router, jobs.router)
 
 
 def mount(

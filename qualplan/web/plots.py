@@ -13,6 +13,7 @@ import numpy as np
 
 from qualplan.planning import envdata, environments
 from qualplan.planning.schemas import EnvironmentKind
+from qualplan.reports import charts
 
 K = EnvironmentKind
 QUANTITY = {
@@ -94,9 +95,13 @@ def record_plots(env, rev) -> list[dict[str, Any]]:
     ]
 
 
-def level_plot(level, inputs: list[dict[str, Any]] | None = None) -> dict[str, Any]:
-    """The level with its tolerance band (dashed), the limit level it came from and each
-    of its inputs compressed to the test duration (planning.levels.compressed_inputs).
+def level_plot(level, inputs: list[dict[str, Any]] | None = None, *, notching=None,
+               force_limit=None) -> dict[str, Any]:
+    """The level with its tolerance band (dashed), the limit level it came from, each
+    of its inputs compressed to the test duration (planning.levels.compressed_inputs)
+    and, when the level is notched, the notched input the lab runs: the stored
+    response-limit notching (planning.notching.NotchingRead) and the input notched by
+    the force limit (planning.transfers.ForceLimitRead), both as stored.
 
     `level` is planning's LevelRead; the band is the one planning stored with the result.
     """
@@ -116,13 +121,32 @@ def level_plot(level, inputs: list[dict[str, Any]] | None = None) -> dict[str, A
                           "dotted", "other"))
     for item in inputs or []:
         series.append(_series(item["name"], item["freq_hz"], item["values"], "dotted", "alt"))
+    notes = []
+    if notching is not None:
+        series.append(_series(f"notched input (response limit at {notching.location})",
+                              notching.freq_hz, notching.notched, "solid", "notched"))
+        notes.append(f"notched against a response limit: {len(notching.notches)} notch(es), "
+                     f"deepest {max((n.depth_db for n in notching.notches), default=0):.3g} dB"
+                     + (" (stale: made on an earlier level hash)" if notching.stale else ""))
+    if force_limit is not None and force_limit.notched_freq_hz:
+        series.append(_series(f"input notched by the force limit (C² = {force_limit.c2:g}, "
+                              f"f0 = {force_limit.f0_hz:g} Hz)", force_limit.notched_freq_hz,
+                              force_limit.notched_asd_g2_hz, "solid", "notched"))
+        notes.append(f"force limited: {len(force_limit.notches)} predicted notch(es); the "
+                     "force limit [N²/Hz] is the table below")
     return plot(f"{level.name} #{level.number}: {qty}", series, xlabel="frequency",
-                xunit="Hz", ylabel=qty, yunit=unit)
+                xunit="Hz", ylabel=qty, yunit=unit, note="; ".join(notes))
 
 
 def coverage_plots(level) -> list[dict[str, Any]]:
     """FDS ratio test/life per b [dB], ERS of test and life [g], from the level's coverage."""
-    cov = level.result.coverage
+    return coverage_plots_of(level.result.coverage)
+
+
+def coverage_plots_of(cov, what: str = "test") -> list[dict[str, Any]]:
+    """FDS ratio test/life per b [dB], ERS of test and life [g] with the over-test ceiling
+    (the life's ERS raised by the policy's over-test limit), and the ERS ratio [dB], from a
+    planning Coverage (of one level, or of an axis's test sequence: `what` names it)."""
     if cov is None or not cov.fn_hz:
         return []
     fn = cov.fn_hz
@@ -133,17 +157,20 @@ def coverage_plots(level) -> list[dict[str, Any]]:
     ]
     req = next(iter(cov.by_b.values())).required_db if cov.by_b else 0.0
     series.append(_series(f"required {req:+g} dB", [fn[0], fn[-1]], [req, req], "dashed", "band"))
-    out.append(plot("FDS coverage: test / life", series, xlabel="natural frequency",
+    out.append(plot(f"FDS coverage: {what} / life", series, xlabel="natural frequency",
                     xunit="Hz", ylabel="FDS ratio", yunit="dB", ylog=False,
                     note="damage is relative: the material constant cancels in the ratio"))
     ers = cov.ers
     if ers is not None:
-        out.append(plot("ERS coverage: test and life", [
-            _series("test ERS", fn, ers.test_ers),
+        ceiling = (np.asarray(ers.life_ers, float) * 10.0 ** (ers.overtest_limit_db / 20.0))
+        out.append(plot(f"ERS coverage: {what} and life", [
+            _series(f"{what} ERS", fn, ers.test_ers),
             _series("life ERS", fn, ers.life_ers, "dashed", "alt"),
+            _series(f"over-test ceiling: life {ers.overtest_limit_db:+g} dB", fn,
+                    ceiling.tolist(), "dotted", "band"),
         ], xlabel="natural frequency", xunit="Hz", ylabel="ERS", yunit="g",
             note=f"Q = {cov.q if cov.q is not None else 10:g}"))
-        out.append(plot("ERS ratio: test / life", [
+        out.append(plot(f"ERS ratio: {what} / life", [
             _series("ERS ratio", fn, ers.ers_ratio_db),
             _series(f"required {ers.required_db:+g} dB", [fn[0], fn[-1]],
                     [ers.required_db] * 2, "dashed", "band"),
@@ -153,8 +180,17 @@ def coverage_plots(level) -> list[dict[str, Any]]:
     return out
 
 
+def record_plot(overlay) -> dict[str, Any]:
+    """A test record over its level and the band its verdict used (the same description
+    the SVG file and the PDF draw: reports.charts.record_plot)."""
+    return charts.record_plot(overlay)
+
+
 def worst_margins(level) -> list[dict[str, Any]]:
-    cov = level.result.coverage
+    return worst_margins_of(level.result.coverage)
+
+
+def worst_margins_of(cov) -> list[dict[str, Any]]:
     if cov is None:
         return []
     rows = []

@@ -169,6 +169,7 @@ def product_page(ctx: Ctx, product_id: int, error=None, status=200, form=None, w
         if any(cells.values()):
             by_phase.append({"phase": ph, "cells": cells})
     lv = [levels.read_level(ctx.db, x) for x in levels.list_levels(ctx.db, product.id)]
+    origins = transfers.environments_for(ctx.db, product.id)
     return render(
         ctx, "web/product.html", status, product=product, program=product_program(ctx, product),
         phases=phases, rows=rows, axes=axes, by_phase=by_phase, levels=lv,
@@ -178,7 +179,13 @@ def product_page(ctx: Ctx, product_id: int, error=None, status=200, form=None, w
         # a specification exists only for a grade with test levels (no error page as .pdf)
         doc_grades=[g for g in s.Grade if any(x.grade is g and x.purpose is
                                               s.LevelPurpose.test for x in lv)],
-        origins=transfers.environments_for(ctx.db, product.id),
+        origins=origins,
+        parent=catalog.product_by_id(ctx.db, product.parent_id) if product.parent_id else None,
+        mounting=transfers.read_mounting(ctx.db, product.id) if product.parent_id else None,
+        rules=transfers.list_rules(ctx.db, product.program_id),
+        # what a transfer may take: the ancestors' environments (no time history)
+        parent_envs=[o for o in origins if o.origin in ("inherited", "replaced")
+                     and o.kind is not K.time_history],
         error=error, where=where, form=form or {},
     )
 

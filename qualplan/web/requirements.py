@@ -21,6 +21,8 @@ from qualplan.planning import (
 )
 from qualplan.planning import schemas as s
 from qualplan.planning.errors import ValidationFailed
+from qualplan.reports import charts
+from qualplan.web import plots
 from qualplan.web.common import (
     Ctx,
     CtxDep,
@@ -32,6 +34,7 @@ from qualplan.web.common import (
     number,
     page,
     render,
+    svg_response,
     text,
 )
 
@@ -227,5 +230,29 @@ def audit_csv(program_id: int, ctx: Ctx = CtxDep) -> Response:
         comments = [f"margin-closure audit of program {report.program}", report.verdict,
                     "margins: dB for a test, MS (margin of safety) for an analysis"]
         return csv_response(rows, f"{_slug(report.program)}-audit.csv", comments)
+
+    return page(ctx, build)
+
+
+# --- evidence: a test record over its level and tolerance band -------------------------------
+
+
+@router.get("/evidence/{evidence_id}")
+def evidence_page(evidence_id: int, ctx: Ctx = CtxDep) -> Response:
+    def build() -> Response:
+        overlay = evidence.record_overlay(ctx.db, evidence_id)
+        req = requirements.requirement_by_id(ctx.db, overlay.requirement_id)
+        return render(ctx, "web/evidence.html", overlay=overlay, req=req,
+                      plot=plots.record_plot(overlay))
+
+    return page(ctx, build)
+
+
+@router.get("/evidence/{evidence_id}/plot.svg")
+def evidence_svg(evidence_id: int, ctx: Ctx = CtxDep) -> Response:
+    def build() -> Response:
+        overlay = evidence.record_overlay(ctx.db, evidence_id)
+        return svg_response(charts.record_chart(overlay),
+                            f"{_slug(overlay.requirement_key)}-record-{evidence_id}.svg")
 
     return page(ctx, build)

@@ -15,6 +15,7 @@ from datetime import UTC, datetime, timedelta
 import pytest
 
 from tests.api.conftest import API, GEVS_ACC, Api, share, unique
+from tests.dbutil import backend
 
 RANK = {"viewer": 0, "engineer": 1, "approver": 2, "admin": 3}
 WHO = ("none", "revoked", "viewer", "engineer", "approver", "admin")
@@ -28,7 +29,7 @@ def _fresh_psd() -> dict:
 
 
 @pytest.fixture(scope="module")
-def base(client, callers) -> dict:
+def base(client, callers, db_url) -> dict:
     """Rows every case may point at, made once by an engineer."""
     eng = Api(client, callers["engineer"])
     program = eng.post("/programs", {"name": unique("roles")}).json()
@@ -58,7 +59,8 @@ def base(client, callers) -> dict:
              {"passed": True, "note": "fits"})
     return {"program": program, "unit": unit, "phase": phase, "env": env, "policy": policy,
             "test_level": test_level, "analysis_level": analysis_level, "req": req,
-            "verified": verified, "eng": eng, "approver": Api(client, callers["approver"]),
+            "verified": verified, "db_url": db_url, "eng": eng,
+            "approver": Api(client, callers["approver"]),
             "admin": Api(client, callers["admin"])}
 
 
@@ -380,6 +382,11 @@ def _finished_job(b) -> int:
         job = b["approver"].request("POST", "/jobs", 202, json={
             "kind": "record_analysis", "params": {"revision_id": _record_revision(b),
                                                   "resolution_hz": 10.0}}).json()
+        if backend() == "postgresql":
+            # On PostgreSQL the API defers jobs to the queue: one worker runs it to the end.
+            from qualplan.planning.queue import run_worker
+
+            run_worker(b["db_url"], wait=False)
         deadline = time.monotonic() + 60
         while b["eng"].get(f"/jobs/{job['id']}").json()["status"] in ("queued", "running"):
             assert time.monotonic() < deadline

@@ -51,6 +51,21 @@ def test_demo_builds_everything_in_its_folder(tmp_path):
                               f"sqlite:///{out_dir / 'qualplan.db'}").stdout)
     feet = next(r for r in reqs if r["key"] == "PEU-STR-02")
     assert feet["status"] == "verified" and "base_force_cqc_n" in feet["status_reason"]
+    # The unit takes its flight X and Y from the pod through the shelf's transmissibility
+    # and its axis frame (issue 18), and its qualification random X is force limited,
+    # its deep notches accepted (the issued JSON is the document's content).
+    origins = run_cli("env", "list", "--product", "Payload electronics unit", "--json",
+                      "--db", f"sqlite:///{out_dir / 'qualplan.db'}")
+    rows = {r["name"]: r for r in json.loads(origins.stdout)}
+    shelf = rows["survey flight X (shelf)"]
+    assert shelf["origin"] == "transferred" and shelf["from_product"] == "Sensor pod"
+    assert shelf["through"][0] == "mounting" and "pod electronics shelf" in shelf["through"][1]
+    spec = json.loads(next(docs.glob("TLS-*-Q-r1.json")).read_text())
+    (rx,) = [x for x in spec["sections"] if x["kind"] == "random" and x["axis"] == "X"]
+    fl = rx["force_limit"]
+    assert fl["rows"] and fl["notches"] and fl["notched_freq_hz"]
+    assert fl["needs_acceptance"] and fl["accepted_by"] == "demo"
+    assert not any("force limit" in w for w in spec["warnings"]), spec["warnings"]
     # Running again into the same folder is refused in one line, without --replace.
     again = run_cli("demo", "--out", str(out_dir))
     assert again.returncode == 2

@@ -105,7 +105,7 @@ def test_failing_test_record_and_waiver(session, engineer, approver, unit, story
     ev = evidence.add_test_record(session, engineer, req.id, s.TestEvidenceIn(
         freq_hz=lines.tolist(), values=low.tolist(), duration_s=r["duration_s"]))
     assert ev.verdict is m.Verdict.failed
-    assert "outside +/-3 dB" in ev.summary["reason"]
+    assert "outside ±3 dB" in ev.summary["reason"]
     assert requirements.status_of(session, req).status == "failed"
     with pytest.raises(PermissionDenied):
         requirements.waive(session, engineer, req.id, s.WaiverIn(

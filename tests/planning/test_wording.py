@@ -51,3 +51,11 @@ def test_a_margin_step_names_grade_and_policy():
 def test_a_step_of_an_unknown_kind_still_reads_without_raw_keys_in_brackets_only():
     st = Step(step="notch", inputs=["survey Z r2"], db=-6.0, values={"depth_db": 6.0})
     assert w.step_sentence(st) == "notch of survey Z r2 -6.00 dB (depth db 6)"
+
+
+def test_a_combination_reads_as_words():
+    # the recipe keys of schemas.LevelRecipe.combination, as a document prints them
+    assert w.combination("p95_50") == "P95/50"
+    assert w.combination("envelope") == "maximum envelope"
+    assert w.combination("fds_equivalent") == "FDS-equivalent random"
+    assert w.combination("some_new_rule") == "some new rule" and w.combination(None) == "-"

@@ -65,7 +65,12 @@ def test_audit_pdf_shows_the_computed_statuses(db, tmp_path):
     issued = documents.issue_document(session, data["engineer"], content, PdfRenderer(),
                                       tmp_path)
     text, pages = pdf_text(next(p for p in issued.files if p.suffix == ".pdf"))
-    assert 1 <= pages <= 5
+    # five pages of tables, then the test records over their levels, two plots a page
+    assert len(content.records) == 4
+    assert 1 <= pages <= 5 + (len(content.records) + 1) // 2
+    assert "Test records against their levels" in text
+    for rec in content.records:
+        assert f"{rec.requirement_key}: record #{rec.evidence_id}" in text
     assert report.verdict in text.replace("\n", " ")
     for item in report.items:
         assert re.search(rf"{item.key}\b.*?\b{item.status}\b", text, re.S), item.key

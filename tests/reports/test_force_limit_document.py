@@ -30,6 +30,10 @@ def test_force_limit_table_in_pdf_and_csv(db, tmp_path):
     content = documents.specification_content(session, data["unit"].id, "qualification")
     (section,) = [x for x in content.sections if x.level_id == level.id]
     assert section.force_limit is not None
+    # a predicted notch deeper than allowed, not accepted: a warning of the document, as
+    # for a response-limit notch
+    assert any("a notch predicted by the force limit is deeper than 6 dB" in w
+               for w in content.warnings), content.warnings
     paths = PdfRenderer().render(content, tmp_path)
     text = "\n".join(p.extract_text() or "" for p in PdfReader(
         str(next(p for p in paths if p.suffix == ".pdf"))).pages)
@@ -78,3 +82,27 @@ def test_deep_notches_need_an_approver_and_the_acceptance_is_printed(db, tmp_pat
     text = re.sub(r"\s+", " ", "\n".join(p.extract_text() or "" for p in PdfReader(
         str(next(p for p in paths if p.suffix == ".pdf"))).pages))
     assert "accepted by alan" in text and "notched sine survey" in text
+
+
+def test_force_limit_without_a_depth_takes_the_policy_notch_limit(db):
+    """A force limit set without max_notch_db judges its predicted notches against the
+    level policy's control.max_notch_db (10 dB by default, common practice), as
+    response-limit notching does; the stored parameters say which limit was used."""
+    from qualplan.planning.policies import rules_of
+    from qualplan.store import models as m
+
+    session, data = db
+    level = data["levels"]["random"]
+    assert level.policy is not None
+    limit = rules_of(level.policy).control.max_notch_db
+    row = transfers.set_level_force_limit(session, data["engineer"], level.id,
+                                          transfers.ForceLimitIn(
+                                              mass_kg=0.8, c2=2.0, f0_hz=150.0,
+                                              modes=[{"fn_hz": 150.0, "mass_kg": 0.5, "q": 10}],
+                                              residual_mass_kg=0.1))
+    assert row.params["max_notch_db"] == limit
+    notches = transfers.level_force_limit(session, level.id).notches
+    assert notches
+    assert [n.exceeds_policy for n in notches] == [n.depth_db > limit for n in notches]
+    assert session.get(m.LevelForceLimit, row.id).result["needs_acceptance"] == any(
+        n.depth_db > limit for n in notches)

@@ -1,0 +1,86 @@
+"""Time-domain FDS for several Basquin exponents in one pass (issue 12, derivation speed).
+
+The SDOF response, its reversals and its rainflow cycles do not depend on b; only the
+damage per cycle (range/2)^b does. ``fatigue.fds_time`` given a sequence of b runs each
+oscillator once and must give, row by row, what the call with each b alone gives
+(the old path); the cycles it counts must be those of ASTM E1049-85 (reference library
+``rainflow``, test-only dependency).
+"""
+
+import warnings
+
+import numpy as np
+import pytest
+import rainflow as rainflow_ref  # reference library (test-only)
+
+from qualplan.dynamics import fatigue, sdof_filter
+from qualplan.dynamics.errors import AccuracyWarning, InputError
+
+G0 = 9.80665
+BS = (4.0, 6.4, 8.0, 12.0)
+RNG = np.random.default_rng(12)
+X = RNG.standard_normal(60_000)
+DT = 1 / 20_000
+FN = np.geomspace(20.0, 2000.0, 25)
+
+
+@pytest.mark.parametrize("options", [
+    {}, {"free_decay": True}, {"skip_s": 0.3}, {"interpolate_peaks": False},
+    {"method": "bandlimited"}, {"method": "bandlimited", "free_decay": True, "skip_s": 0.1},
+    {"workers": 1},
+])
+def test_several_b_equal_each_b_alone(options):
+    # the new path against the old one (one call per b): equal to 1e-12 relative (in fact
+    # bit for bit: the damage is summed in the same order)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", AccuracyWarning)
+        several = fatigue.fds_time(X, DT, FN, 10.0, list(BS), **options)
+        alone = np.array([fatigue.fds_time(X, DT, FN, 10.0, b, **options) for b in BS])
+    assert several.shape == (len(BS), FN.size)
+    assert np.all(alone > 0)
+    np.testing.assert_allclose(several, alone, rtol=1e-12, atol=0)
+
+
+def test_several_b_count_the_reference_rainflow_cycles_exactly():
+    # reference library rainflow 3.2 (ASTM E1049-85 5.4.4) on the response of
+    # sdof_filter.response, raw samples: b = 0 makes each cycle's damage its count, so the
+    # one-pass kernel's sum for b = 0 is the number of cycles (half cycles 0.5) - equal
+    # exactly; the damage for the other b equals the reference Miner sum (as
+    # test_fatigue.test_fds_time_equals_reference_rainflow_on_filtered_response)
+    x = X[:30_000]
+    fn = np.array([50.0, 300.0, 1500.0])
+    bz, az = sdof_filter.coefficients(fn, 10.0, DT, output="rel_disp")
+    z = sdof_filter.response(x, DT, fn, 10.0, output="rel_disp")
+    bs = np.array([0.0, 4.0, 8.0])
+    scale = (2 * np.pi * fn) ** 2 / G0
+    out = np.empty((fn.size, bs.size))
+    fatigue._filter_miner_bank(np.ascontiguousarray(x), bz * scale[:, None], az,
+                               np.zeros(fn.size, dtype=np.int64), bs, False, 0, out)
+    for i in range(fn.size):
+        cycles = list(rainflow_ref.extract_cycles(z[i] * scale[i]))
+        assert out[i, 0] == sum(n for _r, _m, n, *_ in cycles)
+        for j, b in enumerate(bs[1:], start=1):
+            ref = sum(n * (r / 2) ** b for r, _m, n, *_ in cycles)
+            assert out[i, j] == pytest.approx(ref, rel=1e-9)
+
+
+def test_several_b_give_the_warnings_of_each_b():
+    # fn = 2000 Hz at fs = 20 kHz: sinc^2 loss of the ramp-invariant filter, 1 - sinc(0.1)^(2b)
+    # (the fds_time warning rule), a different percentage per b
+    fn = [500.0, 2000.0]
+    with warnings.catch_warnings(record=True) as several:
+        warnings.simplefilter("always")
+        fatigue.fds_time(X, DT, fn, 10.0, [4.0, 12.0])
+    with warnings.catch_warnings(record=True) as alone:
+        warnings.simplefilter("always")
+        for b in (4.0, 12.0):
+            fatigue.fds_time(X, DT, fn, 10.0, b)
+    assert [str(w.message) for w in several] == [str(w.message) for w in alone]
+    assert len(several) == 2
+
+
+def test_several_b_bad_exponent_named():
+    with pytest.raises(InputError, match="b"):
+        fatigue.fds_time(X, DT, FN, 10.0, [8.0, -1.0])
+    with pytest.raises(InputError, match="b"):
+        fatigue.fds_time(X, DT, FN, 10.0, [])
