@@ -60,11 +60,15 @@ def seed(url: str, n_products: int = 5, n_reqs: int = 200) -> dict:
         eng = Actor("writer", s.Role.engineer)
         program = catalog.create_program(session, eng, s.ProgramCreate(name="bench program"))
         out["program"] = program.id
+        # users see only the programs they are members of (per-program memberships)
+        access.grant(session, SETUP, "reader", program.id, s.Role.viewer)
+        access.grant(session, SETUP, "writer", program.id, s.Role.engineer)
         phase = catalog.create_phase(session, eng, s.PhaseCreate(
             program_id=program.id, name="launch", duration_s=120.0))
         for p in range(n_products):
             unit = catalog.create_product(session, eng, s.ProductCreate(
                 program_id=program.id, name=f"unit {p}"))
+            out.setdefault("products", []).append(unit.id)
             for k, axis in enumerate((s.Axis.X, s.Axis.Y, s.Axis.Z, s.Axis.all)):
                 data = {**PSD, "asd_g2_hz": [a * (1 + 0.1 * k) for a in PSD["asd_g2_hz"]]}
                 env = environments.create_environment(session, eng, s.EnvironmentCreate(

@@ -35,6 +35,10 @@ class Settings(BaseSettings):
     #: Largest accepted record upload (a file sent with ``channel_axes`` to the upload
     #: routes, stored in chunks) [bytes]; every other body keeps ``max_upload_bytes``.
     max_record_upload_bytes: int = 4 * 1024 ** 3
+    #: Folder of the files that document jobs write for the API and the web pages
+    #: (one sub-folder per job). With workers on other machines it must be a folder they
+    #: share with the API processes (docs/deploy.md).
+    job_files_dir: Path = Field(default_factory=lambda: default_data_dir() / "job-files")
     #: Treat the service as served over TLS (sets the Secure flag on cookies).
     behind_tls: bool = False
     #: Secret that signs the web pages' session cookies; random per process when unset

@@ -28,6 +28,8 @@ from qualplan.api.routers import (
     users,
 )
 from qualplan.config import Settings
+from qualplan.planning.jobs import register_renderers
+from qualplan.reports import RENDERERS
 from qualplan.store.migrate import check_schema
 from qualplan.store.session import make_engine, make_sessionmaker
 
@@ -63,6 +65,7 @@ def job_runner(engine, settings: Settings):
 def create_app(settings: Settings | None = None) -> FastAPI:
     """Build the app; the engine is created and the schema checked at start-up."""
     settings = settings or Settings()
+    register_renderers(RENDERERS)  # the document jobs of this process's thread runner
 
     @asynccontextmanager
     async def lifespan(app: FastAPI):

@@ -239,6 +239,7 @@ def serve(
     db: DbOption = None,
 ) -> None:
     """Serve the HTTP API (/api/v1) and the web pages (/) with uvicorn."""
+    import inspect
     import os
 
     import uvicorn
@@ -249,8 +250,19 @@ def serve(
     # The service (API + web pages) reads its Settings from the environment; the CLI and
     # the other interfaces stay independent (no import between them).
     os.environ["QUALPLAN_DATABASE_URL"] = url
+    extra = {}
+    if workers > 1 and "timeout_worker_healthcheck" in inspect.signature(uvicorn.run).parameters:
+        # uvicorn (0.30 and later) kills a process that has not answered its supervisor
+        # within 5 s of starting: importing numpy, scipy and numba and checking the schema
+        # takes longer on a busy machine, and the processes were restarted for ever
+        extra["timeout_worker_healthcheck"] = WORKER_START_S
     uvicorn.run("qualplan.service:create_service", factory=True, host=host, port=port,
-                log_level="info", workers=workers)
+                log_level="info", workers=workers, **extra)
+
+
+#: Seconds an API process of `serve --workers N` may take to start and to answer its
+#: supervisor's health check.
+WORKER_START_S = 120
 
 
 def check_workers(url: str, workers: int, web_secret: str | None) -> None:

@@ -12,6 +12,7 @@ from qualplan.cli.common import cli_actor
 from qualplan.cli.output import emit_json
 from qualplan.cli.records import record_app
 from qualplan.planning import jobs
+from qualplan.reports import RENDERERS
 from qualplan.store.session import make_sessionmaker, unit_of_work
 
 job_app = typer.Typer(help="Long work run as jobs: follow or cancel.", no_args_is_help=True)
@@ -38,6 +39,7 @@ def worker(
         raise CliError(f"--concurrency={concurrency}: must be 1 or more")
     from qualplan.planning.queue import run_worker
 
+    jobs.register_renderers(RENDERERS)  # this worker issues documents too
     typer.echo(f"worker on the queue of {engine.url.render_as_string(hide_password=True)}; "
                "stop with Ctrl+C", err=True)
     run_worker(url, concurrency=concurrency, wait=not burst)
@@ -57,6 +59,23 @@ def submit_and_follow(db: str | None, cmd: jobs.JobSubmit, *, wait: bool,
                       as_json: bool) -> jobs.JobRead:
     """Queue a job; on SQLite run it here, on PostgreSQL defer it to the workers. Wait
     with a progress bar (rich) unless `wait` is false (then print the job id)."""
+    return follow(db, lambda session, actor, runner: jobs.submit_job(
+        session, actor, cmd, runner=runner), wait=wait, as_json=as_json)
+
+
+#: The option of the commands that can run their work as a job.
+WaitOption = Annotated[bool | None, typer.Option(
+    "--wait/--no-wait", help="Run as a job: wait with a progress bar, or print the job id "
+    "and return (PostgreSQL and a `qualplan worker`). Without either, the work runs in "
+    "this command as before.")]
+
+
+def follow(db: str | None, submit, *, wait: bool, as_json: bool, show: bool = True
+           ) -> jobs.JobRead:
+    """:func:`submit_and_follow` for a job queued by its own use case:
+    `submit(session, actor, runner_name)` returns the queued job row. `show=False` prints
+    nothing of a succeeded job (the command prints what it made)."""
+    jobs.register_renderers(RENDERERS)  # document jobs run in this process on SQLite
     engine = checked_engine(db)
     factory = make_sessionmaker(engine)
     sqlite = engine.dialect.name == "sqlite"
@@ -69,7 +88,7 @@ def submit_and_follow(db: str | None, cmd: jobs.JobSubmit, *, wait: bool,
 
         runner = QueueRunner(database_url(db))
     with unit_of_work(make_sessionmaker(engine, write=True)) as session:
-        job_id = jobs.submit_job(session, cli_actor(session), cmd, runner=runner.name).id
+        job_id = submit(session, cli_actor(session), runner.name).id
     if not wait:
         runner.dispatch(job_id)
         runner.close()
@@ -84,7 +103,8 @@ def submit_and_follow(db: str | None, cmd: jobs.JobSubmit, *, wait: bool,
         job = jobs.wait_for(factory, job_id, show=lambda f, p: bar.update(
             task, completed=f, description=p))
     runner.close()
-    _show(job, as_json)
+    if show or job.status != "succeeded":
+        _show(job, as_json)
     if job.status != "succeeded":
         raise typer.Exit(1)
     return job

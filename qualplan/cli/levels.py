@@ -9,12 +9,14 @@ import typer
 
 from qualplan.cli.base import CliError, DbOption
 from qualplan.cli.common import JsonOption, ProgramOption, _program, group, local_actor, work
+from qualplan.cli.jobs import WaitOption, follow
 from qualplan.cli.output import emit_json, progress, table
 from qualplan.planning import (
     approvals,
     catalog,
     documents,
     environments,
+    jobs,
     levels,
     margins,
     policies,
@@ -67,11 +69,13 @@ def level_derive(
     maximax_window_s: Annotated[float | None, typer.Option(
         help="Length of each maximax window [s] (default max(1 s, 4 segments)).")] = None,
     program: ProgramOption = None,
+    wait: WaitOption = None,
     db: DbOption = None,
     as_json: JsonOption = False,
 ) -> None:
     """Derive a test or analysis level from environment revisions (--inputs by name,
-    --revisions by id, or both)."""
+    --revisions by id, or both). With --wait or --no-wait the derivation runs as a job
+    (for many or long inputs)."""
     if revisions is None and inputs is None:
         raise CliError("give the inputs: --inputs 'flight Z@2,road X' or --revisions 3,4")
     try:
@@ -101,9 +105,19 @@ def level_derive(
                                       segment_s=segment_s, overlap=overlap,
                                       maximax_window_s=maximax_window_s),
         )
-        with progress("deriving the level and its FDS/ERS coverage"):
-            level = levels.derive_level(session, local_actor(), recipe)
-        out = levels.read_level(session, level)
+        if wait is None:
+            with progress("deriving the level and its FDS/ERS coverage"):
+                level = levels.derive_level(session, local_actor(), recipe)
+            out = levels.read_level(session, level)
+    if wait is not None:
+        job = follow(db, lambda session, actor, runner: jobs.submit_derivation(
+            session, actor, recipe, runner=runner), wait=wait, as_json=as_json,
+            show=not as_json)
+        if not wait:
+            return
+        with work(db) as session:
+            out = levels.read_level(session, levels.level_by_id(
+                session, job.result["level_id"]))
     if as_json:
         emit_json(out)
     else:

@@ -21,9 +21,10 @@ import typer
 
 from qualplan.cli.base import DbOption, app
 from qualplan.cli.common import JsonOption, ProgramOption, _program, _read_file, local_actor, work
+from qualplan.cli.jobs import WaitOption
 from qualplan.cli.output import emit_json, progress, table
-from qualplan.cli.report import report_app
-from qualplan.planning import catalog, documents, loads, requirements, wording
+from qualplan.cli.report import as_job, report_app
+from qualplan.planning import catalog, documents, jobs, loads, requirements, wording
 from qualplan.planning import modal as pm
 from qualplan.planning.schemas import Axis
 from qualplan.reports.loads import LoadsRenderer
@@ -265,19 +266,29 @@ def report_loads(
         help="Document number (default ALP-<part>[-<axis>]).")] = None,
     note: Annotated[str, typer.Option(help="Revision note (why this issue).")] = "",
     program: ProgramOption = None,
+    wait: WaitOption = None,
     db: DbOption = None,
     as_json: JsonOption = False,
 ) -> None:
-    """Issue the analysis loads package of a product (tables, solver settings, caution)."""
+    """Issue the analysis loads package of a product (tables, solver settings, caution;
+    with --wait or --no-wait, built and rendered as a job)."""
     ids = [int(x) for x in levels.split(",") if x.strip()] if levels else None
     with work(db) as session:
         prog = _program(session, program) if program else None
         prod = catalog.product_ref(session, prog, product)
-        content = loads.loads_content(session, prod.id, axis=axis, level_ids=ids, number=number,
-                                      note=note)
-        with progress("rendering the loads package"):
-            issued = documents.issue_document(session, local_actor(), content, LoadsRenderer(),
-                                              out)
+        prod_id = prod.id
+        if wait is None:
+            content = loads.loads_content(session, prod.id, axis=axis, level_ids=ids,
+                                          number=number, note=note)
+            with progress("rendering the loads package"):
+                issued = documents.issue_document(session, local_actor(), content,
+                                                  LoadsRenderer(), out)
+    if wait is not None:
+        as_job(db, jobs.DocumentJob(document="loads", product_id=prod_id,
+                                    axis=axis.value if axis else None, level_ids=ids,
+                                    number=number, note=note, out_dir=str(out.resolve())),
+               wait=wait, as_json=as_json)
+        return
     if as_json:
         emit_json(issued.model_dump(mode="json"))
         return

@@ -14,8 +14,9 @@ import typer
 
 from qualplan.cli.base import CliError, DbOption, app
 from qualplan.cli.common import ProgramOption, _program, local_actor, work
+from qualplan.cli.jobs import WaitOption, follow
 from qualplan.cli.output import emit_json, progress
-from qualplan.planning import approvals, catalog, documents
+from qualplan.planning import approvals, catalog, documents, jobs
 from qualplan.planning.inputs import check_document_number
 from qualplan.planning.schemas import Grade
 from qualplan.reports import PdfRenderer
@@ -60,10 +61,12 @@ def report_spec(
     yes: Annotated[bool, typer.Option("--yes", help="Issue the default levels without "
                                       "asking.")] = False,
     program: ProgramOption = None,
+    wait: WaitOption = None,
     db: DbOption = None,
     as_json: JsonOption = False,
 ) -> None:
-    """Issue the test-level specification of a product for one grade."""
+    """Issue the test-level specification of a product for one grade (with --wait or
+    --no-wait, built and rendered as a job)."""
     try:
         ids = [int(x) for x in levels.split(",") if x.strip()] if levels else None
     except ValueError as exc:
@@ -100,12 +103,38 @@ def report_spec(
                     "issue these levels?", default=False):
                 typer.echo("not issued")
                 raise typer.Exit(1)
-        content = documents.specification_content(session, prod.id, grade, level_ids=ids,
-                                                  number=number, note=note)
-        with progress("rendering the specification"):
-            issued = documents.issue_document(session, local_actor(), content,
-                                              PdfRenderer(figures=figures), out)
+        if wait is None:
+            content = documents.specification_content(session, prod.id, grade,
+                                                      level_ids=ids, number=number, note=note)
+            with progress("rendering the specification"):
+                issued = documents.issue_document(session, local_actor(), content,
+                                                  PdfRenderer(figures=figures), out)
+    if wait is not None:
+        as_job(db, jobs.DocumentJob(document="specification", product_id=prod.id,
+                                    grade=grade.value, level_ids=ids, number=number,
+                                    note=note, out_dir=str(out.resolve()), figures=figures),
+               wait=wait, as_json=as_json)
+        return
     _print(issued, as_json)
+
+
+def as_job(db: str | None, doc: jobs.DocumentJob, *, wait: bool, as_json: bool) -> dict | None:
+    """Issue `doc` as a job (progress bar, or the job id with --no-wait); print what it
+    issued as :func:`_print` does. Returns the job's result (None with --no-wait)."""
+    job = follow(db, lambda session, actor, runner: jobs.submit_document(
+        session, actor, doc, runner=runner), wait=wait, as_json=as_json, show=not as_json)
+    if not wait:
+        return None
+    res = job.result
+    if as_json:
+        emit_json(res)
+        return res
+    state = "issued" if res["new_revision"] else "unchanged since, re-rendered"
+    typer.echo(f"{res['number']} revision {res['revision']} ({state}), content hash "
+               f"{res['content_hash'][:12]}")
+    for name in res["files"]:
+        typer.echo(f"  {Path(res['out_dir']) / name}")
+    return res
 
 
 @report_app.command("audit")
@@ -119,16 +148,31 @@ def report_audit(
     ] = None,
     note: NoteOption = "",
     program: ProgramOption = None,
+    wait: WaitOption = None,
     db: DbOption = None,
     as_json: JsonOption = False,
     figures: Annotated[bool, typer.Option(
         help="Also write each test record's plot over its level as an SVG file.")] = False,
 ) -> None:
-    """Issue the margin-closure audit report (the verdict is printed too)."""
+    """Issue the margin-closure audit report (the verdict is printed too; with --wait or
+    --no-wait, built and rendered as a job)."""
     with work(db) as session:
         prog = _program(session, program)
         prod = catalog.product_ref(session, prog, product) if product else None
-        content = documents.audit_content(session, prog.id, prod.id if prod else None,
+        prog_id, prod_id = prog.id, prod.id if prod else None
+    if wait is not None:
+        res = as_job(db, jobs.DocumentJob(document="audit", program_id=prog_id,
+                                          product_id=prod_id, number=number, note=note,
+                                          out_dir=str(out.resolve())),
+                     wait=wait, as_json=as_json)
+        if res is not None:
+            if not as_json:
+                typer.echo(res["verdict"])
+            if not res["release_ready"]:
+                raise typer.Exit(1)
+        return
+    with work(db) as session:
+        content = documents.audit_content(session, prog_id, prod_id,
                                           number=number, note=note)
         with progress("rendering the audit report"):
             issued = documents.issue_document(session, local_actor(), content,

@@ -66,15 +66,32 @@ class JobKind:
     #: Checks the parameters at submission (raises ValidationFailed).
     check: Callable[[Session, dict[str, Any]], None]
     title: str
+    #: Submitted only through its own use case (:func:`submit_derivation`,
+    #: :func:`submit_document`), never as a bare ``{kind, params}`` (POST /jobs): its
+    #: parameters hold what the interface decides (a folder on the server).
+    internal: bool = False
 
 
 KINDS: dict[str, JobKind] = {}
 
+#: Document renderers this process offers to document jobs, by name: ``pdf`` (the
+#: specification and the audit report) and ``loads`` (the loads package); each a
+#: callable giving a :class:`qualplan.planning.documents.DocumentRenderer`. The
+#: interfaces register them (:func:`register_renderers`): planning does not import
+#: qualplan.reports.
+RENDERERS: dict[str, Callable[[], Any]] = {}
 
-def kind(name: str, role: m.Role, title: str, check=None):
+
+def register_renderers(renderers: dict[str, Callable[[], Any]]) -> None:
+    """Offer `renderers` (name -> factory) to the document jobs run by this process."""
+    RENDERERS.update(renderers)
+
+
+def kind(name: str, role: m.Role, title: str, check=None, *, internal: bool = False):
     """Register a job kind (decorator)."""
     def wrap(fn):
-        KINDS[name] = JobKind(role, fn, check or (lambda session, params: None), title)
+        KINDS[name] = JobKind(role, fn, check or (lambda session, params: None), title,
+                              internal)
         return fn
     return wrap
 
@@ -110,12 +127,15 @@ class JobSubmit(BaseModel):
 # --- submission, reading, cancelling -----------------------------------------------------
 
 
-def submit_job(session: Session, actor: Actor, cmd: JobSubmit, *, runner: str) -> Job:
+def submit_job(session: Session, actor: Actor, cmd: JobSubmit, *, runner: str,
+               internal: bool = False) -> Job:
     """A queued job row (the caller dispatches it once the transaction has committed,
     see :func:`after_commit`). Raises ValidationFailed for an unknown kind or bad
-    parameters, PermissionDenied below the kind's role."""
-    if cmd.kind not in KINDS:
-        raise ValidationFailed("kind", cmd.kind, f"must be one of {sorted(KINDS)}")
+    parameters, PermissionDenied below the kind's role. Kinds marked `internal` are
+    refused unless their own use case submits them (``internal=True``)."""
+    public = sorted(k for k, v in KINDS.items() if not v.internal)
+    if cmd.kind not in KINDS or (KINDS[cmd.kind].internal and not internal):
+        raise ValidationFailed("kind", cmd.kind, f"must be one of {public}")
     k = KINDS[cmd.kind]
     require(actor, k.role, f"submitting a {cmd.kind} job")
     k.check(session, cmd.params)
@@ -211,6 +231,7 @@ def run_job(factory: sessionmaker[Session], job_id: int, *, worker: str = "") ->
     # the submitter, with its memberships: the job sees and may change what it may
     actor = Actor(who, m.Role(params.pop("_role", m.Role.viewer.value)),
                   user_id=params.pop("_user_id", None))
+    params["_job_id"] = job_id  # for the links a kind puts in its result
     last = [0.0]
     in_memory = factory.kw["bind"].dialect.name == "sqlite"
 
@@ -381,3 +402,189 @@ def _record_import(session: Session, actor: Actor, params: dict[str, Any],
     return {"environment_id": rec.environment_id, "revision": rec.revision,
             "revision_id": rec.revision_id, "n_samples": rec.n_samples,
             "channels": [c.name for c in rec.channels], "content_hash": rec.content_hash}
+
+
+# --- derivations (and the equivalence of many inputs) ------------------------------------
+
+
+def _recipe(params: dict[str, Any]):
+    from pydantic import ValidationError
+
+    from qualplan.planning import schemas as s
+
+    try:
+        return s.LevelRecipe.model_validate(params.get("recipe"))
+    except ValidationError as exc:
+        err = exc.errors()[0]
+        field = ".".join(["params", "recipe", *(str(x) for x in err["loc"])])
+        raise ValidationFailed(field, err.get("input"), err["msg"]) from None
+
+
+def _check_derive(session: Session, params: dict[str, Any]) -> None:
+    _recipe(params)
+
+
+@kind("level_derive", m.Role.engineer, "Derivation of a level (an envelope, P95/50, or the "
+      "FDS-equivalent PSD of many inputs) with its FDS/ERS coverage", _check_derive)
+def _level_derive(session: Session, actor: Actor, params: dict[str, Any],
+                  progress: Progress) -> dict[str, Any]:
+    """:func:`qualplan.planning.levels.derive_level` as a job (the methods are its)."""
+    from qualplan.planning import levels
+
+    level = levels.derive_level(session, actor, _recipe(params), progress=progress)
+    progress(0.99, f"stored {level.name} #{level.number}")
+    return {"level_id": level.id, "name": level.name, "number": level.number,
+            "kind": level.kind.value, "axis": level.axis.value,
+            "level_hash": level.level_hash,
+            "links": {"level": f"/api/v1/levels/{level.id}", "page": f"/levels/{level.id}"}}
+
+
+def submit_derivation(session: Session, actor: Actor, recipe, *, runner: str) -> Job:
+    """Queue the derivation of `recipe` (a :class:`~qualplan.planning.schemas.LevelRecipe`),
+    refused at once for an unknown product or policy or a caller without the engineer
+    role on the product; the derivation itself runs in the job."""
+    from qualplan.planning import levels
+
+    levels.check_recipe(session, actor, recipe)
+    return submit_job(session, actor, JobSubmit(
+        kind="level_derive", params={"recipe": recipe.model_dump(mode="json")}),
+        runner=runner)
+
+
+# --- documents -------------------------------------------------------------------------
+
+
+class DocumentJob(BaseModel):
+    """A document to issue as a job: the test-level ``specification`` or the ``loads``
+    package of a product, or the ``audit`` report of a program (or a product subtree)."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    document: str
+    product_id: int | None = None
+    program_id: int | None = None
+    grade: str = "qualification"
+    level_ids: list[int] | None = None
+    axis: str | None = None
+    number: str | None = None
+    note: str = ""
+    #: The folder the files are written to: the CLI's --out, or the serving process's
+    #: ``job_files_dir`` (shared with the workers) for the API and the web.
+    out_dir: str
+    figures: bool = False
+
+
+DOCUMENTS = {"specification": "pdf", "audit": "pdf", "loads": "loads"}
+
+
+def _document(params: dict[str, Any]) -> DocumentJob:
+    from pydantic import ValidationError
+
+    try:
+        doc = DocumentJob.model_validate(
+            {k: v for k, v in params.items() if not k.startswith("_")})
+    except ValidationError as exc:
+        err = exc.errors()[0]
+        field = ".".join(["params", *(str(x) for x in err["loc"])])
+        raise ValidationFailed(field, err.get("input"), err["msg"]) from None
+    if doc.document not in DOCUMENTS:
+        raise ValidationFailed("params.document", doc.document,
+                               f"must be one of {sorted(DOCUMENTS)}")
+    if doc.document == "audit" and doc.program_id is None:
+        raise ValidationFailed("params.program_id", None, "is required for an audit report")
+    if doc.document != "audit" and doc.product_id is None:
+        raise ValidationFailed("params.product_id", None,
+                               f"is required for a {doc.document} document")
+    return doc
+
+
+def _check_document(session: Session, params: dict[str, Any]) -> None:
+    _document(params)
+
+
+def document_content(session: Session, doc: DocumentJob):
+    """The content of the document `doc` names (planning.documents / planning.loads)."""
+    from qualplan.planning import documents, loads
+
+    if doc.document == "specification":
+        return documents.specification_content(session, doc.product_id, doc.grade,
+                                              level_ids=doc.level_ids, number=doc.number,
+                                              note=doc.note)
+    if doc.document == "audit":
+        return documents.audit_content(session, doc.program_id, doc.product_id,
+                                       number=doc.number, note=doc.note)
+    return loads.loads_content(session, doc.product_id,
+                               axis=m.Axis(doc.axis) if doc.axis else None,
+                               level_ids=doc.level_ids, number=doc.number, note=doc.note)
+
+
+@kind("document_issue", m.Role.engineer, "Issue of a document (specification, audit report "
+      "or loads package): content, rendering and the recorded revision", _check_document,
+      internal=True)
+def _document_issue(session: Session, actor: Actor, params: dict[str, Any],
+                    progress: Progress) -> dict[str, Any]:
+    """Build, render and record a document (:func:`qualplan.planning.documents.issue_document`)."""
+    from pathlib import Path
+
+    from qualplan.planning import documents
+
+    doc = _document(params)
+    name = DOCUMENTS[doc.document]
+    if name not in RENDERERS:
+        raise ValidationFailed("params.document", doc.document,
+                               f"this process has no {name} renderer (a worker started "
+                               "with `qualplan worker` has them)")
+    progress(0.05, f"building the content of the {doc.document} document")
+    content = document_content(session, doc)
+    progress(0.3, f"rendering {content.number} revision {content.revision}")
+    renderer = (RENDERERS[name](figures=doc.figures) if name == "pdf"
+                else RENDERERS[name]())
+    issued = documents.issue_document(session, actor, content, renderer, Path(doc.out_dir))
+    progress(0.95, f"recording {issued.number} revision {issued.revision}")
+    job_id = params.get("_job_id")
+    out = {"document_id": issued.document_id, "document": doc.document,
+           "number": issued.number, "revision": issued.revision,
+           "content_hash": issued.content_hash, "new_revision": issued.new_revision,
+           "out_dir": str(Path(doc.out_dir).resolve()),
+           "files": [p.name for p in issued.files],
+           "links": {"document": f"/api/v1/documents?product_id={content.product_id}"
+                     if content.product_id else "/api/v1/documents",
+                     "files": [f"/api/v1/jobs/{job_id}/files/{p.name}" for p in issued.files]}}
+    if doc.document == "audit":
+        out["release_ready"] = content.release_ready
+        out["verdict"] = content.verdict
+    return out
+
+
+def submit_document(session: Session, actor: Actor, doc: DocumentJob, *, runner: str) -> Job:
+    """Queue the issue of a document, refused at once for an unknown product or program,
+    or a caller without the engineer role in its program."""
+    from qualplan.planning.access import require_for, require_in
+
+    _document(doc.model_dump())
+    if doc.document == "audit":
+        get(session, m.Program, doc.program_id, "program")
+        require_in(session, actor, doc.program_id, m.Role.engineer, "issuing a document")
+    else:
+        require_for(session, actor, get(session, m.Product, doc.product_id, "product"),
+                    m.Role.engineer, "issuing a document")
+    return submit_job(session, actor, JobSubmit(kind="document_issue",
+                                                params=doc.model_dump(mode="json")),
+                      runner=runner, internal=True)
+
+
+def job_file(session: Session, job_id: int, name: str):
+    """The path of file `name` a succeeded document job wrote (NotFound otherwise)."""
+    from pathlib import Path
+
+    from qualplan.planning.errors import NotFound
+
+    job = read_job(session, job_id)
+    result = job.result or {}
+    if job.status != "succeeded" or name not in result.get("files", []):
+        raise NotFound(f"file of job {job_id}", name)
+    path = Path(result["out_dir"]) / name
+    if not path.is_file():
+        # the job files folder must be shared with the workers (docs/deploy.md)
+        raise NotFound(f"file of job {job_id} on this machine", str(path))
+    return path

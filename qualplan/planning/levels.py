@@ -9,6 +9,7 @@ number. A level whose inputs have changed since is *stale*, never silently diffe
 from __future__ import annotations
 
 import warnings
+from collections.abc import Callable
 from typing import Any
 
 import numpy as np
@@ -641,15 +642,31 @@ def _with_coverage(result, life: list[LifeItem], rules: s.PolicyRules,
     return result.model_copy(update={"coverage": coverage, "verdicts": verdicts})
 
 
-def derive_level(session: Session, actor: Actor, recipe: s.LevelRecipe) -> m.Level:
-    """Derive a level from a recipe; store it with its inputs' hashes and coverage."""
+def check_recipe(session: Session, actor: Actor, recipe: s.LevelRecipe) -> None:
+    """What :func:`derive_level` checks before any computation (the product, the caller's
+    role on it, the policy): a derivation queued as a job is refused at submission."""
+    product = get(session, m.Product, recipe.product_id, "product")
+    require_for(session, actor, product, m.Role.engineer, "deriving a level")
+    get(session, m.MarginPolicy, recipe.policy_id, "policy")
+
+
+def derive_level(session: Session, actor: Actor, recipe: s.LevelRecipe,
+                 progress: Callable[[float, str], None] | None = None) -> m.Level:
+    """Derive a level from a recipe; store it with its inputs' hashes and coverage.
+
+    `progress(fraction, phrase)` is told each stage (a job's progress report; it may
+    raise to stop the derivation, whose writes the caller then rolls back)."""
+    say = progress or (lambda fraction, phrase: None)
     product = get(session, m.Product, recipe.product_id, "product")
     require_for(session, actor, product, m.Role.engineer, "deriving a level")
     policy = get(session, m.MarginPolicy, recipe.policy_id, "policy")
     rules = rules_of(policy)
+    say(0.02, f"reading {len(recipe.revision_ids)} input revisions")
     inputs = _inputs(session, recipe, product)
+    say(0.15, "reading the life cycle of the product and axis")
     life = life_cycle(session, product, recipe.axis)
     cache: cov.SpectraCache = {}  # FDS/ERS of each input, computed once per derivation
+    say(0.25, f"combining {len(inputs)} inputs ({recipe.combination}, {recipe.kind})")
     with envdata.core_errors(""):
         if recipe.kind == "random":
             life_s = sum(exposure_s(i) for i in inputs if i.environment.kind is not K.shock)
@@ -659,7 +676,9 @@ def derive_level(session: Session, actor: Actor, recipe: s.LevelRecipe) -> m.Lev
         else:
             result = derive_sine(recipe, rules, inputs)
         if recipe.purpose is m.LevelPurpose.test:
+            say(0.6, f"FDS and ERS coverage of the life ({len(life)} environments)")
             result = _with_coverage(result, life, rules, cache)
+    say(0.95, "storing the level")
     hashes = {
         "revisions": {str(i.revision.id): i.revision.content_hash for i in inputs},
         "life_cycle": {str(x.revision.id): x.revision.content_hash for x in life},

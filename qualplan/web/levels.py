@@ -12,6 +12,7 @@ from qualplan.planning import (
     catalog,
     coverage,
     documents,
+    jobs,
     levels,
     notching,
     transfers,
@@ -60,6 +61,12 @@ async def derive_level(product_id: int, request: Request, ctx: Ctx = CtxDep) -> 
                 overlap=_or(number(form, "overlap"), 0.5),
                 maximax_window_s=number(form, "maximax_window_s")),
         )
+        if form.get("as_job"):
+            runner = request.app.state.jobs
+            job = jobs.submit_derivation(ctx.db, ctx.actor, recipe, runner=runner.name)
+            job_id = job.id
+            jobs.after_commit(ctx.db, lambda: runner.dispatch(job_id))
+            return f"/jobs/{job_id}"
         level = levels.derive_level(ctx.db, ctx.actor, recipe)
         return f"/levels/{level.id}"
 

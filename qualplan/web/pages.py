@@ -19,6 +19,7 @@ from qualplan.web import (
     auth,
     documents,
     environments,
+    jobs,
     levels,
     programs,
     requirements,
@@ -29,7 +30,7 @@ from qualplan.web.common import STATIC, PdfRenderer, WebState
 
 ROUTERS = (signin.router, programs.router, environments.router, levels.router,
            requirements.router, documents.router, analysis.router,
-           transfers.router)
+           transfers.router, jobs.router)
 
 
 def mount(

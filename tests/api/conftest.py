@@ -39,8 +39,9 @@ def factory(engine):
 
 
 @pytest.fixture(scope="session")
-def app(db_url, factory):
-    application = create_app(Settings(database_url=db_url, max_upload_bytes=MAX_UPLOAD))
+def app(db_url, factory, tmp_path_factory):
+    application = create_app(Settings(database_url=db_url, max_upload_bytes=MAX_UPLOAD,
+                                      job_files_dir=tmp_path_factory.mktemp("job-files")))
     with unit_of_work(factory) as session:
         policies.ensure_default_policies(session, SETUP)
     return application

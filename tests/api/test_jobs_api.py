@@ -60,3 +60,62 @@ def test_bad_jobs_and_cancel(eng, viewer, world):
     assert p["status"] == 404
     viewer.post("/jobs/999999999/cancel", expect=404)
     assert viewer.get("/health", expect=200).json()["jobs"]["ready"] is True
+
+
+def _follow(api, job, db_url):
+    _run_queue(db_url)
+    deadline = time.monotonic() + 120
+    while (job := api.get(f"/jobs/{job['id']}").json())["status"] in ("queued", "running"):
+        assert time.monotonic() < deadline, job
+        time.sleep(0.1)
+    return job
+
+
+def test_a_derivation_and_its_documents_as_jobs(eng, viewer, world, db_url):
+    from tests.api.test_story import _revision_id
+
+    body = {"product_id": world["unit"]["id"], "name": unique("random Z"), "kind": "random",
+            "axis": "Z", "revision_ids": [_revision_id(eng, world["env"])],
+            "policy_id": world["policy"]["id"]}
+    r = eng.post("/levels", body, expect=202, params={"job": "true"})
+    job = r.json()
+    assert r.headers["Location"] == f"{API}/jobs/{job['id']}"
+    assert (job["kind"], job["status"]) == ("level_derive", "queued")
+    job = _follow(viewer, job, db_url)
+    assert job["status"] == "succeeded", job
+    level = viewer.get(job["result"]["links"]["level"].removeprefix(API)).json()
+    assert level["id"] == job["result"]["level_id"] and level["number"] == 1
+    # GSFC-STD-7000 (GEVS) Table 2.4-3: the component acceptance profile is 10.0 g rms
+    # (printed to 3 figures); the limit level is that one input
+    assert level["result"]["limit"]["grms"] == pytest.approx(10.0, rel=5e-3)
+    # the same recipe in the request (the synchronous path, unchanged): the same result
+    direct = eng.post("/levels", body).json()
+    assert direct["number"] == 2 and direct["result"] == level["result"]
+
+    # the specification issued as a job: the result gives the document and its files
+    r = eng.post("/documents/specification", {"product_id": world["unit"]["id"],
+                                              "level_ids": [level["id"]]},
+                 expect=202, params={"job": "true"})
+    job = _follow(viewer, r.json(), db_url)
+    assert job["status"] == "succeeded", job
+    res = job["result"]
+    docs = viewer.get("/documents", params={"product_id": world["unit"]["id"]}).json()
+    assert [(d["id"], d["revision"], d["level_ids"]) for d in docs] == [
+        (res["document_id"], 1, [level["id"]])]
+    pdf = next(u for u in res["links"]["files"] if u.endswith(".pdf"))
+    got = viewer.get(pdf.removeprefix(API))
+    assert got.headers["content-type"] == "application/pdf" and got.content[:5] == b"%PDF-"
+    assert docs[0]["content_hash"] == res["content_hash"]
+    viewer.get(f"/jobs/{job['id']}/files/nonsense.pdf", expect=404)
+
+    # the audit report, always a job
+    r = eng.post("/documents/audit", {"program_id": world["program"]["id"]}, expect=202)
+    job = _follow(viewer, r.json(), db_url)
+    assert job["status"] == "succeeded", job
+    # the gate the report prints is the audit route's (GET /audit, the same use case)
+    gate = viewer.get("/audit", params={"program_id": world["program"]["id"]}).json()
+    assert job["result"]["document"] == "audit"
+    assert job["result"]["release_ready"] is gate["release_ready"]
+    # refused at submission, before any job row: a viewer; an unknown product
+    viewer.post("/levels", body, expect=403, params={"job": "true"})
+    eng.post("/documents/loads", {"product_id": 10 ** 8}, expect=404)

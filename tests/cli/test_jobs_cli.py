@@ -62,3 +62,47 @@ def test_worker_explains_sqlite_and_analyse_waits(fresh_db_url, tmp_path, capsys
         run_worker(db_url, wait=False)
         r = runner.invoke(app, ["job", "show", str(job_id), "--db", db_url])
         assert "succeeded" in r.output, r.output
+
+
+def test_level_derive_and_report_audit_as_jobs(fresh_db_url, tmp_path, capsys):
+    """--wait runs the derivation (and the report) as a job followed with the progress
+    bar; on PostgreSQL --no-wait prints the job id and a worker runs it."""
+    runner, app, db = _Runner(capsys), None, fresh_db_url
+
+    def ok(*args):
+        r = runner.invoke(app, [*args, "--db", db])
+        assert r.exit_code == 0, r.output
+        return r
+
+    ok("init")
+    ok("program", "add", "jobs-derive")
+    ok("product", "add", "box", "--program", "jobs-derive")
+    ok("phase", "add", "flight", "--duration-s", "120", "--program", "jobs-derive")
+    table = tmp_path / "flat.csv"
+    table.write_text("frequency,ASD\n20,0.04\n2000,0.04\n")  # invented flat PSD
+    ok("env", "add", "flat Z", "--product", "box", "--kind", "random", "--axis", "Z",
+       "--phase", "flight", "--file", str(table), "--units", "g^2/Hz",
+       "--program", "jobs-derive")
+    args = ["level", "derive", "random Z", "--product", "box", "--kind", "random", "--axis",
+            "Z", "--revisions", "1", "--program", "jobs-derive"]
+    if backend() == "sqlite":
+        r = runner.invoke(app, [*args, "--no-wait", "--db", db])
+        assert r.exit_code == 2 and "--no-wait needs PostgreSQL" in r.output
+        level = json.loads(ok(*args, "--wait", "--json").output)
+    else:
+        r = ok(*args, "--no-wait")
+        job_id = int([ln for ln in r.output.splitlines() if ln.strip().isdigit()][-1])
+        from qualplan.planning.queue import run_worker
+
+        run_worker(db, wait=False)
+        assert "succeeded" in ok("job", "show", str(job_id)).output
+        level = json.loads(ok("level", "show", "1", "--json").output)
+    assert (level["name"], level["number"]) == ("random Z", 1)
+    # one flat input: the limit level is it, sqrt(0.04 x 1980) = 8.899 g rms (closed form)
+    assert abs(level["result"]["limit"]["grms"] - (0.04 * 1980.0) ** 0.5) < 1e-9 * 8.9
+    if backend() == "sqlite":
+        r = runner.invoke(app, ["report", "audit", "--out", str(tmp_path / "audit"), "--wait",
+                                "--program", "jobs-derive", "--db", db])
+        assert r.exit_code in (0, 1), r.output  # 1: the gate is shut (nothing verified)
+        assert "MCA-" in r.output and "revision 1 (issued)" in r.output
+        assert any(p.suffix == ".pdf" for p in (tmp_path / "audit").iterdir())

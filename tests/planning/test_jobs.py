@@ -6,6 +6,7 @@ are skipped. Jobs commit for real, so they use the run's database and their own 
 
 from __future__ import annotations
 
+import math
 import os
 import signal
 import subprocess
@@ -259,3 +260,181 @@ def test_a_killed_workers_job_is_retried_by_another(db_url, factory, monkeypatch
             second.kill()
     job = _job(factory, job_id)
     assert job.status == "succeeded" and job.attempts == 2 and job.result == {"steps": 100}
+
+
+# --- derivations and documents as jobs -------------------------------------------------------
+
+
+@pytest.fixture(scope="module")
+def spectra(factory):
+    """A committed product with two random environments on Z (invented flat PSDs) and the
+    default policies."""
+    from qualplan.planning import environments, policies
+
+    with unit_of_work(factory) as session:
+        policies.ensure_default_policies(session, ENG)
+        prog = catalog.create_program(session, ENG, s.ProgramCreate(
+            name=f"derive jobs {uuid.uuid4().hex[:8]}"))
+        unit = catalog.create_product(session, ENG, s.ProductCreate(
+            program_id=prog.id, name="box", part_number="DJ-1", mass_kg=2.0))
+        phase = catalog.create_phase(session, ENG, s.PhaseCreate(
+            program_id=prog.id, name="flight", duration_s=120.0))
+        revs = []
+        for j, lvl in enumerate((0.01, 0.04)):
+            env = environments.create_environment(session, ENG, s.EnvironmentCreate(
+                product_id=unit.id, phase_id=phase.id, name=f"flat {j}", kind="random",
+                axis="Z", data={"freq_hz": [20.0, 2000.0], "asd_g2_hz": [lvl, lvl]}))
+            revs.append(env.revisions[-1].id)
+        policy = policies.policy_ref(session, "spaceflight-gevs").id
+    return {"program_id": prog.id, "product_id": unit.id, "revision_ids": revs,
+            "policy_id": policy}
+
+
+def _recipe(spectra, name):
+    return s.LevelRecipe(product_id=spectra["product_id"], name=name, kind="random", axis="Z",
+                         revision_ids=spectra["revision_ids"], policy_id=spectra["policy_id"])
+
+
+def _run_thread(factory, job_id):
+    runner = jobs.ThreadRunner(factory)
+    try:
+        return runner.dispatch(job_id).result(timeout=120)
+    finally:
+        runner.close()
+
+
+def test_a_derivation_job_stores_the_level_the_request_would(factory, spectra):
+    from qualplan.planning import levels
+
+    name = f"job random {uuid.uuid4().hex[:6]}"
+    recipe = _recipe(spectra, name)
+    with unit_of_work(factory) as session:
+        job_id = jobs.submit_derivation(session, ENG, recipe, runner="thread").id
+    assert _run_thread(factory, job_id) == "succeeded"
+    job = _job(factory, job_id)
+    res = job.result
+    assert (job.status, job.attempts, job.phrase) == ("succeeded", 1, "done")
+    assert res["links"] == {"level": f"/api/v1/levels/{res['level_id']}",
+                            "page": f"/levels/{res['level_id']}"}
+    # reference: the same recipe derived in the request (levels.derive_level, whose
+    # methods tests/planning/test_level_results.py and the story tests check)
+    with unit_of_work(factory) as session:
+        direct = levels.derive_level(session, ENG, recipe)
+        d_number, d_hash, d_result = direct.number, direct.level_hash, direct.result
+    with factory() as session:
+        stored = levels.level_by_id(session, res["level_id"])
+        assert (stored.name, stored.number, res["number"]) == (name, 1, 1)
+        assert d_number == 2  # the job's level was the first of its name
+        assert stored.level_hash == d_hash == res["level_hash"]
+        assert stored.result == d_result
+        # the envelope of two flat PSDs is the larger one: 0.04 g^2/Hz over 20-2000 Hz,
+        # g rms = sqrt(0.04 x 1980) = 8.899 g rms (closed form, flat PSD)
+        lim = levels.result_of(stored).limit
+        assert lim.grms == pytest.approx(math.sqrt(0.04 * 1980.0), rel=1e-9)
+    # a second run of the done job stores nothing again
+    assert jobs.run_job(factory, job_id) == "skipped"
+    with factory() as session:
+        assert session.scalar(select(func.count()).select_from(m.Level).where(
+            m.Level.product_id == spectra["product_id"], m.Level.name == name)) == 2
+
+
+def test_derivation_jobs_are_checked_at_submission(factory, spectra):
+    viewer = Actor("job-viewer", m.Role.viewer)
+    from qualplan.planning.errors import NotFound, PermissionDenied
+
+    with unit_of_work(factory) as session, pytest.raises(PermissionDenied):
+        jobs.submit_derivation(session, viewer, _recipe(spectra, "refused"), runner="thread")
+    bad = _recipe(spectra, "no policy").model_copy(update={"policy_id": 10 ** 8})
+    with unit_of_work(factory) as session, pytest.raises(NotFound):
+        jobs.submit_derivation(session, ENG, bad, runner="thread")
+    with unit_of_work(factory) as session, pytest.raises(ValidationFailed) as e:
+        jobs.submit_job(session, ENG, jobs.JobSubmit(kind="level_derive", params={
+            "recipe": {"product_id": spectra["product_id"]}}), runner="thread")
+    assert e.value.field.startswith("params.recipe.")
+    # a document job is queued only through its use case (its folder is the server's)
+    with unit_of_work(factory) as session, pytest.raises(ValidationFailed) as e:
+        jobs.submit_job(session, ENG, jobs.JobSubmit(kind="document_issue", params={
+            "document": "audit", "program_id": 1, "out_dir": "/tmp"}), runner="thread")
+    assert e.value.field == "kind" and "document_issue" not in e.value.rule
+
+
+def test_a_cancelled_derivation_stores_no_level(factory, spectra, monkeypatch):
+    name = f"cancelled random {uuid.uuid4().hex[:6]}"
+    with unit_of_work(factory) as session:
+        job_id = jobs.submit_derivation(session, ENG, _recipe(spectra, name),
+                                        runner="thread").id
+    real = jobs.KINDS["level_derive"]
+    phrases: list[str] = []
+
+    def run(session, actor, params, progress):
+        def spy(fraction, phrase):
+            phrases.append(phrase)
+            if phrase.startswith("FDS and ERS coverage"):
+                with unit_of_work(factory) as other:  # the user presses cancel here
+                    jobs.cancel_job(other, ENG, job_id)
+            progress(fraction, phrase)
+        return real.run(session, actor, params, spy)
+
+    monkeypatch.setitem(jobs.KINDS, "level_derive", jobs.JobKind(
+        real.role, run, real.check, real.title))
+    monkeypatch.setattr(jobs, "PROGRESS_EVERY_S", 0.0)
+    assert _run_thread(factory, job_id) == "cancelled"
+    assert phrases[:3] == ["reading 2 input revisions",
+                           "reading the life cycle of the product and axis",
+                           "combining 2 inputs (envelope, random)"]
+    assert _job(factory, job_id).status == "cancelled"
+    with factory() as session:
+        assert session.scalar(select(func.count()).select_from(m.Level).where(
+            m.Level.name == name)) == 0
+
+
+def test_an_audit_report_job_issues_the_document_once(factory, spectra, tmp_path):
+    from qualplan.planning import documents
+    from qualplan.reports import RENDERERS
+
+    jobs.register_renderers(RENDERERS)
+    doc = jobs.DocumentJob(document="audit", program_id=spectra["program_id"],
+                           out_dir=str(tmp_path / "audit"))
+    with unit_of_work(factory) as session:
+        job_id = jobs.submit_document(session, ENG, doc, runner="thread").id
+    assert _run_thread(factory, job_id) == "succeeded"
+    res = _job(factory, job_id).result
+    pdf = tmp_path / "audit" / next(f for f in res["files"] if f.endswith(".pdf"))
+    assert pdf.read_bytes()[:5] == b"%PDF-"
+    assert res["links"]["files"][0] == f"/api/v1/jobs/{job_id}/files/{res['files'][0]}"
+    with factory() as session:
+        assert jobs.job_file(session, job_id, pdf.name) == pdf
+        # the content hash is that of the content built in a request (reference:
+        # documents.audit_content, the synchronous `qualplan report audit`)
+        content = documents.audit_content(session, spectra["program_id"])
+        assert documents.content_hash(content) == res["content_hash"]
+        assert res["release_ready"] == content.release_ready
+        assert session.scalar(select(func.count()).select_from(m.Document).where(
+            m.Document.number == res["number"])) == 1
+    assert jobs.run_job(factory, job_id) == "skipped"
+    # the caution a lab reads (shared caution text) is on the issued report
+    from pypdf import PdfReader
+
+    out = " ".join(" ".join(p.extract_text() for p in PdfReader(pdf).pages).split())
+    assert "responsible engineer" in out
+
+
+def test_two_claims_of_a_derivation_store_one_level(factory, spectra):
+    """The exactly-once rule for a job that writes: a retried (second) claim of the same
+    derivation stores its level only if it holds the claim; one level in the end."""
+    name = f"claimed twice {uuid.uuid4().hex[:6]}"
+    with unit_of_work(factory) as session:
+        job_id = jobs.submit_derivation(session, ENG, _recipe(spectra, name),
+                                        runner="thread").id
+    out: list[str] = []
+    threads = [threading.Thread(target=lambda: out.append(jobs.run_job(factory, job_id)))
+               for _ in range(2)]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join(120)
+    assert out.count("succeeded") == 1, out
+    with factory() as session:
+        levels_made = session.scalars(select(m.Level).where(m.Level.name == name)).all()
+        assert [lv.number for lv in levels_made] == [1]
+        assert _job(factory, job_id).result["level_id"] == levels_made[0].id

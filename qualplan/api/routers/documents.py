@@ -4,15 +4,18 @@ of documents issued (with the hashes they were made from)."""
 from __future__ import annotations
 
 import tempfile
+import uuid
 from datetime import datetime
 from pathlib import Path
-from typing import Any
+from typing import Annotated, Any
 
-from fastapi import APIRouter, Response
+from fastapi import APIRouter, Request, Response
+from fastapi.responses import JSONResponse
 from pydantic import BaseModel, ConfigDict, Field
 
 from qualplan.api.deps import ActorDep, ReaderDep, SessionDep
-from qualplan.planning import approvals, documents
+from qualplan.api.routers.jobs import ACCEPTED, JobOption, accepted, runner_name
+from qualplan.planning import approvals, documents, jobs
 from qualplan.planning import schemas as s
 from qualplan.planning.inputs import Id, Line, Text
 from qualplan.reports import PdfRenderer, file_stem, pdf_bytes
@@ -112,13 +115,31 @@ def baseline(session: SessionDep, _: ReaderDep, product_id: int,
     return documents.default_baseline(session, product_id, grade)
 
 
+def _job_folder(request: Request) -> str:
+    """A fresh folder under the job files folder (shared with the workers)."""
+    return str(Path(request.app.state.settings.job_files_dir) / uuid.uuid4().hex)
+
+
+def _document_job(request: Request, session, actor, **fields) -> JSONResponse:
+    doc = jobs.DocumentJob(out_dir=_job_folder(request), **fields)
+    return accepted(request, session, jobs.submit_document(session, actor, doc,
+                                                           runner=runner_name(request)))
+
+
 @router.post("/documents/specification", status_code=201, response_class=Response,
-             responses={201: {"content": {"application/pdf": {}}}})
-def issue_specification(cmd: SpecificationIssue, session: SessionDep, actor: ActorDep):
+             responses={201: {"content": {"application/pdf": {}}}, **ACCEPTED})
+def issue_specification(cmd: SpecificationIssue, request: Request, session: SessionDep,
+                        actor: ActorDep, job: Annotated[bool, JobOption] = False):
     """Issue the specification (engineer or higher): exactly `level_ids`, or the default
     baseline; stale or unconverged levels are refused. Returns the issued PDF with the
     document id and revision in `X-Document-Id` and `X-Document-Revision`; content equal
-    to the latest revision re-renders it (with its sign-off)."""
+    to the latest revision re-renders it (with its sign-off). With `job=true` the
+    document is built and rendered in a job (202); its result gives the document id and
+    links the files (`GET /jobs/{id}/files/{name}`)."""
+    if job:
+        return _document_job(request, session, actor, document="specification",
+                             product_id=cmd.product_id, grade=cmd.grade.value,
+                             level_ids=cmd.level_ids, number=cmd.number, note=cmd.note)
     content = documents.specification_content(session, cmd.product_id, cmd.grade,
                                               level_ids=cmd.level_ids, number=cmd.number,
                                               note=cmd.note)
@@ -132,6 +153,46 @@ def issue_specification(cmd: SpecificationIssue, session: SessionDep, actor: Act
                              "X-Content-Hash": issued.content_hash,
                              "X-Document-Id": str(issued.document_id),
                              "X-Document-Revision": str(issued.revision)})
+
+
+class AuditIssue(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    program_id: Id
+    #: Audit this product and its children only.
+    product_id: Id | None = None
+    number: Line | None = None
+    note: Text = ""
+
+
+class LoadsIssue(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    product_id: Id
+    axis: s.Axis | None = None
+    #: Exactly these analysis levels (default: the newest analysis levels).
+    level_ids: list[Id] | None = None
+    number: Line | None = None
+    note: Text = ""
+
+
+@router.post("/documents/audit", status_code=202, response_model=jobs.JobRead)
+def issue_audit(cmd: AuditIssue, request: Request, session: SessionDep, actor: ActorDep):
+    """Issue the margin-closure audit report (engineer or higher), always as a job (202):
+    its result gives the document id, `release_ready`, the verdict and the files."""
+    return _document_job(request, session, actor, document="audit",
+                         program_id=cmd.program_id, product_id=cmd.product_id,
+                         number=cmd.number, note=cmd.note)
+
+
+@router.post("/documents/loads", status_code=202, response_model=jobs.JobRead)
+def issue_loads(cmd: LoadsIssue, request: Request, session: SessionDep, actor: ActorDep):
+    """Issue the analysis loads package of a product (engineer or higher), always as a
+    job (202): its result gives the document id and the files."""
+    return _document_job(request, session, actor, document="loads",
+                         product_id=cmd.product_id,
+                         axis=cmd.axis.value if cmd.axis else None,
+                         level_ids=cmd.level_ids, number=cmd.number, note=cmd.note)
 
 
 @router.post("/documents/{document_id}/signoffs", status_code=201, response_model=SignoffRead)

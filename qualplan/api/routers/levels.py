@@ -4,12 +4,13 @@ from __future__ import annotations
 
 from typing import Annotated
 
-from fastapi import APIRouter, Query
+from fastapi import APIRouter, Query, Request
 from fastapi.responses import Response
 
 from qualplan.api.deps import ActorDep, PageDep, ReaderDep, SessionDep
 from qualplan.api.models import Page
-from qualplan.planning import approvals, documents, levels
+from qualplan.api.routers.jobs import ACCEPTED, JobOption, accepted, runner_name
+from qualplan.planning import approvals, documents, jobs, levels
 from qualplan.planning import schemas as s
 from qualplan.reports import tables
 
@@ -20,9 +21,15 @@ def _level(session, level_id: int):
     return levels.level_by_id(session, level_id)
 
 
-@router.post("/levels", status_code=201, response_model=s.LevelRead)
-def derive(recipe: s.LevelRecipe, session: SessionDep, actor: ActorDep):
-    """Derive a level (the next number of `recipe.name` for the product)."""
+@router.post("/levels", status_code=201, response_model=s.LevelRead, responses=ACCEPTED)
+def derive(recipe: s.LevelRecipe, request: Request, session: SessionDep, actor: ActorDep,
+           job: Annotated[bool, JobOption] = False):
+    """Derive a level (the next number of `recipe.name` for the product). With
+    `job=true` (many or long inputs: records, `fds_equivalent` over many environments)
+    the derivation runs as a job: 202 with the job, whose result links the level."""
+    if job:
+        return accepted(request, session, jobs.submit_derivation(
+            session, actor, recipe, runner=runner_name(request)))
     return levels.read_level(session, levels.derive_level(session, actor, recipe))
 
 
