@@ -395,6 +395,28 @@ def _finished_job(b) -> int:
     return b["job"]
 
 
+def _document_job_file(b) -> str:
+    """A file of an audit report issued as a job by the engineer, run to its end (made
+    once): the concrete path of the job file route."""
+    if "job_file" not in b:
+        import time
+        job = b["eng"].request("POST", "/documents/audit", 202, json={
+            "program_id": P(b)}).json()
+        if backend() == "postgresql":
+            from qualplan.planning.queue import run_worker
+
+            run_worker(b["db_url"], wait=False)
+        deadline = time.monotonic() + 120
+        while (job := b["eng"].get(f"/jobs/{job['id']}").json())["status"] in ("queued",
+                                                                                 "running"):
+            assert time.monotonic() < deadline
+            time.sleep(0.1)
+        assert job["status"] == "succeeded", job
+        name = next(f for f in job["result"]["files"] if f.endswith(".pdf"))
+        b["job_file"] = f"/jobs/{job['id']}/files/{name}"
+    return b["job_file"]
+
+
 def _upload(b):
     kw = _upload_kw()
     kw["data"]["product_id"] = str(U(b))
@@ -442,6 +464,12 @@ CASES.update({
     "job get": Case("GET", "/jobs/{job_id}", "viewer", lambda b: (
         f"/jobs/{_finished_job(b)}", {})),
     # the approver's job: cancelled by its submitter or an admin; it has ended: 409
+    "job file": Case("GET", "/jobs/{job_id}/files/{name}", "viewer", lambda b: (
+        _document_job_file(b), {})),
+    "audit issue": Case("POST", "/documents/audit", "engineer", lambda b: (
+        "/documents/audit", {"json": {"program_id": P(b)}}), 202),
+    "loads issue": Case("POST", "/documents/loads", "engineer", lambda b: (
+        "/documents/loads", {"json": {"product_id": U(b)}}), 202),
     "job cancel": Case("POST", "/jobs/{job_id}/cancel", "approver", lambda b: (
         f"/jobs/{_finished_job(b)}/cancel", {}), 409),
 })
@@ -605,7 +633,7 @@ def test_nothing_readable_without_a_token(client, callers, base):
     fill = {"program_id": P(base), "product_id": U(base), "environment_id": E(base),
             "policy_id": base["policy"]["id"], "level_id": base["test_level"]["id"],
             "requirement_id": R(base), "summary_id": 1, "estimate_id": 1, "document_id": 1,
-            "job_id": 1}
+            "job_id": 1, "name": "report.pdf"}
     for path, ops in spec["paths"].items():
         if "get" not in ops or path.endswith(("/health", "/openapi.json", "/docs")):
             continue
