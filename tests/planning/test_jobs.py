@@ -159,16 +159,22 @@ def test_cancel_queued_and_running_jobs(factory, stored, monkeypatch):
                               .where(m.Program.name == name)) == 0
 
 
-def test_two_claims_of_one_job_store_it_once(factory, stored):
-    rid, _ = stored
-    job_id = _submit(factory, revision_id=rid, resolution_hz=20.0)
+def _claim_twice(factory, job_id: int, *, timeout_s: float) -> list[str]:
+    """Two threads run the same job at once; the outcome each claim returned."""
     out: list[str] = []
     threads = [threading.Thread(target=lambda: out.append(jobs.run_job(factory, job_id)))
                for _ in range(2)]
     for t in threads:
         t.start()
     for t in threads:
-        t.join(60)
+        t.join(timeout_s)
+    return out
+
+
+def test_two_claims_of_one_job_store_it_once(factory, stored):
+    rid, _ = stored
+    job_id = _submit(factory, revision_id=rid, resolution_hz=20.0)
+    out = _claim_twice(factory, job_id, timeout_s=60)
     # the second claim may take the job over (a retried job): only the holder stores it
     assert out.count("succeeded") == 1, out
     assert _job(factory, job_id).status == "succeeded"
@@ -426,13 +432,7 @@ def test_two_claims_of_a_derivation_store_one_level(factory, spectra):
     with unit_of_work(factory) as session:
         job_id = jobs.submit_derivation(session, ENG, _recipe(spectra, name),
                                         runner="thread").id
-    out: list[str] = []
-    threads = [threading.Thread(target=lambda: out.append(jobs.run_job(factory, job_id)))
-               for _ in range(2)]
-    for t in threads:
-        t.start()
-    for t in threads:
-        t.join(120)
+    out = _claim_twice(factory, job_id, timeout_s=120)
     assert out.count("succeeded") == 1, out
     with factory() as session:
         levels_made = session.scalars(select(m.Level).where(m.Level.name == name)).all()
