@@ -36,6 +36,7 @@ from qualplan.planning.access import Actor
 from qualplan.store import migrate
 from qualplan.store.models import Role
 from qualplan.store.session import make_engine, make_sessionmaker, unit_of_work
+from tests.served import wait_for_health
 
 pytestmark = pytest.mark.skipif(not Path("/proc/self/status").exists(),
                                 reason="RssAnon is read from Linux's /proc")
@@ -96,15 +97,7 @@ def test_a_long_record_upload_keeps_the_server_memory_bounded(fresh_db_url, tmp_
                               stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     try:
         base = f"http://127.0.0.1:{port}/api/v1"
-        deadline = time.monotonic() + 60
-        while True:
-            try:
-                if httpx.get(base + "/health", timeout=1.0).status_code == 200:
-                    break
-            except httpx.HTTPError:
-                pass
-            assert time.monotonic() < deadline and server.poll() is None, "no server"
-            time.sleep(0.2)
+        wait_for_health(base, server, 60)
         headers = {"Authorization": f"Bearer {token}"}
         idle = _rss_anon_kb(server.pid)
         peak, stop = [idle], threading.Event()

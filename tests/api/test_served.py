@@ -9,7 +9,6 @@ from __future__ import annotations
 import socket
 import subprocess
 import sys
-import time
 from pathlib import Path
 
 import httpx
@@ -19,6 +18,7 @@ from qualplan.planning.schemas import Role
 from qualplan.store import migrate
 from qualplan.store.session import make_engine, make_sessionmaker
 from tests.api.conftest import make_token
+from tests.served import wait_for_health
 
 QP = str(Path(sys.executable).parent / "qualplan")
 
@@ -37,16 +37,7 @@ def test_served_api_needs_a_token(fresh_db_url, tmp_path):
                                "--db", fresh_db_url], stdout=log, stderr=subprocess.STDOUT)
     base = f"http://127.0.0.1:{port}/api/v1"
     try:
-        deadline = time.monotonic() + 30
-        while True:
-            try:
-                if httpx.get(f"{base}/health", timeout=1).status_code == 200:
-                    break
-            except httpx.HTTPError:
-                pass
-            assert server.poll() is None and time.monotonic() < deadline, (
-                (tmp_path / "serve.log").read_text())
-            time.sleep(0.2)
+        wait_for_health(base, server, 30, tmp_path / "serve.log")
         r = httpx.get(f"{base}/requirements")
         assert r.status_code == 401 and r.headers["www-authenticate"] == "Bearer"
         bad = httpx.get(f"{base}/requirements", headers={"Authorization": "Bearer qp_nope"})

@@ -27,6 +27,7 @@ import pytest
 from sqlalchemy.engine import make_url
 
 from qualplan.cli import main
+from tests.served import wait_for_health
 
 ROOT = Path(__file__).resolve().parents[2]
 QP = [sys.executable, "-m", "qualplan.cli"]
@@ -121,15 +122,11 @@ class Server:
             [*QP, "serve", "--port", str(self.port), "--db", url], cwd=ROOT,
             stdout=self.log, stderr=subprocess.STDOUT,
             env={**os.environ, "QUALPLAN_WEB_SECRET": "fault-test-secret"})
-        deadline = time.monotonic() + 60
-        while time.monotonic() < deadline:
-            try:
-                if httpx.get(f"{self.base}/health", timeout=1).status_code == 200:
-                    return
-            except httpx.HTTPError:
-                time.sleep(0.2)
-        self.proc.kill()
-        raise AssertionError("the server did not start in 60 s")
+        try:
+            wait_for_health(self.base, self.proc, 60, tmp_path / f"serve-{self.port}.log")
+        except AssertionError:
+            self.proc.kill()
+            raise
 
     def kill(self) -> bool:
         hit = _kill(self.proc)
