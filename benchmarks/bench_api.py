@@ -87,6 +87,21 @@ def seed(url: str, n_products: int = 5, n_reqs: int = 200) -> dict:
     return out
 
 
+def wait_for_health(base: str, server: subprocess.Popen, timeout_s: float, log: Path) -> None:
+    """Return once `base`/health answers 200; exit with the end of the server's log if it
+    stops or `timeout_s` passes first."""
+    deadline = time.monotonic() + timeout_s
+    while True:
+        try:
+            if httpx.get(f"{base}/health", timeout=1.0).status_code == 200:
+                return
+        except httpx.HTTPError:
+            pass
+        if time.monotonic() > deadline or server.poll() is not None:
+            raise SystemExit("the server did not start:\n" + log.read_text()[-3000:])
+        time.sleep(0.2)
+
+
 class Stats:
     def __init__(self) -> None:
         self.lock = threading.Lock()
@@ -216,16 +231,7 @@ def main() -> int:
             [str(exe), "serve", "--host", HOST, "--port", str(port), "--db", url],
             stdout=log, stderr=subprocess.STDOUT, env={**os.environ, "PYTHONUNBUFFERED": "1"})
         try:
-            deadline = time.monotonic() + 30
-            while True:
-                try:
-                    if httpx.get(f"{base}/health", timeout=1.0).status_code == 200:
-                        break
-                except httpx.HTTPError:
-                    pass
-                if time.monotonic() > deadline or server.poll() is not None:
-                    raise SystemExit("the server did not start; see serve.log")
-                time.sleep(0.2)
+            wait_for_health(base, server, 30, Path(log.name))
             stats = Stats()
             start = time.perf_counter()
             stop = start + duration

@@ -29,11 +29,10 @@ import uuid
 from datetime import UTC, datetime
 from pathlib import Path
 
-import httpx
 import psycopg
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from bench_api import HOST, free_port, pct, seed  # noqa: E402
+from bench_api import HOST, free_port, pct, seed, wait_for_health  # noqa: E402
 
 from qualplan import __version__  # noqa: E402
 
@@ -63,18 +62,8 @@ def run_one(pg: str, workers: int, users: int, duration: float, tmp: Path) -> di
              "--workers", str(workers), "--db", url],
             stdout=log, stderr=subprocess.STDOUT, env=env)
         base = f"http://{HOST}:{port}"
-        deadline = time.monotonic() + 300  # N processes import numpy, scipy, numba
-        while True:
-            try:
-                if httpx.get(f"{base}/api/v1/health", timeout=1.0).status_code == 200:
-                    break
-            except httpx.HTTPError:
-                pass
-            if time.monotonic() > deadline or server.poll() is not None:
-                log.flush()
-                raise SystemExit("the server did not start:\n"
-                                 + Path(log.name).read_text()[-3000:])
-            time.sleep(0.3)
+        # N processes import numpy, scipy, numba
+        wait_for_health(f"{base}/api/v1", server, 300, Path(log.name))
         time.sleep(2.0 * workers)  # every process up (uvicorn starts them one by one)
         load_before = os.getloadavg()
         t0 = time.perf_counter()
