@@ -196,6 +196,11 @@ AXIS_ORDER = {"X": 0, "Y": 1, "Z": 2, "all": 3}
 KIND_ORDER = {"random": 0, "sine": 1, "shock": 2}
 
 
+def specification_order(level: m.Level) -> tuple[int, int, str]:
+    """Sort key of levels as a specification lists them: axis, then kind, then name."""
+    return AXIS_ORDER[level.axis.value], KIND_ORDER[level.kind.value], level.name
+
+
 @dataclass(frozen=True)
 class AxisSequence:
     """The test sequence of one axis (its levels' names) and its coverage of that axis's
@@ -228,7 +233,7 @@ def product_sequence(session: Session, product_id: int, grade: m.Grade | str
     """The current test levels of a product for a grade, per axis, with their coverage
     of the life (:func:`sequence_by_axis`), in the order of the specification."""
     chosen = current_test_levels(session, product_id, m.Grade(grade))
-    chosen.sort(key=lambda x: (AXIS_ORDER[x.axis.value], KIND_ORDER[x.kind.value], x.name))
+    chosen.sort(key=specification_order)
     return sequence_by_axis(chosen)
 
 

@@ -28,6 +28,7 @@ from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require_in
 from qualplan.planning.audit import audit
 from qualplan.planning.catalog import get
+from qualplan.planning.coverage import AXIS_ORDER, KIND_ORDER, specification_order
 from qualplan.planning.errors import Conflict, NotFound, ValidationFailed
 from qualplan.planning.inputs import check_document_number
 from qualplan.planning.levels import read_level, result_of
@@ -39,8 +40,6 @@ from qualplan.store import models as m
 from qualplan.store.hashing import json_hash
 from qualplan.store.repositories import RevisionRepository
 
-AXIS_ORDER = {"X": 0, "Y": 1, "Z": 2, "all": 3}
-KIND_ORDER = {"random": 0, "sine": 1, "shock": 2}
 GRADE_CODE = {"qualification": "Q", "acceptance": "A", "protoflight": "P"}
 
 
@@ -758,7 +757,7 @@ def specification_content(
     if not chosen:
         raise ValidationFailed("grade", grade.value,
                                f"product {product.name!r} has no {grade.value} test level")
-    chosen.sort(key=lambda x: (AXIS_ORDER[x.axis.value], KIND_ORDER[x.kind.value], x.name))
+    chosen.sort(key=specification_order)
     sections = [_section(session, lvl) for lvl in chosen]
     parents, p = [], product
     while p.parent_id is not None:
