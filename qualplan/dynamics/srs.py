@@ -1042,7 +1042,7 @@ def check_srs(
     if olo is None and not within.all():
         reasons.append(
             f"{int((~within).sum())} of {f.size} points outside {lo:+g}/{hi:+g} dB; worst"
-            f" {dev[w]:+.2f} dB at {f[w]:g} Hz"
+            f" {dev[w]:+.2f} dB at {f[w]:.4g} Hz"
         )
     if olo is not None:
         if share < share_req - 1e-12:
@@ -1052,7 +1052,7 @@ def check_srs(
             wo = int(np.argmin(np.minimum(ohi - dev, dev - olo)))
             reasons.append(
                 f"{int((~ok).sum())} points outside the outer band {olo:+g}/{ohi:+g} dB;"
-                f" worst {dev[wo]:+.2f} dB at {f[wo]:g} Hz"
+                f" worst {dev[wo]:+.2f} dB at {f[wo]:.4g} Hz"
             )
     if frac_req is not None and above < frac_req - 1e-12:
         reasons.append(f"{above:.1%} of points at or above nominal, needs {frac_req:.0%}")

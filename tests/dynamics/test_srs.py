@@ -341,6 +341,10 @@ def test_check_srs_every_point_rule():
     assert res.worst_freq_hz == pytest.approx(f[5])
     assert res.worst_deviation_db == pytest.approx(-6.5)
     assert res.worst_margin_db == pytest.approx(-0.5)
+    # the reason names the worst point to 4 significant figures: the sixth-octave grid's
+    # points are 1000 x 2^(k/6) Hz, f[5] = 1000 x 2^(-14/6) = 198.43 Hz
+    assert f[5] == pytest.approx(1000 * 2 ** (-14 / 6))
+    assert "worst -6.50 dB at 198.4 Hz" in res.reason, res.reason
     assert res.fraction_at_or_above_nominal == pytest.approx((f.size - 1) / f.size)
     dev[5] = -5.0
     f, m = _measured(dev)
