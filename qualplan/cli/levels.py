@@ -159,14 +159,19 @@ def _print_level(level: s.LevelRead) -> None:
     if cov is not None and cov.fn_hz:
         for b, item in cov.by_b.items():
             typer.echo(
-                f"FDS coverage b = {b}: worst {wording.decibels(item.worst_db)} at "
+                f"FDS coverage b = {b}: worst "
+                f"{wording.decibels(item.worst_db, item.required_db)} at "
                 f"{wording.frequency(item.worst_fn_hz)} ({_covers(item.passed)})"
             )
         if cov.ers is not None:
             typer.echo(
-                f"ERS coverage: worst {wording.decibels(cov.ers.worst_db)} at "
+                f"ERS coverage: worst "
+                f"{wording.decibels(cov.ers.worst_db, cov.ers.required_db)} at "
                 f"{wording.frequency(cov.ers.worst_fn_hz)} ({_covers(cov.ers.passed)})"
             )
+    if cov is not None:
+        for note in cov.notes:
+            typer.echo(f"coverage note: {note}")
     if r.kind == "random" and r.load_factor is not None:
         lf = r.load_factor
         where = f"{wording.frequency(lf.fn_hz)}, Q = {wording.number(lf.q)}"

@@ -162,11 +162,13 @@ def _coverage_block(c: r.Coverage, required: bool) -> dict:
         for f in fatigue:
             if not f.passed:
                 reasons.append(
-                    f"level does not cover the life: FDS {f.worst_db:+.2f} dB at "
+                    f"level does not cover the life: FDS "
+                    f"{w.decibels(f.worst_db, f.required_db)} at "
                     f"{f.worst_fn_hz:.4g} Hz, b = {f.b} (required {f.required_db:+g} dB)")
         if peak is not None and not peak.passed:
             reasons.append(
-                f"level does not cover the life: ERS {peak.worst_db:+.2f} dB at "
+                f"level does not cover the life: ERS "
+                f"{w.decibels(peak.worst_db, peak.required_db)} at "
                 f"{peak.worst_fn_hz:.4g} Hz (required {peak.required_db:+g} dB)")
         covers = bool(c.passed)
     return {"fatigue": fatigue, "peak": peak, "coverage_of": list(c.tests),
@@ -236,15 +238,16 @@ def cells(value: Margins | dict) -> list[str]:
     """The margins as the texts of :data:`COLUMNS`, in the same order ("-" when empty)."""
     mg = value if isinstance(value, Margins) else Margins.model_validate(value)
     fatigue = "; ".join(
-        f"{w.decibels(f.worst_db)} at {w.frequency(f.worst_fn_hz)} (b = {f.b})"
+        f"{w.decibels(f.worst_db, f.required_db)} at {w.frequency(f.worst_fn_hz)} (b = {f.b})"
         + ("" if f.passed else " short")
         for f in mg.fatigue) or "-"
     peak = over = "-"
     if mg.peak is not None:
         p = mg.peak
-        peak = (f"{w.decibels(p.worst_db)} at {w.frequency(p.worst_fn_hz)}"
+        peak = (f"{w.decibels(p.worst_db, p.required_db)} at {w.frequency(p.worst_fn_hz)}"
                 + ("" if p.passed else " short"))
-        over = (f"{w.decibels(p.overtest_db)} at {w.frequency(p.overtest_fn_hz)} "
+        over = (f"{w.decibels(p.overtest_db, p.overtest_limit_db)} at "
+                f"{w.frequency(p.overtest_fn_hz)} "
                 f"(ceiling {w.decibels(p.overtest_limit_db)})"
                 + ("" if p.overtest_passed else " beyond the ceiling") if p.overtest_db is not None
                 else f"none (ceiling {w.decibels(p.overtest_limit_db)})")

@@ -30,6 +30,7 @@ from pydantic import BaseModel, ConfigDict, Field, TypeAdapter
 from qualplan.dynamics import psd as core_psd
 from qualplan.dynamics import sine as core_sine
 from qualplan.dynamics import srs as core_srs
+from qualplan.planning.wording import decibels
 
 #: Version of the stored result JSON. 1: the untyped dict of the first release (no
 #: ``schema_version``, no ``kind``, steps as free dicts, no verdicts).
@@ -329,17 +330,20 @@ def covers_life(coverage: Coverage | None) -> tuple[dict[str, bool], list[str]]:
         name = f"FDS b = {b}"
         out[name] = item.passed
         if not item.passed and item.worst_db is not None:
-            reasons.append(f"does not cover the life's fatigue: FDS {item.worst_db:+.2f} dB at "
+            reasons.append(f"does not cover the life's fatigue: FDS "
+                           f"{decibels(item.worst_db, item.required_db)} at "
                            f"{item.worst_fn_hz:.4g} Hz, b = {b} (required "
                            f"{item.required_db:+g} dB)")
     if coverage.ers is not None:
         e = coverage.ers
         out["ERS"] = e.passed
         if e.worst_db is not None and e.worst_db < e.required_db:
-            reasons.append(f"does not cover the life's peak response: ERS {e.worst_db:+.2f} dB "
-                           f"at {e.worst_fn_hz:.4g} Hz (required {e.required_db:+g} dB)")
+            reasons.append(f"does not cover the life's peak response: ERS "
+                           f"{decibels(e.worst_db, e.required_db)} at {e.worst_fn_hz:.4g} Hz "
+                           f"(required {e.required_db:+g} dB)")
         if e.max_overtest_db is not None and e.max_overtest_db > e.overtest_limit_db:
-            reasons.append(f"over-tests: ERS {e.max_overtest_db:+.2f} dB over the life at "
+            reasons.append(f"over-tests: ERS "
+                           f"{decibels(e.max_overtest_db, e.overtest_limit_db)} over the life at "
                            f"{e.max_overtest_fn_hz:.4g} Hz (limit {e.overtest_limit_db:+g} dB)")
     return out, reasons
 

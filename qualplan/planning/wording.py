@@ -15,7 +15,9 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from qualplan.planning.results import Step
+# A derivation step (qualplan.planning.results.Step); not imported, since results prints
+# its verdict reasons with the words of this module.
+Step = Any
 
 SIGNIFICANT = 4
 
@@ -107,11 +109,37 @@ def frequency(hz: float | None) -> str:
     return f"{number(f / 1000)} kHz" if abs(f) >= 1000 else f"{number(f)} Hz"
 
 
-def decibels(db: float | None) -> str:
-    """A level difference with its sign and 2 decimals: "+7.94 dB", "-0.31 dB"."""
-    if db is None or not math.isfinite(float(db)):
+def decibels(db: float | None, against: float | None = None) -> str:
+    """A level difference with its sign and 2 decimals: "+7.94 dB", "-0.31 dB".
+
+    A margin printed beside the value it is judged against (``against``, dB) gets as many
+    decimals as it needs (up to 6) to show on which side of it it lies: a margin of
+    -0.0004 dB against a required 0 dB reads "-0.0004 dB", not "-0.00 dB", and +2.9996 dB
+    against a required +3 dB reads "+2.9996 dB". Without ``against``, a non-zero value
+    never reads as a signed zero."""
+    text = signed(db, against)
+    return text if text == "-" else f"{text} dB"
+
+
+def signed(value: float | None, against: float | None = None, decimals: int = 2) -> str:
+    """A dB value, slope or margin of safety with its sign and ``decimals`` decimals, or
+    more when needed to tell it from ``against`` (see `decibels`): "+3.00", "-0.0004"."""
+    if value is None or not math.isfinite(float(value)):
         return "-"
-    return f"{float(db):+.2f} dB"
+    return f"{float(value):+.{margin_decimals(value, against, decimals)}f}"
+
+
+def margin_decimals(value: float, against: float | None = None, decimals: int = 2) -> int:
+    """Decimals (from ``decimals`` up to 6) that tell ``value`` from ``against`` (or from 0
+    when ``against`` is None) once both are rounded."""
+    value = float(value)
+    ref = 0.0 if against is None else float(against)
+    if value == ref or not math.isfinite(ref):
+        return decimals
+    d = decimals
+    while d < 6 and round(value, d) == round(ref, d):
+        d += 1
+    return d
 
 
 def count(n: int, noun: str, plural: str | None = None) -> str:

@@ -37,11 +37,11 @@ def _num(x, digits: int = 4) -> str:
     return wording.number(float(x), digits)
 
 
-def _signed(x, decimals: int = 2) -> str:
-    """dB, dB/oct and margins of safety as engineers write them: sign and 2 decimals."""
-    if x is None:
-        return "-"
-    return f"{float(x):+.{decimals}f}"
+def _signed(x, decimals: int = 2, against=None) -> str:
+    """dB, dB/oct and margins of safety as engineers write them: sign and 2 decimals, or
+    more where a margin printed beside its requirement (``against``) needs them to show
+    on which side it lies."""
+    return wording.signed(x, against, decimals)
 
 
 def _date(d) -> str:

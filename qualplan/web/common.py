@@ -93,6 +93,7 @@ templates.env.filters["kind"] = wording.kind
 templates.env.filters["hz"] = wording.frequency
 templates.env.filters["duration"] = wording.duration
 templates.env.filters["db"] = wording.decibels
+templates.env.filters["signed"] = wording.signed
 templates.env.filters["label"] = lambda key: LABELS.get(key, str(key).replace("_", " "))
 templates.env.globals["STATIC"] = STATIC
 templates.env.globals["version"] = __version__

@@ -59,3 +59,27 @@ def test_a_combination_reads_as_words():
     assert w.combination("envelope") == "maximum envelope"
     assert w.combination("fds_equivalent") == "FDS-equivalent random"
     assert w.combination("some_new_rule") == "some new rule" and w.combination(None) == "-"
+
+
+@pytest.mark.parametrize("value, against, text", [
+    # A margin beside its requirement shows on which side it lies (common practice: a
+    # verdict that reads "-0.00 dB does not cover" is not auditable).
+    (-0.0004, 0.0, "-0.0004 dB"), (2.9996, 3.0, "+2.9996 dB"), (3.004, 3.0, "+3.004 dB"),
+    (-0.314, 0.0, "-0.31 dB"), (0.0, 0.0, "+0.00 dB"), (-2e-9, 0.0, "-0.000000 dB"),
+    (-0.001, None, "-0.001 dB"), (6.0, 6.0, "+6.00 dB"),
+])
+def test_a_margin_gets_the_decimals_that_tell_it_from_its_requirement(value, against, text):
+    assert w.decibels(value, against) == text
+
+
+def test_a_coverage_shortfall_a_hair_under_zero_reads_with_its_digits():
+    from qualplan.planning.results import Coverage, FdsCoverage, covers_life
+
+    item = FdsCoverage(test_fds=[1.0], life_fds=[1.0001], fds_ratio_db=[-0.00043],
+                       fds_level_db=[-0.00043], required_db=0.0, worst_fn_hz=21.6,
+                       worst_db=-0.00043, passed=False)
+    cov = Coverage(fn_hz=[21.6], b=[4.0], by_b={"4": item}, passed=False)
+    ok, reasons = covers_life(cov)
+    assert ok == {"FDS b = 4": False}
+    assert reasons == ["does not cover the life's fatigue: FDS -0.0004 dB at 21.6 Hz, b = 4 "
+                       "(required +0 dB)"]
