@@ -106,7 +106,10 @@ def env_add(
                 product_id=prod.id, phase_id=phase_id, name=name, kind=kind, axis=axis,
                 source=source, provenance=provenance, data=payload, note=note))
         summary = environments.history(session, env.id)[-1].summary
+        cautions = environments.read_environment(session, env, with_warnings=True).warnings
     typer.echo(f"environment {name} added (id {env.id}, revision 1): " + _summary_text(summary))
+    for text in cautions:
+        typer.echo(f"warning: {text}", err=True)
 
 
 SUMMARY_LABELS = {"grms": "overall", "peak_asd": "peak", "peak_srs": "peak SRS",

@@ -30,7 +30,13 @@ from qualplan.dynamics.errors import AccuracyWarning
 from qualplan.planning import envdata
 from qualplan.planning import results as r
 from qualplan.planning import schemas as s
-from qualplan.planning.lifecycle import LifeItem, current_test_levels, exposure, life_cycle
+from qualplan.planning.lifecycle import (
+    LifeItem,
+    current_test_levels,
+    exposure,
+    life_cycle,
+    time_counted_twice,
+)
 from qualplan.planning.policies import rules_of
 from qualplan.store import models as m
 
@@ -299,6 +305,7 @@ def _coverage(tests: list[Tested], life: list[LifeItem], rules: s.PolicyRules,
     notes.extend(f"{x.life_label}: multi-channel record stored in chunks, not counted in "
                  "this coverage (analyse it with a record analysis job)" for x in chunked)
     life = [x for x in life if x not in chunked]
+    notes.extend(time_counted_twice(life))
     if not life:
         return r.Coverage(tests=[t[0] for t in tests],
                           notes=[*notes, "no environment in the life cycle of this axis"])

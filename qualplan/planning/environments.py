@@ -9,7 +9,7 @@ import numpy as np
 from sqlalchemy.orm import Session
 
 from qualplan.dynamics.srs import octave_grid
-from qualplan.planning import envdata
+from qualplan.planning import envdata, lifecycle
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require_for
 from qualplan.planning.catalog import _add_unique, get
@@ -217,12 +217,22 @@ def environment_by_id(session: Session, environment_id: int) -> m.Environment:
     return get(session, m.Environment, environment_id, "environment")
 
 
-def read_environment(session: Session, env: m.Environment) -> s.EnvironmentRead:
+def read_environment(session: Session, env: m.Environment, *,
+                     with_warnings: bool = False) -> s.EnvironmentRead:
+    """The environment as every interface shows it; ``with_warnings`` adds the cautions
+    about the life cycle it enters (one life-cycle read per axis: not for lists)."""
     latest = RevisionRepository(session).latest(env.id)
     out = s.EnvironmentRead.model_validate(env)
     out.latest_revision = latest.number if latest else None
     if (w := environment_withdrawal(session, env.id)) is not None:
         out.withdrawn = describe(w)
+    elif with_warnings and env.phase_id is not None and env.kind in lifecycle.TIMED:
+        axes = [env.axis] if env.axis is not m.Axis.all else [m.Axis.X, m.Axis.Y, m.Axis.Z]
+        found = {t for a in axes
+                 for t in lifecycle.time_counted_twice(
+                     [x for x in lifecycle.life_cycle(session, env.product, a)
+                      if x.environment.phase_id == env.phase_id])}
+        out.warnings = sorted(found)
     return out
 
 

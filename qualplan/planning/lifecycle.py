@@ -15,8 +15,11 @@ from sqlalchemy.orm import Session
 
 from qualplan.planning import envdata
 from qualplan.planning.errors import ValidationFailed
-from qualplan.planning.transfers import replaced_environment_ids
-from qualplan.planning.withdrawals import withdrawn_environment_ids, withdrawn_level_ids
+from qualplan.planning.withdrawals import (
+    replaced_environment_ids,
+    withdrawn_environment_ids,
+    withdrawn_level_ids,
+)
 from qualplan.store import models as m
 from qualplan.store.repositories import LevelRepository, RevisionRepository
 
@@ -98,6 +101,49 @@ def exposure(env: m.Environment, rev: m.EnvironmentRevision) -> tuple[float, str
             "duration_s", None, f"environment {env.name!r} has neither a duration nor a phase"
         )
     return float(per * occurrences), "s"
+
+
+#: Kinds that fill time of their phase and describe its broadband condition: a measured
+#: record and a spectrum of one phase and axis are two views of one condition.
+TIMED = (K.random, K.time_history)
+
+
+def phase_share(item: LifeItem) -> float | None:
+    """Fraction of its phase's time an environment fills per occurrence (its stated
+    ``duration_s`` over the phase's duration, else its ``share``, default 1); None without
+    a phase."""
+    phase = item.environment.phase
+    if phase is None or not phase.duration_s:
+        return None
+    spec = item.revision.spec
+    if spec.get("duration_s") is not None:
+        return float(spec["duration_s"]) / float(phase.duration_s)
+    return float(spec.get("share", 1.0))
+
+
+def time_counted_twice(life: list[LifeItem]) -> list[str]:
+    """The phases of which a life cycle (one axis) counts more than the whole time:
+    random spectra and records of one phase whose shares add up to more than 1 (rule of
+    docs/methods/exposure.md: a condition's time is counted once; several runs of it are
+    one revision, and environments that split a phase state their shares). In words, one
+    per phase; empty when every phase's time is counted at most once."""
+    by_phase: dict[int, list[tuple[LifeItem, float]]] = {}
+    for x in life:
+        if x.environment.kind in TIMED and (share := phase_share(x)) is not None:
+            by_phase.setdefault(x.environment.phase_id, []).append((x, share))
+    out = []
+    for group in by_phase.values():
+        total = sum(sh for _, sh in group)
+        if len(group) > 1 and total > 1 + 1e-9:
+            phase = group[0][0].environment.phase
+            names = ", ".join(f"{x.label} ({x.environment.kind.value.replace('_', ' ')}, "
+                              f"axis {x.environment.axis.value}, share {sh:.3g})"
+                              for x, sh in group)
+            out.append(f"phase {phase.name!r}: {names} together fill "
+                       f"{total:.3g} times the phase's time; if they describe one condition "
+                       "the life counts it more than once (import the runs as one revision, "
+                       "state each environment's share, or withdraw the duplicate)")
+    return out
 
 
 def check_exposure(item: LifeItem, field: str = "revision_ids") -> None:

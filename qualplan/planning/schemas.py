@@ -174,6 +174,9 @@ class EnvironmentRead(Read):
     latest_revision: int | None = None
     #: "withdrawn by NAME on DATE: REASON" when the environment was withdrawn.
     withdrawn: str | None = None
+    #: Cautions about the life cycle it enters, e.g. a phase whose time it and another
+    #: environment together count more than once.
+    warnings: list[str] = []
 
 
 class RevisionRead(BaseModel):

@@ -30,7 +30,11 @@ from qualplan.planning.catalog import _add_unique, get
 from qualplan.planning.environments import _append_revision
 from qualplan.planning.errors import Conflict, ValidationFailed
 from qualplan.planning.policies import rules_of
-from qualplan.planning.withdrawals import describe, environment_withdrawal
+from qualplan.planning.withdrawals import (
+    describe,
+    environment_withdrawal,
+    replaced_environment_ids,
+)
 from qualplan.store import models as m
 from qualplan.store.hashing import json_hash, revision_hash
 from qualplan.store.repositories import RevisionRepository
@@ -595,18 +599,6 @@ def _ancestors(session: Session, product: m.Product) -> list[m.Product]:
         p = session.get(m.Product, p.parent_id)
         out.append(p)
     return out
-
-
-def replaced_environment_ids(session: Session, product: m.Product) -> set[int]:
-    """Environments of the product's ancestors that a transferred environment of the
-    product (or of an ancestor below them) replaces in the product's life cycle."""
-    lineage = [product.id] + [p.id for p in _ancestors(session, product)]
-    replaced: set[int] = set()
-    rows = session.scalars(select(m.EnvironmentDerivation)
-                           .where(m.EnvironmentDerivation.product_id.in_(lineage)))
-    for d in rows:
-        replaced.update(int(x) for x in d.recipe.get("parent_environment_ids", []))
-    return replaced
 
 
 def environments_for(session: Session, product_id: int) -> list[EnvironmentOrigin]:

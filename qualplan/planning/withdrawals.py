@@ -1,4 +1,5 @@
-"""Which environments and levels are withdrawn or superseded, and why (queries only).
+"""Which environments and levels are withdrawn, superseded or replaced (by a transferred
+environment), and why (queries only).
 
 The life cycle (``planning.lifecycle``), the derivations and staleness
 (``planning.levels``) and the baselines of documents read these; the use cases that
@@ -43,3 +44,18 @@ def superseded_by(session: Session, level_id: int) -> m.LevelSupersession | None
 def describe(w: m.Withdrawal) -> str:
     """``withdrawn by NAME on DATE: REASON``."""
     return f"withdrawn by {w.actor} on {w.created_at:%Y-%m-%d}: {w.reason}"
+
+
+def replaced_environment_ids(session: Session, product: m.Product) -> set[int]:
+    """Environments of the product's ancestors that a transferred environment of the
+    product (or of an ancestor below them) replaces in the product's life cycle."""
+    lineage, p = [product.id], product
+    while p.parent_id is not None:
+        p = session.get(m.Product, p.parent_id)
+        lineage.append(p.id)
+    replaced: set[int] = set()
+    rows = session.scalars(select(m.EnvironmentDerivation)
+                           .where(m.EnvironmentDerivation.product_id.in_(lineage)))
+    for d in rows:
+        replaced.update(int(x) for x in d.recipe.get("parent_environment_ids", []))
+    return replaced

@@ -124,7 +124,7 @@ def environment_page(ctx: Ctx, env_id: int, error=None, status=200, form=None):
         comparison=comparison, compare_plot=compare_plot, compare_error=compare_error,
         compare_diff=compare_diff, diff_plot=diff,
         value_units=sorted(imports.VALUE_UNITS[env.kind]), error=error, form=form or {},
-        withdrawn=environments.read_environment(ctx.db, env).withdrawn,
+        read=environments.read_environment(ctx.db, env, with_warnings=True),
     )
 
 

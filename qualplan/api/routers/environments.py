@@ -29,7 +29,8 @@ def _environment(session, environment_id: int):
 
 
 def _read(session, env, response: Response | None = None) -> s.EnvironmentRead:
-    out = envs.read_environment(session, env)
+    # one environment (not a page of them) comes with its life-cycle warnings
+    out = envs.read_environment(session, env, with_warnings=response is not None)
     if response is not None and out.latest_revision is not None:
         response.headers["ETag"] = etag(out.latest_revision)
     return out
