@@ -280,6 +280,40 @@ def controllable_smoothing(f, a, control: s.ControlRule) -> np.ndarray:
     return np.maximum(10 ** (db / 10), a)
 
 
+#: Breakpoints closer than this [octave] are one breakpoint to a controller (our rule:
+#: 1/1000 octave is 0.07 % in frequency, below any analysis line of a test level).
+DEGENERATE_OCT = 1e-3
+
+
+def merge_close_breakpoints(f, a, min_octave: float = DEGENERATE_OCT,
+                            max_raise_db: float = 0.1) -> tuple[np.ndarray, np.ndarray]:
+    """Drop the breakpoints that lie within ``min_octave`` of a neighbour and under the
+    straight log-log line of their two neighbours by at most ``max_raise_db`` (an
+    envelope's edge step of a few hundredths of a dB leaves two breakpoints micro-hertz
+    apart). A dropped breakpoint is a valley of the level, so the level between its
+    neighbours only rises (never below the input; by at most ``max_raise_db``, at the
+    dropped breakpoint) and the slope of the new segment lies between the two it
+    replaces (the controllability limits still hold). The foot of a steep rise is kept.
+    [Hz, g^2/Hz]"""
+    f, a = np.asarray(f, float), np.asarray(a, float)
+    while f.size > 2:
+        lf, la = np.log2(f), np.log10(a)
+        gaps = np.diff(lf)
+        dropped = False
+        for i in range(1, f.size - 1):
+            if min(gaps[i - 1], gaps[i]) >= min_octave:
+                continue
+            t = (lf[i] - lf[i - 1]) / (lf[i + 1] - lf[i - 1])
+            raise_db = 10 * (la[i - 1] + t * (la[i + 1] - la[i - 1]) - la[i])
+            if 0 <= raise_db <= max_raise_db:
+                f, a = np.delete(f, i), np.delete(a, i)
+                dropped = True
+                break
+        if not dropped:
+            break
+    return f, a
+
+
 def _random_verdicts(f, a, control: s.ControlRule, reasons: list[str]
                      ) -> tuple[bool, list[str]]:
     """Controllability of a random test level against the policy's control rules."""
@@ -435,6 +469,16 @@ def derive_random(
             method="breakpoints raised (never lowered) onto the policy's slope, dynamic "
                    "range and floor limits; dB: excess on g rms"))
         a = smooth
+    mf, ma = merge_close_breakpoints(f, a)
+    if mf.size < f.size:
+        g0, g1 = core_psd.grms(f, a), core_psd.grms(mf, ma)
+        steps.append(_step(
+            "close breakpoints merged", db=float(20 * np.log10(g1 / g0)),
+            merged=int(f.size - mf.size), within_octave=DEGENERATE_OCT,
+            method="a breakpoint within 1/1000 octave of a neighbour and at most 0.1 dB "
+                   "under the line of its neighbours is dropped (the level only rises); "
+                   "dB: on g rms"))
+        f, a = mf, ma
     controllable, reasons = _random_verdicts(f, a, rules.control, reasons)
     d = core_psd.shaker_demand(f, a)
     return r.RandomResult(
