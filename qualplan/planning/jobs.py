@@ -490,6 +490,9 @@ def _document(params: dict[str, Any]) -> DocumentJob:
     if doc.document not in DOCUMENTS:
         raise ValidationFailed("params.document", doc.document,
                                f"must be one of {sorted(DOCUMENTS)}")
+    if doc.document == "specification" and doc.grade not in {g.value for g in m.Grade}:
+        raise ValidationFailed("params.grade", doc.grade,
+                               f"must be one of {[g.value for g in m.Grade]}")
     if doc.document == "audit" and doc.program_id is None:
         raise ValidationFailed("params.program_id", None, "is required for an audit report")
     if doc.document != "audit" and doc.product_id is None:

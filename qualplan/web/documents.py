@@ -2,14 +2,16 @@
 
 from __future__ import annotations
 
+import uuid
 from collections.abc import Callable
+from pathlib import Path
 from typing import Any
 
 from fastapi import APIRouter, Request
 from fastapi.responses import Response
 from starlette.concurrency import run_in_threadpool
 
-from qualplan.planning import approvals, documents
+from qualplan.planning import approvals, documents, jobs
 from qualplan.planning import schemas as s
 from qualplan.reports import file_stem
 from qualplan.web.common import (
@@ -17,11 +19,13 @@ from qualplan.web.common import (
     CtxDep,
     action,
     form_of,
+    number,
     page,
     problem_page,
     render,
     text,
 )
+from qualplan.web.programs import product_page
 
 router = APIRouter(include_in_schema=False)
 
@@ -55,6 +59,52 @@ def specification_pdf(product_id: int, ctx: Ctx = CtxDep, grade: str = "qualific
 def audit_pdf(program_id: int, ctx: Ctx = CtxDep):
     return page(ctx, lambda: pdf_response(
         ctx, lambda: documents.audit_content(ctx.db, program_id, preview=True)))
+
+
+# --- issuing a document, as a job ----------------------------------------------------------
+
+
+def _issue_job(request: Request, ctx: Ctx, **fields) -> str:
+    """Queue the issue of a document (its revision is recorded by the job) and go to the
+    job's page, which follows its progress and links its files."""
+    folder = Path(request.app.state.settings.job_files_dir) / uuid.uuid4().hex
+    runner = request.app.state.jobs
+    job = jobs.submit_document(ctx.db, ctx.actor,
+                               jobs.DocumentJob(out_dir=str(folder), **fields),
+                               runner=runner.name)
+    job_id = job.id
+    jobs.after_commit(ctx.db, lambda: runner.dispatch(job_id))
+    return f"/jobs/{job_id}"
+
+
+@router.post("/products/{product_id}/specification")
+async def issue_specification(product_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
+    """Issue the product's test-level specification for a grade (default baseline; stale
+    or unconverged levels refused by the job, with the reasons on its page)."""
+    form, _ = await form_of(request)
+
+    def do() -> str:
+        return _issue_job(request, ctx, document="specification", product_id=product_id,
+                          grade=text(form, "grade") or "qualification",
+                          number=text(form, "number") or None, note=text(form, "note"))
+
+    return await run_in_threadpool(action, ctx, form, do, lambda msg, code: product_page(
+        ctx, product_id, msg, code, form, "issue"))
+
+
+@router.post("/programs/{program_id}/audit")
+async def issue_audit(program_id: int, request: Request, ctx: Ctx = CtxDep) -> Response:
+    """Issue the margin-closure audit report of the program (or of one product and its
+    children)."""
+    form, _ = await form_of(request)
+
+    def do() -> str:
+        return _issue_job(request, ctx, document="audit", program_id=program_id,
+                          product_id=number(form, "product_id", integer=True),
+                          number=text(form, "number") or None, note=text(form, "note"))
+
+    return await run_in_threadpool(action, ctx, form, do, lambda msg, code: problem_page(
+        ctx, code, "The audit report was not issued", msg))
 
 
 # --- issued documents and their sign-off -------------------------------------------------
