@@ -36,6 +36,7 @@ from sqlalchemy.orm import Session, sessionmaker
 from qualplan.planning.access import Actor, require, scope_session
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import Conflict, PlanningError, ValidationFailed
+from qualplan.planning.inputs import Line, Text
 from qualplan.store import models as m
 from qualplan.store.jobs import Job
 from qualplan.store.types import utcnow
@@ -466,8 +467,8 @@ class DocumentJob(BaseModel):
     grade: str = "qualification"
     level_ids: list[int] | None = None
     axis: str | None = None
-    number: str | None = None
-    note: str = ""
+    number: Line | None = None
+    note: Text = ""
     #: The folder the files are written to: the CLI's --out, or the serving process's
     #: ``job_files_dir`` (shared with the workers) for the API and the web.
     out_dir: str

@@ -104,6 +104,10 @@ def test_refused_issue_forms_name_the_field_and_queue_nothing(browserless, users
     assert r.status_code == 422
     text = unescape(r.text)
     assert "grade" in text and "flight-ish" in text
+    r = eng.post(f"/products/{world.product_id}/specification",
+                 {"grade": "qualification", "number": "N" * 600}, follow_redirects=False)
+    assert r.status_code == 422
+    assert "number = 'NNN" in unescape(r.text) and "at most 500 characters" in r.text
     viewer = browserless(users["viewer"])
     assert "Issue (runs as a job)" not in viewer.get(f"/products/{world.product_id}").text
     r = viewer.post(f"/products/{world.product_id}/specification", {"grade": "qualification"},
