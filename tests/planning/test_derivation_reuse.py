@@ -26,7 +26,7 @@ def _scenario(session, actor, program, unit):
         program_id=program.id, name="hour", duration_s=3600.0))
     drop = catalog.create_phase(session, actor, s.PhaseCreate(
         program_id=program.id, name="drop", duration_s=10.0, occurrences=3))
-    dt = 1 / 10_000  # the policy's 1000 Hz is fs/10: the ramp filter's sinc^2 warning
+    dt = 1 / 10_000  # a half-sine from zeros: the band-limited model's kink warning
     t = np.arange(int(0.05 / dt)) * dt
     pulse = np.where(t < 0.004, 30.0 * np.sin(np.pi * t / 0.004), 0.0)
     envs = [
@@ -72,8 +72,8 @@ def test_fds_equivalent_computes_each_input_once_and_stores_the_same_level(
 
     a, b = reused.result, fresh.result
     assert a == b  # every number and note of the stored result
-    assert a["coverage"]["notes"], "the sinc^2 warning of the record must reach the notes"
-    assert any("sinc^2" in n for n in a["coverage"]["notes"])
+    assert a["coverage"]["notes"], "the kink warning of the record must reach the notes"
+    assert any("the record has a kink" in n for n in a["coverage"]["notes"])
     assert reused.input_hashes == fresh.input_hashes
 
 

@@ -207,7 +207,7 @@ def test_defect4_fds_equivalent_of_a_sine_a_shock_and_two_spectra(session, engin
     g_b = []
     for k, b in enumerate((4.0, 8.0)):
         life = (1 * fatigue.fds_sweep(sweep, fn, q, b)
-                + 3 * fatigue.fds_time(x, dt, fn, q, b, free_decay=True)
+                + 3 * fatigue.fds_time(x, dt, fn, q, b, free_decay=True, method="bandlimited")
                 + fatigue.fds_random([20.0, 1000.0], [0.002, 0.002], 3600.0, fn, q, b)
                 + fatigue.fds_random([20.0, 80.0, 200.0], [0.01, 0.02, 0.005], 3600.0, fn,
                                      q, b))
