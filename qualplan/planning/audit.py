@@ -8,13 +8,13 @@ from collections import Counter
 from datetime import UTC, datetime
 
 from sqlalchemy import select
-from sqlalchemy.orm import Session, selectinload
+from sqlalchemy.orm import Session, defer, selectinload
 
 from qualplan.planning import schemas as s
 from qualplan.planning.catalog import get
 from qualplan.planning.errors import ValidationFailed
 from qualplan.planning.margins import margins_of
-from qualplan.planning.requirements import status_of
+from qualplan.planning.requirements import staleness_of, status_of
 from qualplan.store import models as m
 from qualplan.store.repositories import ProductRepository
 
@@ -29,14 +29,16 @@ def audit(
     """Audit the requirements of a program, or of one product and its children."""
     now = now or datetime.now(UTC)
     program = get(session, m.Program, program_id, "program")
+    # the columns the audit reads, each relationship in one query (no lazy load per row);
+    # the wording of a requirement and a record's samples stay in the database
     stmt = (
         select(m.Requirement)
         .where(m.Requirement.program_id == program.id)
         .options(
-            selectinload(m.Requirement.evidence),
+            defer(m.Requirement.text), defer(m.Requirement.acceptance_criterion),
+            selectinload(m.Requirement.evidence).defer(m.Evidence.data)
+            .defer(m.Evidence.rationale),
             selectinload(m.Requirement.waivers),
-            selectinload(m.Requirement.level),
-            selectinload(m.Requirement.product),
         )
         .order_by(m.Requirement.key)
     )
@@ -49,10 +51,17 @@ def audit(
         ids = ProductRepository(session).subtree_ids(product.id)
         stmt = stmt.where(m.Requirement.product_id.in_(ids))
         scope = f"product {product.name} and its children"
-    level_stale: dict[int, list[str]] = {}
+    rows = session.scalars(stmt).all()
+    # the few levels and products the requirements point at, each row once: `req.level`
+    # and `req.product` then come from the session's identity map, without a query
+    # (a selectinload of these many-to-one relations costs per requirement row)
+    held = _load_by_id(session, m.Level, {r.level_id for r in rows} - {None})
+    held += _load_by_id(session, m.Product, {r.product_id for r in rows})
+    # staleness of every level in scope in a few queries (levels.staleness_of_levels)
+    level_stale = staleness_of(session, rows)
     coverage_cache: dict = {}
     items = []
-    for req in session.scalars(stmt):
+    for req in rows:
         st = status_of(session, req, level_stale=level_stale, now=now,
                        coverage_cache=coverage_cache)
         ev = st.evidence if st.evidence is not None else (
@@ -80,6 +89,7 @@ def audit(
                 margins=mg.model_dump(mode="json"),
             )
         )
+    del held
     counts = Counter(i.status for i in items)
     ready = bool(items) and all(i.status in ("verified", "waived") for i in items)
     if not items:
@@ -101,3 +111,15 @@ def audit(
         release_ready=ready,
         verdict=verdict,
     )
+
+
+def _load_by_id(session: Session, model, ids: set[int]) -> list:
+    """The rows of `model` with these ids (in chunks of 900 ids per IN list)."""
+    ids_ = sorted(ids)
+    out: list = []
+    for i in range(0, len(ids_), 900):
+        stmt = select(model).where(model.id.in_(ids_[i:i + 900]))
+        if model is m.Level:
+            stmt = stmt.options(selectinload(m.Level.policy))
+        out += session.scalars(stmt).all()
+    return out
