@@ -14,7 +14,7 @@ from typing import Any
 
 import numpy as np
 from sqlalchemy import func, select
-from sqlalchemy.orm import Session, aliased
+from sqlalchemy.orm import Session
 
 from qualplan.dynamics import equivalence as core_eq
 from qualplan.dynamics import psd as core_psd
@@ -794,12 +794,13 @@ def staleness_of_levels(session: Session, levels: list[m.Level]) -> dict[int, li
     for chunk in _chunks(level_ids):
         withdrawn_lv.update((w.level_id, w) for w in session.scalars(
             select(m.Withdrawal).where(m.Withdrawal.level_id.in_(chunk))))
-        new = aliased(m.Level)
-        for row, name, number, new_id in session.execute(
-                select(m.LevelSupersession, new.name, new.number, new.id)
-                .join(new, new.id == m.LevelSupersession.new_level_id)
-                .where(m.LevelSupersession.old_level_id.in_(chunk))):
-            sup[row.old_level_id] = (row, name, number, new_id)
+        rows = session.scalars(select(m.LevelSupersession)
+                               .where(m.LevelSupersession.old_level_id.in_(chunk))).all()
+        news = {i: (name, number) for i, name, number in session.execute(
+            select(m.Level.id, m.Level.name, m.Level.number)
+            .where(m.Level.id.in_([x.new_level_id for x in rows])))}
+        for row in rows:
+            sup[row.old_level_id] = (row, *news[row.new_level_id], row.new_level_id)
     # the products' tree: each product's lineage (the product and its ancestors)
     parent: dict[int, int | None] = {}
     todo = {lv.product_id for lv in levels}

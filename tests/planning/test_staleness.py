@@ -19,6 +19,7 @@ from qualplan.planning import (
 )
 from qualplan.planning import schemas as s
 from qualplan.store import models as m
+from qualplan.store import scope
 
 # Flat random profiles; the values only need to differ (common practice for a test of
 # bookkeeping, no numeric check here).
@@ -109,6 +110,13 @@ def test_set_based_staleness_equals_the_per_level_one(session, engineer, program
     some = [made["unit X"], made["pod Z"]]
     assert levels.staleness_of_levels(session, some) == {lv.id: per_level[lv.id] for lv in some}
     assert levels.staleness_of_levels(session, []) == {}
+    # a session scoped to the caller's programs (what the API and the web use) reads the same
+    scope.limit_to_programs(session, [program.id])
+    try:
+        assert levels.staleness_of_levels(session, every) == per_level
+        assert {lv.id: levels.staleness(session, lv) for lv in every} == per_level
+    finally:
+        scope.clear(session)
     # every cause is in the scenario (so the comparison covers each), and a current level
     text = {name: " | ".join(per_level[lv.id]) for name, lv in made.items()}
     assert "'road Z' has revision 2, the level used revision 1" in text["unit Z"]
@@ -141,6 +149,11 @@ def test_audit_and_readiness_equal_the_per_level_statuses(session, engineer, pro
         program_id=program.id, key="REQ-99", text="no evidence yet", product_id=unit.id,
         method="analysis"))
     report = audit.audit(session, program.id)
+    scope.limit_to_programs(session, [program.id])
+    try:  # the same audit in a session scoped to the program (the API's, the web's)
+        assert audit.audit(session, program.id, now=report.generated_at) == report
+    finally:
+        scope.clear(session)
     by_key = {i.key: i for i in report.items}
     for r in [*reqs, open_req]:
         st = requirements.status_of(session, r)  # no cache: levels.staleness per level
