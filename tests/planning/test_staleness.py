@@ -5,6 +5,8 @@ the per-requirement status with the per-level staleness."""
 
 from __future__ import annotations
 
+import gc
+
 from qualplan.planning import (
     approvals,
     audit,
@@ -167,3 +169,25 @@ def test_audit_and_readiness_equal_the_per_level_statuses(session, engineer, pro
     expected = sorted((lv.id, levels.staleness(session, lv)) for lv in every
                       if levels.staleness(session, lv))
     assert sorted((x.level_id, x.reasons) for x in ready.stale_levels) == expected
+
+
+def test_the_audits_collector_pause_nests_and_restores():
+    """The audit pauses Python's cyclic collector (audit.cycle_collection_paused): nested
+    pauses end with the outermost, and a collector that was off stays off (Python's gc
+    module documentation: gc.disable, gc.isenabled)."""
+    was = gc.isenabled()
+    gc.enable()
+    try:
+        with audit.cycle_collection_paused():
+            assert not gc.isenabled()
+            with audit.cycle_collection_paused():
+                assert not gc.isenabled()
+            assert not gc.isenabled()
+        assert gc.isenabled()
+        gc.disable()
+        with audit.cycle_collection_paused():
+            pass
+        assert not gc.isenabled()
+    finally:
+        if was:
+            gc.enable()
