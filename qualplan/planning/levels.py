@@ -13,6 +13,7 @@ from collections.abc import Callable
 from typing import Any
 
 import numpy as np
+from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from qualplan.dynamics import equivalence as core_eq
@@ -46,6 +47,7 @@ from qualplan.planning.withdrawals import (
     environment_withdrawal,
     level_withdrawal,
     superseded_by,
+    withdrawn_environment_ids,
 )
 from qualplan.store import models as m
 from qualplan.store.hashing import json_hash
@@ -805,6 +807,165 @@ def staleness(session: Session, level: m.Level) -> list[str]:
                         "after the level was derived"
                     )
     return reasons
+
+
+#: Ids per IN list of the set-based staleness (SQLite's bound-parameter limit is 32,766
+#: since 3.32, 999 before; PostgreSQL's 65,535).
+_IN_CHUNK = 900
+
+
+def _chunks(ids) -> list[list[int]]:
+    ids = sorted(set(ids))
+    return [ids[i:i + _IN_CHUNK] for i in range(0, len(ids), _IN_CHUNK)]
+
+
+def staleness_of_levels(session: Session, levels: list[m.Level]) -> dict[int, list[str]]:
+    """:func:`staleness` of many levels at once, by level id: the same reasons in the same
+    order, read in a few set-based queries (withdrawals, supersessions, the products'
+    tree, the used revisions, the environments and their latest revisions, the policies)
+    instead of several queries per level and per input revision.
+
+    Only a transferred input revision (one with an ``EnvironmentDerivation``) is still
+    followed up the tree one by one (``transfers.derivation_staleness``), once per
+    revision however many levels use it.
+    """
+    if not levels:
+        return {}
+    level_ids = [lv.id for lv in levels]
+    withdrawn_env = withdrawn_environment_ids(session)
+    withdrawn_lv: dict[int, m.Withdrawal] = {}
+    sup: dict[int, tuple[m.LevelSupersession, str, int, int]] = {}
+    for chunk in _chunks(level_ids):
+        withdrawn_lv.update((w.level_id, w) for w in session.scalars(
+            select(m.Withdrawal).where(m.Withdrawal.level_id.in_(chunk))))
+        rows = session.scalars(select(m.LevelSupersession)
+                               .where(m.LevelSupersession.old_level_id.in_(chunk))).all()
+        news = {i: (name, number) for i, name, number in session.execute(
+            select(m.Level.id, m.Level.name, m.Level.number)
+            .where(m.Level.id.in_([x.new_level_id for x in rows])))}
+        for row in rows:
+            sup[row.old_level_id] = (row, *news[row.new_level_id], row.new_level_id)
+    # the products' tree: each product's lineage (the product and its ancestors)
+    parent: dict[int, int | None] = {}
+    todo = {lv.product_id for lv in levels}
+    while todo:
+        for chunk in _chunks(todo):
+            parent.update(session.execute(
+                select(m.Product.id, m.Product.parent_id).where(m.Product.id.in_(chunk))).all())
+        todo = {p for p in parent.values() if p is not None and p not in parent}
+
+    def lineage_of(pid: int) -> list[int]:
+        ids = []
+        while pid is not None:
+            ids.append(pid)
+            pid = parent.get(pid)
+        return ids
+
+    test_products = {lv.product_id for lv in levels if lv.purpose is m.LevelPurpose.test}
+    life_products = {x for pid in test_products for x in lineage_of(pid)}
+    # environments a transfer replaced, by the product whose derivation says so
+    replaced_by: dict[int, set[int]] = {}
+    for chunk in _chunks(life_products):
+        for pid, recipe in session.execute(
+                select(m.EnvironmentDerivation.product_id, m.EnvironmentDerivation.recipe)
+                .where(m.EnvironmentDerivation.product_id.in_(chunk))):
+            replaced_by.setdefault(pid, set()).update(
+                int(x) for x in recipe.get("parent_environment_ids", []))
+    # the revisions each level used: environment and number
+    used_of: dict[int, dict[str, str]] = {}
+    for lv in levels:
+        used = dict(lv.input_hashes.get("revisions", {}))
+        if lv.purpose is m.LevelPurpose.test:
+            used.update(lv.input_hashes.get("life_cycle", {}))
+        used_of[lv.id] = used
+    rev_env: dict[int, tuple[int, int]] = {}  # revision id: (environment id, number)
+    for chunk in _chunks(int(rid) for used in used_of.values() for rid in used):
+        rev_env.update((rid, (env_id, number)) for rid, env_id, number in session.execute(
+            select(m.EnvironmentRevision.id, m.EnvironmentRevision.environment_id,
+                   m.EnvironmentRevision.number).where(m.EnvironmentRevision.id.in_(chunk))))
+    # environments: those of the used revisions, and every one of the life products
+    envs: dict[int, tuple[int, m.Axis, str]] = {}  # id: (product id, axis, name)
+    cols = (m.Environment.id, m.Environment.product_id, m.Environment.axis,
+            m.Environment.name)
+    for chunk in _chunks(life_products):
+        envs.update((i, (p, a, n)) for i, p, a, n in session.execute(
+            select(*cols).where(m.Environment.product_id.in_(chunk))))
+    for chunk in _chunks({e for e, _ in rev_env.values()} - set(envs)):
+        envs.update((i, (p, a, n)) for i, p, a, n in session.execute(
+            select(*cols).where(m.Environment.id.in_(chunk))))
+    latest: dict[int, tuple[int, int]] = {}  # environment id: (revision id, number)
+    rv = m.EnvironmentRevision
+    for chunk in _chunks(envs):
+        top = (select(rv.environment_id, func.max(rv.number).label("number"))
+               .where(rv.environment_id.in_(chunk)).group_by(rv.environment_id).subquery())
+        latest.update((env_id, (rid, number)) for env_id, rid, number in session.execute(
+            select(rv.environment_id, rv.id, rv.number).join(
+                top, (top.c.environment_id == rv.environment_id)
+                & (top.c.number == rv.number))))
+    derived: set[int] = set()  # used revisions made by a transfer
+    for chunk in _chunks(rev_env):
+        derived.update(session.scalars(select(m.EnvironmentDerivation.revision_id)
+                                       .where(m.EnvironmentDerivation.revision_id.in_(chunk))))
+    policy_ids = {lv.input_hashes["policy"]["id"] for lv in levels}
+    rules_hash: dict[int, str] = {}
+    for chunk in _chunks(x for x in policy_ids if x is not None):
+        rules_hash.update((pid, json_hash(rules)) for pid, rules in session.execute(
+            select(m.MarginPolicy.id, m.MarginPolicy.rules).where(m.MarginPolicy.id.in_(chunk))))
+    by_env_product: dict[int, list[int]] = {}
+    for env_id in sorted(envs):
+        by_env_product.setdefault(envs[env_id][0], []).append(env_id)
+    transferred: dict[int, list[str]] = {}
+
+    def life_of(product_id: int, axis: m.Axis) -> list[tuple[int, int, int]]:
+        """``lifecycle.life_cycle`` as (environment id, revision id, number), by env id."""
+        line = lineage_of(product_id)
+        replaced = set().union(*(replaced_by.get(p, set()) for p in line))
+        axes = None if axis is m.Axis.all else {axis, m.Axis.all}
+        out = []
+        for env_id in sorted(e for p in line for e in by_env_product.get(p, [])):
+            if env_id in replaced or env_id in withdrawn_env:
+                continue
+            if axes is not None and envs[env_id][1] not in axes:
+                continue
+            if env_id in latest:
+                out.append((env_id, *latest[env_id]))
+        return out
+
+    out: dict[int, list[str]] = {}
+    for lv in levels:
+        reasons = []
+        if (w := withdrawn_lv.get(lv.id)) is not None:
+            reasons.append(f"the level was {describe(w)}")
+        if (found := sup.get(lv.id)) is not None:
+            row, name, number, new_id = found
+            reasons.append(f"superseded by {name} #{number} (id {new_id}), re-derived "
+                           f"on the latest revisions of its inputs on {row.created_at:%Y-%m-%d}")
+        used = used_of[lv.id]
+        for rid in used:
+            env_id, number = rev_env[int(rid)]
+            env_name = envs[env_id][2]
+            now = latest.get(env_id)
+            if (w := withdrawn_env.get(env_id)) is not None:
+                reasons.append(f"environment {env_name!r} was {describe(w)}")
+            elif now is not None and now[1] != number:
+                reasons.append(f"environment {env_name!r} has revision {now[1]}, "
+                               f"the level used revision {number}")
+            elif int(rid) in derived:
+                if int(rid) not in transferred:
+                    transferred[int(rid)] = derivation_staleness(
+                        session, RevisionRepository(session).get(int(rid)))
+                reasons += [f"environment {env_name!r}: {r}" for r in transferred[int(rid)]]
+        pol = lv.input_hashes["policy"]
+        if rules_hash.get(pol["id"]) != pol["rules_hash"]:
+            reasons.append("the margin policy's rules changed since the level was derived")
+        if lv.purpose is m.LevelPurpose.test:
+            known = set(lv.input_hashes.get("life_cycle", {}))
+            for env_id, rid, number in life_of(lv.product_id, lv.axis):
+                if str(rid) not in known and str(rid) not in used and number == 1:
+                    reasons.append(f"environment {envs[env_id][2]!r} joined the life cycle "
+                                   "after the level was derived")
+        out[lv.id] = reasons
+    return out
 
 
 def read_level(session: Session, level: m.Level) -> s.LevelRead:

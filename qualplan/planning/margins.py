@@ -26,7 +26,7 @@ from __future__ import annotations
 from typing import Literal
 
 import numpy as np
-from pydantic import BaseModel
+from pydantic import BaseModel, Field
 from sqlalchemy.orm import Session
 
 from qualplan.planning import coverage as cov
@@ -87,16 +87,16 @@ class Margins(BaseModel):
     tolerance: Literal["pass", "fail"] | None = None
     tolerance_reason: str = ""
     #: Fatigue coverage per b, and peak coverage, of the test sequence of the axis.
-    fatigue: list[FatigueMargin] = []
+    fatigue: list[FatigueMargin] = Field(default_factory=list)
     peak: PeakMargin | None = None
     #: The tests judged together (the sequence of the axis and grade).
-    coverage_of: list[str] = []
+    coverage_of: list[str] = Field(default_factory=list)
     #: Does the policy ask that this requirement's level covers the life?
     coverage_required: bool | None = None
     #: Does the sequence cover the life (FDS for every b and ERS)? None when not judged.
     covers_life: bool | None = None
     #: Why it does not, in words ("level does not cover the life: FDS -37.00 dB at ...").
-    coverage_reasons: list[str] = []
+    coverage_reasons: list[str] = Field(default_factory=list)
     #: Margin of safety of analysis evidence (unitless).
     analysis_ms: float | None = None
 
@@ -176,8 +176,10 @@ def _coverage_block(c: r.Coverage, required: bool) -> dict:
             "coverage_reasons": reasons}
 
 
-#: Cache of sequence coverage per (product, axis, grade, policy) within one audit.
-CoverageCache = dict[tuple[int, str, str, int], r.Coverage]
+#: Cache within one audit: sequence coverage per (product, axis, grade, policy), and each
+#: level's typed result with its two figures per ("level", level id) (levels are
+#: append-only, so a level's result cannot change during the audit).
+CoverageCache = dict[tuple, object]
 
 
 def sequence_coverage(session: Session, level: m.Level,
@@ -194,6 +196,19 @@ def sequence_coverage(session: Session, level: m.Level,
     return out
 
 
+def _level_figures(level: m.Level, cache: CoverageCache | None):
+    """The level's typed result, its level over limit [dB] and its time compression [dB],
+    computed once per level when a cache is given."""
+    key = ("level", level.id)
+    if cache is not None and key in cache:
+        return cache[key]
+    result = result_of(level)
+    out = (result, level_over_limit_db(result), compression_db(result))
+    if cache is not None:
+        cache[key] = out
+    return out
+
+
 def margins_of(session: Session, req: m.Requirement, ev: m.Evidence | None,
                cache: CoverageCache | None = None) -> Margins:
     """The margins of a requirement's evidence, split by cause."""
@@ -205,9 +220,8 @@ def margins_of(session: Session, req: m.Requirement, ev: m.Evidence | None,
     level = req.level
     if level is None or level.purpose is not m.LevelPurpose.test:
         return Margins()
-    result = result_of(level)
-    out: dict = {"level_over_limit_db": level_over_limit_db(result),
-                 "compression_db": compression_db(result),
+    result, over_db, comp_db = _level_figures(level, cache)
+    out: dict = {"level_over_limit_db": over_db, "compression_db": comp_db,
                  "over_limit_measure": OVER_LIMIT_MEASURE[result.kind]}
     if ev.kind is not m.EvidenceKind.test:  # similarity, inspection: no record to judge
         return Margins(**out)

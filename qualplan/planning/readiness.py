@@ -10,7 +10,7 @@ from sqlalchemy.orm import Session
 
 from qualplan.planning import audit as _audit
 from qualplan.planning.catalog import get, list_programs
-from qualplan.planning.levels import list_levels, read_level
+from qualplan.planning.levels import list_levels, staleness_of_levels
 from qualplan.store import models as m
 
 #: Status order as a reviewer reads it: what blocks first.
@@ -64,15 +64,11 @@ def program_readiness(session: Session, program_id: int) -> Readiness:
     blocking.sort(key=lambda b: (STATUS_ORDER.index(b.status), b.key))
     products = {p.id: p.name for p in session.scalars(
         select(m.Product).where(m.Product.program_id == program.id))}
-    stale = []
-    for row in list_levels(session):
-        if row.product_id not in products:
-            continue
-        read = read_level(session, row)
-        if read.stale:
-            stale.append(StaleLevel(level_id=row.id, name=row.name, number=row.number,
-                                    product=products[row.product_id],
-                                    reasons=read.stale_reasons))
+    mine = [row for row in list_levels(session) if row.product_id in products]
+    reasons = staleness_of_levels(session, mine)  # a few queries for all the levels
+    stale = [StaleLevel(level_id=row.id, name=row.name, number=row.number,
+                        product=products[row.product_id], reasons=reasons[row.id])
+             for row in mine if reasons[row.id]]
     newest: dict[str, m.Document] = {}
     for doc in session.scalars(select(m.Document).where(m.Document.program_id == program.id)
                                .order_by(m.Document.number, m.Document.revision)):

@@ -142,11 +142,21 @@ def requirement_page(session: Session, *, program_id: int | None = None,
             .order_by(m.Requirement.key, m.Requirement.id).offset(offset))
     if limit is not None:
         stmt = stmt.limit(limit)
-    cache: dict[int, list[str]] = {}
+    found = session.scalars(stmt).all()
+    cache = staleness_of(session, found)
     covs: dict = {}  # sequence coverage, once per product, axis, grade and policy
     rows = [read_requirement(session, r, level_stale=cache, coverage_cache=covs)
-            for r in session.scalars(stmt)]
+            for r in found]
     return rows, total
+
+
+def staleness_of(session: Session, reqs) -> dict[int, list[str]]:
+    """Staleness of the levels of `reqs` (the status's cache), in a few queries."""
+    from qualplan.planning.levels import staleness_of_levels
+
+    return staleness_of_levels(session, list({
+        r.level_id: r.level for r in reqs if r.level is not None
+        and r.method is not m.VerificationMethod.similarity}.values()))
 
 
 def requirement_by_id(session: Session, requirement_id: int) -> m.Requirement:
@@ -181,11 +191,12 @@ def traceability(
                         selectinload(m.Requirement.waivers),
                         selectinload(m.Requirement.level),
                         selectinload(m.Requirement.product))
-    cache: dict[int, list[str]] = {}
+    found = session.scalars(stmt.order_by(m.Requirement.key, m.Requirement.id)).all()
+    cache = staleness_of(session, found)
     covs: dict = {}  # sequence coverage, once per product, axis, grade and policy
     rows = []
     needle = (text or "").lower()
-    for req in session.scalars(stmt.order_by(m.Requirement.key, m.Requirement.id)):
+    for req in found:
         if needle and needle not in req.key.lower() and needle not in req.text.lower():
             continue
         read = read_requirement(session, req, level_stale=cache, coverage_cache=covs)
