@@ -395,7 +395,7 @@ _BLOCK = 4096
 
 
 @njit(cache=True, nogil=True)
-def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out):
+def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out, peak):
     """:func:`_filter_miner` for up to four oscillators (rows of `bp`, `az`) and several
     Basquin exponents `bs` at once: the response, its reversals and its rainflow cycles
     are the same for every b, only the damage per cycle differs.
@@ -405,7 +405,9 @@ def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out):
     block's responses go through the reversal test and the rainflow stack of their own
     oscillator. Every response sample and every damage sum is computed by the same
     operations, in the same order, as _filter_miner for each b (equal bit for bit). Writes
-    ``out[r, j]``: damage of oscillator r for ``bs[j]``."""
+    ``out[r, j]``: damage of oscillator r for ``bs[j]``, and ``peak[r]``: the largest
+    |response| of the counted samples (the first one, the reversals as sampled and the
+    last one: the extremes of a sampled series lie among them)."""
     m = bp.shape[0]
     n = x.shape[0]
     nb = bs.shape[0]
@@ -432,6 +434,7 @@ def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out):
     xprevs = np.zeros(m)
     xcs = np.zeros(m)
     dls = np.zeros(m)
+    pks = np.zeros(m)
     u0 = u1 = u2 = u3 = 0.0  # y_(k-1)
     v0 = v1 = v2 = v3 = 0.0  # y_(k-2)
     x1 = 0.0
@@ -466,6 +469,7 @@ def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out):
             xprev = xprevs[r]
             xc = xcs[r]
             dl = dls[r]
+            pk = pks[r]
             for kk in range(end):
                 k = start + kk
                 y = buf[r, kk]
@@ -475,6 +479,7 @@ def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out):
                         for j in range(nb):
                             dmg[r, j] = d[j]
                         xprev = y
+                        pk = abs(y)
                     elif k == n_skip + 1:
                         xc = y
                         dl = y - xprev
@@ -487,6 +492,7 @@ def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out):
                     sp = _push_bs(stack, sp, val, bs, d)
                     for j in range(nb):
                         dmg[r, j] += d[j]
+                    pk = max(pk, abs(xc))
                 xprev = xc
                 xc = y
                 dl = dn
@@ -494,11 +500,13 @@ def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out):
             xprevs[r] = xprev
             xcs[r] = xc
             dls[r] = dl
+            pks[r] = pk
     for r in range(m):  # the last sample, then the half cycles left on the stack
         stack = stacks[r]
         sp = _push_bs(stack, sps[r], xcs[r], bs, d)
         for j in range(nb):
             out[r, j] = dmg[r, j] + d[j] + residue_damage(stack, sp, bs[j])
+        peak[r] = max(pks[r], abs(xcs[r]))
 
 
 #: Time-domain FDS methods: "ramp" (the samples as a piecewise-linear input) or
@@ -523,7 +531,8 @@ def _sinc2_correct(x: np.ndarray) -> np.ndarray:
 def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], *,
              free_decay: bool = False,
              interpolate_peaks: bool = True, skip_s: float = 0.0,
-             workers: int | None = None, method: str = "ramp") -> np.ndarray:
+             workers: int | None = None, method: str = "ramp",
+             return_peak: bool = False):
     """Fatigue damage spectrum of any time history (shock, measured record, synthesis).
 
     Parameters
@@ -568,11 +577,20 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], 
         3 % of the FDS of the record upsampled 8x by FFT for b = 4 to 12 and
         fs >= 5 fn (tests/dynamics/test_fds_bandlimited.py).
 
+    return_peak : bool
+        Also return, per fn, the largest |pseudo-acceleration| of the counted response
+        (default False; b given as a sequence and method "ramp" only). With
+        ``free_decay=True`` and ``skip_s=0`` it is the maximax pseudo-acceleration SRS,
+        the ERS of :func:`qualplan.dynamics.extreme.ers_shock` (the same ramp-invariant
+        response, peaks at the samples; its free decay runs one period, the peaks after
+        it are lower), from the same filter pass as the damage. [g]
+
     Returns
     -------
     numpy.ndarray, shape (k,), or (len(b), k) for a sequence of b
         D(fn) = sum over rainflow cycles of count (range / 2)^b of the
         pseudo-acceleration response. [g^b]
+        With `return_peak`: the pair (damage, peak [g], shape (k,)).
 
     Warns
     -----
@@ -646,7 +664,14 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], 
 
     nw = workers or os.cpu_count() or 1
     bv = np.asarray(bs, dtype=np.float64) if several else None
+    if return_peak and (not several or method != "ramp"):
+        raise InputError("return_peak", return_peak,
+                         "needs b as a sequence and method 'ramp'")
     if method == "ramp":
+        if return_peak:
+            peak = np.empty(fn.size)
+            d = _fds_run(x, bp, az, n_extra, bv, interpolate_peaks, n_skip, nw, peak)
+            return d, peak
         return _fds_run(x, bp, az, n_extra, bv if several else bs[0], interpolate_peaks,
                         n_skip, nw)
     from qualplan.dynamics.srs import FFT_PAD, fft_upsample
@@ -676,30 +701,39 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], 
     return out
 
 
-def _fds_run(x, bp, az, n_extra, b, interpolate_peaks, n_skip, nw) -> np.ndarray:
+def _fds_run(x, bp, az, n_extra, b, interpolate_peaks, n_skip, nw, peaks=None
+             ) -> np.ndarray:
     """Damage per oscillator (rows of bp, az): shape (k,) for a scalar b, (len(b), k)
-    for an array of b (four oscillators per pass, :func:`_filter_miner_bank`)."""
+    for an array of b (four oscillators per pass, :func:`_filter_miner_bank`, which also
+    writes each oscillator's largest |response| into `peaks` when given)."""
     if isinstance(b, np.ndarray):
         # four oscillators of similar free decay per pass (_filter_miner_bank), the
         # longest groups first so that the threads finish together
         order = np.argsort(-np.asarray(n_extra), kind="stable")
         groups = [order[i:i + 4] for i in range(0, order.size, 4)]
 
-        def bank(idx: np.ndarray) -> np.ndarray:
+        def bank(idx: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
             d = np.empty((idx.size, b.size))
+            pk = np.empty(idx.size)
             _filter_miner_bank(x, np.ascontiguousarray(bp[idx]), np.ascontiguousarray(az[idx]),
                                np.ascontiguousarray(n_extra[idx]), b, interpolate_peaks,
-                               n_skip, d)
-            return d
+                               n_skip, d, pk)
+            return d, pk
 
         out = np.empty((b.size, bp.shape[0]))
+        pk_all = np.empty(bp.shape[0])
         if nw == 1 or len(groups) == 1:
             for idx in groups:
-                out[:, idx] = bank(idx).T
+                d, pk = bank(idx)
+                out[:, idx] = d.T
+                pk_all[idx] = pk
         else:
             with ThreadPoolExecutor(max_workers=nw) as ex:
-                for idx, d in zip(groups, ex.map(bank, groups), strict=True):
+                for idx, (d, pk) in zip(groups, ex.map(bank, groups), strict=True):
                     out[:, idx] = d.T
+                    pk_all[idx] = pk
+        if peaks is not None:
+            peaks[:] = pk_all
         return out
 
     def one(i: int) -> float:

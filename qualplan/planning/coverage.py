@@ -80,12 +80,15 @@ def _record(label, x, dt, times, fn, q, bs) -> Spectra:
         # filter sees at least 20 samples per period
         xs = x if up == 1 else core_signal.upsample(x, up)
         # free decay after the record: a shock's residual response does damage too;
-        # one pass per fn serves every b (the rainflow cycles do not depend on b)
-        d = core_fds.fds_time(xs, dt / up, fn[sel], q, [float(b) for b in bs],
-                              free_decay=True)
+        # one pass per fn serves every b (the rainflow cycles do not depend on b) and
+        # gives the ERS (the maximax pseudo-acceleration of the same response)
+        d, peak = core_fds.fds_time(xs, dt / up, fn[sel], q, [float(b) for b in bs],
+                                    free_decay=True, return_peak=True)
         for j, b in enumerate(bs):
             fds[b][sel] = times * d[j]
-        ers[sel] = core_ers.ers_shock(xs, dt / up, fn[sel], q)
+        ers[sel] = peak
+        for text in core_ers.ers_shock_warnings(xs, dt / up, fn[sel]):
+            warnings.warn(text, AccuracyWarning, stacklevel=2)
     return Spectra(label, fds, ers)
 
 
