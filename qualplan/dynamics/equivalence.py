@@ -86,6 +86,10 @@ class EquivalentRandomTest:
     simplified_fds_margin_db : float or None
         min over fn of 10 log10(FDS(simplified) / target): >= 0 when the
         simplified test still covers the target. [dB]
+    freq_hz, breakpoints_asd_g2_hz : numpy.ndarray or None
+        Breakpoints of the test PSD: fn and `asd_g2_hz`, with the band's edges when
+        `band_hz` was given (:func:`qualplan.dynamics.fatigue.edge_breakpoints`).
+        [Hz], [g^2/Hz]
     """
 
     fn_hz: np.ndarray
@@ -99,11 +103,13 @@ class EquivalentRandomTest:
     simplified_freq_hz: np.ndarray | None = None
     simplified_asd_g2_hz: np.ndarray | None = None
     simplified_fds_margin_db: float | None = None
+    freq_hz: np.ndarray | None = None
+    breakpoints_asd_g2_hz: np.ndarray | None = None
 
 
 def random_test_for_fds(fn_hz, life_fds, test_duration_s: float, q: float, b: float, *,
                         margin_factor: float = 1.0, max_points: int | None = None,
-                        rtol: float = 1e-3) -> EquivalentRandomTest:
+                        rtol: float = 1e-3, band_hz=None) -> EquivalentRandomTest:
     """Random test PSD that produces a life cycle's FDS (times a margin) in a test duration.
 
     Parameters
@@ -123,6 +129,9 @@ def random_test_for_fds(fn_hz, life_fds, test_duration_s: float, q: float, b: fl
         random core's conservative simplification (:func:`qualplan.dynamics.psd.simplify`).
     rtol : float
         Tolerance of the FDS match (default 1e-3; the issue asks 1e-2).
+    band_hz : (float, float), optional
+        Band the test PSD spans; its values at the first and last fn are held flat out
+        to these edges (default: the PSD starts and stops at the first and last fn). [Hz]
 
     Returns
     -------
@@ -134,7 +143,8 @@ def random_test_for_fds(fn_hz, life_fds, test_duration_s: float, q: float, b: fl
 
         G(fn) = [D / (fn T Gamma(1 + b/2))]^(2/b) / (pi fn Q),
 
-    then G <- G (D_target / D_exact(G))^(2/b) until the exact FDS
+    then Newton steps on ln G against the exact narrow-band FDS
+    (:func:`qualplan.dynamics.fatigue.equivalent_psd`) until the exact FDS
     (:func:`qualplan.dynamics.fatigue.fds_random`) is within `rtol` at every fn.
     """
     m = v.positive_scalar("margin_factor", margin_factor)
@@ -142,18 +152,19 @@ def random_test_for_fds(fn_hz, life_fds, test_duration_s: float, q: float, b: fl
     target = v.as_1d_float("life_fds", life_fds) * m
     _same_size("life_fds", target, fn.size)
     t = v.positive_scalar("test_duration_s", test_duration_s)
-    g = fatigue.equivalent_psd(fn, target, t, q, b, rtol=rtol)
-    achieved = fatigue.fds_random(fn, g, t, fn, q, b)
+    g = fatigue.equivalent_psd(fn, target, t, q, b, rtol=rtol, band_hz=band_hz)
+    bf, ba = fatigue.edge_breakpoints(fn, g, band_hz)
+    achieved = fatigue.fds_random(bf, ba, t, fn, q, b)
     err = float(np.max(np.abs(achieved / target - 1.0)))
     sf = sa = margin = None
     if max_points is not None:
         from qualplan.dynamics import psd
 
-        sf, sa = psd.simplify(fn, g, max_points)
+        sf, sa = psd.simplify(bf, ba, max_points)
         d_s = fatigue.fds_random(sf, sa, t, fn, q, b)
         margin = float(np.min(10.0 * np.log10(d_s / target)))
     return EquivalentRandomTest(fn, target, t, float(q), float(b), g, achieved, err,
-                                sf, sa, margin)
+                                sf, sa, margin, bf, ba)
 
 
 @dataclass(frozen=True)

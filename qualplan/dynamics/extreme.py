@@ -32,7 +32,8 @@ from qualplan.dynamics.errors import AccuracyWarning, InputError
 from qualplan.dynamics.sine import Sweep
 from qualplan.dynamics.units import G0_M_S2
 
-__all__ = ["ers_random", "peak_factor", "ers_sine_dwell", "ers_sweep", "ers_shock"]
+__all__ = ["ers_random", "peak_factor", "ers_sine_dwell", "ers_sweep", "ers_shock",
+           "ers_shock_warnings"]
 
 #: Euler-Mascheroni constant (Davenport's correction); defined in :mod:`modal`.
 EULER_GAMMA = modal.EULER_GAMMA
@@ -199,6 +200,35 @@ def ers_sweep(sweep: Sweep, fn_hz, q: float, *, n_res: int = 400) -> np.ndarray:
     r = x / fn[:, None]
     resp = sweep.spec.accel_g(x) / np.sqrt((1 - r * r) ** 2 + (r / q) ** 2)
     return resp.max(axis=1)
+
+
+def ers_shock_warnings(accel_g, dt_s: float, fn_hz) -> tuple[str, ...]:
+    """The AccuracyWarning texts :func:`ers_shock` (pseudo-acceleration, method "ramp")
+    gives for a record: natural frequencies above a tenth of the sample rate, a record
+    that ends while its input is still active. For callers that take the ERS from
+    another pass over the same response (e.g. ``fatigue.fds_time(..., return_peak=True)``).
+
+    Parameters
+    ----------
+    accel_g : array_like
+        Base acceleration, uniformly sampled. [g]
+    dt_s : float
+        Sample step. [s]
+    fn_hz : array_like
+        Natural frequencies. [Hz]
+
+    Returns
+    -------
+    tuple of str
+        The warning texts, as ers_shock words them.
+    """
+    from qualplan.dynamics import sdof_filter
+    from qualplan.dynamics import srs as srs_mod
+
+    x = v.as_1d_float("accel_g", accel_g, min_size=2)
+    fn, _, dt = sdof_filter.check_inputs(fn_hz, 10.0, dt_s)
+    return tuple(t for t in srs_mod._accuracy_warnings(x, fn, dt, "ramp")
+                 if not t.startswith("primary spectrum"))
 
 
 def ers_shock(accel_g, dt_s: float, fn_hz, q: float = 10.0, *,

@@ -58,6 +58,7 @@ __all__ = [
     "life_cycle_fds",
     "equivalent_psd",
     "equivalent_psd_narrow_band",
+    "edge_breakpoints",
     "sweep_severity",
 ]
 
@@ -394,7 +395,7 @@ _BLOCK = 4096
 
 
 @njit(cache=True, nogil=True)
-def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out):
+def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out, peak):
     """:func:`_filter_miner` for up to four oscillators (rows of `bp`, `az`) and several
     Basquin exponents `bs` at once: the response, its reversals and its rainflow cycles
     are the same for every b, only the damage per cycle differs.
@@ -404,7 +405,9 @@ def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out):
     block's responses go through the reversal test and the rainflow stack of their own
     oscillator. Every response sample and every damage sum is computed by the same
     operations, in the same order, as _filter_miner for each b (equal bit for bit). Writes
-    ``out[r, j]``: damage of oscillator r for ``bs[j]``."""
+    ``out[r, j]``: damage of oscillator r for ``bs[j]``, and ``peak[r]``: the largest
+    |response| of the counted samples (the first one, the reversals as sampled and the
+    last one: the extremes of a sampled series lie among them)."""
     m = bp.shape[0]
     n = x.shape[0]
     nb = bs.shape[0]
@@ -431,6 +434,7 @@ def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out):
     xprevs = np.zeros(m)
     xcs = np.zeros(m)
     dls = np.zeros(m)
+    pks = np.zeros(m)
     u0 = u1 = u2 = u3 = 0.0  # y_(k-1)
     v0 = v1 = v2 = v3 = 0.0  # y_(k-2)
     x1 = 0.0
@@ -465,6 +469,7 @@ def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out):
             xprev = xprevs[r]
             xc = xcs[r]
             dl = dls[r]
+            pk = pks[r]
             for kk in range(end):
                 k = start + kk
                 y = buf[r, kk]
@@ -474,6 +479,7 @@ def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out):
                         for j in range(nb):
                             dmg[r, j] = d[j]
                         xprev = y
+                        pk = abs(y)
                     elif k == n_skip + 1:
                         xc = y
                         dl = y - xprev
@@ -486,6 +492,7 @@ def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out):
                     sp = _push_bs(stack, sp, val, bs, d)
                     for j in range(nb):
                         dmg[r, j] += d[j]
+                    pk = max(pk, abs(xc))
                 xprev = xc
                 xc = y
                 dl = dn
@@ -493,11 +500,13 @@ def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out):
             xprevs[r] = xprev
             xcs[r] = xc
             dls[r] = dl
+            pks[r] = pk
     for r in range(m):  # the last sample, then the half cycles left on the stack
         stack = stacks[r]
         sp = _push_bs(stack, sps[r], xcs[r], bs, d)
         for j in range(nb):
             out[r, j] = dmg[r, j] + d[j] + residue_damage(stack, sp, bs[j])
+        peak[r] = max(pks[r], abs(xcs[r]))
 
 
 #: Time-domain FDS methods: "ramp" (the samples as a piecewise-linear input) or
@@ -522,7 +531,8 @@ def _sinc2_correct(x: np.ndarray) -> np.ndarray:
 def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], *,
              free_decay: bool = False,
              interpolate_peaks: bool = True, skip_s: float = 0.0,
-             workers: int | None = None, method: str = "ramp") -> np.ndarray:
+             workers: int | None = None, method: str = "ramp",
+             return_peak: bool = False):
     """Fatigue damage spectrum of any time history (shock, measured record, synthesis).
 
     Parameters
@@ -567,11 +577,20 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], 
         3 % of the FDS of the record upsampled 8x by FFT for b = 4 to 12 and
         fs >= 5 fn (tests/dynamics/test_fds_bandlimited.py).
 
+    return_peak : bool
+        Also return, per fn, the largest |pseudo-acceleration| of the counted response
+        (default False; b given as a sequence and method "ramp" only). With
+        ``free_decay=True`` and ``skip_s=0`` it is the maximax pseudo-acceleration SRS,
+        the ERS of :func:`qualplan.dynamics.extreme.ers_shock` (the same ramp-invariant
+        response, peaks at the samples; its free decay runs one period, the peaks after
+        it are lower), from the same filter pass as the damage. [g]
+
     Returns
     -------
     numpy.ndarray, shape (k,), or (len(b), k) for a sequence of b
         D(fn) = sum over rainflow cycles of count (range / 2)^b of the
         pseudo-acceleration response. [g^b]
+        With `return_peak`: the pair (damage, peak [g], shape (k,)).
 
     Warns
     -----
@@ -645,7 +664,14 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], 
 
     nw = workers or os.cpu_count() or 1
     bv = np.asarray(bs, dtype=np.float64) if several else None
+    if return_peak and (not several or method != "ramp"):
+        raise InputError("return_peak", return_peak,
+                         "needs b as a sequence and method 'ramp'")
     if method == "ramp":
+        if return_peak:
+            peak = np.empty(fn.size)
+            d = _fds_run(x, bp, az, n_extra, bv, interpolate_peaks, n_skip, nw, peak)
+            return d, peak
         return _fds_run(x, bp, az, n_extra, bv if several else bs[0], interpolate_peaks,
                         n_skip, nw)
     from qualplan.dynamics.srs import FFT_PAD, fft_upsample
@@ -675,30 +701,39 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], 
     return out
 
 
-def _fds_run(x, bp, az, n_extra, b, interpolate_peaks, n_skip, nw) -> np.ndarray:
+def _fds_run(x, bp, az, n_extra, b, interpolate_peaks, n_skip, nw, peaks=None
+             ) -> np.ndarray:
     """Damage per oscillator (rows of bp, az): shape (k,) for a scalar b, (len(b), k)
-    for an array of b (four oscillators per pass, :func:`_filter_miner_bank`)."""
+    for an array of b (four oscillators per pass, :func:`_filter_miner_bank`, which also
+    writes each oscillator's largest |response| into `peaks` when given)."""
     if isinstance(b, np.ndarray):
         # four oscillators of similar free decay per pass (_filter_miner_bank), the
         # longest groups first so that the threads finish together
         order = np.argsort(-np.asarray(n_extra), kind="stable")
         groups = [order[i:i + 4] for i in range(0, order.size, 4)]
 
-        def bank(idx: np.ndarray) -> np.ndarray:
+        def bank(idx: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
             d = np.empty((idx.size, b.size))
+            pk = np.empty(idx.size)
             _filter_miner_bank(x, np.ascontiguousarray(bp[idx]), np.ascontiguousarray(az[idx]),
                                np.ascontiguousarray(n_extra[idx]), b, interpolate_peaks,
-                               n_skip, d)
-            return d
+                               n_skip, d, pk)
+            return d, pk
 
         out = np.empty((b.size, bp.shape[0]))
+        pk_all = np.empty(bp.shape[0])
         if nw == 1 or len(groups) == 1:
             for idx in groups:
-                out[:, idx] = bank(idx).T
+                d, pk = bank(idx)
+                out[:, idx] = d.T
+                pk_all[idx] = pk
         else:
             with ThreadPoolExecutor(max_workers=nw) as ex:
-                for idx, d in zip(groups, ex.map(bank, groups), strict=True):
+                for idx, (d, pk) in zip(groups, ex.map(bank, groups), strict=True):
                     out[:, idx] = d.T
+                    pk_all[idx] = pk
+        if peaks is not None:
+            peaks[:] = pk_all
         return out
 
     def one(i: int) -> float:
@@ -814,8 +849,70 @@ def equivalent_psd_narrow_band(fn_hz, fds, duration_s: float, q: float, b: float
     return (d / (fn * t * gamma_fn(1 + b / 2))) ** (2 / b) / (np.pi * fn * q)
 
 
+def edge_breakpoints(fn_hz, asd_g2_hz, band_hz=None) -> tuple[np.ndarray, np.ndarray]:
+    """Breakpoints of an equivalent PSD: its values at fn, held flat to the band's edges.
+
+    Parameters
+    ----------
+    fn_hz : array_like, shape (k,)
+        Natural frequencies, strictly increasing. [Hz]
+    asd_g2_hz : array_like, shape (k,)
+        ASD at fn. [g^2/Hz]
+    band_hz : (float, float), optional
+        Band the PSD must span (f_lo <= fn[0], f_hi >= fn[-1]). [Hz]
+
+    Returns
+    -------
+    (numpy.ndarray, numpy.ndarray)
+        Breakpoint frequencies [Hz] and ASD [g^2/Hz]: fn and the ASD, with f_lo (value
+        of the first fn) before them when f_lo < fn[0] and f_hi (value of the last fn)
+        after them when f_hi > fn[-1].
+
+    Notes
+    -----
+    An environment's content between the band edge and the first (last) natural
+    frequency of a grid still excites that oscillator (its half-power band is fn / Q
+    wide). A PSD that stops at the first fn lacks that content, and its inversion must
+    raise the first breakpoint far above its neighbours to make up for it (rule of this
+    project, docs/methods/equivalence.md; the hold is flat, common practice).
+    """
+    fn = v.as_1d_float("fn_hz", fn_hz)
+    g = v.as_1d_float("asd_g2_hz", asd_g2_hz)
+    if g.size != fn.size:
+        raise InputError("asd_g2_hz", f"{g.size} values", f"must match fn_hz ({fn.size} values)")
+    if band_hz is None:
+        return fn, g
+    try:
+        lo, hi = (float(x) for x in band_hz)
+    except (TypeError, ValueError) as exc:
+        raise InputError("band_hz", band_hz, "must be two frequencies (f_lo, f_hi)") from exc
+    if not (np.isfinite(lo) and np.isfinite(hi)) or lo <= 0 or lo > fn[0] * (1 + 1e-12) \
+            or hi < fn[-1] * (1 - 1e-12):
+        raise InputError("band_hz", band_hz, f"must hold the natural frequencies "
+                         f"{fn[0]:g}-{fn[-1]:g} Hz (0 < f_lo <= fn[0], f_hi >= fn[-1])")
+    below = lo < fn[0] * (1 - 1e-9)
+    above = hi > fn[-1] * (1 + 1e-9)
+    f = np.concatenate([[lo] if below else [], fn, [hi] if above else []])
+    a = np.concatenate([g[:1] if below else [], g, g[-1:] if above else []])
+    return f, a
+
+
+def _narrow_band_log_damage(f, g, fn, q, b, n_head, n_tail):
+    """ln of the narrow-band damage rate (1 s, up to the constant Gamma factor) of the
+    breakpoint PSD (f, g) at fn, and its Jacobian with respect to the ln of the values at
+    fn (the first `n_head` / last `n_tail` breakpoints are flat holds of the edge fn)."""
+    s = sdof.moment_sensitivities(f, g, fn, q)
+    log_d = 0.5 * np.log(s.m2) + 0.5 * (b - 1.0) * np.log(s.m0)
+    jac = 0.5 * s.dm2 / s.m2[:, None] + 0.5 * (b - 1.0) * s.dm0 / s.m0[:, None]
+    if n_head:
+        jac[:, n_head] += jac[:, :n_head].sum(axis=1)
+    if n_tail:
+        jac[:, -n_tail - 1] += jac[:, -n_tail:].sum(axis=1)
+    return log_d, jac[:, n_head:jac.shape[1] - n_tail]
+
+
 def equivalent_psd(fn_hz, fds, duration_s: float, q: float, b: float, *, rtol: float = 1e-3,
-                   max_iter: int = 50) -> np.ndarray:
+                   max_iter: int = 50, band_hz=None) -> np.ndarray:
     """Random test PSD at the natural frequencies whose FDS in a duration matches a target.
 
     Parameters
@@ -836,19 +933,28 @@ def equivalent_psd(fn_hz, fds, duration_s: float, q: float, b: float, *, rtol: f
         target at every fn (default 1e-3; the issue asks 1e-2).
     max_iter : int
         Iteration limit; an AccuracyWarning is emitted when it is reached.
+    band_hz : (float, float), optional
+        Band the PSD spans: the values at the first and last fn are held flat out to
+        these edges (:func:`edge_breakpoints`). Default: the PSD stops at the first and
+        last fn. [Hz]
 
     Returns
     -------
     numpy.ndarray, shape (k,)
-        ASD at fn (log-log interpolated between fn, 0 outside). [g^2/Hz]
+        ASD at fn (log-log interpolated between fn, held to `band_hz`, 0 outside). [g^2/Hz]
 
     Notes
     -----
-    Start from the closed-form inversion (:func:`equivalent_psd_narrow_band`),
-    then iterate G <- G (D_target / D_exact(G))^(2/b), where D_exact is
-    :func:`fds_random` (exact SDOF transfer function, narrow band) of the
-    breakpoint PSD (fn, G). Each step is exact for a locally white PSD
-    (D ~ G^(b/2)); 3 to 6 steps reach 1e-3.
+    Start from the closed-form inversion (:func:`equivalent_psd_narrow_band`), then
+    Newton steps on ln G: with ln D_i = 0.5 ln m2_i + ((b - 1)/2) ln m0_i + const
+    (narrow band, the exact moments of :func:`qualplan.dynamics.sdof.response_moments`),
+    solve J d = ln D_target - ln D(G) with J_ij = d ln D_i / d ln G_j
+    (:func:`qualplan.dynamics.sdof.moment_sensitivities`) and set ln G <- ln G + d,
+    halving d while it does not lower the largest residual. The diagonal-only update
+    G <- G (D_target / D)^(2/b) is Newton's step for a locally white PSD; where the
+    response at one fn depends on several breakpoints (next to the PSD's edges, where
+    half of the resonance lies on one segment) it converges slowly (0.8 per step), the
+    full Jacobian in 3 to 6 steps.
 
     References
     ----------
@@ -859,14 +965,54 @@ def equivalent_psd(fn_hz, fds, duration_s: float, q: float, b: float, *, rtol: f
         raise InputError("fn_hz", fn, "needs at least 2 natural frequencies (PSD breakpoints)")
     v.strictly_increasing("fn_hz", fn)
     target = v.as_1d_float("fds", fds)
-    g = equivalent_psd_narrow_band(fn, target, duration_s, q, b)
+    b = _check_b(b)
+    t = v.positive_scalar("duration_s", duration_s)
+    g = equivalent_psd_narrow_band(fn, target, t, q, b)
+    f0, _ = edge_breakpoints(fn, g, band_hz)
+    n_head = int(f0[0] < fn[0])
+    n_tail = int(f0[-1] > fn[-1])
+    log_target = np.log(target / (t * 2.0 ** (b / 2) * gamma_fn(1 + b / 2)))
+
+    def residual(lg):
+        g_bp = np.exp(np.concatenate([lg[:1]] * n_head + [lg] + [lg[-1:]] * n_tail))
+        log_d, jac = _narrow_band_log_damage(f0, g_bp, fn, q, b, n_head, n_tail)
+        return log_target - log_d, jac
+
+    lg = np.log(g)
+    res, jac = residual(lg)
+    worst = float(np.max(np.abs(np.expm1(res))))
+    slow = steps = 0
     for _ in range(max_iter):
-        d = fds_random(fn, g, duration_s, fn, q, b)
-        ratio = target / d
-        if np.max(np.abs(ratio - 1.0)) <= rtol:
-            return g
-        g = g * ratio ** (2.0 / b)
-    warnings.warn(f"equivalent_psd did not reach rtol={rtol:g} in {max_iter} iterations "
-                  f"(worst FDS ratio {np.max(np.abs(ratio - 1)):.3g})", AccuracyWarning,
-                  stacklevel=2)
-    return g
+        if worst <= rtol:
+            return np.exp(lg)
+        try:
+            step = np.linalg.solve(jac, res)
+        except np.linalg.LinAlgError:
+            step = np.linalg.lstsq(jac, res, rcond=None)[0]
+        step = np.clip(step, -2.0, 2.0)  # at most a factor e^2 per breakpoint and step
+        for _ in range(_HALVINGS):
+            res_new, jac_new = residual(lg + step)
+            worst_new = float(np.max(np.abs(np.expm1(res_new))))
+            if worst_new < worst:
+                break
+            step = 0.5 * step
+        else:
+            break  # no step along Newton's direction lowers the worst error
+        # a target no PSD on these breakpoints reaches: the worst error stops falling
+        slow = slow + 1 if worst_new > _STALL * worst else 0
+        lg, res, jac, worst = lg + step, res_new, jac_new, worst_new
+        steps += 1
+        if slow >= 3:
+            break
+    if worst <= rtol:
+        return np.exp(lg)
+    warnings.warn(f"equivalent_psd did not reach rtol={rtol:g} after {steps} Newton steps "
+                  f"(worst FDS ratio {worst:.3g})", AccuracyWarning, stacklevel=2)
+    return np.exp(lg)
+
+
+#: Step halvings tried along one Newton direction before giving up (equivalent_psd).
+_HALVINGS = 12
+#: A Newton step that keeps the worst error above this fraction of the last makes
+#: little progress; three in a row end the iteration (equivalent_psd).
+_STALL = 0.9

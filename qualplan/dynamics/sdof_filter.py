@@ -21,6 +21,8 @@ pseudo-velocity output is ``wn z`` with the same sign.
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
 from scipy import linalg
 
@@ -103,6 +105,22 @@ def _abs_accel_coefficients(fn: np.ndarray, q: float, dt: float):
 
 
 def _state_numerators(fn: np.ndarray, q: float, dt: float) -> np.ndarray:
+    """FOH numerators of the two states of a normalised oscillator (see
+    :func:`_state_numerators_of`), kept for the last grids asked: the FDS and the ERS
+    of every record of one derivation use the same fn, Q and dt, and the matrix
+    exponentials cost about 3 ms per fn. Read-only array."""
+    return _cached_numerators(np.ascontiguousarray(fn, dtype=np.float64).tobytes(),
+                              float(q), float(dt))
+
+
+@lru_cache(maxsize=32)
+def _cached_numerators(fn_bytes: bytes, q: float, dt: float) -> np.ndarray:
+    out = _state_numerators_of(np.frombuffer(fn_bytes, dtype=np.float64), q, dt)
+    out.flags.writeable = False
+    return out
+
+
+def _state_numerators_of(fn: np.ndarray, q: float, dt: float) -> np.ndarray:
     """FOH numerators of the two states of a normalised oscillator.
 
     The oscillator is written in time tau = t/dt with states

@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 import rainflow as rainflow_ref  # reference library (test-only)
 
-from qualplan.dynamics import fatigue, sdof_filter
+from qualplan.dynamics import extreme, fatigue, sdof_filter
 from qualplan.dynamics.errors import AccuracyWarning, InputError
 
 G0 = 9.80665
@@ -54,8 +54,11 @@ def test_several_b_count_the_reference_rainflow_cycles_exactly():
     bs = np.array([0.0, 4.0, 8.0])
     scale = (2 * np.pi * fn) ** 2 / G0
     out = np.empty((fn.size, bs.size))
+    peak = np.empty(fn.size)
     fatigue._filter_miner_bank(np.ascontiguousarray(x), bz * scale[:, None], az,
-                               np.zeros(fn.size, dtype=np.int64), bs, False, 0, out)
+                               np.zeros(fn.size, dtype=np.int64), bs, False, 0, out, peak)
+    # the largest |response| of the pass (sdof_filter's response, scaled: rounding apart)
+    np.testing.assert_allclose(peak, np.max(np.abs(z), axis=1) * scale, rtol=1e-12)
     for i in range(fn.size):
         cycles = list(rainflow_ref.extract_cycles(z[i] * scale[i]))
         assert out[i, 0] == sum(n for _r, _m, n, *_ in cycles)
@@ -84,3 +87,31 @@ def test_several_b_bad_exponent_named():
         fatigue.fds_time(X, DT, FN, 10.0, [8.0, -1.0])
     with pytest.raises(InputError, match="b"):
         fatigue.fds_time(X, DT, FN, 10.0, [])
+
+
+def test_peak_of_the_fds_pass_is_the_ers():
+    # issue 12 speed: the ERS of a record comes from the FDS's filter pass. Closed form:
+    # the maximax pseudo-acceleration wn^2 max|z| / g0 (fatigue's rel-disp filter scaled
+    # by wn^2 / g0) equals wn x the pseudo-velocity maximax (extreme.ers_shock, the
+    # pseudo-velocity filter = wn x the same rel-disp filter) up to rounding; the peaks
+    # of the free decay after its first period are lower, so ers_shock's one-period
+    # residual and the FDS's 1e-4 decay give the same maximum. The damage is unchanged
+    # bit for bit.
+    t = np.arange(4000) * DT
+    shock = np.where(t < 0.011, 100.0 * np.sin(np.pi * t / 0.011), 0.0)  # half-sine
+    fn = FN[FN < 0.1 / DT]
+    for x in (X, shock):
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", AccuracyWarning)
+            d, peak = fatigue.fds_time(x, DT, fn, 10.0, list(BS), free_decay=True,
+                                       return_peak=True)
+            d_alone = fatigue.fds_time(x, DT, fn, 10.0, list(BS), free_decay=True)
+            ers = extreme.ers_shock(x, DT, fn, 10.0)
+        assert np.array_equal(d, d_alone)
+        np.testing.assert_allclose(peak, ers, rtol=1e-11)
+    # the warnings ers_shock gives are still there for callers that skip it
+    with pytest.warns(AccuracyWarning) as caught:
+        extreme.ers_shock(X, DT, fn, 10.0)
+    assert set(extreme.ers_shock_warnings(X, DT, fn)) == {str(w.message) for w in caught}
+    with pytest.raises(InputError, match="return_peak"):
+        fatigue.fds_time(X, DT, fn, 10.0, 8.0, return_peak=True)

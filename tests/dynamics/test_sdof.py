@@ -123,3 +123,28 @@ def test_bad_input():
         sdof.response_rms(*FLAT, [0.0], 10)
     with pytest.raises(InputError, match="output"):
         sdof.response_rms(*FLAT, [100.0], 10, output="velocity")
+
+
+def test_moment_sensitivities_against_central_differences():
+    # common practice (derivative check): d m_k / d ln G_j by central differences of
+    # response_moments, step 1e-5 in ln G_j (truncation error ~1e-10 of m_k)
+    f = np.array([20.0, 50.0, 80.0, 300.0, 800.0, 2000.0])
+    g = np.array([0.02, 0.1, 0.05, 0.2, 0.08, 0.01])
+    fn = np.geomspace(20.0, 2000.0, 12)
+    s = sdof.moment_sensitivities(f, g, fn, 10.0)
+    m = sdof.response_moments(f, g, fn, 10.0)
+    np.testing.assert_allclose(s.m0, m.m0, rtol=1e-12)
+    np.testing.assert_allclose(s.m2, m.m2, rtol=1e-12)
+    h = 1e-5
+    for j in range(f.size):
+        up, dn = g.copy(), g.copy()
+        up[j] *= math.exp(h)
+        dn[j] *= math.exp(-h)
+        mu, md = sdof.response_moments(f, up, fn, 10.0), sdof.response_moments(f, dn, fn, 10.0)
+        np.testing.assert_allclose(s.dm0[:, j], (mu.m0 - md.m0) / (2 * h), rtol=1e-6,
+                                   atol=1e-9 * m.m0.max())
+        np.testing.assert_allclose(s.dm2[:, j], (mu.m2 - md.m2) / (2 * h), rtol=1e-6,
+                                   atol=1e-9 * m.m2.max())
+    # the derivatives with respect to all breakpoints sum to the moments (m_k is
+    # homogeneous of degree 1 in G: scaling every G_j by e^h scales m_k by e^h)
+    np.testing.assert_allclose(s.dm0.sum(axis=1), m.m0, rtol=1e-12)
