@@ -202,11 +202,13 @@ def ers_sweep(sweep: Sweep, fn_hz, q: float, *, n_res: int = 400) -> np.ndarray:
     return resp.max(axis=1)
 
 
-def ers_shock_warnings(accel_g, dt_s: float, fn_hz) -> tuple[str, ...]:
-    """The AccuracyWarning texts :func:`ers_shock` (pseudo-acceleration, method "ramp")
-    gives for a record: natural frequencies above a tenth of the sample rate, a record
-    that ends while its input is still active. For callers that take the ERS from
-    another pass over the same response (e.g. ``fatigue.fds_time(..., return_peak=True)``).
+def ers_shock_warnings(accel_g, dt_s: float, fn_hz, method: str = "ramp"
+                       ) -> tuple[str, ...]:
+    """The AccuracyWarning texts :func:`ers_shock` (pseudo-acceleration, input model
+    ``method``) gives for a record: natural frequencies beyond the method's verified
+    range, a record that ends while its input is still active, a step or kink that a
+    band-limited reconstruction rings on. For callers that take the ERS from another pass
+    over the same response (e.g. ``fatigue.fds_time(..., return_peak=True)``).
 
     Parameters
     ----------
@@ -216,6 +218,8 @@ def ers_shock_warnings(accel_g, dt_s: float, fn_hz) -> tuple[str, ...]:
         Sample step. [s]
     fn_hz : array_like
         Natural frequencies. [Hz]
+    method : {"ramp", "cubic", "bandlimited"}
+        Input model of the ERS, as in :func:`ers_shock`. [unitless]
 
     Returns
     -------
@@ -227,7 +231,7 @@ def ers_shock_warnings(accel_g, dt_s: float, fn_hz) -> tuple[str, ...]:
 
     x = v.as_1d_float("accel_g", accel_g, min_size=2)
     fn, _, dt = sdof_filter.check_inputs(fn_hz, 10.0, dt_s)
-    return tuple(t for t in srs_mod._accuracy_warnings(x, fn, dt, "ramp")
+    return tuple(t for t in srs_mod._accuracy_warnings(x, fn, dt, method)
                  if not t.startswith("primary spectrum"))
 
 

@@ -579,11 +579,14 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], 
 
     return_peak : bool
         Also return, per fn, the largest |pseudo-acceleration| of the counted response
-        (default False; b given as a sequence and method "ramp" only). With
-        ``free_decay=True`` and ``skip_s=0`` it is the maximax pseudo-acceleration SRS,
-        the ERS of :func:`qualplan.dynamics.extreme.ers_shock` (the same ramp-invariant
-        response, peaks at the samples; its free decay runs one period, the peaks after
-        it are lower), from the same filter pass as the damage. [g]
+        (default False; b given as a sequence). With ``free_decay=True`` and
+        ``skip_s=0`` it is the maximax pseudo-acceleration SRS, the ERS of
+        :func:`qualplan.dynamics.extreme.ers_shock` (method "ramp": the same
+        ramp-invariant response, peaks at the samples; its free decay runs one period,
+        the peaks after it are lower), from the same filter pass as the damage. With
+        method "bandlimited" the peaks are those of the reconstructed response at >= 20
+        samples per period (taken at the samples: at most 1 - cos(pi / 20) = 1.2 % low,
+        measured within 0.5 % of the ERS of the record upsampled 8x). [g]
 
     Returns
     -------
@@ -664,9 +667,8 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], 
 
     nw = workers or os.cpu_count() or 1
     bv = np.asarray(bs, dtype=np.float64) if several else None
-    if return_peak and (not several or method != "ramp"):
-        raise InputError("return_peak", return_peak,
-                         "needs b as a sequence and method 'ramp'")
+    if return_peak and not several:
+        raise InputError("return_peak", return_peak, "needs b as a sequence")
     if method == "ramp":
         if return_peak:
             peak = np.empty(fn.size)
@@ -679,6 +681,7 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], 
     need = FDS_MIN_RATIO * fn * dt
     lf = np.where(need <= 1.0, 1, 2 ** np.ceil(np.log2(np.maximum(need, 1.0)))).astype(int)
     out = np.empty((len(bs), fn.size) if several else fn.size)
+    peak = np.empty(fn.size) if return_peak else None
     top = int(lf.max())
     x_top = fft_upsample(x, top) if top > 1 else None
     for factor in np.unique(lf):
@@ -696,9 +699,12 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], 
             ne = np.ceil(math.log(1e4) / (zeta * 2 * np.pi * fn[idx] * h)).astype(np.int64)
         else:
             ne = np.zeros(idx.size, dtype=np.int64)
+        pk = np.empty(idx.size) if return_peak else None
         out[..., idx] = _fds_run(xs, bpu, azu, ne, bv if several else bs[0],
-                                 interpolate_peaks, skip_up, nw)
-    return out
+                                 interpolate_peaks, skip_up, nw, pk)
+        if return_peak:
+            peak[idx] = pk
+    return (out, peak) if return_peak else out
 
 
 def _fds_run(x, bp, az, n_extra, b, interpolate_peaks, n_skip, nw, peaks=None

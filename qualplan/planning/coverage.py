@@ -84,11 +84,14 @@ def _record(label, x, dt, times, fn, q, bs) -> Spectra:
     if sel.any():
         # free decay after the record: a shock's residual response does damage too;
         # one pass per fn serves every b (the rainflow cycles do not depend on b)
-        d = core_fds.fds_time(x, dt, fn[sel], q, [float(b) for b in bs], free_decay=True,
-                              method="bandlimited")
+        # and gives the ERS (the maximax pseudo-acceleration of the same response)
+        d, peak = core_fds.fds_time(x, dt, fn[sel], q, [float(b) for b in bs],
+                                    free_decay=True, method="bandlimited", return_peak=True)
         for j, b in enumerate(bs):
             fds[b][sel] = times * d[j]
-        ers[sel] = core_ers.ers_shock(x, dt, fn[sel], q, method="bandlimited")
+        ers[sel] = peak
+        for text in core_ers.ers_shock_warnings(x, dt, fn[sel], method="bandlimited"):
+            warnings.warn(text, AccuracyWarning, stacklevel=2)
     return Spectra(label, fds, ers)
 
 
