@@ -218,9 +218,8 @@ def environment_by_id(session: Session, environment_id: int) -> m.Environment:
 
 
 def read_environment(session: Session, env: m.Environment) -> s.EnvironmentRead:
-    latest = RevisionRepository(session).latest(env.id)
     out = s.EnvironmentRead.model_validate(env)
-    out.latest_revision = latest.number if latest else None
+    out.latest_revision = RevisionRepository(session).latest_number(env.id)
     if (w := environment_withdrawal(session, env.id)) is not None:
         out.withdrawn = describe(w)
     return out
