@@ -58,7 +58,7 @@ def _in(column, ids: list[int]):
     per execution cost more than the statement's own parameters (SQLAlchemy compiles
     the statement once per set of programs instead; the statement cache keeps it)."""
     listed = ", ".join(str(int(i)) for i in ids) or "NULL"
-    return column.op("IN")(literal_column(f"({listed})"))
+    return column.op("IN", is_comparison=True)(literal_column(f"({listed})"))
 
 
 @lru_cache(maxsize=1024)
