@@ -7,12 +7,15 @@ from collections.abc import Iterator
 from typing import Annotated
 
 from fastapi import Depends, Header, Query, Request
+from fastapi.concurrency import run_in_threadpool
 from fastapi.security import HTTPAuthorizationCredentials, HTTPBearer
+from fastapi.security.utils import get_authorization_scheme_param
 from sqlalchemy.orm import Session
 
 from qualplan.api.errors import Problem
 from qualplan.planning import access
 from qualplan.planning.access import Actor
+from qualplan.planning.errors import NotAuthenticated
 from qualplan.planning.schemas import Role
 from qualplan.serving import READ_SLOTS, admission, request_session
 
@@ -25,8 +28,12 @@ DEFAULT_LIMIT = 50
 def get_session(
     request: Request, _turn: Annotated[None, Depends(admission, scope="function")]
 ) -> Iterator[Session]:
-    """The request's unit of work (qualplan.serving: commit once, roll back on error)."""
-    yield from request_session(request)
+    """The request's unit of work (qualplan.serving: commit once, roll back on error).
+
+    The caller's bearer token is checked here too, in the thread that opens the session
+    (:func:`_authenticate_early`), and :func:`current_actor` only hands the outcome on: a
+    sync dependency of its own cost a thread hop per request."""
+    yield from request_session(request, on_open=lambda s: _authenticate_early(request, s))
 
 
 SessionDep = Annotated[Session, Depends(get_session, scope="function")]
@@ -37,15 +44,44 @@ bearer = HTTPBearer(
 )
 
 
-def current_actor(
+def _bearer_token(request: Request) -> str | None:
+    """The token of ``Authorization: Bearer <token>`` as HTTPBearer reads it, or None."""
+    scheme, token = get_authorization_scheme_param(request.headers.get("Authorization"))
+    return token if scheme.lower() == "bearer" and token else None
+
+
+def _authenticate_early(request: Request, session: Session) -> None:
+    """Authenticate the bearer token on the request's new session (scoping it to the
+    caller's programs); keep the actor, or the refusal for :func:`current_actor` to raise
+    (a route that does not ask for the caller never sees it)."""
+    token = _bearer_token(request)
+    if token is None:
+        return
+    try:
+        actor = access.authenticate(session, token)
+    except NotAuthenticated as exc:
+        request.state.auth = (token, exc)
+        return
+    request.state.auth = (token, actor)
+    request.state.user = actor.name  # for the request log (api.requestlog)
+
+
+async def current_actor(
     request: Request,
     session: SessionDep,
     credentials: Annotated[HTTPAuthorizationCredentials | None, Depends(bearer)],
 ) -> Actor:
     """The caller; NotAuthenticated (401) without a valid, unrevoked token."""
-    actor = access.authenticate(session, credentials.credentials if credentials else None)
-    request.state.user = actor.name  # for the request log (api.requestlog)
-    return actor
+    token = credentials.credentials if credentials else None
+    early = getattr(request.state, "auth", None)
+    if token is None or early is None or early[0] != token:
+        # no token (refused without the database), or a token the session did not see
+        actor = await run_in_threadpool(access.authenticate, session, token)
+        request.state.user = actor.name
+        return actor
+    if isinstance(early[1], Exception):
+        raise early[1]
+    return early[1]
 
 
 ActorDep = Annotated[Actor, Depends(current_actor)]

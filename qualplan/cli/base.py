@@ -256,8 +256,11 @@ def serve(
         # within 5 s of starting: importing numpy, scipy and numba and checking the schema
         # takes longer on a busy machine, and the processes were restarted for ever
         extra["timeout_worker_healthcheck"] = WORKER_START_S
+    # access_log=False: the service logs every request itself (api.requestlog, with the
+    # request id, user and duration); uvicorn's own line per request doubled the logging.
+    # http/loop "auto": httptools and uvloop (dependencies) parse and loop in C.
     uvicorn.run("qualplan.service:create_service", factory=True, host=host, port=port,
-                log_level="info", workers=workers, **extra)
+                log_level="info", workers=workers, access_log=False, **extra)
 
 
 #: Seconds an API process of `serve --workers N` may take to start and to answer its

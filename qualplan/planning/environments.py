@@ -221,9 +221,8 @@ def read_environment(session: Session, env: m.Environment, *,
                      with_warnings: bool = False) -> s.EnvironmentRead:
     """The environment as every interface shows it; ``with_warnings`` adds the cautions
     about the life cycle it enters (one life-cycle read per axis: not for lists)."""
-    latest = RevisionRepository(session).latest(env.id)
     out = s.EnvironmentRead.model_validate(env)
-    out.latest_revision = latest.number if latest else None
+    out.latest_revision = RevisionRepository(session).latest_number(env.id)
     if (w := environment_withdrawal(session, env.id)) is not None:
         out.withdrawn = describe(w)
     elif with_warnings and env.phase_id is not None and env.kind in lifecycle.TIMED:

@@ -66,6 +66,19 @@ class TokenRepository(Repository[m.ApiToken]):
     def by_hash(self, token_hash: str) -> m.ApiToken | None:
         return self.session.scalar(select(m.ApiToken).where(m.ApiToken.token_hash == token_hash))
 
+    def credentials(self, token_hash: str) -> list[tuple]:
+        """What authenticating with a token needs, in one statement of plain columns (no
+        ORM objects): one row per program membership of the token's user, each
+        ``(revoked_at, user_id, user_name, user_role, user_active, program_id)`` with
+        ``program_id`` None for a user of no program; no row for an unknown token."""
+        tok, usr, mem = (m.ApiToken.__table__, m.User.__table__, m.Membership.__table__)
+        stmt = (select(tok.c.revoked_at, usr.c.id, usr.c.name, usr.c.role, usr.c.active,
+                       mem.c.program_id)
+                .select_from(tok.join(usr, usr.c.id == tok.c.user_id)
+                             .outerjoin(mem, mem.c.user_id == usr.c.id))
+                .where(tok.c.token_hash == token_hash))
+        return [tuple(r) for r in self.session.execute(stmt)]
+
     def by_prefix(self, prefix: str) -> Sequence[m.ApiToken]:
         return self.session.scalars(select(m.ApiToken).where(m.ApiToken.prefix == prefix)).all()
 
@@ -129,6 +142,13 @@ class RevisionRepository:
             .limit(1)
         )
         return None if rid is None else self.session.get(m.EnvironmentRevision, rid)
+
+    def latest_number(self, environment_id: int) -> int | None:
+        """The number of the newest revision (None without any), read as one column: no
+        row loaded, no array unpacked, no hash checked for a number."""
+        return self.session.scalar(
+            select(func.max(m.EnvironmentRevision.number))
+            .where(m.EnvironmentRevision.environment_id == environment_id))
 
     def history(self, environment_id: int) -> Sequence[m.EnvironmentRevision]:
         return self.session.scalars(

@@ -17,7 +17,7 @@ from __future__ import annotations
 
 from functools import lru_cache
 
-from sqlalchemy import event, select
+from sqlalchemy import event, literal_column, select
 from sqlalchemy.orm import ORMExecuteState, Session, with_loader_criteria
 
 from qualplan.store import models as m
@@ -50,6 +50,17 @@ def clear(session: Session) -> None:
     session.info.pop(_KEY, None)
 
 
+def _in(column, ids: list[int]):
+    """``column IN (1, 2, ...)`` with the ids written into the SQL (``IN (NULL)``, true
+    of no row, for none). The ids are integers of this database's own rows (programs
+    the caller is a member of), never user text. Written, not bound: a bound list is an
+    expanding parameter in every statement's cache key, whose matching and expansion
+    per execution cost more than the statement's own parameters (SQLAlchemy compiles
+    the statement once per set of programs instead; the statement cache keeps it)."""
+    listed = ", ".join(str(int(i)) for i in ids) or "NULL"
+    return column.op("IN", is_comparison=True)(literal_column(f"({listed})"))
+
+
 @lru_cache(maxsize=1024)
 def _criteria(ids: frozenset[int]) -> tuple:
     """The loader criteria of a scope, built once per set of programs (they are immutable
@@ -58,11 +69,11 @@ def _criteria(ids: frozenset[int]) -> tuple:
     products = m.Product.__table__
     requirements = m.Requirement.__table__
     environments = m.Environment.__table__
-    product_ids = select(products.c.id).where(products.c.program_id.in_(ids_list))
-    options = [with_loader_criteria(m.Program, m.Program.id.in_(ids_list),
+    product_ids = select(products.c.id).where(_in(products.c.program_id, ids_list))
+    options = [with_loader_criteria(m.Program, _in(m.Program.id, ids_list),
                                     include_aliases=True)]
     for cls in _BY_PROGRAM:
-        options.append(with_loader_criteria(cls, cls.program_id.in_(ids_list),
+        options.append(with_loader_criteria(cls, _in(cls.program_id, ids_list),
                                             include_aliases=True))
     for cls in _BY_PRODUCT:
         options.append(with_loader_criteria(cls, cls.product_id.in_(product_ids),
@@ -71,7 +82,7 @@ def _criteria(ids: frozenset[int]) -> tuple:
     options.append(with_loader_criteria(
         m.EnvironmentRevision, m.EnvironmentRevision.environment_id.in_(env_ids),
         include_aliases=True))
-    req_ids = select(requirements.c.id).where(requirements.c.program_id.in_(ids_list))
+    req_ids = select(requirements.c.id).where(_in(requirements.c.program_id, ids_list))
     for cls in (m.Evidence, m.Waiver):
         options.append(with_loader_criteria(cls, cls.requirement_id.in_(req_ids),
                                             include_aliases=True))

@@ -8,7 +8,7 @@ planning returns (web/common.py holds what they share).
 
 from __future__ import annotations
 
-from fastapi import FastAPI, Request
+from fastapi import FastAPI
 from fastapi.responses import HTMLResponse
 from fastapi.staticfiles import StaticFiles
 
@@ -57,18 +57,43 @@ def mount(
     app.mount(STATIC, StaticFiles(directory=str(data_dir("templates") / "web" / "static")),
               name="web-static")
 
-    @app.middleware("http")
-    async def security_headers(request: Request, call_next):
-        response = await call_next(request)
-        if not request.url.path.startswith("/api/"):
-            response.headers.setdefault(
-                "Content-Security-Policy",
-                "default-src 'self'; img-src 'self' data:; style-src 'self'; "
-                "script-src 'self'; frame-ancestors 'none'; form-action 'self'",
-            )
-            response.headers.setdefault("X-Content-Type-Options", "nosniff")
-            response.headers.setdefault("Referrer-Policy", "same-origin")
-        return response
+    app.add_middleware(SecurityHeaders)
+
+
+#: Headers of every page (not of the API): what the pages may load, no sniffing, no
+#: referrer to other sites.
+PAGE_HEADERS = (
+    (b"content-security-policy",
+     b"default-src 'self'; img-src 'self' data:; style-src 'self'; "
+     b"script-src 'self'; frame-ancestors 'none'; form-action 'self'"),
+    (b"x-content-type-options", b"nosniff"),
+    (b"referrer-policy", b"same-origin"),
+)
+
+
+class SecurityHeaders:
+    """ASGI middleware adding :data:`PAGE_HEADERS` to responses outside ``/api/`` (unless
+    the response set them itself). A plain ASGI middleware, not Starlette's
+    ``BaseHTTPMiddleware``: that one runs every request, the API's too, through a task
+    group and memory streams of its own."""
+
+    def __init__(self, app) -> None:
+        self.app = app
+
+    async def __call__(self, scope, receive, send) -> None:
+        if scope["type"] != "http" or scope.get("path", "").startswith("/api/"):
+            await self.app(scope, receive, send)
+            return
+
+        async def send_with_headers(message) -> None:
+            if message["type"] == "http.response.start":
+                headers = list(message.get("headers", []))
+                present = {k.lower() for k, _v in headers}
+                headers += [(k, v) for k, v in PAGE_HEADERS if k not in present]
+                message = {**message, "headers": headers}
+            await send(message)
+
+        await self.app(scope, receive, send_with_headers)
 
 
 __all__ = ["mount", "ROUTERS", "HTMLResponse"]

@@ -72,6 +72,19 @@ def test_lists_show_only_member_programs(two, admin):
     assert {a["program"]["id"], b["program"]["id"]} <= every
 
 
+def test_a_member_of_no_program_sees_no_rows(two, client, factory):
+    """The row scope of a user without any membership (an empty set of programs) hides
+    every program's rows, lists and single rows alike (common practice: deny by default)."""
+    a = two["a"]
+    nobody = Api(client, Caller(*make_token(factory, Role.viewer)))
+    for path in ("/programs", "/requirements", "/environments"):
+        assert nobody.get(path, params={"limit": 500}).json()["items"] == [], path
+    for path in (f"/programs/{a['program']['id']}", f"/requirements/{a['req']['id']}",
+                 f"/environments/{a['env']['id']}",
+                 f"/environments/{a['env']['id']}/revisions"):
+        assert nobody.get(path, expect=None).status_code == 404, path
+
+
 def test_audit_scoped_to_another_programs_product_is_refused(two, admin):
     a, b = two["a"], two["b"]
     # even an admin, who sees both, may not audit program A over B's product

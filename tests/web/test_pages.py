@@ -49,6 +49,21 @@ def test_pages_need_a_sign_in(browserless, world):
     assert r.headers["location"] == f"/signin?next=%2Fproducts%2F{world.product_id}"
 
 
+def test_pages_carry_the_security_headers_and_the_api_does_not(browserless, users):
+    """Every page (a redirect and the sign-in form alike) says what it may load, no
+    sniffing and no referrer to other sites (OWASP Secure Headers Project); the API's
+    JSON answers do not carry the page policy."""
+    b = browserless()
+    for r in (b.client.get("/signin"), b.client.get("/programs", follow_redirects=False)):
+        assert r.headers["content-security-policy"].startswith("default-src 'self'")
+        assert "frame-ancestors 'none'" in r.headers["content-security-policy"]
+        assert r.headers["x-content-type-options"] == "nosniff"
+        assert r.headers["referrer-policy"] == "same-origin"
+        assert len(r.headers.get_list("content-security-policy")) == 1
+    api = b.client.get("/api/v1/health")
+    assert api.status_code == 200 and "content-security-policy" not in api.headers
+
+
 def test_session_cookie_flags_and_no_token_inside(browserless, users):
     b = browserless()
     b.get("/signin")
