@@ -10,7 +10,7 @@ shaker shock controllers and described in IEST-RP-DTE032::
 One wavelet per natural frequency of the analysis grid. Because N_i is odd,
 every wavelet starts and ends at rest with zero net velocity AND zero net
 displacement, so the sum does too: the record can be played by a shaker
-without drift (domain.md section 11; shown in docs/methods/shock-synthesis.md).
+without drift (closed form; shown in docs/methods/shock-synthesis.md).
 
 The frequencies are fixed; the half-cycle counts N_i and delays tau_i are drawn
 from a seeded random generator; the amplitudes A_i are iterated until the

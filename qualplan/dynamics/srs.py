@@ -643,7 +643,7 @@ class SrsProfile:
 
         References
         ----------
-        Log-log straight lines, amplitude dB (domain.md section 1 conventions).
+        Log-log straight lines, amplitude dB, 20 log10 (common practice).
         """
         f, v = _loglog.from_slopes(freq_edges_hz, start_accel_g, slopes_db_oct, power=False)
         return cls(f, v, q)
@@ -681,7 +681,7 @@ def srs_envelope(profiles) -> SrsProfile:
 
     References
     ----------
-    NASA-HDBK-7005 (2001), envelope of spectra; domain.md section 9 [CP].
+    NASA-HDBK-7005 (2001), envelope of spectra (common practice).
     """
     if isinstance(profiles, SrsProfile):
         profiles = [profiles]
@@ -822,7 +822,7 @@ def tolerance_band(nominal_profile, freq_hz, *, lower_db: float, upper_db: float
 
     References
     ----------
-    Amplitude dB, 20 log10 (domain.md conventions); tolerance bands as in
+    Amplitude dB, 20 log10 (common practice); tolerance bands as in
     MIL-STD-810H Method 516.8 / 517.3 and NASA-STD-7003A [M].
     """
     f = _validate.as_1d_float("freq_hz", freq_hz)
@@ -997,7 +997,7 @@ def check_srs(
     References
     ----------
     MIL-STD-810H (2019) Methods 516.8 and 517.3; NASA-STD-7003A (2011);
-    GSFC-STD-7000B (GEVS); domain.md section 10 (tolerances, [M]).
+    GSFC-STD-7000B (GEVS) (tolerances from memory).
     """
     f = _validate.as_1d_float("freq_hz", freq_hz)
     _validate.all_positive("freq_hz", f)

@@ -24,7 +24,7 @@ MAX_UPLOAD = 64 * 1024
 SETUP = Actor("test-setup", Role.admin)
 
 # GSFC-STD-7000 (GEVS) Table 2.4-3 component acceptance and qualification random levels
-# (domain.md section 1): 10.0 and 14.1 g rms printed.
+# (GSFC-STD-7000 Table 2.4-3): 10.0 and 14.1 g rms printed.
 GEVS_ACC = {"freq_hz": [20.0, 50.0, 800.0, 2000.0], "asd_g2_hz": [0.013, 0.08, 0.08, 0.013]}
 GEVS_QUAL = {"freq_hz": [20.0, 50.0, 800.0, 2000.0], "asd_g2_hz": [0.026, 0.16, 0.16, 0.026]}
 

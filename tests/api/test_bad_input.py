@@ -45,7 +45,7 @@ CSV_OK = b"freq_hz,asd_g2_hz\n20,0.01\n80,0.04\n500,0.04\n2000,0.01\n"
 def test_good_upload_is_stored(eng, world):
     env = _upload(eng, world, CSV_OK, expect=201)
     rev = eng.get(f"/environments/{env['id']}/revisions").json()["items"][0]
-    # NASA-STD-7001B minimum workmanship spectrum, 6.8 g rms printed (domain.md section 1)
+    # NASA-STD-7001B minimum workmanship spectrum, 6.8 g rms printed
     assert rev["summary"]["grms"]["value"] == pytest.approx(6.78, abs=0.01)
     assert "uploaded file psd.csv" in env["provenance"]
     # the same table in (m/s^2)^2/Hz: divided by g0^2 on the way in (g0 = 9.80665 m/s^2)

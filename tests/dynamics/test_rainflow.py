@@ -13,7 +13,7 @@ ASTM_HISTORY = [-2, 1, -3, 5, -1, 3, -4, 4, -2]
 
 
 def test_astm_e1049_worked_example():
-    # ASTM E1049-85 (R2017) sec. 5.4.4 worked example (domain.md check case 12):
+    # ASTM E1049-85 (R2017) sec. 5.4.4 worked example:
     # ranges {3: 0.5, 4: 1.5, 6: 0.5, 8: 1.0, 9: 0.5} (4 cycles in total).
     c = rainflow.count(ASTM_HISTORY)
     totals = {}

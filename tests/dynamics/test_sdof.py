@@ -19,7 +19,7 @@ WORKMANSHIP = ([20.0, 80.0, 500.0, 2000.0], [0.01, 0.04, 0.04, 0.01])
 @pytest.mark.parametrize(
     "psd, fn, q, miles, exact, z_exact_mm",
     [
-        # domain.md sec. 3 table (Miles 1954; exact by adaptive quadrature) [R]
+        # Miles 1954; exact by adaptive quadrature (recomputed)
         (FLAT, 100.0, 10.0, 7.9267, 7.9143, 0.19561),
         (GEVS_QUAL, 100.0, 10.0, 15.8533, 15.7381, 0.38897),
         (GEVS_QUAL, 300.0, 10.0, 27.4587, 27.4855, 0.07549),
@@ -80,7 +80,7 @@ def test_quadrature_converged():
 
 def test_infinite_white_band_limits():
     # closed form: for white noise over a very wide band the pseudo-acceleration
-    # rms equals Miles and abs accel is Miles * sqrt(1 + 1/Q^2) (domain.md sec. 3)
+    # rms equals Miles and abs accel is Miles * sqrt(1 + 1/Q^2) (closed form)
     f, g = [0.01, 1e6], [0.04, 0.04]
     with warnings.catch_warnings():
         warnings.simplefilter("error")
@@ -92,7 +92,7 @@ def test_infinite_white_band_limits():
 
 
 def test_zero_up_rate_narrow_band():
-    # domain.md sec. 6: exact-NB check uses n0+ = 100.49 Hz for flat 0.04, fn 100, Q 10 [R]
+    # Rice (1944-45) n0+ = sqrt(m2/m0): 100.49 Hz for flat 0.04, fn 100, Q 10 (recomputed)
     m = sdof.response_moments(*FLAT, [100.0], 10.0)
     assert m.zero_up_rate_hz[0] == pytest.approx(100.49, abs=0.005)
 

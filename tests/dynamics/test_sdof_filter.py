@@ -21,7 +21,7 @@ def _cont2discrete(fn, q, dt, output):
 
 
 def test_smallwood_coefficients_check_case_9():
-    # domain.md check #9: Smallwood 1981 / ISO 18431-4 [M], = scipy 'foh' [R]
+    # Smallwood 1981 / ISO 18431-4 (from memory), = scipy 'foh' (recomputed)
     b, a = sf.coefficients([100.0], 10.0, 1e-4)
     np.testing.assert_allclose(b[0], [0.0037908042, 0.0026160496, -0.0024726832], atol=1e-9)
     np.testing.assert_allclose(a[0], [1.0, -1.989802342, 0.9937365126], atol=1e-9)
@@ -37,7 +37,7 @@ def test_abs_accel_equals_scipy_foh(fn):
 
 
 def test_rel_disp_check_case_9():
-    # domain.md section 5 [R]: numerator -1 (input m/s^2) gives
+    # scipy cont2discrete 'foh' (recomputed): numerator -1 (input m/s^2) gives
     # b = [-1.6637e-9, -6.6431e-9, -1.6585e-9]; our input is in g, so x g0.
     b, a = sf.coefficients([100.0], 10.0, 1e-4, output="rel_disp")
     expected = np.array([-1.6637e-9, -6.6431e-9, -1.6585e-9]) * G0_M_S2

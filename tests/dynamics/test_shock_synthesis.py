@@ -86,7 +86,7 @@ def test_tighter_tolerance_and_coarser_grid():
 
 @pytest.mark.parametrize("n", [3, 5, 7, 9])
 def test_odd_wavelet_zero_end_velocity_displacement(n):
-    # domain.md section 11 [R]: N odd -> zero end velocity and displacement (~1e-17);
+    # closed form (recomputed): N odd -> zero end velocity and displacement (~1e-17);
     # here at 400 points per cycle the sampling residue is far below 1e-6 of the peaks
     f, dt = 100.0, 1 / 40000.0
     t = np.arange(int(n / (2 * f) / dt) + 3) * dt

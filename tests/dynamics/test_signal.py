@@ -53,7 +53,7 @@ def test_dof_and_random_error():
 
 
 def test_synthesised_record_grms_within_random_error():
-    # GSFC-STD-7000 qualification PSD (14.1356 g rms, domain.md section 1) synthesised, then
+    # GSFC-STD-7000 qualification PSD (14.1356 g rms, Table 2.4-3) synthesised, then
     # estimated: line scatter matches eps_r = 1/sqrt(n_d) and g rms is within the expected
     # random error (far smaller than one line's, since all lines average)
     spec = ([20.0, 50.0, 800.0, 2000.0], [0.026, 0.16, 0.16, 0.026])
@@ -73,7 +73,7 @@ def test_synthesised_record_grms_within_random_error():
     b_s = np.trapezoid(gg, ff) ** 2 / np.trapezoid(gg ** 2, ff)
     sigma_rms = 0.5 / math.sqrt(b_s * 60.0)
     g = math.sqrt(np.sum(r.asd_g2_hz) * r.resolution_hz)
-    assert g == pytest.approx(14.1356, rel=3 * sigma_rms)  # GSFC-STD-7000 qual, domain.md s.1
+    assert g == pytest.approx(14.1356, rel=3 * sigma_rms)  # GSFC-STD-7000 qual
     assert r.grms == pytest.approx(x.std(), rel=1e-3)  # Parseval with Hann (closed form)
 
 

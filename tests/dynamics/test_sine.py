@@ -15,7 +15,7 @@ G0 = 9.80665
 @pytest.mark.parametrize(
     "f1, f2, rate, t_s, cycles",
     [
-        # domain.md sec. 4 table (closed form [R])
+        # closed form (log sweep, recomputed)
         (5.0, 100.0, 2.0, 129.66, 4111.7),
         (5.0, 100.0, 4.0, 64.83, 2055.8),
         (20.0, 2000.0, 1.0, 398.63, 171392),
@@ -28,7 +28,7 @@ def test_log_sweep_time_and_cycles(f1, f2, rate, t_s, cycles):
 
 
 def test_half_power_cycles():
-    # domain.md sec. 4: N_hp = 60 fn / (R Q ln 2) = 432.8 cycles, 4.33 s (fn 100, Q 10, 2 oct/min)
+    # closed form: N_hp = 60 fn / (R Q ln 2) = 432.8 cycles, 4.33 s (fn 100, Q 10, 2 oct/min)
     sw = sine.Sweep(sine.sine_spec(5, 500, [("acceleration", 1.0)]), 2.0)
     lo, hi = 100 * (1 - 1 / 20), 100 * (1 + 1 / 20)
     assert sw.cycles_in_band(lo, hi) == pytest.approx(432.8, abs=0.05)
@@ -61,7 +61,8 @@ def test_sweep_directions_counts_and_time_per_band():
 
 
 def test_crossovers_domain_values():
-    # domain.md sec. 4: 0.5 in DA / 10 g -> 19.78 Hz; 12.7 mm DA / 1 g -> 6.254 Hz
+    # closed form f = sqrt(A / (0.0511 DA)): 0.5 in DA / 10 g -> 19.78 Hz;
+    # 12.7 mm DA / 1 g -> 6.254 Hz
     f = sine.crossover_hz("displacement", 0.25 * IN, "acceleration", 10.0)
     assert f == pytest.approx(19.78, abs=0.005)
     spec = sine.sine_spec(5, 100, [("displacement", 12.7e-3 / 2), ("acceleration", 1.0)])
@@ -73,7 +74,7 @@ def test_crossovers_domain_values():
 
 
 def test_amplitude_relations():
-    # domain.md sec. 4: 10 g at 20 Hz -> X_pk 6.210 mm, DA 12.420 mm (0.4890 in), V_pk 0.7804 m/s
+    # closed form: 10 g at 20 Hz -> X_pk 6.210 mm, DA 12.420 mm (0.4890 in), V_pk 0.7804 m/s
     spec = sine.SineSpec((sine.SineBand.acceleration(10, 100, 10.0),))
     assert spec.displacement_m(20.0) * 1e3 == pytest.approx(6.210, abs=5e-4)
     assert 2 * spec.displacement_m(20.0) / IN == pytest.approx(0.4890, abs=5e-5)

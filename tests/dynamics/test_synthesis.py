@@ -14,7 +14,7 @@ GEVS_QUAL = ([20.0, 50.0, 800.0, 2000.0], [0.026, 0.16, 0.16, 0.026])
 
 def test_rms_equals_profile_grms():
     # closed form: the record's mean square is the PSD area on the FFT grid (df = 0.05 Hz here),
-    # within O(df / f_min) of the exact area; GEVS qual 14.1356 g rms (domain.md section 1)
+    # within O(df / f_min) of the exact area; GEVS qual 14.1356 g rms (GSFC-STD-7000)
     x = gaussian_from_psd(*GEVS_QUAL, 20.0, 8192.0, rng=np.random.default_rng(0))
     assert x.size == 163840
     assert abs(x.mean()) < 1e-12

@@ -13,7 +13,7 @@ from qualplan.store import models as m
 from qualplan.store.repositories import EventRepository
 
 # GSFC-STD-7000 (GEVS) Table 2.4-3 component qualification, printed 14.1 g rms
-# (domain.md section 1; recomputed 14.1356 g rms).
+# (GSFC-STD-7000 Table 2.4-3; recomputed 14.1356 g rms).
 GEVS_QUAL = {"freq_hz": [20.0, 50.0, 800.0, 2000.0], "asd_g2_hz": [0.026, 0.16, 0.16, 0.026]}
 GEVS_ACC = {"freq_hz": [20.0, 50.0, 800.0, 2000.0], "asd_g2_hz": [0.013, 0.08, 0.08, 0.013]}
 
@@ -36,7 +36,7 @@ def test_create_revise_history_compare(session, engineer, unit, road):
     assert hist[1].summary["grms"]["unit"] == "g rms"
     cmp = envs.compare(session, env.id, 1, 2)
     # Qualification is exactly twice acceptance in PSD at every breakpoint: +3.0103 dB
-    # everywhere (closed form, domain.md section 1).
+    # everywhere (closed form).
     assert cmp.max_difference_db == pytest.approx(10 * math.log10(2), abs=1e-9)
     actions = [e.action for e in EventRepository(session).list(entity="environment",
                                                                  entity_id=env.id)]
@@ -84,7 +84,7 @@ def test_sine_and_shock_environments(session, engineer, unit, road):
             {"f_lo_hz": 20.0, "f_hi_hz": 100.0, "quantity": "acceleration", "amplitude": 2.0}],
             "sweep": {"rate_oct_per_min": 2.0, "direction": "up", "sweeps": 1}}))
     hist = envs.history(session, sine.id)
-    # sweep 5-100 Hz at 2 oct/min: 60 log2(20) / 2 = 129.66 s (domain.md check case 8)
+    # sweep 5-100 Hz at 2 oct/min: 60 log2(20) / 2 = 129.66 s (closed form)
     assert hist[0].summary["sweep_time"]["value"] == pytest.approx(129.66, abs=0.01)
     shock = envs.create_environment(session, engineer, s.EnvironmentCreate(
         product_id=unit.id, phase_id=road.id, name="drop", kind=m.EnvironmentKind.shock,

@@ -55,7 +55,7 @@ def test_random_level_margin_duration_floor_and_coverage(session, engineer, unit
     r = level.result
     # GEVS qualification: limit + 3 dB, 120 s per axis, never below workmanship + 3 dB
     # (GSFC-STD-7000B Table 2.4-1, from memory); the floor's overall level is 9.59 g rms
-    # (NASA-STD-7001B workmanship 6.78 g rms x sqrt(2), domain.md section 1).
+    # (NASA-STD-7001B workmanship 6.78 g rms x sqrt(2), closed form).
     assert r["duration_s"] == 120.0
     assert r["grms"] >= 6.7842 * math.sqrt(2) * (1 - 1e-9)
     assert [st["step"] for st in r["steps"]][:2] == ["maximum envelope",
@@ -300,7 +300,7 @@ def test_shock_test_record_outside_points_are_not_judged(session, engineer, unit
 def test_fds_equivalent_random_level_compresses_the_life(session, engineer, unit, program):
     """Flat 0.04 g^2/Hz for one hour, as an acceptance test of 60 s (GEVS policy):
     under the narrow-band model G_test = G_env (T_env / T_test)^(2/b), independent of fn
-    (domain.md section 6: 0.04 x 60^(1/4) = 0.111326 for b = 8). The policy's smallest b
+    (Lalanne vol. 5, closed form: 0.04 x 60^(1/4) = 0.111326 for b = 8). The policy's smallest b
     (4) governs: 0.04 x 60^(1/2) = 0.30984 g^2/Hz; the test covers the life's FDS."""
     from qualplan.planning import catalog
 

@@ -53,7 +53,7 @@ def test_engineer_story(new_page, users, world, shots):
     # upload an environment CSV with its units chosen explicitly
     upload_file(page, world.product_id, "flight Z", WORKMANSHIP_CSV, phase=world.phase)
     page.wait_for_url("**/environments/*")
-    # NASA-STD-7001B workmanship spectrum: 6.8 g rms printed, 6.784 exact (domain.md 1)
+    # NASA-STD-7001B workmanship spectrum: 6.8 g rms printed, 6.784 exact (closed form)
     assert "6.784 g rms" in page.locator("dl.summary").inner_text()
     plot = page.locator("#plot-env")
     assert plot.locator("path.curve").count() == 1

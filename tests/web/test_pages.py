@@ -16,7 +16,7 @@ from qualplan.web import auth
 from tests.web.conftest import SETUP, unique
 
 # NASA-STD-7001B minimum workmanship random vibration: 20-80 Hz +3 dB/oct, 80-500 Hz
-# 0.04 g^2/Hz, 500-2000 Hz -3 dB/oct; 6.8 g rms printed (domain.md section 1).
+# 0.04 g^2/Hz, 500-2000 Hz -3 dB/oct; 6.8 g rms printed (NASA-STD-7001B).
 WORKMANSHIP_CSV = b"frequency [Hz],ASD [g^2/Hz]\n20,0.01\n80,0.04\n500,0.04\n2000,0.01\n"
 ALERT = re.compile(r'role="alert"[^>]*>(.*?)</div>', re.S)
 
@@ -268,7 +268,7 @@ def test_upload_plot_summary_and_downloads(browserless, users, world):
     b = browserless(users["engineer"])
     r = upload(b, world, name="flight Z")
     assert r.status_code == 200 and "/environments/" in str(r.url)
-    # NASA-STD-7001B workmanship: 6.8 g rms printed; 6.784 g rms exact (domain.md section 1)
+    # NASA-STD-7001B workmanship: 6.8 g rms printed; 6.784 g rms exact (closed form)
     assert "6.784 g rms" in r.text
     assert 'type="application/json"' in r.text and "g²/Hz" in r.text
     env_id = int(str(r.url).rstrip("/").split("/")[-1])
@@ -448,7 +448,7 @@ def test_oversize_upload_is_a_page_and_nothing_stored(browserless, users, world,
 def test_time_history_page_shows_its_psd_and_srs(browserless, users, world, factory):
     """A record is plotted as spectra: its maximax PSD and its maximax SRS (Q = 10). A
     half-sine of 50 g, 1 ms: the SRS tends to the peak input at high natural frequency
-    (domain.md check case 11: SRS(10 kHz) -> the input's peak)."""
+    (Harris ch. 8 high-frequency asymptote: SRS(10 kHz) -> the input's peak)."""
     import numpy as np
 
     fs = 100_000.0
