@@ -823,7 +823,7 @@ def tolerance_band(nominal_profile, freq_hz, *, lower_db: float, upper_db: float
     References
     ----------
     Amplitude dB, 20 log10 (common practice); tolerance bands as in
-    MIL-STD-810H Method 516.8 / 517.3 and NASA-STD-7003A [M].
+    MIL-STD-810H Method 516.8 / 517.3 and NASA-STD-7003A (from memory).
     """
     f = _validate.as_1d_float("freq_hz", freq_hz)
     lo, hi = _band("lower_db", lower_db, "upper_db", upper_db)
@@ -992,7 +992,7 @@ def check_srs(
     the band ``min(upper_db - dev, dev - lower_db)``; the worst point has
     the least margin. Example rules: MIL-STD-810H 516.8 -1.5/+3 dB over
     >= 90 % with the rest within -3/+6 dB; NASA-STD-7003A +/-6 dB with
-    >= 50 % at or above nominal [M, verify against the printed documents].
+    >= 50 % at or above nominal (from memory, to verify against the printed documents).
 
     References
     ----------

@@ -89,7 +89,7 @@ def test_half_sine_table_all_kinds():
     np.testing.assert_allclose(res.maximax_g, maximax, rtol=1e-3)
     # the PV row is printed with 3 decimals: half a unit of the last digit
     np.testing.assert_allclose(res.pseudo_vel_m_s, pv, rtol=1e-3, atol=5e-4)
-    # residual at 100 Hz: 74.6/87.3 (+/-) -> maximax residual 87.3 [R]
+    # residual at 100 Hz: 74.6/87.3 (+/-) -> maximax residual 87.3 (recomputed)
     assert res.residual_g[7] == pytest.approx(87.3, rel=2e-3)
     np.testing.assert_allclose(res.maximax_g, np.maximum(res.primary_g, res.residual_g))
     np.testing.assert_allclose(res.maximax_g, np.maximum(res.positive_g, res.negative_g))
@@ -97,7 +97,8 @@ def test_half_sine_table_all_kinds():
 
 @pytest.mark.parametrize("fn", [10.0, 30.0, 60.0])
 def test_undamped_residual_closed_form(fn):
-    # Harris ch. 8 closed form [M][R]: SRS_res/A = |4 fn T cos(pi fn T)/(1 - 4 fn^2 T^2)|
+    # Harris ch. 8 closed form (from memory; recomputed):
+    # SRS_res/A = |4 fn T cos(pi fn T)/(1 - 4 fn^2 T^2)|
     got = S.srs(_half_sine(2e-6), 2e-6, [fn], 1e6, kind="residual")[0]
     x = fn * T_S
     assert got / A_G == pytest.approx(abs(4 * x * np.cos(np.pi * x) / (1 - 4 * x * x)), rel=1e-4)
@@ -119,7 +120,7 @@ def test_terminal_peak_sawtooth_exact(fn):
 def test_low_frequency_asymptote():
     # closed form: for fn T << 1 the pulse acts as an impulse dV = 2 A T / pi;
     # undamped SRS -> wn dV (closed form); damped: max|x''| of the impulse
-    # response dV e^{-s t}(...) evaluated densely here (0.9312 wn dV for Q = 10 [R])
+    # response dV e^{-s t}(...) evaluated densely here (0.9312 wn dV for Q = 10, recomputed)
     dv_g_s = 2 * A_G * T_S / np.pi
     assert dv_g_s * G0_M_S2 == pytest.approx(6.8674, rel=1e-4)  # closed form 2AT/pi
     fn = 0.2
@@ -328,7 +329,7 @@ def _measured(dev_db):
 
 
 def test_check_srs_every_point_rule():
-    # closed form: deviations built in dB, +/-6 dB band (NASA-STD-7003A style [M])
+    # closed form: deviations built in dB, +/-6 dB band (NASA-STD-7003A style, from memory)
     f = S.octave_grid(100.0, 10000.0, 6)
     dev = np.zeros(f.size)
     dev[::2] = 2.0
@@ -358,7 +359,7 @@ def test_check_srs_every_point_rule():
 
 
 def test_check_srs_share_rule_and_fraction_above():
-    # MIL-STD-810H 516.8 style [M]: -1.5/+3 dB over >= 90 %, the rest within -3/+6 dB
+    # MIL-STD-810H 516.8 style (from memory): -1.5/+3 dB over >= 90 %, the rest within -3/+6 dB
     f = S.octave_grid(100.0, 10000.0, 6)  # 39 points
     dev = np.full(f.size, 1.0)
     dev[:3] = 4.5  # 3 of 39 outside the band, inside the outer band: 92 % within
