@@ -27,7 +27,6 @@ from qualplan.dynamics._validate import as_1d_float, positive_scalar
 from qualplan.dynamics.errors import InputError
 
 __all__ = [
-    "upsample",
     "WelchPsd",
     "MaximaxPsd",
     "welch_psd",
@@ -478,33 +477,3 @@ def maximax_psd(accel_g, fs_hz: float, *, window_s: float = 1.0,
         n_averages=n_d, dof=dof, random_error=err,
         grms_max=math.sqrt(float(np.max(pw.sum(axis=1))) * df), fs_hz=fs,
     )
-
-
-def upsample(accel_g, factor: int) -> np.ndarray:
-    """Band-limited upsampling of a record by an integer factor.
-
-    Parameters
-    ----------
-    accel_g : array_like
-        Samples [g], uniformly sampled.
-    factor : int
-        Upsampling factor (>= 1) [unitless]; the new sample step is dt / factor.
-
-    Returns
-    -------
-    numpy.ndarray
-        ``factor * n`` samples [g].
-
-    Notes
-    -----
-    Polyphase interpolation with a Kaiser-windowed anti-imaging FIR
-    (``scipy.signal.resample_poly``; Crochiere & Rabiner, Multirate Digital Signal
-    Processing, 1983): content below about 0.4 of the original sample rate is kept,
-    images above it are removed.
-    """
-    x = as_1d_float("accel_g", accel_g, min_size=2)
-    if isinstance(factor, bool) or not isinstance(factor, int) or factor < 1:
-        raise InputError("factor", factor, "must be a whole number >= 1")
-    if factor == 1:
-        return x
-    return scipy.signal.resample_poly(x, factor, 1)

@@ -72,11 +72,12 @@ def _sweep(label, sweep: core_sine.Sweep, times: float, fn, q, bs) -> Spectra:
 
 def _record(label, x, dt, times, fn, q, bs) -> Spectra:
     """FDS and ERS of a sampled record (the samples of a band-limited signal) for fn up
-    to RECORD_FN_MAX of its sample rate, none above. Both take the record as band-limited
-    (fatigue.fds_time / extreme.ers_shock ``method="bandlimited"``: FFT reconstruction
-    where fs < 20 fn; within 3 % of the FDS of the record upsampled 8x for b = 4 to 12
-    and fs >= 5 fn, docs/methods/between-samples.md). The piecewise-linear input model
-    read a band-limited random record's FDS 20 % low at fs = 13.6 fn (b = 12)."""
+    to RECORD_FN_MAX of its sample rate, none above, in one pass of
+    ``fatigue.fds_time(method="bandlimited", return_peak=True)``: FFT reconstruction where
+    fs < 20 fn; the FDS within 3 % of that of the record upsampled 8x for b = 4 to 12 and
+    fs >= 5 fn, the ERS (peaks of the same response) within 1.2 %
+    (docs/methods/between-samples.md, fatigue.md). The piecewise-linear input model read a
+    band-limited random record's FDS 20 % low at fs = 13.6 fn (b = 12)."""
     fn = np.asarray(fn, float)
     sel = fn <= RECORD_FN_MAX / dt * (1 + 1e-9)
     fds = {b: np.zeros_like(fn) for b in bs}
