@@ -12,7 +12,9 @@ Both interfaces depend on this module; neither imports the other.
 
 from __future__ import annotations
 
+import uuid
 from collections.abc import AsyncIterator, Callable, Iterator
+from pathlib import Path
 
 from fastapi import Request
 from sqlalchemy.orm import Session
@@ -83,3 +85,9 @@ def request_session(request: Request,
         if on_open is not None:
             on_open(session)
         yield session
+
+
+def job_folder(request: Request) -> str:
+    """A fresh folder under the serving process's job files folder (``job_files_dir``,
+    shared with the workers), for the files of one document job."""
+    return str(Path(request.app.state.settings.job_files_dir) / uuid.uuid4().hex)

@@ -2,9 +2,7 @@
 
 from __future__ import annotations
 
-import uuid
 from collections.abc import Callable
-from pathlib import Path
 from typing import Any
 
 from fastapi import APIRouter, Request
@@ -14,6 +12,7 @@ from starlette.concurrency import run_in_threadpool
 from qualplan.planning import approvals, documents, jobs
 from qualplan.planning import schemas as s
 from qualplan.reports import file_stem
+from qualplan.serving import job_folder
 from qualplan.web.common import (
     Ctx,
     CtxDep,
@@ -67,10 +66,9 @@ def audit_pdf(program_id: int, ctx: Ctx = CtxDep):
 def _issue_job(request: Request, ctx: Ctx, **fields) -> str:
     """Queue the issue of a document (its revision is recorded by the job) and go to the
     job's page, which follows its progress and links its files."""
-    folder = Path(request.app.state.settings.job_files_dir) / uuid.uuid4().hex
     runner = request.app.state.jobs
     job = jobs.submit_document(ctx.db, ctx.actor,
-                               jobs.DocumentJob(out_dir=str(folder), **fields),
+                               jobs.DocumentJob(out_dir=job_folder(request), **fields),
                                runner=runner.name)
     job_id = job.id
     jobs.after_commit(ctx.db, lambda: runner.dispatch(job_id))

@@ -4,7 +4,6 @@ of documents issued (with the hashes they were made from)."""
 from __future__ import annotations
 
 import tempfile
-import uuid
 from datetime import datetime
 from pathlib import Path
 from typing import Annotated, Any
@@ -19,6 +18,7 @@ from qualplan.planning import approvals, documents, jobs
 from qualplan.planning import schemas as s
 from qualplan.planning.inputs import Id, Line, Text
 from qualplan.reports import PdfRenderer, file_stem, pdf_bytes
+from qualplan.serving import job_folder
 
 router = APIRouter(tags=["documents"])
 
@@ -115,13 +115,8 @@ def baseline(session: SessionDep, _: ReaderDep, product_id: int,
     return documents.default_baseline(session, product_id, grade)
 
 
-def _job_folder(request: Request) -> str:
-    """A fresh folder under the job files folder (shared with the workers)."""
-    return str(Path(request.app.state.settings.job_files_dir) / uuid.uuid4().hex)
-
-
 def _document_job(request: Request, session, actor, **fields) -> JSONResponse:
-    doc = jobs.DocumentJob(out_dir=_job_folder(request), **fields)
+    doc = jobs.DocumentJob(out_dir=job_folder(request), **fields)
     return accepted(request, session, jobs.submit_document(session, actor, doc,
                                                            runner=runner_name(request)))
 
