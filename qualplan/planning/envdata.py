@@ -526,7 +526,9 @@ class RecordSpectra:
 def record_spectra(spec: dict[str, Any], array: np.ndarray, *, q: float = 10.0
                    ) -> RecordSpectra:
     """Maximax PSD (1 s windows, qualplan.dynamics.signal) up to 0.4 fs, and the maximax
-    SRS at Q (1/6-octave grid from 10 Hz to min(10 kHz, fs/10)) of a record [g]."""
+    SRS at Q (1/6-octave grid from 10 Hz to min(10 kHz, fs/5), band-limited input model
+    with peaks between samples: qualplan.dynamics.srs method="bandlimited") of a record
+    [g]."""
     from qualplan.dynamics import signal as core_signal
 
     x, dt = np.asarray(array, float), float(spec["dt_s"])
@@ -534,8 +536,8 @@ def record_spectra(spec: dict[str, Any], array: np.ndarray, *, q: float = 10.0
         window = min(1.0, 0.5 * x.size * dt)
         est = core_signal.maximax_psd(x, 1.0 / dt, window_s=window)
         keep = (est.freq_hz > 0) & (est.freq_hz <= 0.4 / dt) & (est.asd_g2_hz > 0)
-        fn = core_srs.octave_grid(10.0, min(10_000.0, 0.1 / dt), 6)
-        values = core_srs.srs(x, dt, fn, q=q, kind="maximax")
+        fn = core_srs.octave_grid(10.0, min(10_000.0, 0.2 / dt), 6)
+        values = core_srs.srs(x, dt, fn, q=q, kind="maximax", method="bandlimited")
     note = (f"maximax of {est.n_windows} windows of {est.window_s:g} s, "
             f"{est.resolution_hz:.3g} Hz lines, {est.dof:.0f} degrees of freedom per window")
     return RecordSpectra(est.freq_hz[keep], est.asd_g2_hz[keep], note, fn, values, q)

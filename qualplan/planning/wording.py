@@ -167,9 +167,19 @@ def step_sentence(step: Step, *, grade: str | None = None, policy: str | None = 
         return (f"P95/50 of {count(int(v.get('n', 0)), 'spectrum', 'spectra')} "
                 f"(k = {number(v.get('k_factor'))}; {step.method or 'normal tolerance limit'})")
     if what == "conservative simplification":
-        return (f"conservative simplification to at most "
+        text = (f"conservative simplification to at most "
                 f"{count(int(v.get('max_breakpoints', 0)), 'breakpoint')}: "
                 f"{decibels(v.get('excess_db', 0.0))} over the combined spectrum")
+        if v.get("worst_local_excess_db") is not None:
+            text += (f" (rms over frequency; at most {decibels(v['worst_local_excess_db'])} "
+                     f"at one frequency, {frequency(v.get('worst_local_excess_at_hz'))})")
+        return text
+    if what == "SRS of the record":
+        notes = v.get("accuracy_notes") or []
+        return (f"maximax SRS of {_inputs(step)} (Q = {number(v.get('q'))}, "
+                f"{frequency(v.get('f_lo_hz'))} to {frequency(v.get('f_hi_hz'))}, sample rate "
+                f"{frequency(v.get('sample_rate_hz'))}; {step.method})"
+                + "".join(f"; note: {n}" for n in notes))
     if what in ("margin", "analysis margin"):
         label = "analysis margin" if what == "analysis margin" else f"{grade or 'test'} margin"
         return f"{decibels(step.db)} {label}" + (f" ({basis})" if basis else "")
