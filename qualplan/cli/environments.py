@@ -51,6 +51,25 @@ UnitsOption = Annotated[
 RateOption = Annotated[
     float | None, typer.Option("--sample-rate-hz", help="Sample rate of a one-column record [Hz].")
 ]
+ShareOption = Annotated[
+    float | None,
+    typer.Option("--share", help="Fraction of the phase's time the environment lasts "
+                 "(0 < share <= 1; default 1)."),
+]
+OwnDurationOption = Annotated[
+    float | None,
+    typer.Option("--duration-s", help="Duration per occurrence of the phase [s] (a spectrum, "
+                 "or a record repeated to fill it; default: the phase's time x share)."),
+]
+CountOption = Annotated[
+    int | None,
+    typer.Option("--count", help="Shock events per occurrence of the phase (default 1)."),
+]
+
+
+def _reading(units, sample_rate_hz, share, duration_s, count) -> s.FileReading:
+    return s.FileReading(value_units=units, sample_rate_hz=sample_rate_hz, share=share,
+                         duration_s=duration_s, count=count)
 
 
 def _json_data(file: list[Path] | None, data: str | None) -> dict[str, Any] | None:
@@ -79,11 +98,17 @@ def env_add(
     data: DataOption = None,
     units: UnitsOption = None,
     sample_rate_hz: RateOption = None,
+    share: ShareOption = None,
+    duration_s: OwnDurationOption = None,
+    count: CountOption = None,
     program: ProgramOption = None,
     db: DbOption = None,
 ) -> None:
     """Add an environment with its first revision."""
     payload = _json_data(file, data)
+    if payload is not None:
+        payload = environments.with_exposure(payload, share=share, duration_s=duration_s,
+                                             count=count)
     with work(db) as session:
         prog = _program(session, program)
         prod = catalog.product_ref(session, prog, product)
@@ -98,7 +123,7 @@ def env_add(
                 session, local_actor(), s.EnvironmentFromFile(
                     product_id=prod.id, phase_id=phase_id, name=name, kind=kind, axis=axis,
                     source=source, provenance=provenance, note=note,
-                    reading=s.FileReading(value_units=units, sample_rate_hz=sample_rate_hz)),
+                    reading=_reading(units, sample_rate_hz, share, duration_s, count)),
                 file[0].name, _read_file(file[0]),
                 more_files=[(f.name, _read_file(f)) for f in file[1:]])
         else:
@@ -134,6 +159,9 @@ def env_revise(
     data: DataOption = None,
     units: UnitsOption = None,
     sample_rate_hz: RateOption = None,
+    share: ShareOption = None,
+    duration_s: OwnDurationOption = None,
+    count: CountOption = None,
     expected_revision: Annotated[
         int | None, typer.Option(help="Refuse if the latest revision is not this one.")
     ] = None,
@@ -141,11 +169,14 @@ def env_revise(
 ) -> None:
     """Add a new revision to an environment (the old ones are kept)."""
     payload = _json_data(file, data)
+    if payload is not None:
+        payload = environments.with_exposure(payload, share=share, duration_s=duration_s,
+                                             count=count)
     with work(db) as session:
         if payload is None:
             rev = environments.revise_environment_from_file(
                 session, local_actor(), environment_id, file[0].name, _read_file(file[0]),
-                s.FileReading(value_units=units, sample_rate_hz=sample_rate_hz), note=note,
+                _reading(units, sample_rate_hz, share, duration_s, count), note=note,
                 expected_revision=expected_revision,
                 more_files=[(f.name, _read_file(f)) for f in file[1:]])
         else:

@@ -72,11 +72,38 @@ def _one_file(kind: m.EnvironmentKind, filename: str, content: bytes,
         calibration=how.calibration, variable=how.variable)
 
 
+#: FileReading fields that are the environment's part of its phase, stored with the data
+EXPOSURE_FIELDS = ("share", "duration_s", "count")
+
+
 def _file_data(kind: m.EnvironmentKind, filename: str, content: bytes, how: s.FileReading,
                more: Sequence[tuple[str, bytes]] = ()
                ) -> tuple[dict[str, Any], np.ndarray | None]:
     """The data of one file, or of several files as runs of one condition (measured
-    spectra or records at one sample rate; docs/methods/exposure.md)."""
+    spectra or records at one sample rate; docs/methods/exposure.md), with the exposure
+    the reading states (share, duration_s, count; checked with the data)."""
+    data, array = _files_data(kind, filename, content, how, more)
+    return with_exposure(data, **{k: getattr(how, k) for k in EXPOSURE_FIELDS}), array
+
+
+def with_exposure(data: dict[str, Any], *, share: float | None = None,
+                  duration_s: float | None = None, count: int | None = None
+                  ) -> dict[str, Any]:
+    """`data` with the exposure given beside it (an option, a form field) merged in; the
+    same value given in the data and beside them is refused, never overwritten."""
+    for key, value in (("share", share), ("duration_s", duration_s), ("count", count)):
+        if value is None:
+            continue
+        if data.get(key) is not None and data[key] != value:
+            raise ValidationFailed(key, value, f"the data state {key} = {data[key]!r}; "
+                                   "give it in one place")
+        data = {**data, key: value}
+    return data
+
+
+def _files_data(kind: m.EnvironmentKind, filename: str, content: bytes, how: s.FileReading,
+                more: Sequence[tuple[str, bytes]] = ()
+                ) -> tuple[dict[str, Any], np.ndarray | None]:
     files = [(filename, content), *more]
     if len(files) == 1:
         return _one_file(kind, filename, content, how)

@@ -181,6 +181,16 @@ def open_record_file(path, **options) -> RecordSource:
         return open_record(path, **options)
 
 
+def refuse_exposure(given: dict[str, Any]) -> None:
+    """A long record stored in chunks takes no share, duration or count: the life cycle
+    does not count it (docs/methods/exposure.md), so a value given for it is refused
+    rather than dropped."""
+    for key, value in given.items():
+        if value is not None:
+            raise ValidationFailed(key, value, "is not taken for a long record stored in "
+                                   "chunks (channel axes): the life cycle does not count it")
+
+
 def parse_axes(text: str | Sequence[str]) -> list[str]:
     """``"X,Y,Z"`` -> ``["X", "Y", "Z"]`` (an axis is 1-20 characters, no comma)."""
     items = [a.strip() for a in text.split(",")] if isinstance(text, str) else list(text)

@@ -145,6 +145,13 @@ class FileReading(Command):
     sample_rate_hz: float | None = Field(default=None, gt=0)
     calibration: float | None = Field(default=None, gt=0)
     variable: str | None = None
+    #: The environment's part of its phase, stored with the data (docs/methods/exposure.md):
+    #: a fraction of the phase's time (random, sine, record), its own duration per
+    #: occurrence [s] (random, record), or the shock events per occurrence. Checked as
+    #: the data's fields (``data.share``, ``data.duration_s``, ``data.count``).
+    share: float | None = None
+    duration_s: float | None = None
+    count: int | None = None
 
 
 class EnvironmentFromFile(Command):

@@ -37,7 +37,12 @@ router = APIRouter(include_in_schema=False)
 def _reading(form) -> s.FileReading:
     return s.FileReading(value_units=text(form, "value_units") or None,
                          freq_units=text(form, "freq_units") or "Hz",
-                         sample_rate_hz=number(form, "sample_rate_hz"))
+                         sample_rate_hz=number(form, "sample_rate_hz"), **_exposure(form))
+
+
+def _exposure(form) -> dict:
+    return {"share": number(form, "share"), "duration_s": number(form, "duration_s"),
+            "count": number(form, "count", integer=True)}
 
 
 def _record_reading(form) -> records.RecordReading:
@@ -68,6 +73,7 @@ async def upload_environment(product_id: int, request: Request, ctx: Ctx = CtxDe
 
     def do() -> str:
         if text(form, "channel_axes"):  # a long record, stored in chunks
+            records.refuse_exposure(_exposure(form))
             if text(form, "kind") != "time_history":
                 raise ValidationFailed("channel_axes", text(form, "channel_axes"),
                                        "is for a record: choose the kind time history")
@@ -195,6 +201,7 @@ async def revise_environment(env_id: int, request: Request, ctx: Ctx = CtxDep) -
 
     def do() -> str:
         if text(form, "channel_axes"):  # a long record, stored in chunks
+            records.refuse_exposure(_exposure(form))
             filename, stream = record_file_of(form)
             records.import_record_upload(
                 ctx.db, ctx.actor, records.RecordImport(

@@ -153,6 +153,8 @@ RunsIn = Annotated[list[UploadFile] | None, File(
 
 def _more(runs: list[UploadFile] | None) -> list[tuple[str, bytes]]:
     return [(f.filename or "upload", f.file.read()) for f in runs or []]
+
+
 UnitsIn = Annotated[
     str | None,
     Form(description="Units of the file's values: g^2/Hz, (m/s^2)^2/Hz, g or m/s^2"),
@@ -180,6 +182,16 @@ class RecordForm:
             description="A long multi-channel record stored in chunks: one axis per channel "
             "in file order, e.g. X,Y,Z (kind time_history; the record upload limit "
             "applies)")] = None,
+        share: Annotated[float | None, Form(
+            allow_inf_nan=False,
+            description="Fraction of the phase's time the environment lasts, 0 < share <= 1 "
+            "(default 1; docs/methods/exposure.md)")] = None,
+        duration_s: Annotated[float | None, Form(
+            allow_inf_nan=False,
+            description="Duration per occurrence of the phase [s]: a spectrum's, or a record "
+            "repeated to fill it")] = None,
+        count: Annotated[int | None, Form(
+            description="Shock events per occurrence of the phase (default 1)")] = None,
     ) -> None:
         self.value_units, self.freq_units = value_units, freq_units
         self.sample_rate_hz, self.calibration, self.variable = (
@@ -189,6 +201,9 @@ class RecordForm:
         )
         self.dataset = dataset or None
         self.channel_axes = (channel_axes or "").strip() or None
+        self.exposure = {"share": share, "duration_s": duration_s, "count": count}
+        if self.channel_axes is not None:
+            records.refuse_exposure(self.exposure)
 
     def record_reading(self) -> records.RecordReading:
         return records.RecordReading(unit=self.value_units, fs_hz=self.sample_rate_hz,
@@ -213,7 +228,7 @@ def _ordinary_size(request: Request, file: UploadFile) -> None:
 def _reading(how: RecordForm) -> s.FileReading:
     return s.FileReading(value_units=how.value_units, freq_units=how.freq_units,
                          sample_rate_hz=how.sample_rate_hz, calibration=how.calibration,
-                         variable=how.variable)
+                         variable=how.variable, **how.exposure)
 
 
 @router.post("/environments/upload", status_code=201, response_model=s.EnvironmentRead)
