@@ -406,35 +406,45 @@ if _HAVE_NUMBA:
             la = np.full(4, np.inf)
             x1 = 0.0
             x2 = 0.0
-            for k in range(n + ext):
-                x0 = x[k] if k < n else 0.0
-                after = k >= n_end
+            for k in range(n_end):  # during: vertices centred on samples 1 .. n_end - 2
+                x0 = x[k]
                 for r in range(4):
                     y = c[0, r] * x0 + c[1, r] * x1 + c[2, r] * x2 - c[3, r] * u[r] \
                         - c[4, r] * v[r]
                     ur = u[r]
-                    if after:
-                        if k == n_end:
-                            ha[r] = ur
-                            la[r] = ur
-                        if y > ha[r]:
-                            ha[r] = y
-                        if y < la[r]:
-                            la[r] = y
-                        if ur >= (gd * ha[r] if ha[r] > 0.0 else gu * ha[r]):
-                            ha[r] = _vertex_up(v[r], ur, y, ha[r])
-                        if ur <= (gd * la[r] if la[r] < 0.0 else gu * la[r]):
-                            la[r] = _vertex_down(v[r], ur, y, la[r])
-                    else:
-                        if y > hd[r]:
-                            hd[r] = y
-                        if y < ld[r]:
-                            ld[r] = y
-                        if k >= 2:
-                            if ur >= (gd * hd[r] if hd[r] > 0.0 else gu * hd[r]):
-                                hd[r] = _vertex_up(v[r], ur, y, hd[r])
-                            if ur <= (gd * ld[r] if ld[r] < 0.0 else gu * ld[r]):
-                                ld[r] = _vertex_down(v[r], ur, y, ld[r])
+                    if y > hd[r]:
+                        hd[r] = y
+                    if y < ld[r]:
+                        ld[r] = y
+                    h = hd[r]
+                    if ur >= (gd * h if h > 0.0 else gu * h) and k >= 2:
+                        hd[r] = _vertex_up(v[r], ur, y, h)
+                    lo = ld[r]
+                    if ur <= (gd * lo if lo < 0.0 else gu * lo) and k >= 2:
+                        ld[r] = _vertex_down(v[r], ur, y, lo)
+                    v[r] = ur
+                    u[r] = y
+                x2 = x1
+                x1 = x0
+            for r in range(4):  # after: from the last sample of the record on
+                ha[r] = u[r]
+                la[r] = u[r]
+            for k in range(n_end, n + ext):
+                x0 = x[k] if k < n else 0.0
+                for r in range(4):
+                    y = c[0, r] * x0 + c[1, r] * x1 + c[2, r] * x2 - c[3, r] * u[r] \
+                        - c[4, r] * v[r]
+                    ur = u[r]
+                    if y > ha[r]:
+                        ha[r] = y
+                    if y < la[r]:
+                        la[r] = y
+                    h = ha[r]
+                    if ur >= (gd * h if h > 0.0 else gu * h):
+                        ha[r] = _vertex_up(v[r], ur, y, h)
+                    lo = la[r]
+                    if ur <= (gd * lo if lo < 0.0 else gu * lo):
+                        la[r] = _vertex_down(v[r], ur, y, lo)
                     v[r] = ur
                     u[r] = y
                 x2 = x1
