@@ -391,6 +391,10 @@ def test_auto_warns_only_beyond_its_bounds():
         S.srs(x, DT, FS / RATIOS, 10.0, method="auto")
     with pytest.warns(S.AccuracyWarning, match="fifth of the sample rate"):
         S.srs(x, DT, [FS / 4], 10.0, method="auto")
+    # a pulse with kinks: read with the cubic hold, and said so above fs/8
+    pulse = 100.0 * np.sin(np.pi * np.arange(21) / 20)
+    with pytest.warns(S.AccuracyWarning, match="method='auto' reads this record with the cubic"):
+        S.srs(pulse, DT, [FS / 6], 10.0, method="auto")
 
 
 def test_vertex_extremes_of_a_sampled_cosine():
