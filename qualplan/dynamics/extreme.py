@@ -218,7 +218,7 @@ def ers_shock_warnings(accel_g, dt_s: float, fn_hz, method: str = "ramp"
         Sample step. [s]
     fn_hz : array_like
         Natural frequencies. [Hz]
-    method : {"ramp", "cubic", "bandlimited"}
+    method : {"ramp", "cubic", "bandlimited", "auto"}
         Input model of the ERS, as in :func:`ers_shock`. [unitless]
 
     Returns
@@ -255,10 +255,11 @@ def ers_shock(accel_g, dt_s: float, fn_hz, q: float = 10.0, *,
         ERS and all FDS): wn^2 max|z| / g0 over the record and its residual
         free decay; "abs_accel": the absolute-acceleration maximax SRS (differs
         from the former by about 1/(2Q) near and above fn).
-    method : {"ramp", "cubic", "bandlimited"}
+    method : {"ramp", "cubic", "bandlimited", "auto"}
         Input model and peak search of :func:`qualplan.dynamics.srs.srs`
-        (default "ramp"; "bandlimited" is within 2 % up to fs/5 on smooth
-        records, docs/methods/srs.md). [unitless]
+        (default "ramp"; "bandlimited" and "auto" are within 2 % up to fs/5 on
+        smooth records, "auto" also within 0.5 % on pulses with steps or kinks,
+        docs/methods/between-samples.md). [unitless]
 
     Returns
     -------

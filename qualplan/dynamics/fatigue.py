@@ -512,7 +512,11 @@ def _filter_miner_bank(x, bp, az, n_extra, bs, interp, n_skip, out, peak):
 #: Time-domain FDS methods: "ramp" (the samples as a piecewise-linear input) or
 #: "bandlimited" (FFT reconstruction where fs < 20 fn, then a sinc^2-corrected
 #: ramp-invariant filter); docs/methods/fatigue.md.
-FDS_METHODS = ("ramp", "bandlimited")
+#: "auto" is the name shared with the SRS: for the FDS it is "bandlimited" for every
+#: record (the FDS goal is set against the record's band-limited reconstruction, and
+#: there is no cubic-hold damage counter; ringing after a step adds damage, the
+#: conservative side).
+FDS_METHODS = ("ramp", "bandlimited", "auto")
 
 #: Samples per natural period below which the "bandlimited" FDS upsamples.
 FDS_MIN_RATIO = 20.0
@@ -524,8 +528,9 @@ def _sinc2_correct(x: np.ndarray) -> np.ndarray:
     and the filter's gain is 1 + (1 - cos 2 pi u) / 6 = 1 + pi^2 u^2 / 3 - ...
     (residual below 17.3 u^4: 1e-4 at fs = 20 fn). Taylor series, common practice
     in spline prefiltering (Unser, IEEE Signal Processing Magazine 16 (6), 1999)."""
-    xp = np.concatenate([[0.0], x, [0.0]])
-    return x + (2.0 * x - xp[:-2] - xp[2:]) / 12.0
+    from qualplan.dynamics.sdof_filter import sinc2_preemphasis
+
+    return sinc2_preemphasis(x)
 
 
 def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], *,
@@ -567,9 +572,10 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], 
     workers : int, optional
         Threads over natural frequencies (default: all cores). The compiled
         kernel releases the GIL.
-    method : {"ramp", "bandlimited"}
-        Input model [unitless]. "ramp" (default): the samples as a
-        piecewise-linear signal (attenuates content near fn by sinc^2(fn/fs)).
+    method : {"ramp", "bandlimited", "auto"}
+        Input model [unitless]; "auto" is "bandlimited" for every record (the name
+        shared with the SRS). "ramp" (default): the samples as a piecewise-linear signal
+        (attenuates content near fn by sinc^2(fn/fs)).
         "bandlimited": the record is taken as band-limited; for each fn with
         fs < 20 fn it is reconstructed by FFT interpolation at L fs (L the
         power of 2 that gives at least 20 samples per period), and the
@@ -631,6 +637,8 @@ def fds_time(accel_g, dt_s: float, fn_hz, q: float, b: float | Sequence[float], 
     bp = bz * scale[:, None]
     if method not in FDS_METHODS:
         raise InputError("method", method, f"must be one of {', '.join(FDS_METHODS)}")
+    if method == "auto":
+        method = "bandlimited"
     if method == "bandlimited":
         above = fn > 0.2 / dt
         if above.any():

@@ -17,8 +17,11 @@ to that record. The responses come from the ramp-invariant recursive filters
 of :mod:`qualplan.dynamics.sdof_filter` (Smallwood 1981; ISO 18431-4); only
 their extremes are kept, so memory is O(n_fn) whatever the record length.
 ``method="cubic"`` / ``"bandlimited"`` use the cubic-hold oscillator of
-:mod:`qualplan.dynamics.sdof_hold` with peaks between samples instead
-(docs/methods/between-samples.md); the default ``"ramp"`` is unchanged.
+:mod:`qualplan.dynamics.sdof_hold` with peaks between samples instead;
+``"auto"`` takes the cubic hold for a record with a step or kink and otherwise
+the band-limited reconstruction read by the pre-emphasised ramp-invariant
+filter with parabolic-vertex peaks (:func:`record_model`;
+docs/methods/between-samples.md); the default ``"ramp"`` is unchanged.
 
 Kinds of spectrum (all returned as positive magnitudes):
 
@@ -56,7 +59,11 @@ KINDS = ("maximax", "positive", "negative", "primary", "residual")
 #: published); "cubic" reads them as a monotone-limited piecewise cubic, solved
 #: exactly, with peaks between samples; "bandlimited" reconstructs the record by
 #: FFT interpolation where fn > fs/20 and then works as "cubic".
-METHODS = ("ramp", "cubic", "bandlimited")
+#: "auto" chooses per record: "cubic" when the record has a step or a kink (the
+#: detectors of :func:`record_model`), otherwise the band-limited reconstruction
+#: read by the pre-emphasised ramp-invariant filter with parabolic-vertex peaks
+#: (docs/methods/between-samples.md, "The auto method").
+METHODS = ("ramp", "cubic", "bandlimited", "auto")
 
 #: Below this many samples per natural period the "bandlimited" method upsamples.
 BANDLIMITED_MIN_RATIO = 20.0
@@ -80,6 +87,7 @@ __all__ = [
     "tolerance_band",
     "octave_grid",
     "pseudo_velocity_srs",
+    "record_model",
     "sample_step",
     "shock_response_spectrum",
     "srs",
@@ -342,8 +350,44 @@ def fft_upsample(x: np.ndarray, factor: int, pad: int = FFT_PAD) -> np.ndarray:
     return _fft.irfft(up, factor * n, workers=-1) * factor
 
 
+def _upsampling_factors(fn: np.ndarray, dt: float) -> dict[int, np.ndarray]:
+    """Power-of-two factor L giving at least BANDLIMITED_MIN_RATIO samples per natural
+    period, and the indices of the natural frequencies that need it."""
+    need = BANDLIMITED_MIN_RATIO * fn * dt
+    lf = np.where(need <= 1.0, 1, 2 ** np.ceil(np.log2(np.maximum(need, 1.0))))
+    return {int(v): np.flatnonzero(lf == v) for v in np.unique(lf)}
+
+
+def _smooth_extremes(x, fn, q, dt, output: str) -> np.ndarray:
+    """Extremes for a smooth record ("auto"): FFT reconstruction at L fs where fs < 20 fn,
+    the 3-tap pre-emphasis that undoes the first-order hold's sinc^2 (residual below
+    1e-4 at 20 samples per period), Smallwood's ramp-invariant filter and the parabolic
+    vertex at every local extremum of the response (sdof_filter.run_vertex_extremes)."""
+    groups = _upsampling_factors(fn, dt)
+    top = max(groups)
+    x_top = fft_upsample(x, top) if top > 1 else None
+    out = np.empty((fn.size, 4))
+    for factor, idx in groups.items():
+        h = dt / factor
+        if factor == 1:
+            xs, n_end = x, x.size
+        else:  # every (top/L)-th sample of the L_max trigonometric interpolation
+            xs = x_top[:: top // factor]
+            n_end = FFT_PAD * factor + (x.size - 1) * factor + 1
+        xs = sdof_filter.sinc2_preemphasis(xs)
+        b, a = sdof_filter.coefficients(fn[idx], q, h, output=output)
+        out[idx] = sdof_filter.run_vertex_extremes(xs, b, a, n_end,
+                                                   _residual_samples(fn[idx], q, h))
+    return out
+
+
 def _record_extremes(x, fn, q, dt, output: str, method: str, n_extra) -> np.ndarray:
     """(n_fn, 4) extremes during / after the record, as sdof_filter.run_extremes."""
+    if method == "auto":
+        if record_model(x) == "cubic":
+            method = "cubic"
+        else:
+            return _smooth_extremes(x, fn, q, dt, output)
     if method == "ramp":
         b, a = sdof_filter.coefficients(fn, q, dt, output=output)
         return sdof_filter.run_extremes(x, b, a, n_extra)
@@ -352,9 +396,7 @@ def _record_extremes(x, fn, q, dt, output: str, method: str, n_extra) -> np.ndar
     if method == "cubic":
         groups = {1: np.arange(fn.size)}
     else:
-        need = BANDLIMITED_MIN_RATIO * fn * dt
-        lf = np.where(need <= 1.0, 1, 2 ** np.ceil(np.log2(np.maximum(need, 1.0))))
-        groups = {int(v): np.flatnonzero(lf == v) for v in np.unique(lf)}
+        groups = _upsampling_factors(fn, dt)
     top = max(groups)
     x_top = fft_upsample(x, top) if method == "bandlimited" and top > 1 else None
     for factor, idx in groups.items():
@@ -398,7 +440,7 @@ def shock_response_spectrum(
     pseudo_velocity : bool, optional
         Also compute the maximax pseudo-velocity SRS [unitless flag] (doubles
         the work).
-    method : {"ramp", "cubic", "bandlimited"}, optional
+    method : {"ramp", "cubic", "bandlimited", "auto"}, optional
         Input model and peak search [unitless], see :data:`METHODS` and
         docs/methods/srs.md. Default "ramp" (piecewise-linear input, peaks at
         the samples: ISO 18431-4 as published).
@@ -478,7 +520,7 @@ def srs(accel_g, dt_s, freq_hz, q=10.0, kind="maximax", *, method: str = "ramp")
     kind : {"maximax", "positive", "negative", "primary", "residual"}
         Which spectrum [unitless] (see the module docstring); all are
         positive magnitudes.
-    method : {"ramp", "cubic", "bandlimited"}, optional
+    method : {"ramp", "cubic", "bandlimited", "auto"}, optional
         Input model and peak search [unitless] (:func:`shock_response_spectrum`).
         Default "ramp".
 
@@ -530,7 +572,7 @@ def pseudo_velocity_srs(accel_g, dt_s, freq_hz, q=10.0, *, method: str = "ramp")
         Natural frequencies [Hz], below the Nyquist frequency.
     q : float, optional
         Amplification Q [unitless], > 0.5. Default 10.
-    method : {"ramp", "cubic", "bandlimited"}, optional
+    method : {"ramp", "cubic", "bandlimited", "auto"}, optional
         Input model and peak search [unitless] (:func:`shock_response_spectrum`).
         Default "ramp".
 
@@ -1081,11 +1123,81 @@ def check_srs(
 
 #: A sample-to-sample jump above this share of the peak counts as a step.
 STEP_SHARE = 0.25
-#: ... and exceeds both neighbouring jumps by this factor.
+#: ... and exceeds both neighbouring jumps by this factor ...
 STEP_RATIO = 4.0
+#: ... and the RMS of the other jumps within STEP_WINDOW samples on either side by this.
+STEP_RMS_RATIO = 8.0
+STEP_WINDOW = 16
 #: A kink (exactly linear stretch meeting samples off its line) whose second difference
 #: exceeds this share of the peak is warned about for method="bandlimited".
 KINK_SHARE = 0.01
+
+
+def _step_jump(x: np.ndarray) -> float:
+    """Largest one-sample jump that counts as a step [unit of x], 0 if none.
+
+    A step: a jump above STEP_SHARE of the peak, STEP_RATIO times both neighbouring
+    jumps (a sine sampled 5 times a cycle reaches 3.2 x) and STEP_RMS_RATIO times the
+    RMS of the other jumps within STEP_WINDOW samples on either side (other candidates
+    left out). White noise sampled to its Nyquist frequency passes the first two tests
+    about once in 500 samples by chance; its largest ratio to that RMS in 1 M samples
+    was 4.7 to 5.9 (five seeds, measured). Zero is assumed before and after the record.
+    """
+    peak = float(np.abs(x).max()) if x.size else 0.0
+    if peak == 0.0:
+        return 0.0
+    d = np.abs(np.diff(np.concatenate([[0.0], x, [0.0]])))
+    big = (d[1:-1] > STEP_SHARE * peak) & (d[1:-1] > STEP_RATIO * np.maximum(d[:-2], d[2:]))
+    if not big.any():
+        return 0.0
+    k = np.flatnonzero(big) + 1  # index in d of each candidate jump
+    w = STEP_WINDOW
+    small = d.copy()
+    small[k] = 0.0  # the RMS of the ordinary jumps: other candidates left out
+    c = np.concatenate([[0.0], np.cumsum(small * small)])  # c[j] = sum of small[:j] ** 2
+    lo, hi = np.maximum(k - w, 0), np.minimum(k + w + 1, d.size)
+    others = (c[hi] - c[lo]) / (2 * w)
+    step = d[k] > STEP_RMS_RATIO * np.sqrt(np.maximum(others, 0.0))
+    return float(d[k][step].max()) if step.any() else 0.0
+
+
+def _kink_bend(x: np.ndarray) -> float:
+    """Largest second difference at a kink (an exactly linear stretch of the samples,
+    e.g. zeros, meeting samples off its line) above KINK_SHARE of the peak [unit of x],
+    0 if none."""
+    peak = float(np.abs(x).max()) if x.size else 0.0
+    if peak == 0.0:
+        return 0.0
+    xe = np.concatenate([[0.0, 0.0], x, [0.0, 0.0]])
+    d2 = np.abs(xe[2:] - 2.0 * xe[1:-1] + xe[:-2])
+    lin = d2 <= 1e-12 * peak
+    kink = (d2[1:-1] > KINK_SHARE * peak) & (lin[:-2] | lin[2:])
+    return float(d2[1:-1][kink].max()) if kink.any() else 0.0
+
+
+def record_model(accel_g) -> str:
+    """Input model that ``method="auto"`` uses for a record: "cubic" or "bandlimited".
+
+    Parameters
+    ----------
+    accel_g : array_like
+        Base acceleration samples [g].
+
+    Returns
+    -------
+    str
+        "cubic" when the record holds a step (a one-sample jump above 25 % of the
+        peak, 4 x both neighbouring jumps and 8 x the RMS of the other jumps within
+        16 samples) or a kink (an exactly linear stretch,
+        e.g. zeros, meeting samples off its line with a second difference above 1 %
+        of the peak): the band-limited reconstruction rings there (a 20-sample
+        half-sine +0.9 %, a terminal-peak sawtooth +5 % at fs/5), the cubic hold
+        takes them exactly (within 0.11 %). Otherwise "bandlimited" (smooth record:
+        the FFT reconstruction, within 0.3 % up to fs/5). Measured in
+        tests/dynamics/test_srs_between_samples.py; the rule is our own.
+    """
+    x = np.asarray(accel_g, dtype=float)
+    return "cubic" if _step_jump(x) > 0.0 or _kink_bend(x) > 0.0 else "bandlimited"
 
 
 def _method_warnings(method: str, x: np.ndarray, fn: np.ndarray, fs: float) -> list[str]:
@@ -1096,9 +1208,18 @@ def _method_warnings(method: str, x: np.ndarray, fn: np.ndarray, fs: float) -> l
     docs/methods/srs.md).
     """
     out = []
-    if method == "cubic":
+    auto_cubic = method == "auto" and record_model(x) == "cubic"
+    if method == "cubic" or auto_cubic:
         high = fn > fs / 8.0
-        if high.any():
+        if high.any() and auto_cubic:
+            out.append(
+                f"method='auto' reads this record with the cubic hold (it has a step or a"
+                f" kink, where a band-limited reconstruction rings): {int(high.sum())} natural"
+                f" frequencies ({fn[high].min():g} to {fn[high].max():g} Hz) exceed an eighth"
+                f" of the sample rate ({fs / 8:g} Hz), where its smooth content may read up to"
+                f" 2.5 % low (steps and kinks themselves: within 0.5 %)"
+            )
+        elif high.any():
             out.append(
                 f"{int(high.sum())} natural frequencies ({fn[high].min():g} to"
                 f" {fn[high].max():g} Hz) exceed an eighth of the sample rate ({fs / 8:g} Hz):"
@@ -1115,13 +1236,9 @@ def _method_warnings(method: str, x: np.ndarray, fn: np.ndarray, fs: float) -> l
         )
     if method == "bandlimited" and x.size > 1:
         peak = float(np.abs(x).max())
-        d = np.abs(np.diff(np.concatenate([[0.0], x, [0.0]])))
-        # a step: a jump above STEP_SHARE of the peak and STEP_RATIO times both
-        # neighbouring jumps (a sine sampled 5 times a cycle reaches 3.2 x)
-        big = (d[1:-1] > STEP_SHARE * peak) & (d[1:-1] > STEP_RATIO * np.maximum(d[:-2], d[2:]))
-        jump = float(d[1:-1][big].max()) if big.any() else 0.0
+        jump = _step_jump(x)
         hi = fn > fs / BANDLIMITED_MIN_RATIO
-        if peak > 0 and big.any() and hi.any():
+        if peak > 0 and jump > 0 and hi.any():
             out.append(
                 f"the record has a step (a jump of {jump:g} g in one sample, {jump / peak:.0%} of"
                 f" the peak): its band-limited reconstruction rings, the SRS above"
@@ -1131,14 +1248,11 @@ def _method_warnings(method: str, x: np.ndarray, fn: np.ndarray, fs: float) -> l
         elif peak > 0 and hi.any():
             # a kink: where an exactly linear stretch (e.g. zeros before a pulse) meets
             # samples off its line with a bend above KINK_SHARE of the peak
-            xe = np.concatenate([[0.0, 0.0], x, [0.0, 0.0]])
-            d2 = np.abs(xe[2:] - 2.0 * xe[1:-1] + xe[:-2])
-            lin = d2 <= 1e-12 * peak
-            kink = (d2[1:-1] > KINK_SHARE * peak) & (lin[:-2] | lin[2:])
-            if kink.any():
+            bend = _kink_bend(x)
+            if bend > 0:
                 out.append(
                     f"the record has a kink (a pulse that starts or ends on an exactly linear"
-                    f" stretch, e.g. zeros; bend {float(d2[1:-1][kink].max()) / peak:.0%} of the"
+                    f" stretch, e.g. zeros; bend {bend / peak:.0%} of the"
                     f" peak): its band-limited reconstruction rings, the SRS above"
                     f" {fs / BANDLIMITED_MIN_RATIO:g} Hz may read about 1 % high (a 20-sample"
                     f" half-sine: +0.9 %); method='cubic' takes the kink exactly (within 0.1 %)"

@@ -71,3 +71,16 @@ def test_free_decay_and_skip_accepted():
 def test_unknown_method():
     with pytest.raises(InputError, match="method"):
         F.fds_time(np.ones(10), DT, [100.0], 10.0, 4.0, method="cubic")
+
+
+def test_auto_is_the_band_limited_fds():
+    # "auto" (the name shared with the SRS) is the band-limited FDS for every record:
+    # the FDS goal is set against the band-limited reconstruction, and there is no
+    # cubic-hold damage counter (docs/methods/between-samples.md); same numbers
+    x = _record(n=4000)
+    fn = np.array([200.0, 1000.0, 2000.0])
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        d_auto = F.fds_time(x, DT, fn, 10.0, [4.0, 8.0], method="auto")
+        d_bl = F.fds_time(x, DT, fn, 10.0, [4.0, 8.0], method="bandlimited")
+    np.testing.assert_array_equal(d_auto, d_bl)

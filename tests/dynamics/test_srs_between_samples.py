@@ -305,3 +305,150 @@ def test_one_pass_limited_slopes_equal_the_vectorised_form(xp, monkeypatch):
     np.testing.assert_array_equal(m1, r1)
     if xp.size == 9:  # linear two samples away from the zero padding: the secant 1/8
         np.testing.assert_allclose(m0[2:7], 0.125, rtol=1e-14)
+
+
+# --------------------------------------------------------------------------
+# method="auto": one method for smooth records and for records with steps/kinks
+
+
+@pytest.mark.parametrize("q", [10.0, 20.0])
+def test_auto_smooth_onset_decaying_sines_all_kinds(q):
+    # issue goal (1 % for fn <= fs/8, 2 % for fn <= fs/5, every kind) against the
+    # exact continuous responses (augmented-state matrix exponential, _exact_sdof;
+    # Harris ch. 8). The record is smooth: "auto" reconstructs it (FFT), pre-emphasises
+    # it, runs Smallwood's ramp-invariant filter and takes parabolic vertices.
+    # Measured worst 0.13 % (pv at fs/20). Residual kind: on the burst below (this
+    # record decays to 1e-6, its residual is noise), as for "bandlimited".
+    x, pieces, t_end = decaying_sines(True)
+    assert S.record_model(x) == "bandlimited"
+    err = _errors(x, pieces, t_end, q, "auto")
+    for kind in ("maximax", "positive", "negative", "primary", "pv"):
+        assert np.all(np.abs(err[kind]) <= _bound(0.01, 0.02)), (kind, err[kind])
+
+
+@pytest.mark.parametrize("q", [10.0, 20.0])
+def test_auto_burst_all_kinds_with_residual(q):
+    # same goal on the Hann-windowed burst, residual included; measured worst
+    # 0.84 % (negative, fs/40, Q = 10; "bandlimited" 0.83 % there)
+    x, pieces, t_end = hann_burst()
+    assert S.record_model(x) == "bandlimited"
+    err = _errors(x, pieces, t_end, q, "auto")
+    for kind, e in err.items():
+        assert np.all(np.abs(e) <= _bound(0.01, 0.02)), (kind, e)
+
+
+@pytest.mark.parametrize("q", [10.0, 20.0])
+def test_auto_abrupt_onset_measured_bound(q):
+    # sines starting at full slope: a kink at the onset, so "auto" takes the cubic
+    # hold; not a smooth record (the 1 %/2 % goal does not apply), measured worst
+    # 2.2 %, kept at the 3.5 % bound of test_abrupt_onset_measured_bound
+    x, pieces, t_end = decaying_sines(False)
+    assert S.record_model(x) == "cubic"
+    err = _errors(x, pieces, t_end, q, "auto")
+    for kind in ("maximax", "positive", "negative", "primary", "pv"):
+        assert np.all(np.abs(err[kind]) <= 0.035), (kind, err[kind])
+
+
+@pytest.mark.parametrize("n", [40, 20])
+def test_auto_terminal_peak_sawtooth_within_half_percent(n):
+    # issue goal 0.5 % at all fn <= fs/5; exact SRS of the piecewise-linear signal
+    # through the samples (ramp-invariant filter, exact for it, Smallwood 1981, on
+    # the signal linearly resampled 64x). The step of the sawtooth makes "auto"
+    # take the cubic hold: measured 0.11 % (20 samples), 0.04 % (40).
+    x = _sawtooth(n)
+    assert S.record_model(x) == "cubic"
+    fine = np.interp(np.arange((n + 1) * 64 + 1) / 64, np.arange(n + 2), x)
+    fn = FS / RATIOS
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        ref = S.srs(fine, DT / 64, fn, 10.0)
+        got = S.srs(x, DT, fn, 10.0, method="auto")
+    np.testing.assert_allclose(got, ref, rtol=5e-3)
+
+
+@pytest.mark.parametrize("q", [10.0, 20.0])
+@pytest.mark.parametrize("n", [20, 30, 40])
+def test_auto_half_sine_within_half_percent(n, q):
+    # exact half-sine SRS (closed form, augmented state; Harris ch. 8); issue goal
+    # 0.5 % at fn <= fs/5 for 20 samples or more. The kinks at the pulse's ends make
+    # "auto" take the cubic hold (measured within 0.03 %); "bandlimited" reads
+    # +0.9 % at 20 samples (test_bandlimited_half_sine_of_20_samples_rings).
+    x = 100.0 * np.sin(np.pi * np.arange(n + 1) / n)
+    assert S.record_model(x) == "cubic"
+    fn = FS / RATIOS
+    ref = np.array([_half_sine_exact(n, f, q) for f in fn])
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        got = S.srs(x, DT, fn, q, method="auto")
+    np.testing.assert_allclose(got, ref, rtol=5e-3)
+
+
+def test_auto_warns_only_beyond_its_bounds():
+    # a smooth record up to fs/5: no warning at all; above fs/5: the "not verified" one
+    x, _, _ = decaying_sines(True)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        S.srs(x, DT, FS / RATIOS, 10.0, method="auto")
+    with pytest.warns(S.AccuracyWarning, match="fifth of the sample rate"):
+        S.srs(x, DT, [FS / 4], 10.0, method="auto")
+    # a pulse with kinks: read with the cubic hold, and said so above fs/8
+    pulse = 100.0 * np.sin(np.pi * np.arange(21) / 20)
+    with pytest.warns(S.AccuracyWarning, match="method='auto' reads this record with the cubic"):
+        S.srs(pulse, DT, [FS / 6], 10.0, method="auto")
+
+
+def test_vertex_extremes_of_a_sampled_cosine():
+    # kernel check with the identity filter (b = [1, 0, 0], a = [1, 0, 0]): the
+    # extremes are the vertices of the parabola through the largest (smallest)
+    # sample of cos(2 pi k / N + phi) and its two neighbours (Lagrange interpolation,
+    # closed form u - (v - y)^2 / (8 (v - 2 u + y))). At N = 20 the samples alone are
+    # up to 1 - cos(pi / N) = 1.2 % low; the vertex is within 2.3e-4 of the amplitude
+    # (that formula's worst over the phase, evaluated at 2001 phases: 2.26e-4).
+    from qualplan.dynamics import sdof_filter
+
+    n = 20
+    worst = 0.0
+    for phi in np.linspace(0.0, 2 * np.pi / n, 11):
+        x = np.cos(2 * np.pi * np.arange(5, 200) / n + phi)
+        e = sdof_filter.run_vertex_extremes(
+            x, np.array([[1.0, 0.0, 0.0]]), np.array([[1.0, 0.0, 0.0]]), x.size, [0])
+        k = int(np.argmax(x[1:-1])) + 1
+        v, u, y = x[k - 1], x[k], x[k + 1]
+        assert e[0, 0] == pytest.approx(u - (v - y) ** 2 / (8 * (v - 2 * u + y)), abs=1e-12)
+        assert e[0, 0] >= x.max() and e[0, 1] <= x.min()
+        worst = max(worst, abs(e[0, 0] - 1.0), abs(e[0, 1] + 1.0))
+    assert worst <= 2.3e-4
+    assert 1.0 - np.cos(np.pi / n) > 0.012  # what the samples alone would miss
+
+
+def test_record_model_rule():
+    # steps and kinks -> cubic hold; a smooth record -> band-limited reconstruction
+    assert S.record_model(_sawtooth(20)) == "cubic"
+    assert S.record_model(np.r_[np.zeros(5), np.ones(10), np.zeros(5)]) == "cubic"
+    assert S.record_model(np.sin(2 * np.pi * np.arange(1000) / 37.0) *
+                          np.hanning(1000) ** 2) == "bandlimited"
+
+
+def test_time_domain_ers_auto_pseudo_accel():
+    # ERS (pseudo-acceleration maximax) with "auto": exact continuous responses,
+    # goal 1 % (fs/8) / 2 % (fs/5), as test_time_domain_ers_bandlimited_pseudo_accel
+    from qualplan.dynamics import extreme as E
+
+    x, pieces, t_end = decaying_sines(True)
+    fn = FS / RATIOS
+    got = E.ers_shock(x, DT, fn, 20.0, method="auto")
+    ref = np.array([(2 * np.pi * f) ** 2 / sdof_filter.G0_M_S2
+                    * max(abs(v) for v in exact_extremes(f, 20.0, pieces, t_end)["rel_disp"])
+                    for f in fn])
+    assert np.all(np.abs(got / ref - 1) <= _bound(0.01, 0.02))
+
+
+def test_auto_against_pyyeti_with_its_upsampling():
+    # second opinion: pyyeti.srs.srs defaults (it upsamples to fs >= 10 fn); both
+    # within about 1 % of the exact SRS on the smooth-onset record
+    pyyeti_srs = pytest.importorskip("pyyeti.srs")
+    x, _, _ = decaying_sines(True)
+    fn = FS / RATIOS
+    ref = pyyeti_srs.srs(x, FS, fn, 10.0)
+    got = S.srs(x, DT, fn, 10.0, method="auto")
+    np.testing.assert_allclose(got, ref, rtol=1.5e-2)
