@@ -69,11 +69,12 @@ class TokenRepository(Repository[m.ApiToken]):
     def credentials(self, token_hash: str) -> list[tuple]:
         """What authenticating with a token needs, in one statement of plain columns (no
         ORM objects): one row per program membership of the token's user, each
-        ``(revoked_at, user_id, user_name, user_role, user_active, program_id)`` with
-        ``program_id`` None for a user of no program; no row for an unknown token."""
+        ``(revoked_at, user_id, user_name, user_role, user_active, program_id,
+        program_role)`` with ``program_id`` and ``program_role`` None for a user of no
+        program; no row for an unknown token."""
         tok, usr, mem = (m.ApiToken.__table__, m.User.__table__, m.Membership.__table__)
         stmt = (select(tok.c.revoked_at, usr.c.id, usr.c.name, usr.c.role, usr.c.active,
-                       mem.c.program_id)
+                       mem.c.program_id, mem.c.role)
                 .select_from(tok.join(usr, usr.c.id == tok.c.user_id)
                              .outerjoin(mem, mem.c.user_id == usr.c.id))
                 .where(tok.c.token_hash == token_hash))
