@@ -63,10 +63,31 @@ def require(actor: Actor, role: m.Role, action: str) -> None:
         )
 
 
+#: session.info key of the program roles read with the caller's token: (user id,
+#: {program id: role}), for :func:`role_in` to answer without a query of its own
+_ROLES_KEY = "qualplan_program_roles"
+
+
+def _remember_roles(session: Session, user_id: int, roles: dict[int, m.Role]) -> None:
+    session.info[_ROLES_KEY] = (user_id, roles)
+
+
+def _forget_roles(session: Session) -> None:
+    """Memberships changed in this session: :func:`role_in` asks the database again."""
+    session.info.pop(_ROLES_KEY, None)
+
+
 def role_in(session: Session, actor: Actor, program_id: int) -> m.Role | None:
-    """The role `actor` holds in program `program_id` (None: not a member)."""
+    """The role `actor` holds in program `program_id` (None: not a member).
+
+    The roles read with the caller's token in this session's transaction
+    (:func:`authenticate_hash`) answer without a query; a program not among them (one
+    created in this transaction) is asked of the database."""
     if actor.role == m.Role.admin or actor.user_id is None:
         return actor.role
+    known = session.info.get(_ROLES_KEY)
+    if known is not None and known[0] == actor.user_id and program_id in known[1]:
+        return known[1][program_id]
     row = session.execute(
         select(m.Membership.role).where(m.Membership.user_id == actor.user_id,
                                         m.Membership.program_id == program_id)
@@ -160,6 +181,7 @@ def joined(session: Session, actor: Actor, program_id: int) -> None:
     session.add(m.Membership(user_id=actor.user_id, program_id=program_id, role=actor.role))
     session.flush()
     scope.add_program(session, program_id)
+    _forget_roles(session)
 
 
 # --- memberships --------------------------------------------------------------------------
@@ -203,6 +225,7 @@ def grant(session: Session, actor: Actor, user_name: str, program_id: int,
     else:
         row.role = role
     session.flush()
+    _forget_roles(session)
     record(session, actor, "grant", "program", program_id, user=user.name,
            role=[before, role.value])
     return row
@@ -223,6 +246,7 @@ def revoke(session: Session, actor: Actor, user_name: str, program_id: int) -> N
     before = m.Role(row.role).value
     session.delete(row)
     session.flush()
+    _forget_roles(session)
     record(session, actor, "revoke", "program", program_id, user=user.name, role=before)
 
 
@@ -356,17 +380,20 @@ def authenticate(session: Session, token: str | None) -> Actor:
 def authenticate_hash(session: Session, token_hash: str) -> Actor:
     """Like :func:`authenticate`, from the token's SHA-256 (what a web session keeps).
 
-    The token, its user and the user's programs come in one statement of plain columns
-    (``TokenRepository.credentials``): on every request, so it is kept to one round trip
-    and no ORM objects (three ORM loads were a third of a read's CPU time)."""
+    The token, its user and the user's programs with its role in each come in one
+    statement of plain columns (``TokenRepository.credentials``): on every request, so it
+    is kept to one round trip and no ORM objects (three ORM loads were a third of a read's
+    CPU time); the roles are kept on the session for :func:`role_in`."""
     rows = TokenRepository(session).credentials(token_hash)
     if not rows:
         raise NotAuthenticated("the token is unknown or revoked")
-    revoked_at, user_id, name, role, active, _program = rows[0]
+    revoked_at, user_id, name, role, active, _program, _role = rows[0]
     if revoked_at is not None or not active:
         raise NotAuthenticated("the token is unknown or revoked")
     actor = Actor(name=name, role=m.Role(role), user_id=user_id)
     scope_session(session, actor, [r[5] for r in rows if r[5] is not None])
+    # the membership roles came with the token: the use case's role check asks no more
+    _remember_roles(session, user_id, {r[5]: m.Role(r[6]) for r in rows if r[5] is not None})
     return actor
 
 

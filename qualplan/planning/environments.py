@@ -11,7 +11,7 @@ from sqlalchemy.orm import Session
 from qualplan.dynamics.srs import octave_grid
 from qualplan.planning import envdata, lifecycle
 from qualplan.planning import schemas as s
-from qualplan.planning.access import Actor, record, require_for
+from qualplan.planning.access import Actor, record, require_for, require_in
 from qualplan.planning.catalog import _add_unique, get
 from qualplan.planning.errors import Conflict, NotFound, ValidationFailed, VersionMismatch
 from qualplan.planning.withdrawals import describe, environment_withdrawal
@@ -185,26 +185,38 @@ def revise_environment(
 ) -> m.EnvironmentRevision:
     """Add a revision; refuse an identical content and a stale `expected_revision`."""
     env = get(session, m.Environment, environment_id, "environment")
-    require_for(session, actor, env, m.Role.engineer, "revising an environment")
+    # its program (for the role check) and its phase (for the exposure check) as three
+    # columns of one statement: no product or phase row loaded
+    where = EnvironmentRepository(session).program_and_phase(env.id)
+    if where is None:
+        raise NotFound("environment", environment_id)
+    program_id, phase_name, phase_duration_s = where
+    require_in(session, actor, program_id, m.Role.engineer, "revising an environment")
     # take the environment's turn first: the latest revision read next is the last
-    # committed one, for the expected-revision and identical-content checks too
-    RevisionRepository(session).lock_environment(env.id)
+    # committed one, for the expected-revision and identical-content checks and its
+    # number too
+    repo = RevisionRepository(session)
+    repo.lock_environment(env.id)
     if (w := environment_withdrawal(session, env.id)) is not None:
         raise Conflict(f"environment {env.name!r} is {describe(w)}: it is not revised")
-    latest = RevisionRepository(session).latest(env.id)
+    # the newest revision's number and stored hash only (two columns, no row loaded)
+    latest = repo.head(env.id)
     if (
         cmd.expected_revision is not None
         and latest is not None
-        and latest.number != cmd.expected_revision
+        and latest[0] != cmd.expected_revision
     ):
-        raise VersionMismatch("environment", env.id, cmd.expected_revision, latest.number)
+        raise VersionMismatch("environment", env.id, cmd.expected_revision, latest[0])
     spec, data = envdata.normalise(env.kind, cmd.data, array)
-    if env.phase is not None:
+    if phase_name is not None:
         envdata.check_exposure(env.kind, spec, None if data is None else data.size,
-                               env.phase.name, env.phase.duration_s)
-    if latest is not None and revision_hash(spec, data) == latest.content_hash:
-        raise Conflict(f"the data are identical to revision {latest.number}; nothing to revise")
-    return _append_revision(session, actor, env, spec, data, cmd.note)
+                               phase_name, phase_duration_s)
+    content_hash = revision_hash(spec, data)
+    if latest is not None and content_hash == latest[1]:
+        raise Conflict(f"the data are identical to revision {latest[0]}; nothing to revise")
+    return _append_revision(session, actor, env, spec, data, cmd.note,
+                            number=(latest[0] if latest is not None else 0) + 1,
+                            content_hash=content_hash)
 
 
 def _append_revision(
@@ -214,15 +226,20 @@ def _append_revision(
     spec: dict[str, Any],
     data: np.ndarray | None,
     note: str,
+    *,
+    number: int | None = None,
+    content_hash: str | None = None,
 ) -> m.EnvironmentRevision:
+    """Append the next revision; `number` when the caller read it under the
+    environment's row lock, `content_hash` when it has hashed the content already."""
     repo = RevisionRepository(session)
     rev = repo.add(
         m.EnvironmentRevision(
             environment_id=env.id,
-            number=repo.next_number(env.id),
+            number=repo.next_number(env.id) if number is None else number,
             spec=spec,
             data=data,
-            content_hash=revision_hash(spec, data),
+            content_hash=content_hash or revision_hash(spec, data),
             author=actor.name,
             note=note,
         )

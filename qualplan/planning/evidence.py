@@ -57,7 +57,9 @@ def _add(
             author=actor.name,
         )
     )
-    session.refresh(req, ["evidence"])
+    # the requirement's evidence list is read again when next asked for (no query now:
+    # refreshing it read every evidence row of the requirement, arrays included)
+    session.expire(req, ["evidence"])
     record(
         session,
         actor,

@@ -18,12 +18,27 @@ from qualplan.store import models as m
 M = TypeVar("M", bound=m.Base)
 
 
+#: session.info key of the rows locked in the session's current transaction
+_LOCKS_KEY = "qualplan_row_locks"
+
+
 def lock_row(session: Session, model: type[m.Base], row_id: int) -> None:
     """Lock one row until the transaction ends (``SELECT ... FOR UPDATE``; SQLAlchemy
     leaves the clause out on SQLite, whose writers already go one at a time). Under
     PostgreSQL's READ COMMITTED, the statements after the lock see what the previous
-    holder committed: numbering after it is safe."""
+    holder committed: numbering after it is safe. A row already locked in the same
+    transaction is not locked again (the lock lasts until the transaction ends)."""
+    txn = session.get_transaction()
+    held = session.info.get(_LOCKS_KEY)
+    key = (model.__tablename__, int(row_id))
+    if txn is not None and held is not None and held[0] is txn and key in held[1]:
+        return
     session.execute(select(model.id).where(model.id == row_id).with_for_update())
+    txn = session.get_transaction()  # begun by the statement when none was
+    if held is None or held[0] is not txn:
+        held = (txn, set())
+        session.info[_LOCKS_KEY] = held
+    held[1].add(key)
 
 
 class Repository(Generic[M]):
@@ -69,11 +84,12 @@ class TokenRepository(Repository[m.ApiToken]):
     def credentials(self, token_hash: str) -> list[tuple]:
         """What authenticating with a token needs, in one statement of plain columns (no
         ORM objects): one row per program membership of the token's user, each
-        ``(revoked_at, user_id, user_name, user_role, user_active, program_id)`` with
-        ``program_id`` None for a user of no program; no row for an unknown token."""
+        ``(revoked_at, user_id, user_name, user_role, user_active, program_id,
+        program_role)`` with ``program_id`` and ``program_role`` None for a user of no
+        program; no row for an unknown token."""
         tok, usr, mem = (m.ApiToken.__table__, m.User.__table__, m.Membership.__table__)
         stmt = (select(tok.c.revoked_at, usr.c.id, usr.c.name, usr.c.role, usr.c.active,
-                       mem.c.program_id)
+                       mem.c.program_id, mem.c.role)
                 .select_from(tok.join(usr, usr.c.id == tok.c.user_id)
                              .outerjoin(mem, mem.c.user_id == usr.c.id))
                 .where(tok.c.token_hash == token_hash))
@@ -116,6 +132,21 @@ class PhaseRepository(Repository[m.Phase]):
 class EnvironmentRepository(Repository[m.Environment]):
     model = m.Environment
 
+    def program_and_phase(self, environment_id: int) -> tuple[int, str | None,
+                                                               float | None] | None:
+        """``(program_id, phase name, phase duration [s])`` of an environment in one
+        statement of three columns (phase None for an environment of no phase): what
+        revising it checks, without loading its product and phase rows."""
+        env, prod, phase = m.Environment, m.Product, m.Phase
+        row = self.session.execute(
+            select(prod.program_id, phase.name, phase.duration_s)
+            .select_from(env)
+            .join(prod, prod.id == env.product_id)
+            .outerjoin(phase, phase.id == env.phase_id)
+            .where(env.id == environment_id)
+        ).first()
+        return None if row is None else (int(row[0]), row[1], row[2])
+
 
 class RevisionRepository:
     """Append-only: add a revision, read revisions. No update, no delete."""
@@ -142,6 +173,18 @@ class RevisionRepository:
             .limit(1)
         )
         return None if rid is None else self.session.get(m.EnvironmentRevision, rid)
+
+    def head(self, environment_id: int) -> tuple[int, str] | None:
+        """``(number, content_hash)`` of the newest revision (None without any), as two
+        columns: what a new revision is numbered after and compared with, without
+        loading the row (its array unpacked, its hash checked)."""
+        row = self.session.execute(
+            select(m.EnvironmentRevision.number, m.EnvironmentRevision.content_hash)
+            .where(m.EnvironmentRevision.environment_id == environment_id)
+            .order_by(m.EnvironmentRevision.number.desc())
+            .limit(1)
+        ).first()
+        return None if row is None else (int(row[0]), str(row[1]))
 
     def latest_number(self, environment_id: int) -> int | None:
         """The number of the newest revision (None without any), read as one column: no

@@ -2,18 +2,20 @@
 
 SQLite: foreign keys on, WAL journal, a busy timeout, and the pysqlite
 transaction workaround so SAVEPOINTs work (SQLAlchemy 2 docs, "SQLite -
-Serializable isolation / Savepoints / Transactional DDL"). PostgreSQL: psycopg 3,
-with ``pool_pre_ping``.
+Serializable isolation / Savepoints / Transactional DDL"). PostgreSQL: psycopg 3; a
+pooled connection that has been idle for :data:`PING_IDLE_S` is pinged before it is
+handed out (:func:`_ping_idle_connections`).
 """
 
 from __future__ import annotations
 
+import time
 from collections.abc import Iterator
 from contextlib import contextmanager
 
 from sqlalchemy import Engine, create_engine, event
 from sqlalchemy.engine import make_url
-from sqlalchemy.exc import ArgumentError, NoSuchModuleError
+from sqlalchemy.exc import ArgumentError, DisconnectionError, NoSuchModuleError
 from sqlalchemy.orm import Session, sessionmaker
 
 import qualplan.store.guards  # noqa: F401  (registers the immutability guard)
@@ -57,10 +59,44 @@ def make_engine(url: str, **kwargs) -> Engine:
             )
             _configure_sqlite(engine)
         else:
-            engine = create_engine(url, pool_pre_ping=True, **kwargs)
+            engine = create_engine(url, **kwargs)
+            _ping_idle_connections(engine)
     except (ArgumentError, NoSuchModuleError) as exc:
         raise DatabaseUrlError(f"unusable database URL {masked(url)!r}: {exc}") from exc
     return engine
+
+
+#: A pooled PostgreSQL connection idle for longer than this [s] is pinged before use.
+PING_IDLE_S = 5.0
+_IDLE_SINCE = "qualplan_idle_since"
+
+
+def _ping_idle_connections(engine: Engine) -> None:
+    """Ping a pooled connection before use when it has been idle for PING_IDLE_S.
+
+    ``pool_pre_ping`` pinged at every checkout: one more round trip to the server per
+    request, for a connection that another request had used a moment before. A
+    connection that has waited in the pool (the server restarted, a proxy dropped it)
+    is still pinged, and a failed ping makes the pool open another (the checkout event
+    raising DisconnectionError: SQLAlchemy 2.0 documentation, "Connection Pooling:
+    Dealing with Disconnects" and ``PoolEvents.checkout``). A connection that breaks
+    within the idle time fails its request's statement; SQLAlchemy then invalidates the
+    pool's connections, so the following requests open new ones."""
+
+    @event.listens_for(engine, "checkin")
+    def _on_checkin(_dbapi_conn, record) -> None:
+        if record is not None:
+            record.info[_IDLE_SINCE] = time.monotonic()
+
+    @event.listens_for(engine, "checkout")
+    def _on_checkout(dbapi_conn, record, _proxy) -> None:
+        since = record.info.get(_IDLE_SINCE)
+        if since is None or time.monotonic() - since < PING_IDLE_S:
+            return  # new, or back in the pool a moment ago
+        try:
+            engine.dialect.do_ping(dbapi_conn)
+        except Exception as exc:  # the server closed it: the pool opens another
+            raise DisconnectionError("an idle pooled connection failed its ping") from exc
 
 
 def _configure_sqlite(engine: Engine) -> None:

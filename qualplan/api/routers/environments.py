@@ -124,9 +124,11 @@ def add_revision(
                 value=cmd.expected_revision,
             )
         cmd = cmd.model_copy(update={"expected_revision": version})
-    rev = envs.revise_environment(session, actor, environment_id, cmd)
-    response.headers["ETag"] = etag(rev.number)
+    # the environment held here stays in the session's identity map (a weak one): the
+    # use case finds it there, and it is not read again for its kind below
     env = _environment(session, environment_id)
+    rev = envs.revise_environment(session, actor, env.id, cmd)
+    response.headers["ETag"] = etag(rev.number)
     return envs.read_revision(rev, env.kind)
 
 
