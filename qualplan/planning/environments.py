@@ -227,11 +227,8 @@ def read_environment(session: Session, env: m.Environment, *,
         out.withdrawn = describe(w)
     elif with_warnings and env.phase_id is not None and env.kind in lifecycle.TIMED:
         axes = [env.axis] if env.axis is not m.Axis.all else [m.Axis.X, m.Axis.Y, m.Axis.Z]
-        found = {t for a in axes
-                 for t in lifecycle.time_counted_twice(
-                     [x for x in lifecycle.life_cycle(session, env.product, a)
-                      if x.environment.phase_id == env.phase_id])}
-        out.warnings = sorted(found)
+        life = lifecycle.timed_of_phase(session, env.product, env.phase_id, axes)
+        out.warnings = sorted({t for a in axes for t in lifecycle.time_counted_twice(life[a])})
     return out
 
 
