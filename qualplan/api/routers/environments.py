@@ -83,8 +83,7 @@ def list_environments(
 @router.get("/environments/{environment_id}", response_model=s.EnvironmentRead)
 def get_environment(environment_id: int, session: SessionDep, _: ReaderDep):
     """The environment; its ETag is the number of its latest revision."""
-    out = envs.read_environment(session, _environment(session, environment_id),
-                                with_warnings=True)
+    out = envs.environment_read(session, environment_id)
     return json_response(out, etag=None if out.latest_revision is None
                          else etag(out.latest_revision))
 
