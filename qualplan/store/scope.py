@@ -68,7 +68,7 @@ class _ScopeCriteria(LoaderCriteriaOption):
     its entity and the programs' ids, computed once.
 
     SQLAlchemy walks every option's criterion to build the statement's cache key at each
-    execution (``visit_executable_options``); the fourteen criteria of a scope, with
+    execution (``visit_executable_options``); the fifteen criteria of a scope, with
     their subselects, made every scoped ORM statement about 0.5 ms dearer in CPU than an
     unscoped one. A criterion here is fully determined by (entity, ids) and holds no bound
     parameter (the ids are written into the SQL, :func:`_in`), so that pair is a sound
