@@ -66,8 +66,8 @@ def create_requirement(
 
 @router.get("/requirements/{requirement_id}", response_model=s.RequirementRead)
 def get_requirement(requirement_id: int, session: SessionDep, _: ReaderDep):
-    row = requirements.requirement_ref(session, None, requirement_id)
-    return json_response(requirements.read_requirement(session, row), etag=etag(row.version))
+    out, version = requirements.requirement_read(session, requirement_id)
+    return json_response(out, etag=etag(version))
 
 
 @router.patch("/requirements/{requirement_id}", response_model=s.RequirementRead)
