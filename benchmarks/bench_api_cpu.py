@@ -18,6 +18,11 @@ figure barely depends on it, the wall figure does. Not a timed test.
 
     .venv/bin/python benchmarks/bench_api_cpu.py [--requests 1000] [--rounds 3]
         [--concurrency 1] [--pg postgresql://postgres@127.0.0.1:5432/postgres]
+        [--route requirement] [--profile]
+
+``--profile`` prints a pyinstrument profile of the measured rounds; the sync routes and
+dependencies then run inline on the event loop's thread (pyinstrument samples one
+thread), so the CPU figures of a profiled run are not the served ones.
 """
 
 from __future__ import annotations
@@ -124,16 +129,36 @@ async def one_round(app, reads: list[tuple[str, str, str]], token: str,
             "sql": sql, "load": os.getloadavg()[0]}
 
 
+def run_inline() -> None:
+    """Run anyio's thread-pool calls on the calling thread (for --profile only)."""
+    import anyio.to_thread
+
+    async def inline(func, *args, **_kw):
+        return func(*args)
+
+    anyio.to_thread.run_sync = inline
+
+
 async def run(app, demo: dict, token: str, args) -> list[dict]:
     rnd = random.Random(19)
     rounds = []
+    profiler = None
     async with app.router.lifespan_context(app):
         for i in range(args.rounds + 1):  # round 0 warms up (imports, caches, pool)
             reads = read_paths(demo, args.requests if i else max(100, args.requests // 5),
                                rnd, args.route)
+            if i == 1 and args.profile:
+                from pyinstrument import Profiler
+
+                profiler = Profiler(interval=0.001, async_mode="disabled")
+                profiler.start()
             result = await one_round(app, reads, token, args.concurrency)
             if i:
                 rounds.append(result)
+    if profiler is not None:
+        profiler.stop()
+        print(profiler.output_text(unicode=False, color=False, show_all=False),
+              file=sys.__stdout__)
     return rounds
 
 
@@ -144,11 +169,17 @@ def main() -> int:
     ap.add_argument("--concurrency", type=int, default=1)
     ap.add_argument("--route", choices=list(WEIGHTS), default=None,
                     help="only this read route (default: the mix)")
+    ap.add_argument("--profile", action="store_true",
+                    help="print a pyinstrument profile of the measured rounds (sync "
+                    "code then runs inline on one thread)")
     ap.add_argument("--pg", default=None, help="a PostgreSQL server's maintenance database "
                     "(a database is made and dropped beside it); SQLite when absent")
     args = ap.parse_args()
     args.requests = min(args.requests, 100_000)
     from sqlalchemy import Engine, event
+
+    if args.profile:
+        run_inline()
 
     @event.listens_for(Engine, "before_cursor_execute")
     def _count(*_a, **_k) -> None:
@@ -202,6 +233,8 @@ def main() -> int:
             means = [statistics.fmean(r["per_route"][kind]) for r in rounds
                      if r["per_route"][kind]]
             stmts = [statistics.fmean(r["sql"][kind]) for r in rounds if r["sql"][kind]]
+            if not means:
+                continue
             print(f"  {kind:18s} {1000 * statistics.median(means):6.2f} ms  "
                   f"{statistics.median(stmts):5.1f}")
     return 0

@@ -6,7 +6,8 @@ from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
-from sqlalchemy.orm import Session
+from sqlalchemy import func, select
+from sqlalchemy.orm import Session, joinedload
 
 from qualplan.dynamics.srs import octave_grid
 from qualplan.planning import envdata, lifecycle
@@ -14,6 +15,7 @@ from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require_for, require_in
 from qualplan.planning.catalog import _add_unique, get
 from qualplan.planning.errors import Conflict, NotFound, ValidationFailed, VersionMismatch
+from qualplan.planning.inputs import MAX_INT
 from qualplan.planning.withdrawals import describe, environment_withdrawal
 from qualplan.store import models as m
 from qualplan.store.hashing import revision_hash
@@ -265,17 +267,42 @@ def read_environment(session: Session, env: m.Environment, *,
                      with_warnings: bool = False) -> s.EnvironmentRead:
     """The environment as every interface shows it; ``with_warnings`` adds the cautions
     about the life cycle it enters (one life-cycle read per axis: not for lists)."""
+    return _environment_read(session, env, RevisionRepository(session).latest_number(env.id),
+                             environment_withdrawal(session, env.id), with_warnings)
+
+
+def environment_read(session: Session, environment_id: int) -> s.EnvironmentRead:
+    """:func:`read_environment` of one environment by id, with its warnings: the row, its
+    product and phase, the number of its latest revision and whether it is withdrawn in
+    one statement (NotFound when it is not, or not in the caller's programs)."""
+    if isinstance(environment_id, bool) or not isinstance(environment_id, int) \
+            or not 1 <= environment_id <= MAX_INT:
+        raise NotFound("environment", environment_id)
+    env_, rev = m.Environment, m.EnvironmentRevision
+    latest = (select(func.max(rev.number)).where(rev.environment_id == env_.id)
+              .correlate(env_).scalar_subquery())
+    withdrawal = (select(m.Withdrawal.id).where(m.Withdrawal.environment_id == env_.id)
+                  .correlate(env_).limit(1).scalar_subquery())
+    row = session.execute(
+        select(env_, latest, withdrawal).where(env_.id == environment_id)
+        .options(joinedload(env_.product), joinedload(env_.phase))).first()
+    if row is None:
+        raise NotFound("environment", environment_id)
+    env, number, withdrawn_id = row
+    w = None if withdrawn_id is None else environment_withdrawal(session, env.id)
+    return _environment_read(session, env, number, w, True)
+
+
+def _environment_read(session: Session, env: m.Environment, latest: int | None,
+                      w: m.Withdrawal | None, with_warnings: bool) -> s.EnvironmentRead:
     out = s.EnvironmentRead.model_validate(env)
-    out.latest_revision = RevisionRepository(session).latest_number(env.id)
-    if (w := environment_withdrawal(session, env.id)) is not None:
+    out.latest_revision = latest
+    if w is not None:
         out.withdrawn = describe(w)
     elif with_warnings and env.phase_id is not None and env.kind in lifecycle.TIMED:
         axes = [env.axis] if env.axis is not m.Axis.all else [m.Axis.X, m.Axis.Y, m.Axis.Z]
-        found = {t for a in axes
-                 for t in lifecycle.time_counted_twice(
-                     [x for x in lifecycle.life_cycle(session, env.product, a)
-                      if x.environment.phase_id == env.phase_id])}
-        out.warnings = sorted(found)
+        life = lifecycle.timed_of_phase(session, env.product, env.phase_id, axes)
+        out.warnings = sorted({t for a in axes for t in lifecycle.time_counted_twice(life[a])})
     return out
 
 

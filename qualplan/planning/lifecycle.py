@@ -10,7 +10,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from sqlalchemy import select
+from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from qualplan.planning import envdata
@@ -72,6 +72,33 @@ def life_cycle(session: Session, product: m.Product, axis: m.Axis) -> list[LifeI
         if latest is not None:
             out.append(LifeItem(env, latest))
     return out
+
+
+def timed_of_phase(session: Session, product: m.Product, phase_id: int,
+                   axes: list[m.Axis]) -> dict[m.Axis, list[LifeItem]]:
+    """For each of `axes`: the items of ``life_cycle(session, product, axis)`` that are of
+    phase `phase_id` and of a kind in :data:`TIMED`, in one query.
+
+    The revisions are read as their number and spec only (a transient revision of each:
+    no samples unpacked nor hash checked), which is all :func:`time_counted_twice` reads;
+    enough for life-cycle warnings, never for a computation on the data."""
+    env, rev = m.Environment, m.EnvironmentRevision
+    newest = (select(func.max(rev.number)).where(rev.environment_id == env.id)
+              .correlate(env).scalar_subquery())
+    wanted = {a for axis in axes for a in ((axis,) if axis is m.Axis.all else (axis, m.Axis.all))}
+    stmt = (select(env, rev.id, rev.number, rev.spec)
+            .join(rev, (rev.environment_id == env.id) & (rev.number == newest))
+            .where(env.product_id.in_(lineage(session, product)), env.phase_id == phase_id,
+                   env.kind.in_(TIMED), env.axis.in_(sorted(wanted, key=lambda a: a.value)),
+                   ~select(m.Withdrawal.id).where(m.Withdrawal.environment_id == env.id)
+                   .exists())
+            .order_by(env.id))
+    replaced = replaced_environment_ids(session, product)
+    items = [LifeItem(e, m.EnvironmentRevision(id=rid, environment_id=e.id, number=number,
+                                               spec=spec))
+             for e, rid, number, spec in session.execute(stmt) if e.id not in replaced]
+    return {axis: [x for x in items if axis is m.Axis.all
+                   or x.environment.axis in (axis, m.Axis.all)] for axis in axes}
 
 
 def exposure(env: m.Environment, rev: m.EnvironmentRevision) -> tuple[float, str]:

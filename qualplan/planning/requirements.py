@@ -13,13 +13,14 @@ from datetime import UTC, datetime
 
 from sqlalchemy import func, select
 from sqlalchemy.exc import IntegrityError
-from sqlalchemy.orm import Session, selectinload
+from sqlalchemy.orm import Session, joinedload, selectinload
 
 from qualplan.planning import approvals
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require_for, require_in
 from qualplan.planning.catalog import get, name_key, ref_id
 from qualplan.planning.errors import Conflict, NotFound, ValidationFailed, VersionMismatch
+from qualplan.planning.inputs import MAX_INT
 from qualplan.store import models as m
 from qualplan.store.types import utcnow
 
@@ -340,6 +341,23 @@ def similarity_cycle(session: Session, req: m.Requirement) -> list[str] | None:
         seen.add(nxt.id)
         hop = nxt
     return None
+
+
+def requirement_read(session: Session, requirement_id: int) -> tuple[s.RequirementRead, int]:
+    """One requirement with its status, and its version (the ETag), by id: its waivers
+    joined to its row, its evidence in one more statement with the arrays left in the
+    database (a status reads none), as a page of them loads them (NotFound when it is not
+    found, or not in the caller's programs)."""
+    if isinstance(requirement_id, bool) or not isinstance(requirement_id, int) \
+            or not 1 <= requirement_id <= MAX_INT:
+        raise NotFound("requirement", requirement_id)
+    req = session.scalars(
+        select(m.Requirement).where(m.Requirement.id == requirement_id)
+        .options(joinedload(m.Requirement.waivers),
+                 selectinload(m.Requirement.evidence).defer(m.Evidence.data))).unique().first()
+    if req is None:
+        raise NotFound("requirement", requirement_id)
+    return read_requirement(session, req), req.version
 
 
 def read_requirement(session: Session, req: m.Requirement, **kw) -> s.RequirementRead:

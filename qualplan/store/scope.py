@@ -5,7 +5,8 @@ the rows that belong to the programs ``ids`` (programs, products, phases, enviro
 and their revisions, levels, requirements, evidence, waivers, documents, modal summaries,
 estimates, mountings, transfer rules). A row of another program is simply not found:
 the use case answers NotFound (404) for it, and every list is filtered. The criteria are
-added with SQLAlchemy's ``with_loader_criteria`` in a ``do_orm_execute`` hook (SQLAlchemy
+added as SQLAlchemy loader criteria (``with_loader_criteria``, with a cache key of their
+own: :class:`_ScopeCriteria`) in a ``do_orm_execute`` hook (SQLAlchemy
 2.0 documentation, "ORM Querying Guide: Adding global WHERE / ON criteria").
 
 Which programs a caller may see is decided in ``planning.access``; this module only
@@ -18,7 +19,8 @@ from __future__ import annotations
 from functools import lru_cache
 
 from sqlalchemy import event, literal_column, select
-from sqlalchemy.orm import ORMExecuteState, Session, with_loader_criteria
+from sqlalchemy.orm import ORMExecuteState, Session
+from sqlalchemy.orm.util import LoaderCriteriaOption
 
 from qualplan.store import models as m
 
@@ -61,31 +63,50 @@ def _in(column, ids: list[int]):
     return column.op("IN", is_comparison=True)(literal_column(f"({listed})"))
 
 
+class _ScopeCriteria(LoaderCriteriaOption):
+    """``with_loader_criteria(cls, criterion, include_aliases=True)`` whose cache key is
+    its entity and the programs' ids, computed once.
+
+    SQLAlchemy walks every option's criterion to build the statement's cache key at each
+    execution (``visit_executable_options``); the fifteen criteria of a scope, with
+    their subselects, made every scoped ORM statement about 0.5 ms dearer in CPU than an
+    unscoped one. A criterion here is fully determined by (entity, ids) and holds no bound
+    parameter (the ids are written into the SQL, :func:`_in`), so that pair is a sound
+    cache key: equal keys, equal SQL."""
+
+    __slots__ = ("_scope_key",)
+
+    def __init__(self, entity, criterion, ids: tuple[int, ...]) -> None:
+        super().__init__(entity, criterion, include_aliases=True)
+        if criterion._generate_cache_key().bindparams:  # never: the ids are literal
+            raise AssertionError(f"row scope criterion of {entity.__name__} has parameters")
+        self._scope_key = (_ScopeCriteria, entity.__name__, ids)
+
+    def _gen_cache_key(self, anon_map, bindparams):
+        return self._scope_key
+
+
 @lru_cache(maxsize=1024)
 def _criteria(ids: frozenset[int]) -> tuple:
     """The loader criteria of a scope, built once per set of programs (they are immutable
     statement options; building them was a sixth of a read request's CPU time)."""
     ids_list = sorted(ids)
+    key = tuple(ids_list)
     products = m.Product.__table__
     requirements = m.Requirement.__table__
     environments = m.Environment.__table__
     product_ids = select(products.c.id).where(_in(products.c.program_id, ids_list))
-    options = [with_loader_criteria(m.Program, _in(m.Program.id, ids_list),
-                                    include_aliases=True)]
+    options = [_ScopeCriteria(m.Program, _in(m.Program.id, ids_list), key)]
     for cls in _BY_PROGRAM:
-        options.append(with_loader_criteria(cls, _in(cls.program_id, ids_list),
-                                            include_aliases=True))
+        options.append(_ScopeCriteria(cls, _in(cls.program_id, ids_list), key))
     for cls in _BY_PRODUCT:
-        options.append(with_loader_criteria(cls, cls.product_id.in_(product_ids),
-                                            include_aliases=True))
+        options.append(_ScopeCriteria(cls, cls.product_id.in_(product_ids), key))
     env_ids = select(environments.c.id).where(environments.c.product_id.in_(product_ids))
-    options.append(with_loader_criteria(
-        m.EnvironmentRevision, m.EnvironmentRevision.environment_id.in_(env_ids),
-        include_aliases=True))
+    options.append(_ScopeCriteria(
+        m.EnvironmentRevision, m.EnvironmentRevision.environment_id.in_(env_ids), key))
     req_ids = select(requirements.c.id).where(_in(requirements.c.program_id, ids_list))
     for cls in (m.Evidence, m.Waiver):
-        options.append(with_loader_criteria(cls, cls.requirement_id.in_(req_ids),
-                                            include_aliases=True))
+        options.append(_ScopeCriteria(cls, cls.requirement_id.in_(req_ids), key))
     return tuple(options)
 
 

@@ -86,3 +86,39 @@ def test_an_all_axes_environment_counts_on_each_axis_once(session, engineer, pro
     [text] = environments.read_environment(session, every, with_warnings=True).warnings
     assert "road all r1 (random, axis all, share 1)" in text
     assert "road Y runs r1 (time history, axis Y, share 1)" in text
+
+
+def test_the_one_query_of_a_phase_equals_the_life_cycle_read_per_axis(session, engineer,
+                                                                      program, unit):
+    """lifecycle.timed_of_phase (what an environment read asks) holds the items of
+    life_cycle of each axis of that phase and of a timed kind: latest revisions only,
+    withdrawn environments left out; environment_read equals read_environment."""
+    from qualplan.planning import approvals, lifecycle
+
+    road = _phase(session, engineer, program, "road", 3600.0)
+    rail = _phase(session, engineer, program, "rail", 600.0)
+    spec = _env(session, engineer, unit, road, "road spec", K.random, FLAT)
+    environments.revise_environment(session, engineer, spec.id, s.RevisionIn(
+        data={**FLAT, "share": 0.5}, note="half the phase"))
+    _env(session, engineer, unit, road, "road runs", K.time_history, _record(), axis=m.Axis.X)
+    _env(session, engineer, unit, road, "road all", K.random, {**FLAT, "share": 0.7},
+         axis=m.Axis.all)
+    gone = _env(session, engineer, unit, road, "road old", K.random, FLAT)
+    approvals.withdraw_environment(session, engineer, gone.id, "superseded by road spec")
+    _env(session, engineer, unit, rail, "rail", K.random, FLAT)
+    axes = [m.Axis.X, m.Axis.Y, m.Axis.Z]
+    got = lifecycle.timed_of_phase(session, unit, road.id, axes)
+    for axis in axes:
+        want = [x for x in lifecycle.life_cycle(session, unit, axis)
+                if x.environment.phase_id == road.id and x.environment.kind in lifecycle.TIMED]
+        assert [(x.environment.id, x.revision.id, x.revision.number, x.revision.spec)
+                for x in got[axis]] == [
+            (x.environment.id, x.revision.id, x.revision.number, x.revision.spec)
+            for x in want]
+        assert lifecycle.time_counted_twice(got[axis]) == lifecycle.time_counted_twice(want)
+    assert [x.environment.name for x in got[m.Axis.Z]] == ["road spec", "road all"]
+    for env in (spec, gone):
+        assert environments.environment_read(session, env.id) == \
+            environments.read_environment(session, env, with_warnings=True)
+    # shares 0.5 + 0.7 = 1.2 on Z (hand sum)
+    assert "together fill 1.2 times" in environments.environment_read(session, spec.id).warnings[0]

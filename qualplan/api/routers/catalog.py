@@ -6,6 +6,7 @@ from fastapi import APIRouter, Response
 
 from qualplan.api.deps import ActorDep, PageDep, ReaderDep, SessionDep, VersionDep, etag
 from qualplan.api.models import Page
+from qualplan.api.responses import json_response
 from qualplan.planning import access, catalog
 from qualplan.planning import schemas as s
 
@@ -16,7 +17,8 @@ router = APIRouter(tags=["programs"])
 def list_programs(session: SessionDep, _: ReaderDep, page: PageDep):
     rows = catalog.list_programs(session)
     items = [s.ProgramRead.model_validate(r) for r in page.window(rows)]
-    return Page(items=items, total=len(rows), offset=page.offset, limit=page.limit)
+    return json_response(Page[s.ProgramRead](items=items, total=len(rows),
+                                             offset=page.offset, limit=page.limit))
 
 
 @router.post("/programs", status_code=201, response_model=s.ProgramRead)

@@ -17,6 +17,7 @@ from qualplan.api.deps import (
 from qualplan.api.errors import Problem
 from qualplan.api.limits import too_large_detail
 from qualplan.api.models import Page
+from qualplan.api.responses import json_response
 from qualplan.planning import approvals, impact, records
 from qualplan.planning import environments as envs
 from qualplan.planning import schemas as s
@@ -80,9 +81,11 @@ def list_environments(
 
 
 @router.get("/environments/{environment_id}", response_model=s.EnvironmentRead)
-def get_environment(environment_id: int, session: SessionDep, _: ReaderDep, response: Response):
+def get_environment(environment_id: int, session: SessionDep, _: ReaderDep):
     """The environment; its ETag is the number of its latest revision."""
-    return _read(session, _environment(session, environment_id), response)
+    out = envs.environment_read(session, environment_id)
+    return json_response(out, etag=None if out.latest_revision is None
+                         else etag(out.latest_revision))
 
 
 @router.get("/environments/{environment_id}/impact", response_model=impact.Impact)
@@ -97,7 +100,8 @@ def environment_impact(environment_id: int, session: SessionDep, _: ReaderDep):
 )
 def list_revisions(environment_id: int, session: SessionDep, _: ReaderDep, page: PageDep):
     rows = envs.history(session, environment_id)
-    return Page(items=page.window(rows), total=len(rows), offset=page.offset, limit=page.limit)
+    return json_response(Page[s.RevisionRead](items=page.window(rows), total=len(rows),
+                                              offset=page.offset, limit=page.limit))
 
 
 @router.post(

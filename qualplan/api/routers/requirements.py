@@ -8,6 +8,7 @@ from fastapi import APIRouter, Response
 
 from qualplan.api.deps import ActorDep, PageDep, ReaderDep, SessionDep, VersionDep, etag
 from qualplan.api.models import Page, RequirementPatch, RequirementStatus
+from qualplan.api.responses import json_response
 from qualplan.planning import approvals, catalog, requirements
 from qualplan.planning import schemas as s
 
@@ -29,7 +30,8 @@ def list_requirements(
     items, total = requirements.requirement_page(session, program_id=program_id,
                                                  product_ids=scope, offset=page.offset,
                                                  limit=page.limit)
-    return Page(items=items, total=total, offset=page.offset, limit=page.limit)
+    return json_response(Page[s.RequirementRead](items=items, total=total,
+                                                 offset=page.offset, limit=page.limit))
 
 
 @router.get("/programs/{program_id}/traceability", response_model=Page[s.TraceRow])
@@ -63,10 +65,9 @@ def create_requirement(
 
 
 @router.get("/requirements/{requirement_id}", response_model=s.RequirementRead)
-def get_requirement(requirement_id: int, session: SessionDep, _: ReaderDep, response: Response):
-    row = requirements.requirement_ref(session, None, requirement_id)
-    response.headers["ETag"] = etag(row.version)
-    return requirements.read_requirement(session, row)
+def get_requirement(requirement_id: int, session: SessionDep, _: ReaderDep):
+    out, version = requirements.requirement_read(session, requirement_id)
+    return json_response(out, etag=etag(version))
 
 
 @router.patch("/requirements/{requirement_id}", response_model=s.RequirementRead)
