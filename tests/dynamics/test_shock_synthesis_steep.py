@@ -1,5 +1,6 @@
 """Shock synthesis on steep targets (issue 16): damped sines on a -9.5 dB/oct pyroshock,
-the minimax amplitude steps, and a target that drops 20 dB within one octave.
+the minimax amplitude steps, and a target that drops 20 dB within one octave (reached by
+the synthesis from free samples, a linear program per set of peak instants).
 
 Sources: sums of decaying sinusoids compensated for velocity (Smallwood & Nord, Shock and
 Vibration Bulletin 44, 1974, from memory); the SRS recomputed by the public `srs`
@@ -7,7 +8,7 @@ Vibration Bulletin 44, 1974, from memory); the SRS recomputed by the public `srs
 library, second opinion); the resonant build-up of an oscillator under a decaying sine
 (closed form of the envelope equation, our derivation, checked against the filter); the
 acceptance rule of the issue (maximax SRS within +/-1.5 dB at every grid frequency, final
-velocity and displacement zero).
+velocity and displacement zero); the integrals of a piecewise-linear record (closed form).
 """
 
 from __future__ import annotations
