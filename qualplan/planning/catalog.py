@@ -20,12 +20,18 @@ from qualplan.store.repositories import (
 )
 
 
+def check_id(id_: int, entity: str) -> int:
+    """`id_` when a database row can have it, else NotFound (not an overflow in the
+    database driver)."""
+    if isinstance(id_, bool) or not isinstance(id_, int) or not 1 <= id_ <= MAX_INT:
+        raise NotFound(entity, id_)
+    return id_
+
+
 def get(session: Session, model: type[m.Base], id_: int, entity: str):
     """Row `id_` of `model` or NotFound (an id no database row can have is not found,
     rather than an overflow in the database driver)."""
-    if isinstance(id_, bool) or not isinstance(id_, int) or not 1 <= id_ <= MAX_INT:
-        raise NotFound(entity, id_)
-    row = session.get(model, id_)
+    row = session.get(model, check_id(id_, entity))
     if row is None:
         raise NotFound(entity, id_)
     return row

@@ -13,9 +13,8 @@ from qualplan.dynamics.srs import octave_grid
 from qualplan.planning import envdata, lifecycle
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require_for, require_in
-from qualplan.planning.catalog import _add_unique, get
+from qualplan.planning.catalog import _add_unique, check_id, get
 from qualplan.planning.errors import Conflict, NotFound, ValidationFailed, VersionMismatch
-from qualplan.planning.inputs import MAX_INT
 from qualplan.planning.withdrawals import describe, environment_withdrawal
 from qualplan.store import models as m
 from qualplan.store.hashing import revision_hash
@@ -275,9 +274,7 @@ def environment_read(session: Session, environment_id: int) -> s.EnvironmentRead
     """:func:`read_environment` of one environment by id, with its warnings: the row, its
     product and phase, the number of its latest revision and whether it is withdrawn in
     one statement (NotFound when it is not, or not in the caller's programs)."""
-    if isinstance(environment_id, bool) or not isinstance(environment_id, int) \
-            or not 1 <= environment_id <= MAX_INT:
-        raise NotFound("environment", environment_id)
+    check_id(environment_id, "environment")
     env_, rev = m.Environment, m.EnvironmentRevision
     latest = (select(func.max(rev.number)).where(rev.environment_id == env_.id)
               .correlate(env_).scalar_subquery())

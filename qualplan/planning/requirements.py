@@ -18,9 +18,8 @@ from sqlalchemy.orm import Session, joinedload, selectinload
 from qualplan.planning import approvals
 from qualplan.planning import schemas as s
 from qualplan.planning.access import Actor, record, require_for, require_in
-from qualplan.planning.catalog import get, name_key, ref_id
+from qualplan.planning.catalog import check_id, get, name_key, ref_id
 from qualplan.planning.errors import Conflict, NotFound, ValidationFailed, VersionMismatch
-from qualplan.planning.inputs import MAX_INT
 from qualplan.store import models as m
 from qualplan.store.types import utcnow
 
@@ -348,9 +347,7 @@ def requirement_read(session: Session, requirement_id: int) -> tuple[s.Requireme
     joined to its row, its evidence in one more statement with the arrays left in the
     database (a status reads none), as a page of them loads them (NotFound when it is not
     found, or not in the caller's programs)."""
-    if isinstance(requirement_id, bool) or not isinstance(requirement_id, int) \
-            or not 1 <= requirement_id <= MAX_INT:
-        raise NotFound("requirement", requirement_id)
+    check_id(requirement_id, "requirement")
     req = session.scalars(
         select(m.Requirement).where(m.Requirement.id == requirement_id)
         .options(joinedload(m.Requirement.waivers),
