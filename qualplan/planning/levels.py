@@ -54,8 +54,6 @@ from qualplan.store.hashing import json_hash
 from qualplan.store.repositories import LevelRepository, RevisionRepository
 
 K = m.EnvironmentKind
-#: Natural-frequency grid of SRS computed from time histories: 1/6 octave (common practice).
-SRS_POINTS_PER_OCTAVE = 6
 
 
 #: Lines of the record analysis below the lowest natural frequency of interest (rule of
@@ -201,26 +199,6 @@ def _random_curves(inputs: list[Input], band_hz: tuple[float, float],
     return curves
 
 
-#: SRS of a record input: band-limited input model, peaks between samples, up to fs/5
-#: (qualplan.dynamics.srs method="bandlimited"; within 0.25 % of the exact SRS of smooth
-#: records up to fs/5, measured in tests/dynamics/test_srs_between_samples.py; reads high,
-#: the conservative side for an environment, where a record has a step)
-RECORD_SRS_METHOD = "bandlimited"
-RECORD_SRS_FS_RATIO = 5.0
-
-
-def _record_srs(x: np.ndarray, dt: float, q: float) -> tuple[np.ndarray, np.ndarray, list[str]]:
-    """Maximax SRS of a record [g] on a 1/6-octave grid from 10 Hz to min(10 kHz, fs/5),
-    with the accuracy warnings of the input model (steps, truncation)."""
-    hi = min(10_000.0, 1.0 / (RECORD_SRS_FS_RATIO * dt))
-    grid = core_srs.octave_grid(10.0, hi, SRS_POINTS_PER_OCTAVE)
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always", AccuracyWarning)
-        values = core_srs.srs(x, dt, grid, q=q, kind="maximax", method=RECORD_SRS_METHOD)
-    notes = [str(c.message) for c in caught if issubclass(c.category, AccuracyWarning)]
-    return grid, values, notes
-
-
 def _shock_curves(inputs: list[Input], q: float,
                   steps: list[r.Step] | None = None) -> list[tuple[np.ndarray, np.ndarray]]:
     curves = []
@@ -236,7 +214,10 @@ def _shock_curves(inputs: list[Input], q: float,
             curves.append((np.asarray(spec["freq_hz"]), np.asarray(spec["accel_g"])))
         else:
             x, dt = np.asarray(item.revision.data), float(spec["dt_s"])
-            grid, values, notes = _record_srs(x, dt, q)
+            with warnings.catch_warnings(record=True) as caught:
+                warnings.simplefilter("always", AccuracyWarning)
+                grid, values = envdata.record_srs(x, dt, q)
+            notes = [str(c.message) for c in caught if issubclass(c.category, AccuracyWarning)]
             curves.append((grid, values))
             if steps is not None:
                 steps.append(_step(
